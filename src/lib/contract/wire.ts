@@ -1,0 +1,125 @@
+// The one place that knows the wire contract, version 1 (shared/contract.md): topics and payload
+// schemas for gateways, the server and outside tools. Pure: no I/O.
+import { z } from 'zod';
+
+export const CONTRACT_VERSION = 1;
+export const MAX_PAYLOAD_BYTES = 256 * 1024;
+export const MAX_BINS = 10_000;
+export const MAX_COUNT = 2 ** 31 - 1;
+export const DEFAULT_PREFIX = 'fringewise/v1';
+
+export const gatewayIdSchema = z.string().regex(/^[a-z0-9][a-z0-9-]{0,39}$/, 'id must match [a-z0-9][a-z0-9-]{0,39}');
+export const benchIdSchema = gatewayIdSchema;
+export const channelKeySchema = z.string().regex(/^[a-z0-9_]{1,16}$/, 'channel key must match [a-z0-9_]{1,16}');
+
+const count = z.number().int('counts must be integers').min(0, 'counts must be ≥ 0').max(MAX_COUNT, 'count above 2^31−1');
+
+export const countBatchSchema = z
+  .object({
+    v: z.literal(CONTRACT_VERSION),
+    boot: z.string().min(1).max(32),
+    seq: z.number().int().min(0).max(Number.MAX_SAFE_INTEGER),
+    t0: z.number().int().min(0).max(Number.MAX_SAFE_INTEGER),
+    dt: z.number().int().min(1).max(60_000),
+    ch: z
+      .record(z.string(), z.array(count).min(1, 'a channel needs at least one bin').max(MAX_BINS, `at most ${MAX_BINS} bins`))
+      .refine((ch) => Object.keys(ch).length > 0, 'ch must hold at least one channel'),
+    x: z.array(z.number().finite()).optional(),
+    cc: z.array(z.number().int().min(0).max(MAX_COUNT)).optional(),
+  })
+  .superRefine((b, ctx) => {
+    const keys = Object.keys(b.ch);
+    for (const key of keys) {
+      if (!channelKeySchema.safeParse(key).success) {
+        ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['ch', key], message: `bad channel key "${key.slice(0, 20)}"` });
+      }
+    }
+    const n = b.ch[keys[0] ?? '']?.length ?? 0;
+    for (const key of keys) {
+      if (b.ch[key]!.length !== n) {
+        ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['ch', key], message: 'channel arrays differ in length' });
+      }
+    }
+    if (b.x && b.x.length !== n) ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['x'], message: 'x length differs from the channels' });
+    if (b.cc && b.cc.length !== n) ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['cc'], message: 'cc length differs from the channels' });
+    if (b.t0 % b.dt !== 0) ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['t0'], message: 't0 is not a multiple of dt' });
+  });
+export type CountBatch = z.infer<typeof countBatchSchema>;
+
+export const statusSchema = z.object({
+  v: z.literal(CONTRACT_VERSION),
+  state: z.enum(['online', 'offline']),
+  boot: z.string().min(1).max(32).optional(),
+  channels: z.array(channelKeySchema).max(64).optional(),
+  scan: z.object({ min: z.number().finite(), max: z.number().finite(), unit: z.string().max(16) }).optional(),
+  software: z.string().max(100).optional(),
+});
+export type GatewayStatus = z.infer<typeof statusSchema>;
+
+const finite = z.number().finite();
+export const commandBodySchema = z.discriminatedUnion('op', [
+  z.object({
+    op: z.literal('sweep'),
+    from: finite,
+    to: finite,
+    step: finite.positive(),
+    dwell: z.number().int().min(1).max(60_000),
+    sweeps: z.number().int().min(1).max(10_000),
+  }),
+  z.object({ op: z.literal('hold'), x: finite }),
+  z.object({ op: z.literal('stop') }),
+]);
+export type CommandBody = z.infer<typeof commandBodySchema>;
+export type Command = CommandBody & { v: 1; id: string };
+
+export const ackSchema = z.object({
+  v: z.literal(CONTRACT_VERSION),
+  id: z.string().min(1).max(100),
+  ok: z.boolean(),
+  error: z.string().max(1000).optional(),
+});
+export type Ack = z.infer<typeof ackSchema>;
+
+export type TopicKind = 'counts' | 'status' | 'cmd' | 'ack';
+
+export function topicFor(gw: string, kind: TopicKind, prefix = DEFAULT_PREFIX): string {
+  return `${prefix}/${gw}/${kind}`;
+}
+
+/** Splits `prefix/{gw}/{kind}`; null for anything else. */
+export function parseTopic(topic: string, prefix = DEFAULT_PREFIX): { gw: string; kind: TopicKind } | null {
+  if (!topic.startsWith(prefix + '/')) return null;
+  const rest = topic.slice(prefix.length + 1).split('/');
+  if (rest.length !== 2) return null;
+  const [gw, kind] = rest as [string, string];
+  if (!gatewayIdSchema.safeParse(gw).success) return null;
+  if (kind !== 'counts' && kind !== 'status' && kind !== 'cmd' && kind !== 'ack') return null;
+  return { gw, kind };
+}
+
+export type Decoded<T> = { ok: true; value: T } | { ok: false; reason: string };
+
+/** Decodes an MQTT payload: size, UTF-8, JSON object, then the schema. Never throws. */
+export function decodePayload<T>(payload: Uint8Array, schema: z.ZodType<T, z.ZodTypeDef, unknown>): Decoded<T> {
+  if (payload.byteLength > MAX_PAYLOAD_BYTES) return { ok: false, reason: `payload ${payload.byteLength} bytes exceeds 256 KiB` };
+  let text: string;
+  try {
+    text = new TextDecoder('utf-8', { fatal: true }).decode(payload);
+  } catch {
+    return { ok: false, reason: 'payload is not valid UTF-8' };
+  }
+  let json: unknown;
+  try {
+    json = JSON.parse(text);
+  } catch {
+    return { ok: false, reason: 'payload is not valid JSON' };
+  }
+  if (typeof json !== 'object' || json === null || Array.isArray(json)) return { ok: false, reason: 'payload is not a JSON object' };
+  const parsed = schema.safeParse(json);
+  if (!parsed.success) {
+    const issue = parsed.error.issues[0];
+    const where = issue?.path.length ? issue.path.join('.') + ': ' : '';
+    return { ok: false, reason: `${where}${issue?.message ?? 'invalid'}`.slice(0, 300) };
+  }
+  return { ok: true, value: parsed.data };
+}

@@ -1,0 +1,52 @@
+// The one database handle. Kept on globalThis because this module is loaded twice in one process
+// (by the Node server entry and inside Astro's bundle) and both must share a single pool.
+import { drizzle, type NodePgDatabase } from 'drizzle-orm/node-postgres';
+import pg from 'pg';
+import * as schema from './schema.ts';
+
+export type Db = NodePgDatabase<typeof schema>;
+
+interface DbHandle {
+  pool: pg.Pool;
+  db: Db;
+}
+
+const KEY = Symbol.for('fringewise.db');
+type Holder = { [KEY]?: DbHandle };
+
+// Postgres int8 (bigint) comes back as a string by default; every bigint we store (epoch ms,
+// counts, ids) is far below 2^53, so parse it to a number once, here.
+pg.types.setTypeParser(20, (v) => Number(v));
+pg.types.setTypeParser(1016, (v) => (v === null ? null : (v.slice(1, -1) ? v.slice(1, -1).split(',').map(Number) : [])));
+
+export function databaseUrl(): string {
+  const url = process.env['DATABASE_URL'];
+  if (!url) throw new Error('DATABASE_URL is not set (the server entry sets it for the private cluster)');
+  return url;
+}
+
+export function getDbHandle(): DbHandle {
+  const holder = globalThis as Holder;
+  if (!holder[KEY]) {
+    const pool = new pg.Pool({ connectionString: databaseUrl(), max: 10, idleTimeoutMillis: 30_000 });
+    // A dropped connection (server restart) must not crash the process; queries retry on a new one.
+    pool.on('error', (err) => console.warn('[db] idle client error:', err.message));
+    holder[KEY] = { pool, db: drizzle(pool, { schema, casing: 'snake_case' }) };
+  }
+  return holder[KEY];
+}
+
+export function getDb(): Db {
+  return getDbHandle().db;
+}
+
+export async function closeDb(): Promise<void> {
+  const holder = globalThis as Holder;
+  const handle = holder[KEY];
+  if (handle) {
+    delete holder[KEY];
+    await handle.pool.end();
+  }
+}
+
+export { schema };
