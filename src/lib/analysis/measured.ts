@@ -1,0 +1,5 @@
+/** A value with its one-standard-deviation uncertainty, in the same unit. */
+export interface Measured {
+  value: number;
+  err: number;
+}

@@ -1,0 +1,50 @@
+// Benches and their channels: reads for pages and the API, and the channel-role defaults of the
+// contract (first two keys of the first gateway serve as out_a/out_b until an admin sets roles).
+import { asc, eq } from 'drizzle-orm';
+import { getDb } from './db/index.ts';
+import { benches, channels, gateways, type Bench, type Channel } from './db/schema.ts';
+
+export type ChannelRole = 'out_a' | 'out_b' | 'herald' | 'aux';
+
+export interface BenchChannel {
+  gateway: string;
+  key: string;
+  label: string;
+  role: ChannelRole;
+}
+
+export async function listBenches(): Promise<Bench[]> {
+  return await getDb().select().from(benches).orderBy(asc(benches.name));
+}
+
+export async function getBench(id: string): Promise<Bench | null> {
+  const [row] = await getDb().select().from(benches).where(eq(benches.id, id)).limit(1);
+  return row ?? null;
+}
+
+/** Assigns effective roles: explicit ones win; otherwise the contract's default for the first gateway. */
+export function effectiveRoles(rows: Pick<Channel, 'gatewayId' | 'key' | 'label' | 'role'>[], gatewayOrder: string[]): BenchChannel[] {
+  const sorted = [...rows].sort((a, b) => {
+    const ga = gatewayOrder.indexOf(a.gatewayId);
+    const gb = gatewayOrder.indexOf(b.gatewayId);
+    return ga !== gb ? ga - gb : a.key < b.key ? -1 : a.key > b.key ? 1 : 0;
+  });
+  const explicit = new Set(sorted.filter((c) => c.role === 'out_a' || c.role === 'out_b').map((c) => c.role));
+  const firstGw = gatewayOrder[0];
+  const firstKeys = sorted.filter((c) => c.gatewayId === firstGw && !c.role).map((c) => c.key);
+  return sorted.map((c) => {
+    let role: ChannelRole = c.role ?? 'aux';
+    if (!c.role && explicit.size === 0 && c.gatewayId === firstGw) {
+      if (c.key === firstKeys[0]) role = 'out_a';
+      else if (c.key === firstKeys[1]) role = 'out_b';
+    }
+    return { gateway: c.gatewayId, key: c.key, label: c.label || c.key, role };
+  });
+}
+
+export async function benchChannels(benchId: string): Promise<BenchChannel[]> {
+  const db = getDb();
+  const gws = await db.select({ id: gateways.id }).from(gateways).where(eq(gateways.benchId, benchId)).orderBy(asc(gateways.createdAt), asc(gateways.id));
+  const rows = await db.select().from(channels).where(eq(channels.benchId, benchId));
+  return effectiveRoles(rows, gws.map((g) => g.id));
+}

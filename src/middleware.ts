@@ -1,0 +1,35 @@
+import { defineMiddleware, sequence } from 'astro:middleware';
+import { authenticate } from './lib/server/auth/authenticate.ts';
+import { problem } from './lib/server/http/responses.ts';
+
+// Pages anyone may open; every other page needs a signed-in user (API routes check roles themselves).
+const PUBLIC_PAGES = [/^\/signin\/?$/, /^\/welcome\/[^/]+\/?$/, /^\/favicon\.svg$/];
+
+const auth = defineMiddleware(async (ctx, next) => {
+  const res = await authenticate(ctx.request.headers);
+  ctx.locals.user = res.user;
+  ctx.locals.authSessionId = res.sessionId;
+  ctx.locals.authMethod = res.method;
+  if (res.cookie) ctx.cookies.set(res.cookie.name, res.cookie.value, res.cookie.attributes);
+  return next();
+});
+
+// Astro's origin check covers form posts only; JSON mutations made with the session cookie must
+// come from our own pages too. Bearer-token calls carry no ambient credential and are exempt.
+const sameOriginForCookieMutations = defineMiddleware((ctx, next) => {
+  const method = ctx.request.method;
+  if (ctx.locals.authMethod === 'session' && method !== 'GET' && method !== 'HEAD' && method !== 'OPTIONS') {
+    const origin = ctx.request.headers.get('origin');
+    const host = ctx.request.headers.get('host');
+    if (!origin || !host || new URL(origin).host !== host) return problem(403, 'cross-site request refused');
+  }
+  return next();
+});
+
+const pagesNeedSignIn = defineMiddleware((ctx, next) => {
+  const path = ctx.url.pathname;
+  if (path.startsWith('/api/') || ctx.locals.user || PUBLIC_PAGES.some((re) => re.test(path))) return next();
+  return ctx.redirect(`/signin?next=${encodeURIComponent(path + ctx.url.search)}`, 302);
+});
+
+export const onRequest = sequence(auth, sameOriginForCookieMutations, pagesNeedSignIn);

@@ -1,0 +1,95 @@
+// `npm run admin -- …`: the contract's operations CLI. A command that prints a token prints it
+// alone on its last line; adding what exists exits 1 with a clear message.
+import { createInterface } from 'node:readline/promises';
+import { parseArgs } from 'node:util';
+import { ZodError } from 'zod';
+import { createApiToken } from '../lib/server/auth/api-tokens.ts';
+import { closeDb } from '../lib/server/db/index.ts';
+import { migrateDatabase } from '../lib/server/db/migrate.ts';
+import { createBench, createGateway, NotFoundError } from '../lib/server/provisioning.ts';
+import { createUser, DuplicateError, findUserByEmail, roleSchema } from '../lib/server/users.ts';
+import { connectDatabase } from './database.ts';
+
+const USAGE = `usage:
+  npm run admin -- user add <email> --role admin|operator|observer [--name "…"]   (password from FRINGEWISE_PASSWORD or prompt)
+  npm run admin -- token add <email> [--label "…"]
+  npm run admin -- bench add <bench-id> --name <name> --wavelength-nm <nm> [--description "…"]
+  npm run admin -- gateway add <gw> --bench <bench-id>`;
+
+class UsageError extends Error {}
+
+async function readPassword(): Promise<string> {
+  const fromEnv = process.env['FRINGEWISE_PASSWORD'];
+  if (fromEnv) return fromEnv;
+  if (!process.stdin.isTTY) throw new UsageError('set FRINGEWISE_PASSWORD (no terminal to prompt on)');
+  const rl = createInterface({ input: process.stdin, output: process.stderr });
+  const pw = await rl.question('Password: ');
+  rl.close();
+  return pw;
+}
+
+async function run(argv: string[]): Promise<void> {
+  const { positionals, values } = parseArgs({
+    args: argv,
+    allowPositionals: true,
+    options: {
+      role: { type: 'string' },
+      name: { type: 'string' },
+      label: { type: 'string' },
+      'wavelength-nm': { type: 'string' },
+      description: { type: 'string' },
+      bench: { type: 'string' },
+    },
+  });
+  const [noun, verb, subject] = positionals;
+  if (verb !== 'add' || !subject) throw new UsageError(USAGE);
+  switch (noun) {
+    case 'user': {
+      const role = roleSchema.safeParse(values.role);
+      if (!role.success) throw new UsageError('--role must be admin, operator or observer');
+      const user = await createUser({ email: subject, role: role.data, name: values.name ?? '', password: await readPassword() });
+      console.log(`user ${user.email} added as ${user.role}`);
+      return;
+    }
+    case 'token': {
+      const user = await findUserByEmail(subject);
+      if (!user) throw new NotFoundError(`no user with e-mail ${subject}`);
+      const { token } = await createApiToken(user.id, values.label ?? 'cli');
+      console.log(`personal API token for ${user.email} (${user.role}); shown once:`);
+      console.log(token);
+      return;
+    }
+    case 'bench': {
+      if (!values.name || !values['wavelength-nm']) throw new UsageError('bench add needs --name and --wavelength-nm');
+      const bench = await createBench({ id: subject, name: values.name, wavelengthNm: values['wavelength-nm'], description: values.description ?? '' });
+      console.log(`bench ${bench.id} "${bench.name}" added (${bench.wavelengthNm} nm)`);
+      return;
+    }
+    case 'gateway': {
+      if (!values.bench) throw new UsageError('gateway add needs --bench <bench-id>');
+      const { token } = await createGateway(subject, values.bench);
+      console.log(`gateway ${subject} added to bench ${values.bench}; its MQTT password, shown once:`);
+      console.log(token);
+      return;
+    }
+    default:
+      throw new UsageError(USAGE);
+  }
+}
+
+const cluster = await connectDatabase();
+let code = 0;
+try {
+  await migrateDatabase();
+  await run(process.argv.slice(2));
+} catch (err) {
+  code = 1;
+  if (err instanceof ZodError) console.error(`error: ${err.issues.map((i) => i.message).join('; ')}`);
+  else if (err instanceof DuplicateError || err instanceof NotFoundError || err instanceof UsageError) console.error(`error: ${err.message}`);
+  else if (err instanceof Error && 'code' in err && err.code === 'ERR_PARSE_ARGS_UNKNOWN_OPTION') console.error(`error: ${err.message}\n${USAGE}`);
+  else console.error('error:', err instanceof Error ? err.message : err);
+} finally {
+  await closeDb();
+  if (cluster?.startedHere) cluster.stop();
+}
+process.exit(code);

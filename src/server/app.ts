@@ -1,0 +1,68 @@
+// Starts every part of Fringewise in one process, in order, and stops them in reverse:
+// database → migrations → demo seed → mail catcher → web server.
+import { closeDb } from '../lib/server/db/index.ts';
+import { migrateDatabase } from '../lib/server/db/migrate.ts';
+import { startMailCatcher } from '../lib/server/mail/catcher.ts';
+import { mailCatcherEnabled } from '../lib/server/mail/config.ts';
+import { buildIfStale } from './build.ts';
+import { connectDatabase } from './database.ts';
+import { startWebServer, type UpgradeHandler } from './http.ts';
+
+export interface AppOptions {
+  port: number;
+  host: string;
+  seed: boolean;
+  simulate: boolean;
+  build: boolean;
+}
+
+export interface RunningApp {
+  url: string;
+  close(): Promise<void>;
+}
+
+export function optionsFromEnv(): AppOptions {
+  return {
+    port: Number(process.env['PORT'] ?? 4321),
+    host: process.env['HOST'] ?? '127.0.0.1',
+    seed: process.env['FRINGEWISE_SEED'] !== '0',
+    simulate: process.env['FRINGEWISE_SIMULATE'] !== '0',
+    build: process.env['FRINGEWISE_BUILD'] !== '0',
+  };
+}
+
+export async function startApp(opts: AppOptions): Promise<RunningApp> {
+  const stops: (() => Promise<void> | void)[] = [];
+  const stopAll = async () => {
+    for (const stop of stops.reverse()) {
+      try {
+        await stop();
+      } catch (err) {
+        console.warn('[stop]', err instanceof Error ? err.message : err);
+      }
+    }
+  };
+  try {
+    if (opts.build) buildIfStale();
+    const cluster = await connectDatabase();
+    if (cluster?.startedHere) stops.push(() => cluster.stop());
+    stops.push(() => closeDb());
+    await migrateDatabase();
+    if (opts.seed) {
+      const { seedDemo } = await import('../lib/server/seed.ts');
+      await seedDemo();
+    }
+    if (mailCatcherEnabled()) {
+      const catcher = await startMailCatcher(Number(process.env['FRINGEWISE_CATCHER_PORT'] ?? 0));
+      process.env['FRINGEWISE_CATCHER_URL'] = catcher.url;
+      stops.push(() => catcher.close());
+    }
+    const upgrades: Record<string, UpgradeHandler> = {};
+    const web = await startWebServer({ port: opts.port, host: opts.host, upgrades });
+    stops.push(() => web.close());
+    return { url: web.url, close: stopAll };
+  } catch (err) {
+    await stopAll();
+    throw err;
+  }
+}

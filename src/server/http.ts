@@ -1,0 +1,78 @@
+// The web server: static files from dist/client, everything else through Astro's handler, and
+// WebSocket upgrades handed to whoever registered for a path (Astro endpoints never see upgrades).
+import { existsSync } from 'node:fs';
+import http from 'node:http';
+import type { Duplex } from 'node:stream';
+import path from 'node:path';
+import { pathToFileURL } from 'node:url';
+import send from 'send';
+
+export type UpgradeHandler = (req: http.IncomingMessage, socket: Duplex, head: Buffer) => void;
+
+type AstroHandler = (req: http.IncomingMessage, res: http.ServerResponse, next?: (err?: unknown) => void, locals?: object) => void;
+
+export interface WebServer {
+  server: http.Server;
+  port: number;
+  url: string;
+  close(): Promise<void>;
+}
+
+export async function startWebServer(opts: {
+  port: number;
+  host: string;
+  distDir?: string;
+  upgrades: Record<string, UpgradeHandler>;
+}): Promise<WebServer> {
+  const dist = path.resolve(opts.distDir ?? 'dist');
+  const entry = path.join(dist, 'server', 'entry.mjs');
+  if (!existsSync(entry)) throw new Error(`${entry} is missing: run \`npm run build\` first`);
+  const { handler } = (await import(pathToFileURL(entry).href)) as { handler: AstroHandler };
+  const clientDir = path.join(dist, 'client');
+
+  const server = http.createServer((req, res) => {
+    const url = req.url ?? '/';
+    const pathname = url.split('?')[0] ?? '/';
+    const astro = () =>
+      handler(req, res, (err) => {
+        if (err) console.error('[http]', err);
+        if (!res.headersSent) res.writeHead(err ? 500 : 404, { 'content-type': 'text/plain' });
+        res.end(err ? 'internal error' : 'not found');
+      });
+    if ((req.method === 'GET' || req.method === 'HEAD') && !pathname.startsWith('/api/') && pathname.includes('.')) {
+      // Hashed build assets never change; other public files may.
+      const immutable = pathname.startsWith('/_astro/');
+      send(req, pathname, { root: clientDir, index: false, dotfiles: 'deny', immutable, maxAge: immutable ? '1y' : 0 })
+        .on('error', () => astro())
+        .pipe(res);
+      return;
+    }
+    astro();
+  });
+  server.on('connection', (socket) => socket.setNoDelay(true));
+  server.on('upgrade', (req, socket, head) => {
+    const pathname = (req.url ?? '/').split('?')[0] ?? '/';
+    const onUpgrade = opts.upgrades[pathname];
+    if (!onUpgrade) {
+      socket.end('HTTP/1.1 404 Not Found\r\nConnection: close\r\n\r\n');
+      return;
+    }
+    onUpgrade(req, socket, head);
+  });
+  await new Promise<void>((resolve, reject) => {
+    server.once('error', reject);
+    server.listen(opts.port, opts.host, () => resolve());
+  });
+  const addr = server.address();
+  const port = typeof addr === 'object' && addr ? addr.port : opts.port;
+  return {
+    server,
+    port,
+    url: `http://${opts.host === '0.0.0.0' ? '127.0.0.1' : opts.host}:${port}`,
+    close: () =>
+      new Promise((resolve) => {
+        server.closeAllConnections();
+        server.close(() => resolve());
+      }),
+  };
+}

@@ -1,0 +1,43 @@
+/// <reference types="vitest/config" />
+import { getViteConfig } from 'astro/config';
+
+// Three projects: pure unit tests beside the code, integration tests against a real PostgreSQL,
+// MQTT broker and WebSockets, and browser tests against the built app. `npm test` runs all three;
+// the services they need are started by tests/setup (never left running from elsewhere).
+export default getViteConfig({
+  test: {
+    pool: 'forks',
+    projects: [
+      {
+        extends: true,
+        test: {
+          name: 'unit',
+          include: ['src/**/*.test.ts', 'simulators/**/*.test.ts', 'gateway/**/*.test.ts'],
+          testTimeout: 60_000,
+        },
+      },
+      {
+        extends: true,
+        test: {
+          name: 'integration',
+          include: ['tests/integration/**/*.test.ts'],
+          globalSetup: ['tests/setup/global-db.ts'],
+          testTimeout: 120_000,
+          hookTimeout: 120_000,
+          fileParallelism: false,
+        },
+      },
+      {
+        extends: true,
+        test: {
+          name: 'e2e',
+          include: ['tests/e2e/**/*.test.ts'],
+          globalSetup: ['tests/setup/global-db.ts', 'tests/setup/global-app.ts'],
+          testTimeout: 180_000,
+          hookTimeout: 240_000,
+          fileParallelism: false,
+        },
+      },
+    ],
+  },
+});
