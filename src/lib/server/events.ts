@@ -1,0 +1,25 @@
+// In-process fan-out between server stages: ingest announces what it stored, and the live hub,
+// the fitter and the alarm evaluator listen. On globalThis so both module copies share one bus.
+import { EventEmitter } from 'node:events';
+import type { CountBatch, GatewayStatus } from '../contract/wire.ts';
+
+export interface ServerEvents {
+  /** A batch was durably stored (duplicates are not announced). */
+  'batch-stored': [{ benchId: string; gatewayId: string; batch: CountBatch; receivedAt: number }];
+  /** A batch was rejected (counted on the gateway's health page). */
+  'batch-rejected': [{ benchId: string | null; gatewayId: string; reason: string; at: number }];
+  'gateway-status': [{ benchId: string; gatewayId: string; status: GatewayStatus; at: number }];
+}
+
+const KEY = Symbol.for('fringewise.events');
+type Holder = { [KEY]?: EventEmitter<ServerEvents> };
+
+export function serverEvents(): EventEmitter<ServerEvents> {
+  const holder = globalThis as Holder;
+  if (!holder[KEY]) {
+    holder[KEY] = new EventEmitter<ServerEvents>();
+    // Listeners are a handful of stages, plus one per test app; not a leak.
+    holder[KEY].setMaxListeners(50);
+  }
+  return holder[KEY];
+}
