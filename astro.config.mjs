@@ -23,5 +23,4 @@ export default defineConfig({
     ssr: { external: ['@node-rs/argon2', 'pg', 'aedes', 'ws', 'mqtt', 'nodemailer', 'smtp-server'] },
   },
   devToolbar: { enabled: false },
-  telemetry: false,
 });

@@ -24,7 +24,7 @@ export default getViteConfig({
           globalSetup: ['tests/setup/global-db.ts'],
           testTimeout: 120_000,
           hookTimeout: 120_000,
-          fileParallelism: false,
+          poolOptions: { forks: { singleFork: true } },
         },
       },
       {
@@ -35,7 +35,7 @@ export default getViteConfig({
           globalSetup: ['tests/setup/global-db.ts', 'tests/setup/global-app.ts'],
           testTimeout: 180_000,
           hookTimeout: 240_000,
-          fileParallelism: false,
+          poolOptions: { forks: { singleFork: true } },
         },
       },
     ],

@@ -61,7 +61,7 @@ async function run(argv: string[]): Promise<void> {
     }
     case 'bench': {
       if (!values.name || !values['wavelength-nm']) throw new UsageError('bench add needs --name and --wavelength-nm');
-      const bench = await createBench({ id: subject, name: values.name, wavelengthNm: values['wavelength-nm'], description: values.description ?? '' });
+      const bench = await createBench({ id: subject, name: values.name, wavelengthNm: Number(values['wavelength-nm']), description: values.description ?? '' });
       console.log(`bench ${bench.id} "${bench.name}" added (${bench.wavelengthNm} nm)`);
       return;
     }

@@ -1,7 +1,7 @@
 // The only module that knows the session library; pages and endpoints go through `sessions.ts`'s
 // helpers, so Lucia (feature-frozen upstream) can be swapped without touching them.
 import { DrizzlePostgreSQLAdapter } from '@lucia-auth/adapter-drizzle';
-import { Lucia, TimeSpan } from 'lucia';
+import { Lucia, TimeSpan, type Cookie } from 'lucia';
 import { getDb } from '../db/index.ts';
 import { sessions, users } from '../db/schema.ts';
 
@@ -45,11 +45,7 @@ function lucia() {
 
 export const SESSION_COOKIE = 'fw_session';
 
-export interface CookieSpec {
-  name: string;
-  value: string;
-  attributes: Record<string, unknown>;
-}
+export type CookieSpec = Cookie;
 
 export async function createSession(userId: string): Promise<CookieSpec> {
   const session = await lucia().createSession(userId, {});

@@ -17,7 +17,9 @@ type Holder = { [KEY]?: DbHandle };
 // Postgres int8 (bigint) comes back as a string by default; every bigint we store (epoch ms,
 // counts, ids) is far below 2^53, so parse it to a number once, here.
 pg.types.setTypeParser(20, (v) => Number(v));
-pg.types.setTypeParser(1016, (v) => (v === null ? null : (v.slice(1, -1) ? v.slice(1, -1).split(',').map(Number) : [])));
+const INT8_ARRAY = 1016 as Parameters<typeof pg.types.setTypeParser>[0];
+const parseInt8Array = pg.types.getTypeParser(INT8_ARRAY) as (v: string) => (string | null)[];
+pg.types.setTypeParser(INT8_ARRAY, (v: string) => parseInt8Array(v).map((x) => (x === null ? null : Number(x))));
 
 export function databaseUrl(): string {
   const url = process.env['DATABASE_URL'];
