@@ -9,6 +9,23 @@ export interface ServerEvents {
   /** A batch was rejected (counted on the gateway's health page). */
   'batch-rejected': [{ benchId: string | null; gatewayId: string; reason: string; at: number }];
   'gateway-status': [{ benchId: string; gatewayId: string; status: GatewayStatus; at: number }];
+  /** A sweep was fitted and stored (table `sweeps`). */
+  'sweep-fitted': [{ benchId: string; sweep: FittedSweepSummary }];
+  /** The phase estimate at hold was updated (rad, rad/s). */
+  'phase-update': [{ benchId: string; at: number; phase: number; driftRadPerS: number | null }];
+}
+
+export interface FittedSweepSummary {
+  id: number;
+  startMs: number;
+  endMs: number;
+  direction: 'up' | 'down';
+  visibility: number;
+  visibilityErr: number;
+  visibilityNet: number | null;
+  phase: number;
+  periodX: number;
+  counts: number;
 }
 
 const KEY = Symbol.for('fringewise.events');
