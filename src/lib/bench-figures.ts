@@ -1,0 +1,43 @@
+// The live figures the server computes for a bench (about once a second) and pushes to its
+// viewers. Pure types shared by the server and the islands.
+
+export interface ValueErr {
+  value: number;
+  err: number;
+}
+
+export interface ChannelFigures {
+  /** "<gateway>/<key>" */
+  channel: string;
+  role: 'out_a' | 'out_b' | 'herald' | 'aux';
+  label: string;
+  /** Measured rate over the window, counts/s. */
+  rateRaw: number;
+  /** Dead-time- then dark-corrected rate, counts/s; null when the correction is refused (see warning). */
+  rateCorrected: ValueErr | null;
+  /** Fraction of true counts lost to dead time (m·τ for the non-paralyzable model). */
+  deadTimeLoss: number | null;
+  /** Mandel Q of the counts per bin over the window. */
+  mandelQ: ValueErr | null;
+  warning: string | null;
+}
+
+export interface BenchFigures {
+  benchId: string;
+  /** End of the window, ms since the epoch. */
+  at: number;
+  windowMs: number;
+  channels: ChannelFigures[];
+  /** Latest visibility: from the last fitted sweep, or an envelope estimate while only drifting. */
+  visibility: (ValueErr & { source: 'sweep' | 'envelope'; net: boolean }) | null;
+  /** Phase at hold (rad) with drift rate (rad/s). */
+  phase: (ValueErr & { driftRadPerS: number | null }) | null;
+  /** (N_a − N_b)/(N_a + N_b) over the last second: the mid-fringe error signal is 0 at quadrature. */
+  contrast: number | null;
+  /** g2(0) from coincidences, accidentals subtracted. */
+  g2: (ValueErr & { accidentals: number }) | null;
+  /** Heralded anticorrelation parameter α. */
+  alpha: ValueErr | null;
+  /** Measured phase noise per bin beside the shot-noise limit. */
+  shotNoise: { measuredRad: number; limitRad: number; ratio: number; dB: number } | null;
+}
