@@ -1,0 +1,661 @@
+// Joint Poisson maximum-likelihood fit of both interferometer outputs over one monotonic pass:
+//   N_a(x) = A(1 + V cos θ) + d_a,  N_b(x) = B(1 − V cos θ) + d_b,  θ = 2π(x + q·x²)/P + φ,
+// minimising Cash's C = 2Σ(m − n ln m) (Cash, ApJ 228, 939 (1979)) by Levenberg–Marquardt on the
+// Fisher-scoring Hessian with analytic derivatives. d_a, d_b are known dark counts per bin: fitted
+// together with A, B and V the model would be degenerate.
+import { fft } from './fft.ts';
+import { inverseSymmetric, solveSymmetric } from './linear-algebra.ts';
+import type { Measured } from './measured.ts';
+import { chiSquareSf } from './special-functions.ts';
+
+export interface FringeData {
+  /** Scan coordinate per bin (piezo volts, steps, …). */
+  x: ArrayLike<number>;
+  /** Counts per bin, output a (the output bright at θ = 0). */
+  countsA: ArrayLike<number>;
+  /** Counts per bin, output b. */
+  countsB: ArrayLike<number>;
+}
+
+export type IntervalMethod = 'fisher' | 'profile';
+
+export interface FringeFitOptions {
+  /** Dark counts per bin of output a from the channel's calibration; absent when uncalibrated. */
+  darkA?: number;
+  /** Dark counts per bin of output b from the channel's calibration; absent when uncalibrated. */
+  darkB?: number;
+  /** Fit the quadratic piezo term q as well. */
+  quadratic?: boolean;
+  /** Expected period, x units (e.g. the last fit): the start search looks within a factor 1.5. */
+  periodHint?: number;
+  /**
+   * 'auto' (default) uses the profile likelihood where the quadratic approximation is doubtful:
+   * the Fisher interval within 3σ of V = 0 or 1, or fewer than LOW_COUNT_TOTAL counts.
+   */
+  interval?: 'auto' | IntervalMethod;
+}
+
+/** Below this many net counts in a pass (both outputs) the profile interval is used by default. */
+export const LOW_COUNT_TOTAL = 10_000;
+
+export interface VisibilityEstimate {
+  value: number;
+  /** 1σ: Fisher σ, or half the profile interval's width. */
+  err: number;
+  /** 68.27% interval (ΔC = 1), clipped to [0, 1]. */
+  lower: number;
+  upper: number;
+  method: IntervalMethod;
+}
+
+export interface OutputVisibility {
+  /** This output's own visibility with the joint fit's phase held fixed, no dark subtraction. */
+  raw: Measured;
+  /** Same with the dark offsets; null when uncalibrated. */
+  net: Measured | null;
+}
+
+export interface FringeFit {
+  ok: true;
+  /** Raw visibility: the fit with no dark offsets, what the counts themselves show. */
+  visibility: VisibilityEstimate;
+  /** Net visibility with the calibrated dark counts as offsets; null when uncalibrated. */
+  visibilityNet: VisibilityEstimate | null;
+  /** Which visibility a screen should headline: net where a dark calibration exists. */
+  shown: 'raw' | 'net';
+  /** Fringe period, x units. */
+  period: Measured;
+  /** Phase φ at x = 0, rad in (−π, π]. */
+  phase: Measured;
+  /** Phase θ at the middle of the pass, rad in (−π, π]: less correlated with the period than φ. */
+  phaseAtCenter: Measured;
+  /** Middle of the pass, x units. */
+  center: number;
+  /** Quadratic coefficient q, 1/x units; null when not fitted. */
+  quadratic: Measured | null;
+  /** A and B: mean signal counts per bin of each output (excluding the dark offsets of the shown fit). */
+  amplitudeA: Measured;
+  amplitudeB: Measured;
+  outputs: { a: OutputVisibility; b: OutputVisibility };
+  counts: { a: number; b: number; bins: number };
+  darkPerBin: { a: number; b: number } | null;
+  /** Goodness of fit of the shown fit. */
+  quality: {
+    /** Cash statistic C = 2Σ(m − n ln m). */
+    cash: number;
+    /** Baker–Cousins deviance 2Σ[m − n + n ln(n/m)], asymptotically χ²(dof). */
+    deviance: number;
+    dof: number;
+    /** Pr(χ²_dof ≥ deviance). */
+    pValue: number;
+    iterations: number;
+    converged: boolean;
+  };
+  /** Covariance of the shown fit's parameters, in the order of `names`. */
+  covariance: { names: string[]; matrix: number[][] };
+  warnings: string[];
+}
+
+export type FringeFitResult = FringeFit | { ok: false; reason: string };
+
+// Parameter vector: amplitudes, visibility, then phase ψ, slope k and curvature κ of θ in the
+// scaled coordinate u = (x − x_c)/s ∈ [−1, 1], which decorrelates phase from period.
+const IA = 0;
+const IB = 1;
+const IV = 2;
+const IPSI = 3;
+const IK = 4;
+const IKAPPA = 5;
+const NP = 6;
+const PARAM_NAMES = ['A', 'B', 'V', 'P', 'phi', 'q'];
+
+interface Problem {
+  u: Float64Array;
+  na: Float64Array;
+  nb: Float64Array;
+  len: number;
+  da: number;
+  db: number;
+  useA: boolean;
+  useB: boolean;
+}
+
+/** Smallest amplitude the fit may step to, counts per bin: keeps the model positive. */
+const MIN_AMPLITUDE = 1e-9;
+/** Stop when the predicted decrease of C/2 falls below this. */
+const CONVERGED_DECREASE = 1e-9;
+const MAX_ITERATIONS = 200;
+
+interface Evaluation {
+  cost: number;
+  /** Gradient of C/2 over all NP parameters. */
+  g: Float64Array;
+  /** Fisher information Σ (∂m ∂mᵀ)/m, NP×NP row-major: the expected Hessian of C/2. */
+  f: Float64Array;
+}
+
+/**
+ * Cost, gradient and Fisher information in one pass over the bins (one cos/sin pair per bin).
+ * The expected rather than the observed Hessian: positive definite, so every damped step descends.
+ * Written out term by term: this loop is where a fit spends its time.
+ */
+function evaluate(pr: Problem, p: Float64Array): Evaluation {
+  const A = p[IA] as number;
+  const B = p[IB] as number;
+  const V = p[IV] as number;
+  const psi = p[IPSI] as number;
+  const k = p[IK] as number;
+  const kap = p[IKAPPA] as number;
+  let c = 0;
+  let g0 = 0, g1 = 0, g2 = 0, g3 = 0, g4 = 0, g5 = 0;
+  let f00 = 0, f02 = 0, f03 = 0, f04 = 0, f05 = 0;
+  let f11 = 0, f12 = 0, f13 = 0, f14 = 0, f15 = 0;
+  let f22 = 0, f23 = 0, f24 = 0, f25 = 0, f33 = 0, f34 = 0, f35 = 0, f45 = 0, f55 = 0;
+  let bad = false;
+  for (let i = 0; i < pr.len; i++) {
+    const u = pr.u[i] as number;
+    const th = psi + u * (k + kap * u);
+    const cs = Math.cos(th);
+    const sn = Math.sin(th);
+    const u2 = u * u;
+    if (pr.useA) {
+      const n = pr.na[i] as number;
+      const m = A * (1 + V * cs) + pr.da;
+      if (m > 0) {
+        c += n > 0 ? m - n * Math.log(m) : m;
+        const r = 1 - n / m;
+        const w = 1 / m;
+        const d0 = 1 + V * cs;
+        const d2 = A * cs;
+        const d3 = -A * V * sn;
+        g0 += r * d0;
+        g2 += r * d2;
+        g3 += r * d3;
+        g4 += r * d3 * u;
+        g5 += r * d3 * u2;
+        const w0 = w * d0;
+        f00 += w0 * d0;
+        f02 += w0 * d2;
+        const w03 = w0 * d3;
+        f03 += w03;
+        f04 += w03 * u;
+        f05 += w03 * u2;
+        f22 += w * d2 * d2;
+        const w23 = w * d2 * d3;
+        f23 += w23;
+        f24 += w23 * u;
+        f25 += w23 * u2;
+        const w33 = w * d3 * d3;
+        f33 += w33;
+        f34 += w33 * u;
+        f35 += w33 * u2;
+        f45 += w33 * u2 * u;
+        f55 += w33 * u2 * u2;
+      } else if (n > 0) bad = true;
+    }
+    if (pr.useB) {
+      const n = pr.nb[i] as number;
+      const m = B * (1 - V * cs) + pr.db;
+      if (m > 0) {
+        c += n > 0 ? m - n * Math.log(m) : m;
+        const r = 1 - n / m;
+        const w = 1 / m;
+        const d1 = 1 - V * cs;
+        const d2 = -B * cs;
+        const d3 = B * V * sn;
+        g1 += r * d1;
+        g2 += r * d2;
+        g3 += r * d3;
+        g4 += r * d3 * u;
+        g5 += r * d3 * u2;
+        const w1 = w * d1;
+        f11 += w1 * d1;
+        f12 += w1 * d2;
+        const w13 = w1 * d3;
+        f13 += w13;
+        f14 += w13 * u;
+        f15 += w13 * u2;
+        f22 += w * d2 * d2;
+        const w23 = w * d2 * d3;
+        f23 += w23;
+        f24 += w23 * u;
+        f25 += w23 * u2;
+        const w33 = w * d3 * d3;
+        f33 += w33;
+        f34 += w33 * u;
+        f35 += w33 * u2;
+        f45 += w33 * u2 * u;
+        f55 += w33 * u2 * u2;
+      } else if (n > 0) bad = true;
+    }
+  }
+  // d4 = d3·u and d5 = d3·u², so f44 = f35.
+  const f = Float64Array.of(
+    f00, 0, f02, f03, f04, f05,
+    0, f11, f12, f13, f14, f15,
+    f02, f12, f22, f23, f24, f25,
+    f03, f13, f23, f33, f34, f35,
+    f04, f14, f24, f34, f35, f45,
+    f05, f15, f25, f35, f45, f55,
+  );
+  return { cost: bad ? Number.POSITIVE_INFINITY : 2 * c, g: Float64Array.of(g0, g1, g2, g3, g4, g5), f };
+}
+
+interface Minimum {
+  p: Float64Array;
+  cost: number;
+  iterations: number;
+  converged: boolean;
+}
+
+function clampParams(p: Float64Array): void {
+  p[IA] = Math.max(MIN_AMPLITUDE, p[IA] as number);
+  p[IB] = Math.max(MIN_AMPLITUDE, p[IB] as number);
+  p[IV] = Math.min(1, Math.max(0, p[IV] as number));
+}
+
+/** Levenberg–Marquardt on C over the parameters in `free`, V kept in [0, 1] by an active set. */
+function minimize(pr: Problem, start: Float64Array, free: number[]): Minimum {
+  const p = start.slice();
+  clampParams(p);
+  let cur = evaluate(pr, p);
+  let lambda = 1e-3;
+  let converged = false;
+  let iterations = 0;
+  for (; iterations < MAX_ITERATIONS && !converged; iterations++) {
+    // V pinned at a bound with the gradient pushing outward stays there for this step.
+    const v = p[IV] as number;
+    const keep = free.filter((param) => {
+      const ga = cur.g[param] as number;
+      return !(param === IV && ((v >= 1 && ga < 0) || (v <= 0 && ga > 0)));
+    });
+    const nk = keep.length;
+    if (nk === 0) {
+      converged = true;
+      break;
+    }
+    const g = new Float64Array(nk);
+    const f = new Float64Array(nk * nk);
+    for (let i = 0; i < nk; i++) {
+      const a = keep[i] as number;
+      g[i] = -(cur.g[a] as number);
+      for (let j = 0; j < nk; j++) f[i * nk + j] = cur.f[a * NP + (keep[j] as number)] as number;
+    }
+    let accepted = false;
+    while (lambda < 1e12) {
+      const m = f.slice();
+      for (let i = 0; i < nk; i++) m[i * nk + i] = (m[i * nk + i] as number) * (1 + lambda);
+      const step = solveSymmetric(m, g, nk);
+      if (!step) {
+        lambda *= 10;
+        continue;
+      }
+      let predicted = 0;
+      for (let i = 0; i < nk; i++) predicted += (step[i] as number) * (g[i] as number);
+      const trial = p.slice();
+      for (let i = 0; i < nk; i++) {
+        const param = keep[i] as number;
+        trial[param] = (trial[param] as number) + (step[i] as number);
+      }
+      clampParams(trial);
+      const next = evaluate(pr, trial);
+      if (next.cost <= cur.cost) {
+        const decrease = cur.cost - next.cost;
+        p.set(trial);
+        cur = next;
+        lambda = Math.max(lambda / 10, 1e-12);
+        accepted = true;
+        if (predicted < CONVERGED_DECREASE && decrease < 2 * CONVERGED_DECREASE) converged = true;
+        break;
+      }
+      if (predicted < CONVERGED_DECREASE) {
+        // No step the model predicts to help improves C: at the minimum to rounding.
+        converged = true;
+        break;
+      }
+      lambda *= 10;
+    }
+    if (!accepted && !converged) break;
+  }
+  return { p, cost: cur.cost, iterations, converged };
+}
+
+function deviance(pr: Problem, p: Float64Array): number {
+  const A = p[IA] as number;
+  const B = p[IB] as number;
+  const V = p[IV] as number;
+  let d = 0;
+  const term = (m: number, n: number): number => (n > 0 ? m - n + n * Math.log(n / m) : m);
+  for (let i = 0; i < pr.len; i++) {
+    const u = pr.u[i] as number;
+    const cs = Math.cos((p[IPSI] as number) + u * ((p[IK] as number) + (p[IKAPPA] as number) * u));
+    if (pr.useA) d += term(A * (1 + V * cs) + pr.da, pr.na[i] as number);
+    if (pr.useB) d += term(B * (1 - V * cs) + pr.db, pr.nb[i] as number);
+  }
+  return 2 * d;
+}
+
+/** Wrap an angle to (−π, π]. */
+export function wrapPhase(a: number): number {
+  const w = a - 2 * Math.PI * Math.floor((a + Math.PI) / (2 * Math.PI));
+  return w === -Math.PI ? Math.PI : w;
+}
+
+// Start values: a periodogram of the normalized difference of the two outputs over the
+// allowed frequency range, oversampled and refined by parabolic interpolation of the peak.
+/** Zero-padding factor of the periodogram: grid points per Fourier resolution element. */
+const OVERSAMPLE = 4;
+/** Most fringes searched per pass without a hint: piezo sweeps span a few to tens of fringes. */
+const MAX_CYCLES_DEFAULT = 128;
+/** A second periodogram peak this strong relative to the first is also tried as a start. */
+const SECOND_PEAK_RATIO = 0.5;
+
+function starts(pr: Problem, fMin: number, fMax: number, A0: number, B0: number): Float64Array[] {
+  const len = pr.len;
+  const z = new Float64Array(len);
+  let zMean = 0;
+  for (let i = 0; i < len; i++) {
+    const v = ((pr.na[i] as number) - pr.da) / A0 - ((pr.nb[i] as number) - pr.db) / B0;
+    z[i] = v;
+    zMean += v;
+  }
+  zMean /= len;
+  for (let i = 0; i < len; i++) z[i] = (z[i] as number) - zMean;
+  // Grid z onto M uniform points across u ∈ [−1, 1] (at least 8 per cycle at fMax, so the
+  // nearest-point gridding loses little), zero-pad OVERSAMPLE-fold and transform.
+  let grid = 16;
+  while (grid < Math.max(len, 16 * fMax)) grid <<= 1;
+  const h = 2 / (grid - 1);
+  const size = grid * OVERSAMPLE;
+  const re = new Float64Array(size);
+  const im = new Float64Array(size);
+  for (let i = 0; i < len; i++) {
+    const g = Math.round(((pr.u[i] as number) + 1) / h);
+    re[g] = (re[g] as number) + (z[i] as number);
+  }
+  fft(re, im);
+  const df = 1 / (size * h); // cycles per unit u per FFT bin
+  const jMin = Math.max(1, Math.floor(fMin / df));
+  const jMax = Math.min(size / 2 - 1, Math.ceil(fMax / df));
+  const power = (j: number): number => (re[j] as number) ** 2 + (im[j] as number) ** 2;
+  const peaks: number[] = [];
+  for (let j = jMin; j <= jMax; j++) {
+    const pj = power(j);
+    if (pj >= power(j - 1) && pj > power(j + 1)) peaks.push(j);
+  }
+  if (peaks.length === 0) peaks.push(jMin);
+  peaks.sort((a, b) => power(b) - power(a));
+  const first = power(peaks[0] as number);
+  const chosen = peaks.slice(0, 2).filter((j, i) => i === 0 || power(j) >= SECOND_PEAK_RATIO * first);
+  return chosen.map((j) => {
+    const a = power(j - 1);
+    const b = power(j);
+    const c = power(j + 1);
+    const den = a - 2 * b + c;
+    const f = (j + (den < 0 ? (0.5 * (a - c)) / den : 0)) * df;
+    const k = 2 * Math.PI * f;
+    // z ≈ 2V cos(ku + ψ), so Σ z e^(−iku) ≈ N·V·e^(iψ): phase and amplitude from the exact u.
+    let sr = 0;
+    let si = 0;
+    for (let i = 0; i < len; i++) {
+      const ku = k * (pr.u[i] as number);
+      sr += (z[i] as number) * Math.cos(ku);
+      si -= (z[i] as number) * Math.sin(ku);
+    }
+    const p = new Float64Array(NP);
+    p[IA] = A0;
+    p[IB] = B0;
+    p[IV] = Math.min(0.95, Math.max(0.05, Math.hypot(sr, si) / len));
+    p[IPSI] = Math.atan2(si, sr);
+    p[IK] = k;
+    p[IKAPPA] = 0;
+    return p;
+  });
+}
+
+interface Scaling {
+  xc: number;
+  s: number;
+}
+
+/** Reported parameters [A, B, V, P, φ, q] and their Jacobian with respect to [A, B, V, ψ, k, κ]. */
+function physical(p: Float64Array, sc: Scaling): { values: Float64Array; jac: Float64Array } {
+  const { xc, s } = sc;
+  const psi = p[IPSI] as number;
+  const k = p[IK] as number;
+  const kap = p[IKAPPA] as number;
+  const a = (k - (2 * kap * xc) / s) / s; // 2π/P
+  const values = Float64Array.of(p[IA] as number, p[IB] as number, p[IV] as number, (2 * Math.PI) / a, psi - a * xc - (kap * xc * xc) / (s * s), kap / (a * s * s));
+  const jac = new Float64Array(NP * NP);
+  jac[0 * NP + IA] = 1;
+  jac[1 * NP + IB] = 1;
+  jac[2 * NP + IV] = 1;
+  jac[3 * NP + IK] = (-2 * Math.PI) / (a * a * s);
+  jac[3 * NP + IKAPPA] = (2 * Math.PI * 2 * xc) / (a * a * s * s);
+  jac[4 * NP + IPSI] = 1;
+  jac[4 * NP + IK] = -xc / s;
+  jac[4 * NP + IKAPPA] = (xc * xc) / (s * s);
+  jac[5 * NP + IK] = -kap / (a * a * s * s * s);
+  jac[5 * NP + IKAPPA] = 1 / (a * s * s) + (2 * kap * xc) / (a * a * s * s * s * s);
+  return { values, jac };
+}
+
+function covarianceOf(pr: Problem, p: Float64Array, free: number[]): Float64Array | null {
+  const { f: all } = evaluate(pr, p);
+  const nf = free.length;
+  const f = new Float64Array(nf * nf);
+  free.forEach((a, i) => free.forEach((b, j) => (f[i * nf + j] = all[a * NP + b] as number)));
+  const inv = inverseSymmetric(f, nf);
+  if (!inv) return null;
+  const full = new Float64Array(NP * NP);
+  free.forEach((a, i) => free.forEach((b, j) => (full[a * NP + b] = inv[i * free.length + j] as number)));
+  return full;
+}
+
+/** Root of ΔC(V) = 1 between V̂ (ΔC = 0) and `bound` by the Illinois variant of regula falsi. */
+function profileLimit(pr: Problem, best: Minimum, free: number[], bound: number, sigma: number): number {
+  const vHat = best.p[IV] as number;
+  const fixed = free.filter((i) => i !== IV);
+  let warm = best.p;
+  const excess = (v: number): number => {
+    const start = warm.slice();
+    start[IV] = v;
+    const m = minimize(pr, start, fixed);
+    warm = m.p;
+    return m.cost - best.cost - 1;
+  };
+  const fBound = excess(bound);
+  if (!(fBound > 0)) return bound;
+  // Bracket [V̂, bound]; try the Fisher estimate first to shrink it.
+  let lo = vHat;
+  let flo = -1;
+  let hi = bound;
+  let fhi = fBound;
+  const guess = vHat + Math.sign(bound - vHat) * sigma;
+  if ((guess - lo) * (hi - guess) > 0) {
+    const fg = excess(guess);
+    if (fg > 0) {
+      hi = guess;
+      fhi = fg;
+    } else {
+      lo = guess;
+      flo = fg;
+    }
+  }
+  let side = 0;
+  for (let i = 0; i < 40; i++) {
+    const v = (lo * fhi - hi * flo) / (fhi - flo);
+    const fv = excess(v);
+    if (Math.abs(fv) < 1e-3 || Math.abs(hi - lo) < 1e-7) return v;
+    if (fv > 0) {
+      hi = v;
+      fhi = fv;
+      if (side === 1) flo /= 2;
+      side = 1;
+    } else {
+      lo = v;
+      flo = fv;
+      if (side === -1) fhi /= 2;
+      side = -1;
+    }
+  }
+  return (lo + hi) / 2;
+}
+
+interface SingleFit {
+  min: Minimum;
+  cov: Float64Array | null;
+  free: number[];
+}
+
+function fitProblem(pr: Problem, candidates: Float64Array[], quadratic: boolean): SingleFit {
+  const base = [IA, IB, IV, IPSI, IK];
+  let best: Minimum | null = null;
+  for (const c of candidates) {
+    const m = minimize(pr, c, base);
+    if (!best || m.cost < best.cost) best = m;
+  }
+  let min = best as Minimum;
+  const free = quadratic ? [...base, IKAPPA] : base;
+  if (quadratic) {
+    const m = minimize(pr, min.p, free);
+    min = { ...m, iterations: m.iterations + min.iterations };
+  }
+  return { min, cov: covarianceOf(pr, min.p, free), free };
+}
+
+function visibilityEstimate(pr: Problem, fit: SingleFit, method: 'auto' | IntervalMethod, netCounts: number): VisibilityEstimate {
+  const v = fit.min.p[IV] as number;
+  const sigma = fit.cov ? Math.sqrt(Math.max(0, fit.cov[IV * NP + IV] as number)) : Number.NaN;
+  const useProfile =
+    method === 'profile' ||
+    (method === 'auto' && (!(sigma > 0) || v + 3 * sigma > 1 || v - 3 * sigma < 0 || netCounts < LOW_COUNT_TOTAL));
+  if (!useProfile) return { value: v, err: sigma, lower: Math.max(0, v - sigma), upper: Math.min(1, v + sigma), method: 'fisher' };
+  const guess = sigma > 0 ? sigma : 0.01;
+  const upper = v >= 1 ? 1 : profileLimit(pr, fit.min, fit.free, 1, guess);
+  const lower = v <= 0 ? 0 : profileLimit(pr, fit.min, fit.free, 0, guess);
+  return { value: v, err: (upper - lower) / 2, lower, upper, method: 'profile' };
+}
+
+/** One output's own visibility, with θ(x) held at the joint fit's. */
+function outputVisibility(pr: Problem, joint: Float64Array, output: 'a' | 'b'): Measured {
+  const single: Problem = { ...pr, useA: output === 'a', useB: output === 'b' };
+  const free = [output === 'a' ? IA : IB, IV];
+  const m = minimize(single, joint, free);
+  const cov = covarianceOf(single, m.p, free);
+  return { value: m.p[IV] as number, err: cov ? Math.sqrt(Math.max(0, cov[IV * NP + IV] as number)) : Number.NaN };
+}
+
+function measuredAt(values: Float64Array, cov: Float64Array, i: number): Measured {
+  return { value: values[i] as number, err: Math.sqrt(Math.max(0, cov[i * NP + i] as number)) };
+}
+
+/** Fit one monotonic pass. Counts must be non-negative; x need not be uniformly spaced. */
+export function fitFringes(data: FringeData, options: FringeFitOptions = {}): FringeFitResult {
+  const len = data.x.length;
+  if (data.countsA.length !== len || data.countsB.length !== len) return { ok: false, reason: 'x, countsA and countsB differ in length' };
+  const quadratic = options.quadratic ?? false;
+  const nParams = quadratic ? 6 : 5;
+  if (len < nParams + 2) return { ok: false, reason: `${len} bins are too few for a ${nParams}-parameter fit` };
+  let lo = Number.POSITIVE_INFINITY;
+  let hi = Number.NEGATIVE_INFINITY;
+  let sumA = 0;
+  let sumB = 0;
+  const u = new Float64Array(len);
+  const na = new Float64Array(len);
+  const nb = new Float64Array(len);
+  for (let i = 0; i < len; i++) {
+    const x = data.x[i] as number;
+    const a = data.countsA[i] as number;
+    const b = data.countsB[i] as number;
+    if (!Number.isFinite(x) || !(a >= 0) || !(b >= 0)) return { ok: false, reason: `bin ${i} has a non-finite position or negative counts` };
+    lo = Math.min(lo, x);
+    hi = Math.max(hi, x);
+    na[i] = a;
+    nb[i] = b;
+    sumA += a;
+    sumB += b;
+  }
+  if (!(hi > lo)) return { ok: false, reason: 'the scan coordinate does not move' };
+  const sc: Scaling = { xc: (lo + hi) / 2, s: (hi - lo) / 2 };
+  for (let i = 0; i < len; i++) u[i] = ((data.x[i] as number) - sc.xc) / sc.s;
+  const calibrated = options.darkA !== undefined || options.darkB !== undefined;
+  const da = options.darkA ?? 0;
+  const db = options.darkB ?? 0;
+  if (!(da >= 0 && db >= 0)) return { ok: false, reason: 'dark counts per bin must be non-negative' };
+  const A0 = Math.max(sumA / len - da, 1e-3);
+  const B0 = Math.max(sumB / len - db, 1e-3);
+  if (sumA + sumB === 0) return { ok: false, reason: 'no counts in this pass' };
+
+  // Frequencies in cycles per unit of u (the pass spans 2 units).
+  const range = hi - lo;
+  const minPeriod = options.periodHint ? options.periodHint / 1.5 : Math.max((4 * range) / len, range / MAX_CYCLES_DEFAULT);
+  const maxPeriod = options.periodHint ? options.periodHint * 1.5 : 2 * range;
+  const fMin = sc.s / maxPeriod;
+  const fMax = sc.s / minPeriod;
+
+  const raw: Problem = { u, na, nb, len, da: 0, db: 0, useA: true, useB: true };
+  const net: Problem = { ...raw, da, db };
+  const shownProblem = calibrated ? net : raw;
+  const fit = fitProblem(shownProblem, starts(shownProblem, fMin, fMax, A0, B0), quadratic);
+  const warnings: string[] = [];
+  if (!fit.min.converged) warnings.push('the fit did not converge within the iteration limit');
+  if (!fit.cov) return { ok: false, reason: 'the Fisher information is singular: the data do not constrain the fringe' };
+
+  // The raw fit starts from the net one: the same fringe with the dark counts folded into A and B.
+  let rawFit = fit;
+  if (calibrated) {
+    const s = fit.min.p.slice();
+    s[IA] = (s[IA] as number) + da;
+    s[IB] = (s[IB] as number) + db;
+    s[IV] = ((s[IV] as number) * ((fit.min.p[IA] as number) + (fit.min.p[IB] as number))) / ((s[IA] as number) + (s[IB] as number));
+    rawFit = fitProblem(raw, [s], quadratic);
+  }
+  const netTotal = sumA + sumB - len * (da + db);
+  const method = options.interval ?? 'auto';
+  const visibility = visibilityEstimate(raw, rawFit, method, sumA + sumB);
+  const visibilityNet = calibrated ? visibilityEstimate(net, fit, method, netTotal) : null;
+  if ((calibrated ? (visibilityNet as VisibilityEstimate) : visibility).value >= 1) warnings.push('visibility at its physical bound 1: the interval is one-sided');
+
+  const { values, jac } = physical(fit.min.p, sc);
+  const cov = new Float64Array(NP * NP);
+  const full = fit.cov;
+  for (let i = 0; i < NP; i++) {
+    for (let j = 0; j < NP; j++) {
+      let s = 0;
+      for (let a = 0; a < NP; a++) {
+        const ja = jac[i * NP + a] as number;
+        if (ja === 0) continue;
+        for (let b = 0; b < NP; b++) s += ja * (full[a * NP + b] as number) * (jac[j * NP + b] as number);
+      }
+      cov[i * NP + j] = s;
+    }
+  }
+  const names = quadratic ? PARAM_NAMES : PARAM_NAMES.slice(0, 5);
+  const matrix = names.map((_, i) => names.map((__, j) => cov[i * NP + j] as number));
+  const dev = deviance(shownProblem, fit.min.p);
+  const dof = 2 * len - fit.free.length;
+  const phase = measuredAt(values, cov, 4);
+  return {
+    ok: true,
+    visibility,
+    visibilityNet,
+    shown: calibrated ? 'net' : 'raw',
+    period: measuredAt(values, cov, 3),
+    phase: { value: wrapPhase(phase.value), err: phase.err },
+    phaseAtCenter: { value: wrapPhase(fit.min.p[IPSI] as number), err: Math.sqrt(Math.max(0, full[IPSI * NP + IPSI] as number)) },
+    center: sc.xc,
+    quadratic: quadratic ? measuredAt(values, cov, 5) : null,
+    amplitudeA: measuredAt(values, cov, 0),
+    amplitudeB: measuredAt(values, cov, 1),
+    outputs: {
+      a: { raw: outputVisibility(raw, rawFit.min.p, 'a'), net: calibrated ? outputVisibility(net, fit.min.p, 'a') : null },
+      b: { raw: outputVisibility(raw, rawFit.min.p, 'b'), net: calibrated ? outputVisibility(net, fit.min.p, 'b') : null },
+    },
+    counts: { a: sumA, b: sumB, bins: len },
+    darkPerBin: calibrated ? { a: da, b: db } : null,
+    quality: { cash: fit.min.cost, deviance: dev, dof, pValue: chiSquareSf(dev, dof), iterations: fit.min.iterations, converged: fit.min.converged },
+    covariance: { names, matrix },
+    warnings,
+  };
+}
