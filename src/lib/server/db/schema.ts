@@ -80,6 +80,8 @@ export const benches = pgTable('benches', {
   // Slowest allowed scan: largest step (V) and shortest dwell (ms) an operator may request.
   driveMaxStep: doublePrecision('drive_max_step').notNull().default(1),
   driveMinDwellMs: integer('drive_min_dwell_ms').notNull().default(1),
+  // Coincidence resolving window of the counter, ns: sets the accidental rate R_a·R_b·τ_c for g2(0).
+  coincidenceWindowNs: doublePrecision('coincidence_window_ns').notNull().default(2),
   createdAt: createdAt(),
 });
 

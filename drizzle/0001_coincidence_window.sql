@@ -1,0 +1,1 @@
+ALTER TABLE "benches" ADD COLUMN "coincidence_window_ns" double precision DEFAULT 2 NOT NULL;
