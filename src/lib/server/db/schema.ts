@@ -206,7 +206,12 @@ export const runs = pgTable(
     source: text('source', { enum: ['live', 'import'] }).notNull().default('live'),
     createdAt: createdAt(),
   },
-  (t) => [index('runs_bench_idx').on(t.benchId, t.startMs)],
+  (t) => [
+    index('runs_bench_idx').on(t.benchId, t.startMs),
+    // One active (unstopped) run per bench, enforced by the database so two operators racing to
+    // start a run cannot both succeed.
+    uniqueIndex('runs_one_active_idx').on(t.benchId).where(sql`${t.endMs} is null`),
+  ],
 );
 
 export const notes = pgTable(

@@ -1,0 +1,1 @@
+CREATE UNIQUE INDEX "runs_one_active_idx" ON "runs" USING btree ("bench_id") WHERE "runs"."end_ms" is null;
