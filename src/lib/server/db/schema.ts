@@ -303,6 +303,9 @@ export const alarmEvents = pgTable(
       .notNull()
       .references(() => benches.id, { onDelete: 'cascade' }),
     severity: severityEnum('severity').notNull(),
+    // What the event is about: "<gateway>/<key>" for a channel, a gateway id, or '' bench-wide; one
+    // open event per (rule, subject), so the evaluator's state can be restored after a restart.
+    subject: text('subject').notNull().default(''),
     message: text('message').notNull(),
     value: doublePrecision('value'),
     raisedAt: timestamp('raised_at', { withTimezone: true }).notNull().defaultNow(),

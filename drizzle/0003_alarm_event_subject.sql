@@ -1,0 +1,1 @@
+ALTER TABLE "alarm_events" ADD COLUMN "subject" text DEFAULT '' NOT NULL;
