@@ -1,0 +1,59 @@
+// Runs and notes as the API returns them, and the request bodies it accepts. Pure (zod only), so
+// the islands share the exact shapes the server validates.
+import { z } from 'zod';
+import { benchFiguresSchema, type BenchFigures } from './bench-figures-schema.ts';
+
+/** A run id in a URL path. */
+export const runIdSchema = z.coerce.number().int().positive().max(Number.MAX_SAFE_INTEGER);
+
+export const startRunSchema = z.object({
+  title: z.string().trim().min(1, 'a run needs a title').max(200, 'title: at most 200 characters'),
+});
+export type StartRunBody = z.infer<typeof startRunSchema>;
+
+export const addNoteSchema = z.object({
+  body: z.string().trim().min(1, 'a note needs text').max(10_000, 'note: at most 10,000 characters'),
+  /** The live figures on the author's screen when the note was taken (what they saw). */
+  snapshot: benchFiguresSchema.nullable().optional(),
+});
+export type AddNoteBody = z.infer<typeof addNoteSchema>;
+
+export interface RunView {
+  id: number;
+  benchId: string;
+  title: string;
+  /** ms since the epoch */
+  startMs: number;
+  /** null while the run is active */
+  endMs: number | null;
+  startedBy: { id: string; name: string } | null;
+  noteCount: number;
+}
+
+export interface NoteView {
+  id: number;
+  runId: number;
+  atMs: number;
+  body: string;
+  author: { id: string; name: string } | null;
+  snapshot: BenchFigures | null;
+}
+
+export const runViewSchema: z.ZodType<RunView> = z.object({
+  id: z.number(),
+  benchId: z.string(),
+  title: z.string(),
+  startMs: z.number(),
+  endMs: z.number().nullable(),
+  startedBy: z.object({ id: z.string(), name: z.string() }).nullable(),
+  noteCount: z.number(),
+});
+
+export const noteViewSchema: z.ZodType<NoteView> = z.object({
+  id: z.number(),
+  runId: z.number(),
+  atMs: z.number(),
+  body: z.string(),
+  author: z.object({ id: z.string(), name: z.string() }).nullable(),
+  snapshot: benchFiguresSchema.nullable(),
+});

@@ -1,0 +1,132 @@
+// Runs (a titled span of a bench's time) and their timestamped notes. One active run per bench:
+// the partial unique index runs_one_active_idx refuses a second, and we turn that into a 409.
+import { and, asc, count, desc, eq, inArray, isNull } from 'drizzle-orm';
+import { getDb } from './db/index.ts';
+import { benches, notes, runs, users } from './db/schema.ts';
+import { HttpError } from './http/responses.ts';
+import type { AddNoteBody, NoteView, RunView, StartRunBody } from '../runs.ts';
+import { benchFiguresSchema } from '../bench-figures-schema.ts';
+
+const UNIQUE_VIOLATION = '23505';
+
+function person(id: string | null, name: string | null, email: string | null): { id: string; name: string } | null {
+  return id ? { id, name: name || email || id } : null;
+}
+
+const runColumns = {
+  id: runs.id,
+  benchId: runs.benchId,
+  title: runs.title,
+  startMs: runs.startMs,
+  endMs: runs.endMs,
+  userId: users.id,
+  userName: users.name,
+  userEmail: users.email,
+};
+
+type RunRow = { id: number; benchId: string; title: string; startMs: number; endMs: number | null; userId: string | null; userName: string | null; userEmail: string | null };
+
+async function noteCounts(runIds: number[]): Promise<Map<number, number>> {
+  if (runIds.length === 0) return new Map();
+  const rows = await getDb().select({ runId: notes.runId, n: count() }).from(notes).where(inArray(notes.runId, runIds)).groupBy(notes.runId);
+  return new Map(rows.map((r) => [r.runId, r.n]));
+}
+
+async function toViews(rows: RunRow[]): Promise<RunView[]> {
+  const counts = await noteCounts(rows.map((r) => r.id));
+  return rows.map((r) => ({
+    id: r.id,
+    benchId: r.benchId,
+    title: r.title,
+    startMs: r.startMs,
+    endMs: r.endMs,
+    startedBy: person(r.userId, r.userName, r.userEmail),
+    noteCount: counts.get(r.id) ?? 0,
+  }));
+}
+
+/** Runs newest first; of one bench when given. */
+export async function listRuns(opts: { benchId?: string; limit?: number } = {}): Promise<RunView[]> {
+  const rows = await getDb()
+    .select(runColumns)
+    .from(runs)
+    .leftJoin(users, eq(users.id, runs.startedBy))
+    .where(opts.benchId ? eq(runs.benchId, opts.benchId) : undefined)
+    .orderBy(desc(runs.startMs), desc(runs.id))
+    .limit(opts.limit ?? 500);
+  return await toViews(rows);
+}
+
+export async function getRun(id: number): Promise<RunView | null> {
+  const rows = await getDb().select(runColumns).from(runs).leftJoin(users, eq(users.id, runs.startedBy)).where(eq(runs.id, id)).limit(1);
+  return (await toViews(rows))[0] ?? null;
+}
+
+/** The active run of each bench (at most one each), keyed by bench id. */
+export async function activeRuns(): Promise<Map<string, RunView>> {
+  const rows = await getDb().select(runColumns).from(runs).leftJoin(users, eq(users.id, runs.startedBy)).where(isNull(runs.endMs));
+  return new Map((await toViews(rows)).map((r) => [r.benchId, r]));
+}
+
+export async function startRun(benchId: string, body: StartRunBody, userId: string, now = Date.now()): Promise<RunView> {
+  const [bench] = await getDb().select({ id: benches.id }).from(benches).where(eq(benches.id, benchId)).limit(1);
+  if (!bench) throw new HttpError(404, `no bench "${benchId}"`);
+  try {
+    const [row] = await getDb().insert(runs).values({ benchId, title: body.title, startMs: now, startedBy: userId }).returning({ id: runs.id });
+    const run = await getRun(row!.id);
+    return run!;
+  } catch (err) {
+    if (isUniqueViolation(err)) throw new HttpError(409, 'this bench already has an active run: stop it first');
+    throw err;
+  }
+}
+
+function isUniqueViolation(err: unknown): boolean {
+  // drizzle wraps the driver error; the pg code sits on the error or its cause.
+  for (let e: unknown = err; e && typeof e === 'object'; e = (e as { cause?: unknown }).cause) {
+    if ((e as { code?: unknown }).code === UNIQUE_VIOLATION) return true;
+  }
+  return false;
+}
+
+export async function stopRun(id: number, now = Date.now()): Promise<RunView> {
+  const [row] = await getDb()
+    .update(runs)
+    .set({ endMs: now })
+    .where(and(eq(runs.id, id), isNull(runs.endMs)))
+    .returning({ id: runs.id });
+  if (!row) {
+    const run = await getRun(id);
+    if (!run) throw new HttpError(404, `no run ${id}`);
+    throw new HttpError(409, 'this run has already stopped');
+  }
+  return (await getRun(id))!;
+}
+
+export async function listNotes(runId: number): Promise<NoteView[]> {
+  const rows = await getDb()
+    .select({ id: notes.id, runId: notes.runId, atMs: notes.atMs, body: notes.body, snapshot: notes.snapshot, userId: users.id, userName: users.name, userEmail: users.email })
+    .from(notes)
+    .leftJoin(users, eq(users.id, notes.authorId))
+    .where(eq(notes.runId, runId))
+    .orderBy(asc(notes.atMs), asc(notes.id));
+  return rows.map((r) => {
+    // Stored snapshots were validated on the way in; re-parse so an old shape reads as "none" not a crash.
+    const snap = r.snapshot == null ? null : benchFiguresSchema.safeParse(r.snapshot);
+    return { id: r.id, runId: r.runId, atMs: r.atMs, body: r.body, author: person(r.userId, r.userName, r.userEmail), snapshot: snap?.success ? snap.data : null };
+  });
+}
+
+/** Notes go into active runs only: a stopped run's record is closed. */
+export async function addNote(runId: number, body: AddNoteBody, userId: string, now = Date.now()): Promise<NoteView> {
+  const run = await getRun(runId);
+  if (!run) throw new HttpError(404, `no run ${runId}`);
+  if (run.endMs !== null) throw new HttpError(409, 'this run has stopped: notes go into active runs');
+  if (body.snapshot && body.snapshot.benchId !== run.benchId) throw new HttpError(422, 'snapshot: figures of another bench');
+  const [row] = await getDb()
+    .insert(notes)
+    .values({ runId, authorId: userId, atMs: now, body: body.body, snapshot: body.snapshot ?? null })
+    .returning({ id: notes.id });
+  const all = await listNotes(runId);
+  return all.find((n) => n.id === row!.id)!;
+}
