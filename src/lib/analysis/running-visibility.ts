@@ -1,0 +1,127 @@
+// Visibility over time: combined from the latest sweep fits, estimated from the fringe envelope
+// while the phase only drifts (no sweep), and as a trend for the screen and the alarms.
+import type { Measured } from './measured.ts';
+import type { HoldCalibration } from './phase.ts';
+
+export interface VisibilityPoint {
+  /** Middle of the sweep or window, ms since the epoch. */
+  timeMs: number;
+  value: number;
+  err: number;
+}
+
+/** Sweep fits combined by default: the latest up and down pass of a triangle scan and two more. */
+const DEFAULT_LATEST = 4;
+
+/**
+ * Inverse-variance mean of the latest `count` fits. When they scatter more than their errors allow
+ * (χ²/dof > 1, e.g. the visibility is really changing or up and down sweeps differ) the error is
+ * scaled by √(χ²/dof) rather than pretending to a precision the data do not show.
+ */
+export function runningVisibility(points: readonly VisibilityPoint[], count = DEFAULT_LATEST): (Measured & { timeMs: number; n: number }) | null {
+  const latest = [...points].filter((p) => p.err > 0 && Number.isFinite(p.value)).sort((a, b) => a.timeMs - b.timeMs).slice(-count);
+  if (latest.length === 0) return null;
+  let sw = 0;
+  let swv = 0;
+  let swt = 0;
+  for (const p of latest) {
+    const w = 1 / (p.err * p.err);
+    sw += w;
+    swv += w * p.value;
+    swt += w * p.timeMs;
+  }
+  const mean = swv / sw;
+  let chi2 = 0;
+  for (const p of latest) chi2 += ((p.value - mean) / p.err) ** 2;
+  const birge = latest.length > 1 ? Math.max(1, chi2 / (latest.length - 1)) : 1;
+  return { value: mean, err: Math.sqrt(birge / sw), timeMs: swt / sw, n: latest.length };
+}
+
+export interface EnvelopeEstimate extends Measured {
+  bins: number;
+  /**
+   * Fraction of bins where output a exceeds output b (efficiency-corrected): about ½ when the phase
+   * covered the fringe evenly, which the estimate assumes.
+   */
+  balance: number;
+  warnings: string[];
+}
+
+/** A window whose balance lies outside this band did not sample the fringe evenly. */
+const BALANCE_BAND = [0.25, 0.75] as const;
+
+/**
+ * Visibility from the spread of the two outputs while the phase drifts over the window, without a
+ * fit. With x = n_a − d_a, y = (n_b − d_b)/η, Δ = x − y and S = x + y, a uniformly sampled phase gives
+ * ⟨Δ²⟩ = V²⟨S²⟩/2 plus shot noise; the shot-noise term w = n_a + n_b/η² is an unbiased estimate of
+ * Var(Δ) = Var(S), so subtracting it from both removes the Poisson bias that makes the max/min
+ * envelope overstate V at low counts: V² = 2Σ(Δ² − w)/Σ(S² − w). Error by the delta method on
+ * the ratio of sums, treating bins as independent (slow drift correlates them: a lower bound).
+ */
+export function envelopeVisibility(countsA: ArrayLike<number>, countsB: ArrayLike<number>, cal: Omit<HoldCalibration, 'visibility'>): EnvelopeEstimate | null {
+  const n = countsA.length;
+  if (n < 8 || countsB.length !== n) return null;
+  const eta = cal.efficiencyRatio;
+  const num = new Float64Array(n);
+  const den = new Float64Array(n);
+  let sNum = 0;
+  let sDen = 0;
+  let above = 0;
+  for (let i = 0; i < n; i++) {
+    const a = countsA[i] as number;
+    const b = countsB[i] as number;
+    const x = a - (cal.darkA ?? 0);
+    const y = (b - (cal.darkB ?? 0)) / eta;
+    const w = a + b / (eta * eta);
+    num[i] = 2 * ((x - y) ** 2 - w);
+    den[i] = (x + y) ** 2 - w;
+    sNum += num[i] as number;
+    sDen += den[i] as number;
+    if (x > y) above++;
+  }
+  if (!(sDen > 0)) return null;
+  const v2 = sNum / sDen;
+  let varR = 0;
+  for (let i = 0; i < n; i++) varR += ((num[i] as number) - v2 * (den[i] as number)) ** 2;
+  varR /= sDen * sDen;
+  const value = Math.sqrt(Math.max(0, v2));
+  const balance = above / n;
+  const warnings: string[] = [];
+  if (balance < BALANCE_BAND[0] || balance > BALANCE_BAND[1]) warnings.push('the phase did not sample the fringe evenly in this window: the envelope estimate is biased');
+  return { value, err: value > 0 ? Math.sqrt(varR) / (2 * value) : Math.sqrt(Math.sqrt(varR)), bins: n, balance, warnings };
+}
+
+export interface VisibilityTrend {
+  points: VisibilityPoint[];
+  /** Weighted least-squares slope, visibility per hour; null with fewer than 3 points. */
+  slopePerHour: Measured | null;
+}
+
+/** Time-ordered series with its drift, for the trend plot and the visibility alarms. */
+export function visibilityTrend(points: readonly VisibilityPoint[]): VisibilityTrend {
+  const sorted = [...points].filter((p) => p.err > 0 && Number.isFinite(p.value)).sort((a, b) => a.timeMs - b.timeMs);
+  if (sorted.length < 3) return { points: sorted, slopePerHour: null };
+  const t0 = (sorted[0] as VisibilityPoint).timeMs;
+  let sw = 0;
+  let st = 0;
+  let sv = 0;
+  for (const p of sorted) {
+    const w = 1 / (p.err * p.err);
+    sw += w;
+    st += w * (p.timeMs - t0);
+    sv += w * p.value;
+  }
+  const mt = st / sw;
+  const mv = sv / sw;
+  let stt = 0;
+  let stv = 0;
+  for (const p of sorted) {
+    const w = 1 / (p.err * p.err);
+    const dt = p.timeMs - t0 - mt;
+    stt += w * dt * dt;
+    stv += w * dt * (p.value - mv);
+  }
+  if (!(stt > 0)) return { points: sorted, slopePerHour: null };
+  const msPerHour = 3_600_000;
+  return { points: sorted, slopePerHour: { value: (stv / stt) * msPerHour, err: Math.sqrt(1 / stt) * msPerHour } };
+}
