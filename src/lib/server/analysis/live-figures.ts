@@ -1,0 +1,163 @@
+// Computes a bench's live figures from its recent bins, channel settings and latest sweep fits.
+// No I/O: the analysis service feeds it and pushes the result.
+import { correctRate, rateFromCounts } from '../../analysis/corrections.ts';
+import type { DeadTimeModel } from '../../analysis/dead-time.ts';
+import { driftRate, normalizedDifference, phaseAtHold, quadratureError, unfoldPhase } from '../../analysis/phase.ts';
+import { g2FromCoincidences, heraldedAlpha, mandelQ } from '../../analysis/photon-stats.ts';
+import { envelopeVisibility, runningVisibility, type VisibilityPoint } from '../../analysis/running-visibility.ts';
+import { phaseNoise, phaseSensitivity } from '../../analysis/sensitivity.ts';
+import type { BenchFigures, ChannelFigures } from '../../bench-figures.ts';
+import type { RecentBins } from './recent-bins.ts';
+
+export interface ChannelSettings {
+  gateway: string;
+  key: string;
+  label: string;
+  role: 'out_a' | 'out_b' | 'herald' | 'aux';
+  /** counts/s and its 1σ; null when uncalibrated. */
+  darkRate: number | null;
+  darkRateErr: number | null;
+  deadTimeNs: number | null;
+  deadTimeModel: 'nonparalyzable' | 'paralyzable';
+  efficiency: number;
+}
+
+export interface FiguresInput {
+  benchId: string;
+  now: number;
+  windowMs: number;
+  channels: ChannelSettings[];
+  coincidenceWindowNs: number;
+  recent: RecentBins;
+  /** Latest sweep fits (raw or net as shown), newest last. */
+  sweepPoints: VisibilityPoint[];
+  /** Whether the sweep points are net (dark-subtracted) visibilities. */
+  sweepNet: boolean;
+  /** Phase readings at hold so far (s, folded θ ∈ [0, π]), for the drift rate; the caller keeps ~60 s. */
+  phaseHistory: { t: number; theta: number }[];
+}
+
+/** A sweep fit older than this no longer stands for the current visibility, ms. */
+const SWEEP_FRESH_MS = 120_000;
+/** Phase is read over the last second while the drive holds still, ms. */
+const PHASE_WINDOW_MS = 1_000;
+
+const modelName = (m: ChannelSettings['deadTimeModel']): DeadTimeModel => (m === 'paralyzable' ? 'paralyzable' : 'non-paralyzable');
+
+function sum(a: Float64Array): number {
+  let s = 0;
+  for (let i = 0; i < a.length; i++) s += a[i] as number;
+  return s;
+}
+
+export function computeFigures(input: FiguresInput): { figures: BenchFigures; phaseReading: { t: number; theta: number } | null } {
+  const { recent, windowMs } = input;
+  const to = recent.latestEnd();
+  const channels: ChannelFigures[] = [];
+  const totals = new Map<string, { counts: number; seconds: number; series: Float64Array }>();
+
+  for (const c of input.channels) {
+    const s = recent.series(c.gateway, c.key, windowMs, to);
+    if (!s || s.counts.length === 0) continue;
+    const seconds = (s.counts.length * s.dtMs) / 1000;
+    const counts = sum(s.counts);
+    totals.set(c.role === 'aux' ? `aux:${c.gateway}/${c.key}` : c.role, { counts, seconds, series: s.counts });
+    const measured = rateFromCounts(counts, seconds);
+    const corr = correctRate({
+      measured,
+      ...(c.darkRate !== null ? { dark: { value: c.darkRate, err: c.darkRateErr ?? 0 } } : {}),
+      ...(c.deadTimeNs ? { deadTime: { tau: c.deadTimeNs * 1e-9, model: modelName(c.deadTimeModel) } } : {}),
+    });
+    const q = s.counts.length >= 10 ? mandelQ(s.counts).q : null;
+    channels.push({
+      channel: `${c.gateway}/${c.key}`,
+      role: c.role,
+      label: c.label,
+      rateRaw: measured.value,
+      rateCorrected: corr.ok ? corr.net : null,
+      deadTimeLoss: corr.ok && c.deadTimeNs ? corr.lossFraction : null,
+      mandelQ: q && Number.isFinite(q.value) ? q : null,
+      warning: corr.ok ? (corr.warnings[0] ?? null) : corr.reason,
+    });
+  }
+
+  const outA = input.channels.find((c) => c.role === 'out_a');
+  const outB = input.channels.find((c) => c.role === 'out_b');
+  const herald = input.channels.find((c) => c.role === 'herald');
+  const perBinDark = (c: ChannelSettings | undefined, dtMs: number) => ((c?.darkRate ?? 0) * dtMs) / 1000;
+  const efficiencyRatio = outA && outB && outA.efficiency > 0 ? outB.efficiency / outA.efficiency : 1;
+
+  // Visibility: the latest sweep fits while fresh, else the envelope over the window.
+  let visibility: BenchFigures['visibility'] = null;
+  const fresh = input.sweepPoints.filter((p) => input.now - p.timeMs < SWEEP_FRESH_MS);
+  const combined = runningVisibility(fresh);
+  if (combined) visibility = { value: combined.value, err: combined.err, source: 'sweep', net: input.sweepNet };
+  const sa = outA ? recent.series(outA.gateway, outA.key, windowMs, to) : null;
+  const sb = outB ? recent.series(outB.gateway, outB.key, windowMs, to) : null;
+  const scan = outA ? recent.scan(outA.gateway, PHASE_WINDOW_MS, to) : null;
+  const holding = !scan || scan.counts.every((v) => v === scan.counts[0]);
+  if (!visibility && sa && sb && sa.counts.length === sb.counts.length && holding) {
+    const env = envelopeVisibility(sa.counts, sb.counts, { efficiencyRatio, darkA: perBinDark(outA, sa.dtMs), darkB: perBinDark(outB, sb.dtMs) });
+    if (env && env.warnings.length === 0 && Number.isFinite(env.err)) visibility = { value: env.value, err: env.err, source: 'envelope', net: outA?.darkRate !== null };
+  }
+
+  // Contrast and phase over the last second.
+  let contrast: number | null = null;
+  let phase: BenchFigures['phase'] = null;
+  let shotNoise: BenchFigures['shotNoise'] = null;
+  let phaseReading: { t: number; theta: number } | null = null;
+  const la = outA ? recent.series(outA.gateway, outA.key, PHASE_WINDOW_MS, to) : null;
+  const lb = outB ? recent.series(outB.gateway, outB.key, PHASE_WINDOW_MS, to) : null;
+  if (la && lb && la.counts.length === lb.counts.length && la.counts.length > 0) {
+    const na = sum(la.counts);
+    const nb = sum(lb.counts);
+    if (na + nb > 0) contrast = (na - nb) / (na + nb);
+    const v = visibility?.value;
+    if (holding && v && v > 0.05) {
+      const bins = la.counts.length;
+      const cal = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, la.dtMs) * bins, darkB: perBinDark(outB, lb.dtMs) * bins };
+      const theta = phaseAtHold(na, nb, cal);
+      if (Number.isFinite(theta.value)) {
+        phaseReading = { t: to / 1000, theta: theta.value };
+        const history = [...input.phaseHistory, phaseReading];
+        const drift = history.length >= 5 ? driftRate(history.map((h) => h.t), unfoldPhase(history.map((h) => h.theta))) : null;
+        phase = { value: theta.value, err: theta.err, driftRadPerS: drift && Number.isFinite(drift.value) ? drift.value : null };
+      }
+      // Shot-noise comparison near mid-fringe only, where the per-bin phase is linear in the counts.
+      const d = normalizedDifference(na, nb, cal);
+      if (Math.abs(d.value) < 0.5 * v && bins >= 10) {
+        const perBin = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, la.dtMs), darkB: perBinDark(outB, lb.dtMs) };
+        const eps = new Float64Array(bins);
+        for (let i = 0; i < bins; i++) eps[i] = quadratureError(la.counts[i] as number, lb.counts[i] as number, perBin).value;
+        const photonsPerBin = (na + nb) / bins;
+        if (eps.every(Number.isFinite) && photonsPerBin > 0) {
+          const s = phaseSensitivity(phaseNoise(eps), photonsPerBin, v);
+          shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, dB: s.dB };
+        }
+      }
+    }
+  }
+
+  // g2(0) (laser: singles and twofold coincidences) or α (heralded: gated counts and triples).
+  let g2: BenchFigures['g2'] = null;
+  let alpha: BenchFigures['alpha'] = null;
+  const cc = outA ? recent.coincidences(outA.gateway, windowMs, to) : null;
+  const ta = totals.get('out_a');
+  const tb = totals.get('out_b');
+  if (cc && ta && tb && ta.counts > 0 && tb.counts > 0) {
+    const coincidences = sum(cc.counts);
+    const th = totals.get('herald');
+    if (herald && th && th.counts > 0) {
+      const r = heraldedAlpha({ gates: th.counts, gateTransmitted: ta.counts, gateReflected: tb.counts, triples: coincidences });
+      alpha = r.alpha;
+    } else {
+      const r = g2FromCoincidences({ counts1: ta.counts, counts2: tb.counts, coincidences, seconds: ta.seconds, windowS: input.coincidenceWindowNs * 1e-9 });
+      g2 = { value: r.g2.value, err: r.g2.err, accidentals: r.accidentals };
+    }
+  }
+
+  return {
+    figures: { benchId: input.benchId, at: to || input.now, windowMs, channels, visibility, phase, contrast, g2, alpha, shotNoise },
+    phaseReading,
+  };
+}

@@ -1,0 +1,71 @@
+// The last few seconds of one bench's bins, kept in memory for the live figures (rates, Mandel Q,
+// g2(0), phase at hold). Older data is read from the database when asked for.
+import type { CountBatch } from '../../contract/wire.ts';
+
+interface HeldBatch {
+  gatewayId: string;
+  batch: CountBatch;
+  /** End of the batch's last bin, ms. */
+  end: number;
+}
+
+export interface ChannelSeries {
+  /** Counts per bin, oldest first, within the window. */
+  counts: Float64Array;
+  dtMs: number;
+}
+
+export class RecentBins {
+  private batches: HeldBatch[] = [];
+
+  constructor(private readonly keepMs = 12_000) {}
+
+  add(gatewayId: string, batch: CountBatch): void {
+    const end = batch.t0 + (batch.ch[Object.keys(batch.ch)[0] ?? '']?.length ?? 0) * batch.dt;
+    this.batches.push({ gatewayId, batch, end });
+    // Batches arrive in order per gateway; a late (replayed) one is kept too and ages out normally.
+    const horizon = this.latestEnd() - this.keepMs;
+    if (this.batches.length > 0 && (this.batches[0]?.end ?? 0) < horizon) this.batches = this.batches.filter((b) => b.end >= horizon);
+  }
+
+  latestEnd(): number {
+    let latest = 0;
+    for (const b of this.batches) if (b.end > latest) latest = b.end;
+    return latest;
+  }
+
+  /** Bins of `gatewayId/key` ending in (to − windowMs, to], in time order. */
+  series(gatewayId: string, key: string, windowMs: number, to = this.latestEnd()): ChannelSeries | null {
+    return this.collect(gatewayId, windowMs, to, (b) => b.ch[key]);
+  }
+
+  coincidences(gatewayId: string, windowMs: number, to = this.latestEnd()): ChannelSeries | null {
+    return this.collect(gatewayId, windowMs, to, (b) => b.cc);
+  }
+
+  scan(gatewayId: string, windowMs: number, to = this.latestEnd()): ChannelSeries | null {
+    return this.collect(gatewayId, windowMs, to, (b) => b.x);
+  }
+
+  private collect(gatewayId: string, windowMs: number, to: number, pick: (b: CountBatch) => number[] | undefined): ChannelSeries | null {
+    const from = to - windowMs;
+    const parts: { t0: number; dt: number; values: number[] }[] = [];
+    for (const held of this.batches) {
+      if (held.gatewayId !== gatewayId || held.end <= from || held.batch.t0 >= to) continue;
+      const values = pick(held.batch);
+      if (values) parts.push({ t0: held.batch.t0, dt: held.batch.dt, values });
+    }
+    if (parts.length === 0) return null;
+    parts.sort((p, q) => p.t0 - q.t0);
+    const dt = parts[0]!.dt;
+    const out: number[] = [];
+    for (const p of parts) {
+      if (p.dt !== dt) continue;
+      for (let i = 0; i < p.values.length; i++) {
+        const t = p.t0 + i * dt;
+        if (t >= from && t + dt <= to) out.push(p.values[i] as number);
+      }
+    }
+    return out.length ? { counts: Float64Array.from(out), dtMs: dt } : null;
+  }
+}

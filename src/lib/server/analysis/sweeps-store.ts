@@ -1,0 +1,101 @@
+// Fitted sweeps in the database: one row per pass (bench, start, direction), written once.
+import { and, asc, eq, gte, lte } from 'drizzle-orm';
+import type { FringeFit } from '../../analysis/fringe-fit.ts';
+import type { FittedSweepSummary } from '../events.ts';
+import { getDb } from '../db/index.ts';
+import { sweeps } from '../db/schema.ts';
+import type { CompletedPass } from './sweep-tracker.ts';
+
+/** What a screen needs to draw the fit over per-bin counts, with amplitudes per raw bin. */
+export interface StoredFit {
+  amplitudeA: number;
+  amplitudeB: number;
+  visibility: number;
+  period: number;
+  phase: number;
+  quadratic: number;
+  darkPerBin: { a: number; b: number } | null;
+  shown: 'raw' | 'net';
+  dtMs: number;
+  xMin: number;
+  xMax: number;
+  outputs: FringeFit['outputs'];
+  quality: FringeFit['quality'];
+  visibilityInterval: { lower: number; upper: number; method: string };
+  warnings: string[];
+}
+
+export async function storeSweep(benchId: string, pass: CompletedPass, fit: FringeFit): Promise<FittedSweepSummary | null> {
+  const shownV = fit.shown === 'net' && fit.visibilityNet ? fit.visibilityNet : fit.visibility;
+  let bins = 0;
+  for (const n of pass.binsPerPoint) bins += n;
+  const binsPerPoint = bins / pass.binsPerPoint.length;
+  let xMin = Infinity;
+  let xMax = -Infinity;
+  for (const v of pass.x) {
+    if (v < xMin) xMin = v;
+    if (v > xMax) xMax = v;
+  }
+  const stored: StoredFit = {
+    amplitudeA: fit.amplitudeA.value / binsPerPoint,
+    amplitudeB: fit.amplitudeB.value / binsPerPoint,
+    visibility: shownV.value,
+    period: fit.period.value,
+    phase: fit.phase.value,
+    quadratic: fit.quadratic?.value ?? 0,
+    darkPerBin: fit.darkPerBin ? { a: fit.darkPerBin.a / binsPerPoint, b: fit.darkPerBin.b / binsPerPoint } : null,
+    shown: fit.shown,
+    dtMs: pass.dtMs,
+    xMin,
+    xMax,
+    outputs: fit.outputs,
+    quality: fit.quality,
+    visibilityInterval: { lower: shownV.lower, upper: shownV.upper, method: shownV.method },
+    warnings: fit.warnings,
+  };
+  const [row] = await getDb()
+    .insert(sweeps)
+    .values({
+      benchId,
+      startMs: pass.startMs,
+      endMs: pass.endMs,
+      direction: pass.direction,
+      visibility: fit.visibility.value,
+      visibilityErr: fit.visibility.err,
+      visibilityNet: fit.visibilityNet?.value ?? null,
+      phase: fit.phase.value,
+      phaseErr: fit.phase.err,
+      periodX: fit.period.value,
+      periodXErr: fit.period.err,
+      counts: fit.counts.a + fit.counts.b,
+      fit: stored,
+    })
+    .onConflictDoNothing()
+    .returning();
+  if (!row) return null;
+  return summary(row);
+}
+
+function summary(row: typeof sweeps.$inferSelect): FittedSweepSummary {
+  return {
+    id: row.id,
+    startMs: row.startMs,
+    endMs: row.endMs,
+    direction: row.direction,
+    visibility: row.visibility,
+    visibilityErr: row.visibilityErr,
+    visibilityNet: row.visibilityNet,
+    phase: row.phase,
+    periodX: row.periodX,
+    counts: row.counts,
+  };
+}
+
+export async function sweepsBetween(benchId: string, fromMs: number, toMs: number, limit = 5_000) {
+  return await getDb()
+    .select()
+    .from(sweeps)
+    .where(and(eq(sweeps.benchId, benchId), gte(sweeps.endMs, fromMs), lte(sweeps.startMs, toMs)))
+    .orderBy(asc(sweeps.startMs))
+    .limit(limit);
+}
