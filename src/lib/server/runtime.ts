@@ -1,14 +1,38 @@
 // Process-wide services that API routes (inside Astro's bundle) and the Node entry share. Kept on
 // globalThis because the modules load twice in one process (see DEVELOPERS.md, "Singletons").
 import type { Ack, Command } from '../contract/wire.ts';
+import type { FeatureMessage, LiveMessage } from '../live-messages.ts';
 
 export interface CommandSender {
   /** Publishes a command to a gateway and resolves with its ack (or a timeout error). */
   send(gatewayId: string, command: Command, timeoutMs?: number): Promise<Ack>;
+  /** Publishes without waiting for the ack (the ack still reaches the bench's live clients). */
+  publish(gatewayId: string, command: Command): Promise<void>;
+}
+
+export interface LiveService {
+  /** Pushes a message to every WebSocket client watching the bench. */
+  publish(benchId: string, message: LiveMessage | FeatureMessage): void;
+  /** Everything the live path emits (stored counts, status, acks), for in-process consumers such as fits and alarms. */
+  subscribe(listener: (benchId: string, message: LiveMessage | FeatureMessage) => void): () => void;
+  clientCount(benchId?: string): number;
+}
+
+export interface GatewaySessions {
+  /** Drops a gateway's live MQTT sessions (its token was revoked or rotated). */
+  disconnect(gatewayId: string): void;
+}
+
+export interface AnalysisFigures {
+  /** The bench's latest live figures (null until it has sent counts since the start). */
+  figures(benchId: string): import('../bench-figures.ts').BenchFigures | null;
 }
 
 export interface Runtime {
+  analysis?: AnalysisFigures;
   commands?: CommandSender;
+  live?: LiveService;
+  gatewaySessions?: GatewaySessions;
   /** Extra services registered by later stages (live hub, alarms, …), by name. */
   [service: string]: unknown;
 }

@@ -1,0 +1,167 @@
+// The physics off the ingest path: listens to stored batches, hands completed sweep passes to the
+// fitter (a worker thread), stores and announces the fits, and computes each bench's live figures
+// once a second. A slow fit never delays storing or pushing counts.
+import { eq } from 'drizzle-orm';
+import type { FringeFitOptions, FringeFitResult } from '../../analysis/fringe-fit.ts';
+import type { VisibilityPoint } from '../../analysis/running-visibility.ts';
+import type { BenchFigures } from '../../bench-figures.ts';
+import type { CountBatch } from '../../contract/wire.ts';
+import { benchChannels } from '../benches.ts';
+import { getDb } from '../db/index.ts';
+import { benches, channels as channelsTable } from '../db/schema.ts';
+import { serverEvents } from '../events.ts';
+import { computeFigures, type ChannelSettings } from './live-figures.ts';
+import { RecentBins } from './recent-bins.ts';
+import { SweepTracker, type CompletedPass } from './sweep-tracker.ts';
+import { sweepsBetween, storeSweep } from './sweeps-store.ts';
+
+export type FitFn = (pass: { x: Float64Array; a: Float64Array; b: Float64Array }, options: FringeFitOptions) => Promise<FringeFitResult>;
+export type Publish = (benchId: string, message: { type: string; bench: string; [k: string]: unknown }) => void;
+
+interface BenchState {
+  tracker: SweepTracker;
+  recent: RecentBins;
+  settings: { channels: ChannelSettings[]; coincidenceWindowNs: number; loadedAt: number } | null;
+  sweepPoints: VisibilityPoint[];
+  sweepNet: boolean;
+  phaseHistory: { t: number; theta: number }[];
+  figures: BenchFigures | null;
+  lastBatchAt: number;
+  periodHint: number | undefined;
+  fitting: Promise<void>;
+}
+
+/** Channel settings are re-read this often, ms, so an admin's edits take effect without a restart. */
+const SETTINGS_TTL_MS = 10_000;
+/** Figures are recomputed this often per active bench, ms. */
+const FIGURES_EVERY_MS = 1_000;
+/** Phase readings kept for the drift rate, s. */
+const PHASE_HISTORY_S = 60;
+/** Live window for rates and photon statistics, ms. */
+const WINDOW_MS = 10_000;
+
+export interface AnalysisService {
+  figures(benchId: string): BenchFigures | null;
+  close(): void;
+}
+
+export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisService {
+  const states = new Map<string, BenchState>();
+  const state = (benchId: string): BenchState => {
+    let s = states.get(benchId);
+    if (!s) {
+      s = { tracker: new SweepTracker(), recent: new RecentBins(), settings: null, sweepPoints: [], sweepNet: false, phaseHistory: [], figures: null, lastBatchAt: 0, periodHint: undefined, fitting: Promise.resolve() };
+      states.set(benchId, s);
+      void loadRecentSweeps(benchId, s);
+    }
+    return s;
+  };
+
+  async function settingsFor(benchId: string, s: BenchState) {
+    if (s.settings && Date.now() - s.settings.loadedAt < SETTINGS_TTL_MS) return s.settings;
+    const [bench] = await getDb().select({ cw: benches.coincidenceWindowNs }).from(benches).where(eq(benches.id, benchId)).limit(1);
+    const roles = await benchChannels(benchId);
+    const rows = await getDb().select().from(channelsTable).where(eq(channelsTable.benchId, benchId));
+    const channels: ChannelSettings[] = roles.map((r) => {
+      const row = rows.find((c) => c.gatewayId === r.gateway && c.key === r.key);
+      return {
+        ...r,
+        darkRate: row?.darkRate ?? null,
+        darkRateErr: row?.darkRateErr ?? null,
+        deadTimeNs: row?.deadTimeNs ?? null,
+        deadTimeModel: row?.deadTimeModel ?? 'nonparalyzable',
+        efficiency: row?.efficiency ?? 1,
+      };
+    });
+    s.settings = { channels, coincidenceWindowNs: bench?.cw ?? 2, loadedAt: Date.now() };
+    return s.settings;
+  }
+
+  async function loadRecentSweeps(benchId: string, s: BenchState) {
+    const now = Date.now();
+    const rows = await sweepsBetween(benchId, now - 600_000, now).catch(() => []);
+    for (const r of rows.slice(-8)) s.sweepPoints.push({ timeMs: (r.startMs + r.endMs) / 2, value: r.visibilityNet ?? r.visibility, err: r.visibilityErr });
+  }
+
+  async function fitAndStore(benchId: string, s: BenchState, pass: CompletedPass, settings: { channels: ChannelSettings[] }) {
+    const outA = settings.channels.find((c) => c.role === 'out_a');
+    const outB = settings.channels.find((c) => c.role === 'out_b');
+    let meanBins = 0;
+    for (const n of pass.binsPerPoint) meanBins += n;
+    meanBins /= pass.binsPerPoint.length;
+    const binS = (pass.dtMs / 1000) * meanBins;
+    const options: FringeFitOptions = {
+      ...(outA?.darkRate != null ? { darkA: outA.darkRate * binS } : {}),
+      ...(outB?.darkRate != null ? { darkB: outB.darkRate * binS } : {}),
+      ...(s.periodHint ? { periodHint: s.periodHint } : {}),
+    };
+    const result = await opts.fit({ x: pass.x, a: pass.a, b: pass.b }, options);
+    if (!result.ok) return;
+    s.periodHint = result.period.value;
+    const summary = await storeSweep(benchId, pass, result);
+    if (!summary) return;
+    const shown = result.shown === 'net' && result.visibilityNet ? result.visibilityNet : result.visibility;
+    s.sweepNet = result.shown === 'net';
+    s.sweepPoints.push({ timeMs: (pass.startMs + pass.endMs) / 2, value: shown.value, err: shown.err });
+    if (s.sweepPoints.length > 32) s.sweepPoints.splice(0, s.sweepPoints.length - 32);
+    serverEvents().emit('sweep-fitted', { benchId, sweep: summary });
+    const [row] = await sweepsBetween(benchId, pass.startMs, pass.startMs, 1);
+    opts.publish(benchId, { type: 'sweep', bench: benchId, sweep: { ...summary, fit: row?.fit ?? null } });
+  }
+
+  const onBatch = ({ benchId, gatewayId, batch }: { benchId: string; gatewayId: string; batch: CountBatch }) => {
+    const s = state(benchId);
+    s.recent.add(gatewayId, batch);
+    s.lastBatchAt = Date.now();
+    void settingsFor(benchId, s).then((settings) => {
+      const outA = settings.channels.find((c) => c.role === 'out_a');
+      const outB = settings.channels.find((c) => c.role === 'out_b');
+      if (!outA || !outB || outA.gateway !== gatewayId || outB.gateway !== gatewayId || !batch.x) return;
+      const a = batch.ch[outA.key];
+      const b = batch.ch[outB.key];
+      if (!a || !b) return;
+      const passes = s.tracker.push(batch.t0, batch.dt, batch.x, a, b);
+      // Fits run one after another per bench, so sweeps are stored in order.
+      for (const pass of passes) {
+        s.fitting = s.fitting.then(() => fitAndStore(benchId, s, pass, settings)).catch((err: unknown) => console.warn('[fit]', benchId, err instanceof Error ? err.message : err));
+      }
+    }).catch((err: unknown) => console.warn('[analysis]', err instanceof Error ? err.message : err));
+  };
+  serverEvents().on('batch-stored', onBatch);
+
+  const timer = setInterval(() => {
+    const now = Date.now();
+    for (const [benchId, s] of states) {
+      if (now - s.lastBatchAt > 5_000 || !s.settings) continue;
+      const { figures, phaseReading } = computeFigures({
+        benchId,
+        now,
+        windowMs: WINDOW_MS,
+        channels: s.settings.channels,
+        coincidenceWindowNs: s.settings.coincidenceWindowNs,
+        recent: s.recent,
+        sweepPoints: s.sweepPoints,
+        sweepNet: s.sweepNet,
+        phaseHistory: s.phaseHistory,
+      });
+      if (phaseReading) {
+        s.phaseHistory.push(phaseReading);
+        while (s.phaseHistory.length > 0 && phaseReading.t - (s.phaseHistory[0]?.t ?? 0) > PHASE_HISTORY_S) s.phaseHistory.shift();
+        if (figures.phase) serverEvents().emit('phase-update', { benchId, at: figures.at, phase: figures.phase.value, driftRadPerS: figures.phase.driftRadPerS });
+      } else {
+        s.phaseHistory.length = 0;
+      }
+      s.figures = figures;
+      opts.publish(benchId, { type: 'figures', bench: benchId, figures });
+    }
+  }, FIGURES_EVERY_MS);
+  timer.unref();
+
+  return {
+    figures: (benchId) => states.get(benchId)?.figures ?? null,
+    close: () => {
+      clearInterval(timer);
+      serverEvents().off('batch-stored', onBatch);
+    },
+  };
+}
