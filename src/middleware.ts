@@ -1,5 +1,6 @@
 import { defineMiddleware, sequence } from 'astro:middleware';
 import { authenticate } from './lib/server/auth/authenticate.ts';
+import { hasRole, type Role } from './lib/server/auth/roles.ts';
 import { problem } from './lib/server/http/responses.ts';
 
 // Pages anyone may open; every other page needs a signed-in user (API routes check roles themselves).
@@ -26,10 +27,18 @@ const sameOriginForCookieMutations = defineMiddleware((ctx, next) => {
   return next();
 });
 
+// Pages that need more than a signed-in observer. Others show a 403 page, not a redirect: the
+// person is signed in, just not allowed.
+const PAGE_ROLES: [RegExp, Role][] = [[/^\/admin(\/|$)/, 'admin']];
+
 const pagesNeedSignIn = defineMiddleware((ctx, next) => {
   const path = ctx.url.pathname;
-  if (path.startsWith('/api/') || ctx.locals.user || PUBLIC_PAGES.some((re) => re.test(path))) return next();
-  return ctx.redirect(`/signin?next=${encodeURIComponent(path + ctx.url.search)}`, 302);
+  if (path.startsWith('/api/') || PUBLIC_PAGES.some((re) => re.test(path))) return next();
+  const user = ctx.locals.user;
+  if (!user) return ctx.redirect(`/signin?next=${encodeURIComponent(path + ctx.url.search)}`, 302);
+  const needed = PAGE_ROLES.find(([re]) => re.test(path))?.[1];
+  if (needed && !hasRole(user.role, needed)) return ctx.rewrite('/forbidden');
+  return next();
 });
 
 export const onRequest = sequence(auth, sameOriginForCookieMutations, pagesNeedSignIn);

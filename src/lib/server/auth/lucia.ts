@@ -73,3 +73,8 @@ export async function invalidateSession(sessionId: string): Promise<CookieSpec> 
 export async function invalidateUserSessions(userId: string): Promise<void> {
   await lucia().invalidateUserSessions(userId);
 }
+
+/** After a password change: every other device signs in again, the one that made the change stays. */
+export async function invalidateOtherSessions(userId: string, keepSessionId: string | null): Promise<void> {
+  for (const s of await lucia().getUserSessions(userId)) if (s.id !== keepSessionId) await lucia().invalidateSession(s.id);
+}

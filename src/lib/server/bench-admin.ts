@@ -1,0 +1,147 @@
+// Admin changes to benches, their drive limits, channels and gateways. Each change and its audit
+// row commit together; gateway tokens are returned once and never logged.
+import { and, asc, eq } from 'drizzle-orm';
+import { z } from 'zod';
+import { benchIdSchema, channelKeySchema, gatewayIdSchema } from '../contract/wire.ts';
+import { getDb } from './db/index.ts';
+import { benches, channels, gateways, type Bench, type Channel, type Gateway } from './db/schema.ts';
+import { recordAudit } from './audit.ts';
+import type { SessionUser } from './auth/lucia.ts';
+import { HttpError } from './http/responses.ts';
+import { createBench, createGateway, revokeGateway, rotateGatewayToken, type BenchInput } from './provisioning.ts';
+import { runtime } from './runtime.ts';
+
+const num = (label: string) => z.coerce.number({ invalid_type_error: `${label} must be a number` }).finite(`${label} must be a number`);
+/** Optional numeric form field: an empty box means "not set". */
+const optionalNum = (label: string) => z.preprocess((v) => (v === '' || v === undefined ? null : v), num(label).nullable());
+
+export const benchDetailsSchema = z.object({
+  name: z.string().trim().min(1, 'a name is needed').max(100),
+  wavelengthNm: num('wavelength').min(100, 'wavelength below 100 nm?').max(20_000, 'wavelength above 20 µm?'),
+  description: z.string().trim().max(2000).default(''),
+  // 2 for a retro-reflecting mirror moved in one arm; other geometries differ (see the bench page).
+  pathFactor: num('path factor').positive('path factor must be above 0').max(10, 'path factor above 10?'),
+});
+
+/** Volts and milliseconds, the units of the wire contract's sweep command. */
+export const driveLimitsSchema = z
+  .object({
+    driveMin: num('lowest drive').min(-1000).max(1000),
+    driveMax: num('highest drive').min(-1000).max(1000),
+    driveMaxStep: num('largest step').positive('largest step must be above 0'),
+    driveMinDwellMs: num('shortest dwell').int('shortest dwell is whole milliseconds').min(1, 'shortest dwell is at least 1 ms').max(60_000),
+  })
+  .refine((v) => v.driveMin < v.driveMax, { message: 'the lowest drive must be below the highest', path: ['driveMax'] })
+  .refine((v) => v.driveMaxStep <= v.driveMax - v.driveMin, { message: 'the largest step cannot exceed the drive range', path: ['driveMaxStep'] });
+
+export const channelSettingsSchema = z
+  .object({
+    gatewayId: gatewayIdSchema,
+    key: channelKeySchema,
+    label: z.string().trim().max(60).default(''),
+    // '' clears an explicit role, so the contract's default (first two keys = outputs) applies again.
+    role: z.enum(['', 'out_a', 'out_b', 'herald', 'aux']).transform((r) => (r === '' ? null : r)),
+    darkRate: optionalNum('dark rate').refine((v) => v === null || v >= 0, 'dark rate cannot be negative'),
+    darkRateErr: optionalNum('dark rate uncertainty').refine((v) => v === null || v >= 0, 'uncertainty cannot be negative'),
+    deadTimeNs: optionalNum('dead time').refine((v) => v === null || (v >= 0 && v <= 1e6), 'dead time must be 0 … 1 000 000 ns'),
+    deadTimeModel: z.enum(['nonparalyzable', 'paralyzable']),
+    efficiency: num('efficiency').gt(0, 'efficiency must be above 0').max(10, 'relative efficiency above 10?'),
+  })
+  .refine((v) => v.darkRateErr === null || v.darkRate !== null, { message: 'give the dark rate with its uncertainty', path: ['darkRate'] });
+
+function benchSnapshot(b: Bench) {
+  const { createdAt: _created, ...rest } = b;
+  return rest;
+}
+
+async function loadBench(id: string): Promise<Bench> {
+  const [row] = await getDb().select().from(benches).where(eq(benches.id, id)).limit(1);
+  if (!row) throw new HttpError(404, `bench ${id} does not exist`);
+  return row;
+}
+
+export async function createBenchAudited(actor: SessionUser, input: BenchInput): Promise<Bench> {
+  const bench = await createBench(input);
+  await recordAudit({ actorId: actor.id, entity: 'bench', entityId: bench.id, action: 'create', after: benchSnapshot(bench) });
+  return bench;
+}
+
+async function patchBench(actor: SessionUser, id: string, action: string, patch: Partial<Bench>): Promise<Bench> {
+  return await getDb().transaction(async (tx) => {
+    const [before] = await tx.select().from(benches).where(eq(benches.id, id)).for('update');
+    if (!before) throw new HttpError(404, `bench ${id} does not exist`);
+    const [after] = await tx.update(benches).set(patch).where(eq(benches.id, id)).returning();
+    if (!after) throw new HttpError(404, `bench ${id} does not exist`);
+    await recordAudit({ actorId: actor.id, entity: 'bench', entityId: id, action, before: benchSnapshot(before), after: benchSnapshot(after) }, tx);
+    return after;
+  });
+}
+
+export async function updateBenchDetails(actor: SessionUser, id: string, input: unknown): Promise<Bench> {
+  return await patchBench(actor, id, 'update', benchDetailsSchema.parse(input));
+}
+
+export async function updateDriveLimits(actor: SessionUser, id: string, input: unknown): Promise<Bench> {
+  return await patchBench(actor, id, 'update_drive_limits', driveLimitsSchema.parse(input));
+}
+
+export interface BenchAdminView {
+  bench: Bench;
+  gateways: Pick<Gateway, 'id' | 'revokedAt' | 'lastSeenAt' | 'createdAt'>[];
+  channels: Channel[];
+}
+
+export async function benchAdminView(id: string): Promise<BenchAdminView> {
+  const db = getDb();
+  const bench = await loadBench(id);
+  const gws = await db
+    .select({ id: gateways.id, revokedAt: gateways.revokedAt, lastSeenAt: gateways.lastSeenAt, createdAt: gateways.createdAt })
+    .from(gateways)
+    .where(eq(gateways.benchId, id))
+    .orderBy(asc(gateways.createdAt), asc(gateways.id));
+  const chans = await db.select().from(channels).where(eq(channels.benchId, id)).orderBy(asc(channels.gatewayId), asc(channels.key));
+  return { bench, gateways: gws, channels: chans };
+}
+
+export async function updateChannel(actor: SessionUser, benchId: string, input: unknown): Promise<Channel> {
+  const { gatewayId, key, ...patch } = channelSettingsSchema.parse(input);
+  return await getDb().transaction(async (tx) => {
+    const where = and(eq(channels.gatewayId, gatewayId), eq(channels.key, key), eq(channels.benchId, benchId));
+    const [before] = await tx.select().from(channels).where(where).for('update');
+    if (!before) throw new HttpError(404, `channel ${gatewayId}/${key} is not on bench ${benchId}`);
+    const [after] = await tx.update(channels).set(patch).where(where).returning();
+    if (!after) throw new HttpError(404, `channel ${gatewayId}/${key} is not on bench ${benchId}`);
+    const { createdAt: _b, ...b } = before;
+    const { createdAt: _a, ...a } = after;
+    await recordAudit({ actorId: actor.id, entity: 'channel', entityId: `${gatewayId}/${key}`, action: 'update', before: b, after: a }, tx);
+    return after;
+  });
+}
+
+/** Drops the gateway's live MQTT session when the live path offers a way to (the broker may not run, e.g. in tests). */
+async function disconnectGateway(id: string): Promise<void> {
+  const disconnect = runtime()['disconnectGateway'];
+  if (typeof disconnect === 'function') await (disconnect as (gatewayId: string) => unknown)(id);
+}
+
+export const gatewayIdInput = z.object({ gatewayId: gatewayIdSchema });
+
+export async function provisionGateway(actor: SessionUser, benchId: string, gatewayId: string): Promise<{ token: string }> {
+  benchIdSchema.parse(benchId);
+  const res = await createGateway(gatewayId, benchId);
+  await recordAudit({ actorId: actor.id, entity: 'gateway', entityId: gatewayId, action: 'provision', after: { benchId } });
+  return res;
+}
+
+export async function rotateGateway(actor: SessionUser, gatewayId: string): Promise<{ token: string }> {
+  const res = await rotateGatewayToken(gatewayId);
+  await disconnectGateway(gatewayId);
+  await recordAudit({ actorId: actor.id, entity: 'gateway', entityId: gatewayId, action: 'rotate_token' });
+  return res;
+}
+
+export async function revokeGatewayAudited(actor: SessionUser, gatewayId: string): Promise<void> {
+  await revokeGateway(gatewayId);
+  await disconnectGateway(gatewayId);
+  await recordAudit({ actorId: actor.id, entity: 'gateway', entityId: gatewayId, action: 'revoke' });
+}
