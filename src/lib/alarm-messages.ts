@@ -1,0 +1,63 @@
+// The live alarm message, shared by the server (which pushes it on the bench's WebSocket) and the
+// browser islands (which parse it). Pure: no I/O, safe to bundle for the client.
+import { z } from 'zod';
+
+export const ALARM_METRICS = ['rate_high', 'rate_low', 'dark_high', 'visibility_low', 'phase_drift', 'gateway_silent', 'rejected_batches'] as const;
+export type AlarmMetric = (typeof ALARM_METRICS)[number];
+
+export const SEVERITIES = ['info', 'warning', 'critical'] as const;
+export type Severity = (typeof SEVERITIES)[number];
+
+/** Human wording and the unit of each metric's value, for forms, lists and e-mails. */
+export const METRIC_INFO: Record<AlarmMetric, { label: string; unit: string; direction: 'high' | 'low'; subject: 'channel' | 'gateway' | 'bench' }> = {
+  rate_high: { label: 'Channel rate above a limit (detector overexposure)', unit: 'counts/s', direction: 'high', subject: 'channel' },
+  rate_low: { label: 'Channel rate below a floor', unit: 'counts/s', direction: 'low', subject: 'channel' },
+  dark_high: { label: 'Dark rate high (aux channels kept dark)', unit: 'counts/s', direction: 'high', subject: 'channel' },
+  visibility_low: { label: 'Fringe visibility low', unit: '', direction: 'low', subject: 'bench' },
+  phase_drift: { label: 'Phase drifting too fast', unit: 'rad/s', direction: 'high', subject: 'bench' },
+  gateway_silent: { label: 'Gateway silent', unit: 's', direction: 'high', subject: 'gateway' },
+  rejected_batches: { label: 'Rejected batches (per minute)', unit: 'batches/min', direction: 'high', subject: 'gateway' },
+};
+
+export const alarmEventViewSchema = z.object({
+  id: z.number().int(),
+  ruleId: z.number().int(),
+  ruleName: z.string(),
+  benchId: z.string(),
+  metric: z.enum(ALARM_METRICS),
+  subject: z.string(),
+  severity: z.enum(SEVERITIES),
+  message: z.string(),
+  value: z.number().nullable(),
+  /** ISO 8601 instants. */
+  raisedAt: z.string(),
+  clearedAt: z.string().nullable(),
+  ackedAt: z.string().nullable(),
+  ackedBy: z.string().nullable(),
+  ackComment: z.string().nullable(),
+});
+export type AlarmEventView = z.infer<typeof alarmEventViewSchema>;
+
+/** `{ type: 'alarm', bench, change, event }` on /api/v1/live: the event as it is after the change. */
+export const alarmMessageSchema = z.object({
+  type: z.literal('alarm'),
+  bench: z.string(),
+  change: z.enum(['raised', 'cleared', 'acknowledged']),
+  event: alarmEventViewSchema,
+});
+export type AlarmMessage = z.infer<typeof alarmMessageSchema>;
+
+export function alarmMessage(change: AlarmMessage['change'], event: AlarmEventView): AlarmMessage {
+  return { type: 'alarm', bench: event.benchId, change, event };
+}
+
+/** Open means raised and not yet cleared; it needs attention until acknowledged. */
+export function isOpen(e: Pick<AlarmEventView, 'clearedAt'>): boolean {
+  return e.clearedAt === null;
+}
+
+/** Merges a pushed change into a list (newest first), replacing the event with the same id. */
+export function applyAlarmMessage(list: AlarmEventView[], msg: AlarmMessage, max = 100): AlarmEventView[] {
+  const rest = list.filter((e) => e.id !== msg.event.id);
+  return [msg.event, ...rest].sort((a, b) => (a.raisedAt < b.raisedAt ? 1 : a.raisedAt > b.raisedAt ? -1 : b.id - a.id)).slice(0, max);
+}

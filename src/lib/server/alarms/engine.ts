@@ -1,0 +1,259 @@
+// The alarm engine: listens to the server's event bus, feeds the pure evaluator, and does the I/O
+// for each transition — the alarm_events row, the live push to the bench's WebSocket clients, the
+// e-mail through the mail policy. One per process (registered as runtime().alarms).
+//
+// Work that touches the database runs one item at a time in order (a promise chain), so a raise
+// is always written before its clear; the evaluation itself is synchronous in the event handler,
+// which keeps the batch → alarm latency to one INSERT.
+import { and, eq, inArray, isNotNull, isNull } from 'drizzle-orm';
+import { alarmMessage, METRIC_INFO, type AlarmEventView, type AlarmMessage } from '../../alarm-messages.ts';
+import { benchChannels } from '../benches.ts';
+import { getDb } from '../db/index.ts';
+import { alarmRules, benches, gateways, type AlarmRule } from '../db/schema.ts';
+import { serverEvents, type ServerEvents } from '../events.ts';
+import { sendMail } from '../mail/send.ts';
+import { runtime } from '../runtime.ts';
+import { AlarmStates, type Transition } from './evaluator.ts';
+import { insertRaised, markCleared, openEvents } from './event-store.ts';
+import { MailPolicy, type MailPolicyOptions, type OutgoingAlarmMail } from './mail-policy.ts';
+import { rejectSamples, RejectCounter, samplesFromBatch, silentSamples, type SubjectSample } from './metrics.ts';
+
+export interface AlarmEngineOptions {
+  now?: () => number;
+  /** Timer period for silence, rejection windows and due mail, ms. */
+  tickMs?: number;
+  mail?: MailPolicyOptions;
+  send?: (mail: OutgoingAlarmMail) => Promise<void>;
+  /** Data that ended longer ago than this is history (a replay after an outage, an import) and raises nothing, ms. */
+  staleMs?: number;
+  /** How often bench names, gateways and channel roles are re-read, ms (rules reload at once on change). */
+  refreshMs?: number;
+}
+
+interface BenchContext {
+  name: string;
+  /** Gateways that can connect (have a token, not revoked): the ones that can fall silent. */
+  gateways: string[];
+  aux: Set<string>;
+}
+
+export class AlarmEngine {
+  private readonly now: () => number;
+  private readonly staleMs: number;
+  private readonly refreshMs: number;
+  private readonly policy: MailPolicy;
+  private readonly send: (mail: OutgoingAlarmMail) => Promise<void>;
+  private byBench = new Map<string, AlarmRule[]>();
+  private contexts = new Map<string, BenchContext>();
+  private readonly states = new AlarmStates();
+  private readonly lastSeen = new Map<string, number>();
+  private readonly rejects = new RejectCounter();
+  private queue: Promise<void> = Promise.resolve();
+  private timer: NodeJS.Timeout | null = null;
+  private readonly unsubscribers: (() => void)[] = [];
+  private lastRefresh = 0;
+
+  constructor(private readonly opts: AlarmEngineOptions = {}) {
+    this.now = opts.now ?? Date.now;
+    this.staleMs = opts.staleMs ?? 120_000;
+    this.refreshMs = opts.refreshMs ?? 30_000;
+    this.policy = new MailPolicy(opts.mail);
+    this.send = opts.send ?? sendMail;
+  }
+
+  async start(): Promise<void> {
+    await this.reload();
+    const bus = serverEvents();
+    const on = <E extends keyof ServerEvents>(name: E, fn: (...args: ServerEvents[E]) => void) => {
+      bus.on(name, fn as never);
+      this.unsubscribers.push(() => bus.off(name, fn as never));
+    };
+    on('batch-stored', (e) => this.onBatch(e));
+    on('batch-rejected', (e) => this.onRejected(e));
+    on('gateway-status', (e) => this.lastSeen.set(e.gatewayId, e.at));
+    on('sweep-fitted', (e) => this.evaluate(e.benchId, 'visibility_low', e.sweep.endMs, () => [{ subject: '', sample: { at: e.sweep.endMs, value: e.sweep.visibility } }]));
+    on('phase-update', (e) =>
+      this.evaluate(e.benchId, 'phase_drift', e.at, () => (e.driftRadPerS === null ? [] : [{ subject: '', sample: { at: e.at, value: Math.abs(e.driftRadPerS) } }])),
+    );
+    this.timer = setInterval(() => this.tick(), this.opts.tickMs ?? 1_000);
+    this.timer.unref();
+  }
+
+  async stop(): Promise<void> {
+    if (this.timer) clearInterval(this.timer);
+    this.timer = null;
+    for (const off of this.unsubscribers.splice(0)) off();
+    await this.idle();
+    await this.sendDue();
+  }
+
+  /** Resolves when every queued write has run. */
+  idle(): Promise<void> {
+    return this.queue;
+  }
+
+  /** Re-reads the rules (after a change) and the bench context; closes events of rules now gone or disabled. */
+  reload(): Promise<void> {
+    return this.enqueue(() => this.load());
+  }
+
+  /** Runs the timer work now (tests drive it with fake time). */
+  tick(): void {
+    const now = this.now();
+    for (const benchId of this.byBench.keys()) {
+      const ctx = this.contexts.get(benchId);
+      if (!ctx) continue;
+      this.evaluate(benchId, 'gateway_silent', now, (rule) => silentSamples(rule, ctx.gateways, this.lastSeen, now));
+      this.evaluate(benchId, 'rejected_batches', now, (rule) => rejectSamples(rule, ctx.gateways, this.rejects, now));
+    }
+    void this.sendDue();
+    if (now - this.lastRefresh >= this.refreshMs) void this.reload();
+  }
+
+  private onBatch(e: ServerEvents['batch-stored'][0]): void {
+    this.lastSeen.set(e.gatewayId, e.receivedAt);
+    const rules = this.byBench.get(e.benchId);
+    if (!rules) return;
+    const n = Object.values(e.batch.ch)[0]?.length ?? 0;
+    const end = e.batch.t0 + n * e.batch.dt;
+    const aux = this.contexts.get(e.benchId)?.aux ?? new Set<string>();
+    for (const metric of ['rate_high', 'rate_low', 'dark_high'] as const) {
+      this.evaluate(e.benchId, metric, end, (rule) => samplesFromBatch(rule, e.gatewayId, e.batch, aux));
+    }
+  }
+
+  private onRejected(e: ServerEvents['batch-rejected'][0]): void {
+    if (!e.benchId) return;
+    this.rejects.add(e.gatewayId, e.at);
+    const ctx = this.contexts.get(e.benchId);
+    if (ctx) this.evaluate(e.benchId, 'rejected_batches', e.at, (rule) => rejectSamples(rule, ctx.gateways, this.rejects, e.at));
+  }
+
+  private evaluate(benchId: string, metric: AlarmRule['metric'], dataAt: number, samplesOf: (rule: AlarmRule) => SubjectSample[]): void {
+    const rules = this.byBench.get(benchId)?.filter((r) => r.metric === metric);
+    if (!rules?.length || dataAt < this.now() - this.staleMs) return;
+    for (const rule of rules) {
+      for (const { subject, sample } of samplesOf(rule)) {
+        const t = this.states.feed(rule.id, subject, rule, sample);
+        if (t) void this.enqueue(() => this.apply(rule, subject, t));
+      }
+    }
+  }
+
+  private enqueue(work: () => Promise<void>): Promise<void> {
+    this.queue = this.queue.then(work).catch((err: unknown) => console.error('[alarms]', err));
+    return this.queue;
+  }
+
+  private async apply(rule: AlarmRule, subject: string, t: Transition): Promise<void> {
+    let view: AlarmEventView | null;
+    if (t.kind === 'raise') {
+      view = await insertRaised({ ruleId: rule.id, benchId: rule.benchId, subject, severity: rule.severity, message: describe(rule, subject, t.value), value: t.value, at: t.at });
+    } else {
+      view = await markCleared(rule.id, subject, t.at);
+    }
+    if (!view) return;
+    const change = t.kind === 'raise' ? 'raised' : 'cleared';
+    publishAlarm(alarmMessage(change, view));
+    this.policy.offer(
+      {
+        ruleId: rule.id,
+        ruleName: rule.name,
+        benchId: rule.benchId,
+        benchName: this.contexts.get(rule.benchId)?.name ?? rule.benchId,
+        metric: rule.metric,
+        subject,
+        severity: rule.severity,
+        change,
+        value: t.value,
+        threshold: rule.threshold,
+        clearThreshold: rule.clearThreshold,
+        at: t.at,
+        recipients: rule.recipients,
+      },
+      this.now(),
+    );
+  }
+
+  private async sendDue(): Promise<void> {
+    for (const mail of this.policy.due(this.now())) {
+      try {
+        await this.send(mail);
+      } catch (err) {
+        // Not retried: the event stays on the bench page; a mail server outage must not queue a storm.
+        console.warn('[alarms] mail not sent:', err instanceof Error ? err.message : err);
+      }
+    }
+  }
+
+  private async load(): Promise<void> {
+    const db = getDb();
+    this.lastRefresh = this.now();
+    const rules = await db.select().from(alarmRules).where(eq(alarmRules.enabled, true));
+    const byBench = new Map<string, AlarmRule[]>();
+    for (const r of rules) byBench.set(r.benchId, [...(byBench.get(r.benchId) ?? []), r]);
+    const benchIds = [...byBench.keys()];
+    const contexts = new Map<string, BenchContext>();
+    if (benchIds.length) {
+      const names = await db.select({ id: benches.id, name: benches.name }).from(benches).where(inArray(benches.id, benchIds));
+      const gws = await db
+        .select({ id: gateways.id, benchId: gateways.benchId, lastSeenAt: gateways.lastSeenAt, createdAt: gateways.createdAt })
+        .from(gateways)
+        .where(and(inArray(gateways.benchId, benchIds), isNotNull(gateways.tokenHash), isNull(gateways.revokedAt)));
+      for (const b of names) {
+        const channels = await benchChannels(b.id);
+        contexts.set(b.id, {
+          name: b.name,
+          gateways: gws.filter((g) => g.benchId === b.id).map((g) => g.id),
+          aux: new Set(channels.filter((c) => c.role === 'aux').map((c) => `${c.gateway}/${c.key}`)),
+        });
+      }
+      // Silence counts from the last message stored before this start, or from the gateway's creation.
+      for (const g of gws) if (!this.lastSeen.has(g.id)) this.lastSeen.set(g.id, (g.lastSeenAt ?? g.createdAt).getTime());
+    }
+    this.byBench = byBench;
+    this.contexts = contexts;
+
+    const enabled = new Map(rules.map((r) => [r.id, r]));
+    for (const open of await openEvents()) {
+      if (enabled.has(open.ruleId)) {
+        if (this.states.get(open.ruleId, open.subject).phase !== 'raised') this.states.restoreRaised(open.ruleId, open.subject, open.raisedAt.getTime());
+        continue;
+      }
+      // The rule was disabled: its open alarms end now rather than hang open forever.
+      const view = await markCleared(open.ruleId, open.subject, this.now());
+      if (view) publishAlarm(alarmMessage('cleared', view));
+      this.states.forgetRule(open.ruleId);
+    }
+  }
+}
+
+function fmt(v: number): string {
+  return Math.abs(v) >= 1e4 ? v.toExponential(2) : String(Number(v.toPrecision(4)));
+}
+
+function describe(rule: AlarmRule, subject: string, value: number): string {
+  const info = METRIC_INFO[rule.metric];
+  const unit = info.unit ? ` ${info.unit}` : '';
+  const where = subject ? `${subject}: ` : '';
+  return `${where}${info.label.toLowerCase()} — ${fmt(value)}${unit}, limit ${fmt(rule.threshold)}${unit}`;
+}
+
+/** Pushes to the bench's WebSocket clients when the live hub runs in this process. */
+export function publishAlarm(msg: AlarmMessage): void {
+  runtime().live?.publish(msg.bench, msg);
+}
+
+const KEY = 'alarms';
+
+export async function startAlarmEngine(opts: AlarmEngineOptions = {}): Promise<AlarmEngine> {
+  const engine = new AlarmEngine(opts);
+  await engine.start();
+  runtime()[KEY] = engine;
+  return engine;
+}
+
+export async function stopAlarmEngine(engine: AlarmEngine): Promise<void> {
+  await engine.stop();
+  if (runtime()[KEY] === engine) delete runtime()[KEY];
+}

@@ -1,0 +1,64 @@
+import { describe, expect, it } from 'vitest';
+import { MailPolicy, type MailItem } from './mail-policy.ts';
+
+const base: MailItem = {
+  ruleId: 1,
+  ruleName: 'Detector A overexposed',
+  benchId: 'mz-1',
+  benchName: 'Mach–Zehnder 1',
+  metric: 'rate_high',
+  subject: 'gw-1/a',
+  severity: 'critical',
+  change: 'raised',
+  value: 2.5e6,
+  threshold: 2e6,
+  clearThreshold: 1.5e6,
+  at: 0,
+  recipients: ['night@lab.example'],
+};
+
+describe('alarm mail policy', () => {
+  it('sends one mail after the gather time, with the rule, value and limits', () => {
+    const p = new MailPolicy();
+    p.offer(base, 0);
+    expect(p.due(1_000)).toEqual([]);
+    const [mail, ...rest] = p.due(2_000);
+    expect(rest).toEqual([]);
+    expect(mail!.to).toEqual(['night@lab.example']);
+    expect(mail!.subject).toContain('CRITICAL raised');
+    expect(mail!.subject).toContain('Detector A overexposed');
+    expect(mail!.text).toContain('2500000 counts/s');
+    expect(mail!.text).toContain('Raises above 2000000 counts/s, clears below 1500000 counts/s');
+  });
+
+  it('folds a flapping rule into one digest per quiet period', () => {
+    const p = new MailPolicy({ quietMs: 600_000, gatherMs: 2_000 });
+    const sent: string[] = [];
+    for (let t = 0; t <= 1_200_000; t += 1_000) {
+      // Raise/clear every 5 s for 20 minutes: 480 changes.
+      if (t % 5_000 === 0) p.offer({ ...base, change: (t / 5_000) % 2 ? 'cleared' : 'raised', at: t }, t);
+      for (const m of p.due(t)) sent.push(m.subject);
+    }
+    expect(sent.length).toBeLessThanOrEqual(3);
+    expect(sent[0]).toContain('raised');
+    expect(sent[1]).toContain('digest');
+  });
+
+  it('sends one digest per recipient list when many rules fire together', () => {
+    const p = new MailPolicy();
+    for (let i = 1; i <= 5; i++) p.offer({ ...base, ruleId: i, ruleName: `Rule ${i}` }, 0);
+    p.offer({ ...base, ruleId: 9, recipients: ['other@lab.example'] }, 500);
+    const mails = p.due(2_000);
+    expect(mails).toHaveLength(2);
+    const digest = mails.find((m) => m.to[0] === 'night@lab.example')!;
+    expect(digest.subject).toContain('5 alarm changes');
+    for (let i = 1; i <= 5; i++) expect(digest.text).toContain(`Rule ${i}`);
+  });
+
+  it('sends nothing for rules without recipients', () => {
+    const p = new MailPolicy();
+    p.offer({ ...base, recipients: [] }, 0);
+    expect(p.due(10_000)).toEqual([]);
+    expect(p.pending()).toBe(false);
+  });
+});

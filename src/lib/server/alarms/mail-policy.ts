@@ -1,0 +1,154 @@
+// When alarm e-mail goes out, pure (time passed in, mails handed back; the engine sends them).
+// - Per rule, at most one mail per quiet period (10 min by default): a flapping signal sends one
+//   mail, and every later change of that rule within the period is folded into a digest sent when
+//   the period ends.
+// - Changes that arrive together (within `gatherMs`, 2 s by default) are sent as one mail per
+//   recipient list: a digest when several rules fire at once (a power cut trips them all).
+import { METRIC_INFO, type AlarmMetric, type Severity } from '../../alarm-messages.ts';
+
+export interface MailItem {
+  ruleId: number;
+  ruleName: string;
+  benchId: string;
+  benchName: string;
+  metric: AlarmMetric;
+  subject: string;
+  severity: Severity;
+  change: 'raised' | 'cleared';
+  value: number | null;
+  threshold: number;
+  clearThreshold: number;
+  /** ms since the epoch. */
+  at: number;
+  recipients: readonly string[];
+}
+
+export interface OutgoingAlarmMail {
+  to: string[];
+  subject: string;
+  text: string;
+}
+
+export interface MailPolicyOptions {
+  /** ms between two mails about the same rule. */
+  quietMs?: number;
+  /** ms to wait for other changes before sending, so simultaneous ones share one mail. */
+  gatherMs?: number;
+}
+
+export const DEFAULT_QUIET_MS = 10 * 60_000;
+export const DEFAULT_GATHER_MS = 2_000;
+
+export class MailPolicy {
+  private readonly quietMs: number;
+  private readonly gatherMs: number;
+  private readonly lastSent = new Map<number, number>();
+  private ready: MailItem[] = [];
+  private readyFrom = 0;
+  private readonly folded = new Map<number, MailItem[]>();
+
+  constructor(opts: MailPolicyOptions = {}) {
+    this.quietMs = opts.quietMs ?? DEFAULT_QUIET_MS;
+    this.gatherMs = opts.gatherMs ?? DEFAULT_GATHER_MS;
+  }
+
+  offer(item: MailItem, now: number): void {
+    if (item.recipients.length === 0) return;
+    const last = this.lastSent.get(item.ruleId);
+    const quiet = last !== undefined && now - last < this.quietMs;
+    if (quiet || this.ready.some((r) => r.ruleId === item.ruleId)) {
+      const list = this.folded.get(item.ruleId) ?? [];
+      list.push(item);
+      this.folded.set(item.ruleId, list);
+      return;
+    }
+    if (this.ready.length === 0) this.readyFrom = now;
+    this.ready.push(item);
+  }
+
+  /** Mails due at `now`; call it from a timer (every second is plenty). */
+  due(now: number): OutgoingAlarmMail[] {
+    const items: { item: MailItem; folded: boolean }[] = [];
+    if (this.ready.length > 0 && now - this.readyFrom >= this.gatherMs) {
+      for (const item of this.ready) items.push({ item, folded: false });
+      this.ready = [];
+    }
+    for (const [ruleId, list] of this.folded) {
+      const last = this.lastSent.get(ruleId);
+      const inReady = this.ready.some((r) => r.ruleId === ruleId);
+      if (!inReady && (last === undefined || now - last >= this.quietMs)) {
+        for (const item of list) items.push({ item, folded: true });
+        this.folded.delete(ruleId);
+      }
+    }
+    if (items.length === 0) return [];
+    for (const { item } of items) this.lastSent.set(item.ruleId, now);
+    const groups = new Map<string, { item: MailItem; folded: boolean }[]>();
+    for (const entry of items) {
+      const key = [...entry.item.recipients].sort().join(',');
+      groups.set(key, [...(groups.get(key) ?? []), entry]);
+    }
+    return [...groups.entries()].map(([key, group]) => {
+      const to = key.split(',');
+      const only = group[0]!;
+      return group.length === 1 && !only.folded ? { to, ...formatSingle(only.item) } : { to, ...formatDigest(group.map((g) => g.item), this.quietMs) };
+    });
+  }
+
+  /** True while mail is waiting (the engine flushes it on shutdown). */
+  pending(): boolean {
+    return this.ready.length > 0 || this.folded.size > 0;
+  }
+}
+
+function fmtValue(metric: AlarmMetric, v: number | null): string {
+  if (v === null) return '—';
+  const unit = METRIC_INFO[metric].unit;
+  const digits = Math.abs(v) >= 100 ? 0 : Math.abs(v) >= 1 ? 2 : 4;
+  return `${v.toFixed(digits)}${unit ? ' ' + unit : ''}`;
+}
+
+function about(item: MailItem): string {
+  return item.subject ? ` (${item.subject})` : '';
+}
+
+function describe(item: MailItem): string[] {
+  const info = METRIC_INFO[item.metric];
+  const word = info.direction === 'high' ? 'above' : 'below';
+  const back = info.direction === 'high' ? 'below' : 'above';
+  return [
+    `Bench:     ${item.benchName} (${item.benchId})`,
+    `Rule:      ${item.ruleName}${about(item)}`,
+    `Metric:    ${info.label}`,
+    `Severity:  ${item.severity}`,
+    `Change:    ${item.change} at ${new Date(item.at).toISOString()}`,
+    `Value:     ${fmtValue(item.metric, item.value)}`,
+    `Raises ${word} ${fmtValue(item.metric, item.threshold)}, clears ${back} ${fmtValue(item.metric, item.clearThreshold)}.`,
+  ];
+}
+
+export function formatSingle(item: MailItem): { subject: string; text: string } {
+  return {
+    subject: `[Fringewise] ${item.severity.toUpperCase()} ${item.change}: ${item.benchName} — ${item.ruleName}${about(item)}`,
+    text: [...describe(item), '', 'Acknowledge it on the bench page in Fringewise.'].join('\n'),
+  };
+}
+
+export function formatDigest(items: MailItem[], quietMs = DEFAULT_QUIET_MS): { subject: string; text: string } {
+  const sorted = [...items].sort((a, b) => a.at - b.at);
+  const raised = sorted.filter((i) => i.change === 'raised').length;
+  const benches = [...new Set(sorted.map((i) => i.benchName))].join(', ');
+  const lines = sorted.map(
+    (i) => `${new Date(i.at).toISOString()}  ${i.change.padEnd(7)}  ${i.severity.padEnd(8)}  ${i.benchName} — ${i.ruleName}${about(i)}: ${fmtValue(i.metric, i.value)}`,
+  );
+  return {
+    subject: `[Fringewise] digest: ${sorted.length} alarm changes (${raised} raised) on ${benches}`,
+    text: [
+      `${sorted.length} alarm changes, oldest first. Changes of one rule within ${Math.round(quietMs / 60_000)} min of its last mail are gathered here rather than sent one by one.`,
+      '',
+      ...lines,
+      '',
+      'Acknowledge them on the bench pages in Fringewise.',
+    ].join('\n'),
+  };
+}
