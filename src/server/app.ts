@@ -1,5 +1,5 @@
 // Starts every part of Fringewise in one process, in order, and stops them in reverse:
-// database → migrations → demo seed → mail catcher → web server.
+// database → migrations → demo seed → mail catcher → live path (broker, ingest, hub) → web server.
 import { closeDb } from '../lib/server/db/index.ts';
 import { migrateDatabase } from '../lib/server/db/migrate.ts';
 import { startMailCatcher } from '../lib/server/mail/catcher.ts';
@@ -7,6 +7,7 @@ import { mailCatcherEnabled } from '../lib/server/mail/config.ts';
 import { buildIfStale } from './build.ts';
 import { connectDatabase } from './database.ts';
 import { startWebServer, type UpgradeHandler } from './http.ts';
+import { livePathOptionsFromEnv, startLivePath, type LivePathOptions } from './live-path.ts';
 
 export interface AppOptions {
   port: number;
@@ -14,10 +15,16 @@ export interface AppOptions {
   seed: boolean;
   simulate: boolean;
   build: boolean;
+  live: LivePathOptions;
+  /** False starts only the live path (the fault tests run the server this way, without a build). */
+  web: boolean;
 }
 
 export interface RunningApp {
+  /** Empty when started without the web server. */
   url: string;
+  /** The embedded broker's port (null with an external broker). */
+  mqttPort: number | null;
   close(): Promise<void>;
 }
 
@@ -28,6 +35,8 @@ export function optionsFromEnv(): AppOptions {
     seed: process.env['FRINGEWISE_SEED'] !== '0',
     simulate: process.env['FRINGEWISE_SIMULATE'] !== '0',
     build: process.env['FRINGEWISE_BUILD'] !== '0',
+    live: livePathOptionsFromEnv(),
+    web: process.env['FRINGEWISE_WEB'] !== '0',
   };
 }
 
@@ -43,7 +52,7 @@ export async function startApp(opts: AppOptions): Promise<RunningApp> {
     }
   };
   try {
-    if (opts.build) buildIfStale();
+    if (opts.build && opts.web) buildIfStale();
     const cluster = await connectDatabase();
     if (cluster?.startedHere) stops.push(() => cluster.stop());
     stops.push(() => closeDb());
@@ -57,10 +66,14 @@ export async function startApp(opts: AppOptions): Promise<RunningApp> {
       process.env['FRINGEWISE_CATCHER_URL'] = catcher.url;
       stops.push(() => catcher.close());
     }
-    const upgrades: Record<string, UpgradeHandler> = {};
+    const live = await startLivePath(opts.live);
+    stops.push(() => live.close());
+    console.log(live.transport.port === null ? '[mqtt] connected to the external broker' : `[mqtt] broker listening on ${opts.live.mqttHost}:${live.transport.port}`);
+    const upgrades: Record<string, UpgradeHandler> = { ...live.upgrades };
+    if (!opts.web) return { url: '', mqttPort: live.transport.port, close: stopAll };
     const web = await startWebServer({ port: opts.port, host: opts.host, upgrades });
     stops.push(() => web.close());
-    return { url: web.url, close: stopAll };
+    return { url: web.url, mqttPort: live.transport.port, close: stopAll };
   } catch (err) {
     await stopAll();
     throw err;

@@ -7,6 +7,7 @@ import { benchIdSchema, gatewayIdSchema } from '../contract/wire.ts';
 import { getDb } from './db/index.ts';
 import { benches, gatewayHealth, gateways, type Bench } from './db/schema.ts';
 import { hashSecret, newSecret } from './auth/secrets.ts';
+import { runtime } from './runtime.ts';
 import { DuplicateError } from './users.ts';
 
 export const GATEWAY_TOKEN_PREFIX = 'fwg_';
@@ -49,12 +50,14 @@ export async function rotateGatewayToken(id: string): Promise<{ token: string }>
   const token = newSecret(GATEWAY_TOKEN_PREFIX);
   const res = await getDb().update(gateways).set({ tokenHash: hashSecret(token), revokedAt: null }).where(eq(gateways.id, id)).returning({ id: gateways.id });
   if (!res.length) throw new NotFoundError(`gateway ${id} does not exist`);
+  runtime().gatewaySessions?.disconnect(id);
   return { token };
 }
 
 export async function revokeGateway(id: string): Promise<void> {
   const res = await getDb().update(gateways).set({ tokenHash: null, revokedAt: new Date() }).where(eq(gateways.id, id)).returning({ id: gateways.id });
   if (!res.length) throw new NotFoundError(`gateway ${id} does not exist`);
+  runtime().gatewaySessions?.disconnect(id);
 }
 
 /** The broker's CONNECT check: the gateway exists, is not revoked, and the token matches its hash. */

@@ -1,0 +1,84 @@
+// The live WebSocket protocol (`/api/v1/live?bench=`), shared by the server hub and the browser's
+// socket module. Pure: no I/O, safe to bundle into islands. The `counts` shape is fixed by the wire
+// contract; the other message types are ours.
+import { z } from 'zod';
+
+/** One stored batch (or several contiguous ones merged), as the contract's count message. */
+export interface CountsMessage {
+  type: 'counts';
+  bench: string;
+  gateway: string;
+  /** Start of the first bin, ms since the epoch. */
+  t0: number;
+  /** Bin width, ms. */
+  dt: number;
+  ch: Record<string, number[]>;
+  x?: number[];
+  cc?: number[];
+}
+
+export interface StatusMessage {
+  type: 'status';
+  bench: string;
+  gateway: string;
+  state: 'online' | 'offline';
+  /** Server time the status arrived, ms since the epoch. */
+  at: number;
+  channels?: string[];
+  scan?: { min: number; max: number; unit: string };
+  software?: string;
+}
+
+export interface AckMessage {
+  type: 'ack';
+  bench: string;
+  gateway: string;
+  id: string;
+  ok: boolean;
+  error?: string;
+}
+
+/**
+ * The server dropped count messages for this client because it did not keep up. `from`/`to`
+ * bound the bin times lost (ms); the client may send `resume` with `since: from` to refetch them.
+ */
+export interface DroppedMessage {
+  type: 'dropped';
+  bench: string;
+  messages: number;
+  from: number;
+  to: number;
+}
+
+/** Ends the replay that answers a `resume`; `complete: false` means the replay hit its cap. */
+export interface ResumedMessage {
+  type: 'resumed';
+  bench: string;
+  since: number;
+  until: number;
+  batches: number;
+  complete: boolean;
+}
+
+/** A client message the server could not accept. */
+export interface ErrorMessage {
+  type: 'error';
+  error: string;
+}
+
+/** Anything another feature (fits, alarms, …) pushes through `hub.publish`. */
+export interface FeatureMessage {
+  type: string;
+  bench: string;
+  [field: string]: unknown;
+}
+
+export type LiveMessage = CountsMessage | StatusMessage | AckMessage | DroppedMessage | ResumedMessage | ErrorMessage;
+
+/** Messages a client may send. */
+export const clientMessageSchema = z.discriminatedUnion('type', [
+  z.object({ type: z.literal('resume'), since: z.number().int().min(0).max(Number.MAX_SAFE_INTEGER) }),
+]);
+export type ClientMessage = z.infer<typeof clientMessageSchema>;
+
+export const LIVE_PATH = '/api/v1/live';

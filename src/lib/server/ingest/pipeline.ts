@@ -1,0 +1,66 @@
+// The ingest pipeline, transport-agnostic: both broker modes hand it (gateway, kind, payload) and
+// acknowledge the MQTT message when `handle` resolves. decode → store → fan-out.
+import type { CountsMessage } from '../../live-messages.ts';
+import type { Slice } from './coverage.ts';
+import { decodeInbound, type InboundKind } from './decode.ts';
+import { Fanout } from './fanout.ts';
+import { GatewayDirectory } from './gateway-directory.ts';
+import { storeStatus } from './status-store.ts';
+import { BatchWriter, type StoredEvent } from './store.ts';
+
+export function countsMessage(benchId: string, gatewayId: string, s: Slice): CountsMessage {
+  const ch: Record<string, number[]> = {};
+  s.keys.forEach((k, i) => (ch[k] = s.counts.slice(i * s.n, (i + 1) * s.n)));
+  const msg: CountsMessage = { type: 'counts', bench: benchId, gateway: gatewayId, t0: s.t0, dt: s.dt, ch };
+  if (s.x) msg.x = s.x;
+  if (s.cc) msg.cc = s.cc;
+  return msg;
+}
+
+export class Ingest {
+  readonly fanout = new Fanout();
+  readonly directory = new GatewayDirectory();
+  readonly writer = new BatchWriter((e) => this.onStored(e));
+
+  /**
+   * Handles one message a gateway published on its own topic. Resolves when the message may be
+   * acknowledged: stored durably, recognised as a duplicate, or counted as rejected. Never rejects,
+   * so a bad payload can neither crash the server nor be redelivered forever.
+   */
+  async handle(gatewayId: string, kind: InboundKind, payload: Uint8Array, arrivedAt = Date.now()): Promise<void> {
+    try {
+      const benchId = await this.directory.benchOf(gatewayId);
+      if (!benchId) {
+        // Only reachable with an external broker whose ACL lets an unknown gateway id publish.
+        console.warn(`[ingest] ignored ${kind} from unknown gateway ${gatewayId}`);
+        return;
+      }
+      const decoded = decodeInbound(kind, payload);
+      if (!decoded.ok) {
+        await this.writer.reject(gatewayId, `${kind}: ${decoded.reason}`);
+        return;
+      }
+      const msg = decoded.value;
+      if (msg.kind === 'counts') {
+        const outcome = await this.writer.submit(gatewayId, msg.value, arrivedAt);
+        if (outcome.kind === 'rejected') console.warn(`[ingest] ${gatewayId}: batch rejected: ${outcome.reason}`);
+      } else if (msg.kind === 'status') {
+        await storeStatus(gatewayId, msg.value);
+        const { state, channels, scan, software } = msg.value;
+        this.fanout.emit(benchId, { type: 'status', bench: benchId, gateway: gatewayId, state, at: arrivedAt, ...(channels && { channels }), ...(scan && { scan }), ...(software && { software }) });
+      } else {
+        const { id, ok, error } = msg.value;
+        this.fanout.emit(benchId, { type: 'ack', bench: benchId, gateway: gatewayId, id, ok, ...(error !== undefined && { error }) });
+      }
+    } catch (err) {
+      // A bug or a non-transient database error: log it and acknowledge, so the server keeps running.
+      console.error(`[ingest] ${gatewayId} ${kind}:`, err);
+    }
+  }
+
+  private onStored(e: StoredEvent): void {
+    const benchId = this.directory.cached(e.gatewayId);
+    if (!benchId) return;
+    for (const s of e.slices) this.fanout.emit(benchId, countsMessage(benchId, e.gatewayId, s));
+  }
+}

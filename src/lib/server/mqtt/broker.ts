@@ -1,0 +1,125 @@
+// The embedded MQTT broker (aedes) on 127.0.0.1:MQTT_PORT. Policy lives in the named hooks below.
+//
+// Durability: for QoS 1, aedes writes PUBACK only after `authorizePublish` calls back, and before it
+// runs `published` (lib/handlers/publish.js: authorizePublish → enqueuePublish → PubAck → publish).
+// So the ingest runs INSIDE authorizePublish: a gateway is told a batch is safe only after COMMIT,
+// and a server killed mid-stream leaves unacknowledged batches with the gateway, which re-sends them.
+import net from 'node:net';
+import { Aedes, type AuthenticateError, type Client, type PublishPacket, type Subscription } from 'aedes';
+import { eq } from 'drizzle-orm';
+import { getDb } from '../db/index.ts';
+import { gateways } from '../db/schema.ts';
+import type { Ingest } from '../ingest/pipeline.ts';
+import { verifyGatewayToken } from '../provisioning.ts';
+import { gatewayMayPublish, gatewayMaySubscribe } from './topic-policy.ts';
+import type { MqttTransport } from './transport.ts';
+
+export interface EmbeddedBrokerOptions {
+  host: string;
+  /** 0 picks a free port (tests). */
+  port: number;
+  prefix: string;
+  ingest: Ingest;
+}
+
+function authError(returnCode: 3 | 4 | 5, message: string): AuthenticateError {
+  return Object.assign(new Error(message), { returnCode }) as AuthenticateError;
+}
+
+export async function startEmbeddedBroker(opts: EmbeddedBrokerOptions): Promise<MqttTransport> {
+  const { prefix, ingest } = opts;
+  const gatewayOf = new WeakMap<Client, string>();
+  const sessions = new Map<string, Set<Client>>();
+
+  // CONNECT: username = gateway id, password = its token (contract, "Transport").
+  async function authenticate(client: Client, username: string | undefined, password: Buffer | undefined, done: (err: AuthenticateError | null, ok: boolean | null) => void) {
+    const id = username ?? '';
+    try {
+      const ok = await verifyGatewayToken(id, password?.toString('utf8') ?? '');
+      if (ok) {
+        gatewayOf.set(client, id);
+        ingest.directory.remember(id, ok.benchId);
+        return done(null, true);
+      }
+      const [row] = await getDb().select({ revokedAt: gateways.revokedAt }).from(gateways).where(eq(gateways.id, id)).limit(1);
+      if (row) void ingest.writer.refused(id, row.revokedAt ? 'connect with a revoked gateway' : 'connect with a wrong token');
+      // 3.1.1 §3.2.2.3: 4 = bad user name or password, 5 = not authorised (revoked).
+      done(row?.revokedAt ? authError(5, 'gateway revoked') : authError(4, 'bad gateway id or token'), null);
+    } catch (err) {
+      console.warn('[mqtt] token check failed:', err instanceof Error ? err.message : err);
+      done(authError(3, 'server unavailable'), null);
+    }
+  }
+
+  // PUBLISH: only own counts/status/ack; `$` topics stay the broker's (the default hook's guard,
+  // which a custom hook replaces). Refusing closes the connection: 3.1.1 has no negative PUBACK.
+  function authorizePublish(client: Client | null, packet: PublishPacket, callback: (err?: Error | null) => void) {
+    const gw = client ? gatewayOf.get(client) : undefined;
+    if (!gw) return callback(new Error('not a gateway session'));
+    const verdict = gatewayMayPublish(gw, packet.topic, prefix);
+    if (!verdict.ok) {
+      void ingest.writer.refused(gw, verdict.reason);
+      return callback(new Error(verdict.reason));
+    }
+    const payload = typeof packet.payload === 'string' ? Buffer.from(packet.payload) : packet.payload;
+    void ingest.handle(gw, verdict.kind, payload).then(() => callback(null));
+  }
+
+  // SUBSCRIBE: only its own cmd. cb(null, null) refuses that one topic (SUBACK 0x80) and keeps the session.
+  function authorizeSubscribe(client: Client, sub: Subscription, callback: (err: Error | null, sub?: Subscription | null) => void) {
+    const gw = gatewayOf.get(client);
+    if (gw && gatewayMaySubscribe(gw, sub.topic, prefix)) return callback(null, sub);
+    if (gw) void ingest.writer.refused(gw, `subscribe to ${sub.topic.slice(0, 80)}`);
+    callback(null, null);
+  }
+
+  const broker = new Aedes({ authenticate, authorizePublish, authorizeSubscribe });
+  await broker.listen();
+  broker.on('clientReady', (client) => {
+    const gw = gatewayOf.get(client);
+    if (!gw) return;
+    const set = sessions.get(gw) ?? new Set();
+    set.add(client);
+    sessions.set(gw, set);
+  });
+  broker.on('clientDisconnect', (client) => {
+    const gw = gatewayOf.get(client);
+    if (gw) sessions.get(gw)?.delete(client);
+  });
+
+  const sockets = new Set<net.Socket>();
+  const server = net.createServer((socket) => {
+    // Nagle's algorithm adds tens of ms to small MQTT packets (stack notes, TCP_NODELAY lesson).
+    socket.setNoDelay(true);
+    sockets.add(socket);
+    socket.on('close', () => sockets.delete(socket));
+    broker.handle(socket);
+  });
+  await new Promise<void>((resolve, reject) => {
+    server.once('error', reject);
+    server.listen(opts.port, opts.host, () => resolve());
+  });
+  const addr = server.address();
+  const port = typeof addr === 'object' && addr ? addr.port : opts.port;
+
+  return {
+    mode: 'embedded',
+    port,
+    publish: (topic, payload) =>
+      new Promise((resolve, reject) =>
+        broker.publish({ cmd: 'publish', topic, payload: Buffer.from(payload), qos: 1, retain: false, dup: false }, (err) => (err ? reject(err) : resolve())),
+      ),
+    disconnectGateway(gatewayId) {
+      ingest.directory.forget(gatewayId);
+      for (const client of sessions.get(gatewayId) ?? []) client.close();
+      sessions.delete(gatewayId);
+    },
+    close: async () => {
+      const closed = new Promise<void>((resolve) => server.close(() => resolve()));
+      for (const s of sockets) s.destroy();
+      await closed;
+      await new Promise<void>((resolve) => broker.close(() => resolve()));
+      await ingest.writer.flushed();
+    },
+  };
+}
