@@ -1,0 +1,110 @@
+import { describe, expect, it } from 'vitest';
+import { binomial, mulberry32, poisson } from '../../../simulators/random.ts';
+import { g2FromCoincidences, heraldedAlpha, mandelQ } from './photon-stats.ts';
+
+const BINS = 20_000;
+
+// Mandel, Opt. Lett. 4, 205 (1979): Q = 0 for Poisson light, −1 for Fock states, η·Q when detected
+// with efficiency η.
+describe('Mandel Q', () => {
+  it('is 0 within its error for simulated Poisson (coherent) light, with SE ≈ √(2/bins)', () => {
+    const rng = mulberry32(1);
+    const counts = Float64Array.from({ length: BINS }, () => poisson(rng, 7));
+    const q = mandelQ(counts);
+    expect(Math.abs(q.q.value)).toBeLessThan(3 * q.q.err);
+    expect(q.q.err).toBeCloseTo(Math.sqrt(2 / BINS), 3);
+  });
+
+  it('is −η for single photons detected with efficiency η', () => {
+    const rng = mulberry32(2);
+    const eta = 0.6;
+    // One photon per bin, each detected with probability η: Bernoulli counts.
+    const counts = Float64Array.from({ length: BINS }, () => binomial(rng, 1, eta));
+    const q = mandelQ(counts);
+    expect(Math.abs(q.q.value + eta)).toBeLessThan(3 * q.q.err);
+  });
+
+  it('is positive (bunched) for thermal light: Q = n̄ for a Bose–Einstein distribution', () => {
+    const rng = mulberry32(3);
+    const mean = 2;
+    // Thermal photon number: geometric with p = 1/(1 + n̄).
+    const counts = Float64Array.from({ length: BINS }, () => Math.floor(Math.log(rng()) / Math.log(mean / (1 + mean))));
+    const q = mandelQ(counts);
+    expect(Math.abs(q.q.value - mean)).toBeLessThan(3 * q.q.err);
+  });
+});
+
+describe('g2(0) from coincidences', () => {
+  const T = 10; // s
+  const window = 2e-9; // s: full coincidence window τ_c
+
+  it('is 1 for coherent light: all coincidences are accidentals R₁R₂τ_c', () => {
+    const rng = mulberry32(4);
+    const r1 = 2e5;
+    const r2 = 1.5e5;
+    const accidentals = r1 * r2 * window * T;
+    const r = g2FromCoincidences({ counts1: r1 * T, counts2: r2 * T, coincidences: poisson(rng, accidentals), seconds: T, windowS: window });
+    expect(r.accidentals).toBeCloseTo(accidentals, 6);
+    expect(Math.abs(r.g2.value - 1)).toBeLessThan(3 * r.g2.err);
+    expect(Math.abs(r.excess.value)).toBeLessThan(3 * r.excess.err);
+  });
+
+  it('goes to 0 for an ideal single-photon source, with a Garwood interval on few coincidences', () => {
+    const r = g2FromCoincidences({ counts1: 1e6, counts2: 1e6, coincidences: 0, seconds: T, windowS: window });
+    expect(r.g2.value).toBe(0);
+    expect(r.interval.lower).toBe(0);
+    expect(r.interval.upper).toBeCloseTo(1.841 / r.accidentals, 6); // Gehrels (1986) 1σ upper for n = 0
+  });
+
+  it('is 2 for thermal light (twice the accidentals)', () => {
+    const r = g2FromCoincidences({ counts1: 2e6, counts2: 2e6, coincidences: 1600, seconds: T, windowS: window });
+    expect(r.g2.value).toBeCloseTo(2, 10);
+  });
+});
+
+// Grangier, Roger & Aspect, Europhys. Lett. 1, 173 (1986); Thorn et al., Am. J. Phys. 72, 1210
+// (2004): α = N_GTR·N_G/(N_GT·N_GR); classical light α ≥ 1, a single photon α → 0.
+describe('heralded anticorrelation α', () => {
+  function simulate(singlePhoton: boolean, seed: number) {
+    const rng = mulberry32(seed);
+    const eta = 0.3;
+    let gates = 0;
+    let gt = 0;
+    let gr = 0;
+    let gtr = 0;
+    for (let i = 0; i < 200_000; i++) {
+      gates++;
+      let t: boolean;
+      let r: boolean;
+      if (singlePhoton) {
+        // One photon at the 50:50 beam splitter: it goes one way only.
+        const toT = rng() < 0.5;
+        t = toT && rng() < eta;
+        r = !toT && rng() < eta;
+      } else {
+        // Coherent light: independent detections on the two sides.
+        t = rng() < eta / 2;
+        r = rng() < eta / 2;
+      }
+      if (t) gt++;
+      if (r) gr++;
+      if (t && r) gtr++;
+    }
+    return heraldedAlpha({ gates, gateTransmitted: gt, gateReflected: gr, triples: gtr });
+  }
+
+  it('is 0 for heralded single photons', () => {
+    const a = simulate(true, 5);
+    expect(a.alpha.value).toBe(0);
+    expect(a.triplesInterval.upper).toBeGreaterThan(0);
+  });
+
+  it('is 1 within its error for coherent light', () => {
+    const a = simulate(false, 6);
+    expect(Math.abs(a.alpha.value - 1)).toBeLessThan(3 * a.alpha.err);
+  });
+
+  it('computes the published estimator N_GTR·N_G/(N_GT·N_GR) exactly', () => {
+    expect(heraldedAlpha({ gates: 1000, gateTransmitted: 100, gateReflected: 50, triples: 2 }).alpha.value).toBeCloseTo((2 * 1000) / (100 * 50), 12);
+  });
+});
