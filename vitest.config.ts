@@ -21,7 +21,8 @@ export default getViteConfig({
         test: {
           name: 'integration',
           include: ['tests/integration/**/*.test.ts'],
-          globalSetup: ['tests/setup/global-db.ts'],
+          // global-app builds dist/ once: several integration tests run the real server in-process.
+          globalSetup: ['tests/setup/global-db.ts', 'tests/setup/global-app.ts'],
           testTimeout: 120_000,
           hookTimeout: 120_000,
           poolOptions: { forks: { singleFork: true } },

@@ -1,5 +1,6 @@
 // Admin changes to benches, their drive limits, channels and gateways. Each change and its audit
-// row commit together; gateway tokens are returned once and never logged.
+// row commit together; gateway tokens are returned once and never logged. Revoking or rotating a
+// gateway also drops its live MQTT session (provisioning.ts asks the broker to).
 import { and, asc, eq } from 'drizzle-orm';
 import { z } from 'zod';
 import { benchIdSchema, channelKeySchema, gatewayIdSchema } from '../contract/wire.ts';
@@ -9,7 +10,6 @@ import { recordAudit } from './audit.ts';
 import type { SessionUser } from './auth/lucia.ts';
 import { HttpError } from './http/responses.ts';
 import { createBench, createGateway, revokeGateway, rotateGatewayToken, type BenchInput } from './provisioning.ts';
-import { runtime } from './runtime.ts';
 
 const num = (label: string) => z.coerce.number({ invalid_type_error: `${label} must be a number` }).finite(`${label} must be a number`);
 /** Optional numeric form field: an empty box means "not set". */
@@ -118,14 +118,6 @@ export async function updateChannel(actor: SessionUser, benchId: string, input: 
   });
 }
 
-/** Drops the gateway's live MQTT session when the live path offers a way to (the broker may not run, e.g. in tests). */
-async function disconnectGateway(id: string): Promise<void> {
-  const disconnect = runtime()['disconnectGateway'];
-  if (typeof disconnect === 'function') await (disconnect as (gatewayId: string) => unknown)(id);
-}
-
-export const gatewayIdInput = z.object({ gatewayId: gatewayIdSchema });
-
 export async function provisionGateway(actor: SessionUser, benchId: string, gatewayId: string): Promise<{ token: string }> {
   benchIdSchema.parse(benchId);
   const res = await createGateway(gatewayId, benchId);
@@ -135,13 +127,11 @@ export async function provisionGateway(actor: SessionUser, benchId: string, gate
 
 export async function rotateGateway(actor: SessionUser, gatewayId: string): Promise<{ token: string }> {
   const res = await rotateGatewayToken(gatewayId);
-  await disconnectGateway(gatewayId);
   await recordAudit({ actorId: actor.id, entity: 'gateway', entityId: gatewayId, action: 'rotate_token' });
   return res;
 }
 
 export async function revokeGatewayAudited(actor: SessionUser, gatewayId: string): Promise<void> {
   await revokeGateway(gatewayId);
-  await disconnectGateway(gatewayId);
   await recordAudit({ actorId: actor.id, entity: 'gateway', entityId: gatewayId, action: 'revoke' });
 }
