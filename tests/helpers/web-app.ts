@@ -1,6 +1,7 @@
 // Starts the real Fringewise app in the test process: built Astro handler, own HTTP server on a
 // free port, migrations, demo seed and the local mail catcher, against the test run's database.
 import { startApp, type RunningApp } from '../../src/server/app.ts';
+import { livePathOptionsFromEnv } from '../../src/server/live-path.ts';
 import { createApiToken } from '../../src/lib/server/auth/api-tokens.ts';
 import type { Role } from '../../src/lib/server/auth/roles.ts';
 import { createUser } from '../../src/lib/server/users.ts';
@@ -9,7 +10,8 @@ export async function startWebApp(): Promise<RunningApp> {
   process.env['FRINGEWISE_SIMULATE'] = '0';
   // Tests read invitations from the catcher; a developer's SMTP_URL must not send them for real.
   delete process.env['SMTP_URL'];
-  return await startApp({ port: 0, host: '127.0.0.1', seed: true, simulate: false, build: false });
+  // MQTT port 0: a free port, so test files never fight over 1883.
+  return await startApp({ port: 0, host: '127.0.0.1', seed: true, simulate: false, build: false, web: true, live: { ...livePathOptionsFromEnv(), mqttUrl: null, mqttPort: 0 } });
 }
 
 let serial = 0;
