@@ -90,11 +90,19 @@ export function unfoldPhase(folded: ArrayLike<number>, options: UnfoldOptions = 
   let sign = 1;
   let dir = 0;
   let extIdx = 0;
+  // After a crossing, noise near the extreme must not read as a second crossing back: turns are
+  // ignored until the phase has left the margin zone.
+  let locked = false;
   out[0] = folded[0] as number;
   for (let i = 1; i < n; i++) {
     const f = folded[i] as number;
     const ext = folded[extIdx] as number;
-    if (dir === 0) {
+    if (locked) {
+      if (f > margin && f < Math.PI - margin) {
+        locked = false;
+        extIdx = i;
+      }
+    } else if (dir === 0) {
       if (Math.abs(f - ext) > hyst) {
         dir = f > ext ? 1 : -1;
         extIdx = i;
@@ -107,6 +115,7 @@ export function unfoldPhase(folded: ArrayLike<number>, options: UnfoldOptions = 
         if (dir > 0) base += 2 * sign * Math.PI;
         sign = -sign;
         for (let j = extIdx + 1; j < i; j++) out[j] = base + sign * (folded[j] as number);
+        locked = true;
       }
       dir = -dir;
       extIdx = i;
