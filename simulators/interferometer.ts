@@ -47,7 +47,7 @@ export type SourceModel =
       pairRate: number;
       /**
        * Heralded g2(0) from multi-pair emission, the value N_GTR·N_G/(N_GT·N_GR) would give
-       * without accidentals (Grangier, Roger, Aspect 1986); SPDC at these rates gives ~0.01.
+       * without accidentals (Grangier, Roger, Aspect 1986); SPDC at ~10⁶ pairs/s gives 10⁻³–10⁻².
        */
       g2: number;
       /** The herald (idler) arm's detector, efficiency including its fibre coupling. */
