@@ -1,9 +1,12 @@
 // Starts every part of Fringewise in one process, in order, and stops them in reverse:
-// database → migrations → demo seed → mail catcher → live path (broker, ingest, hub) → web server.
+// database → migrations → demo seed → mail catcher → live path (broker, ingest, hub) → alarms and
+// retention → web server.
+import { startAlarmEngine, stopAlarmEngine } from '../lib/server/alarms/engine.ts';
 import { closeDb } from '../lib/server/db/index.ts';
 import { migrateDatabase } from '../lib/server/db/migrate.ts';
 import { startMailCatcher } from '../lib/server/mail/catcher.ts';
 import { mailCatcherEnabled } from '../lib/server/mail/config.ts';
+import { startRetentionJob } from '../lib/server/retention.ts';
 import { buildIfStale } from './build.ts';
 import { connectDatabase } from './database.ts';
 import { startWebServer, type UpgradeHandler } from './http.ts';
@@ -68,6 +71,10 @@ export async function startApp(opts: AppOptions): Promise<RunningApp> {
     }
     const live = await startLivePath(opts.live);
     stops.push(() => live.close());
+    const alarms = await startAlarmEngine();
+    stops.push(() => stopAlarmEngine(alarms));
+    const retention = startRetentionJob();
+    stops.push(() => retention.stop());
     console.log(live.transport.port === null ? '[mqtt] connected to the external broker' : `[mqtt] broker listening on ${opts.live.mqttHost}:${live.transport.port}`);
     const upgrades: Record<string, UpgradeHandler> = { ...live.upgrades };
     if (!opts.web) return { url: '', mqttPort: live.transport.port, close: stopAll };

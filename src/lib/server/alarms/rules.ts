@@ -5,6 +5,7 @@ import { z } from 'zod';
 import { ALARM_METRICS, METRIC_INFO, SEVERITIES } from '../../alarm-messages.ts';
 import { channelKeySchema, gatewayIdSchema } from '../../contract/wire.ts';
 import { recordAudit } from '../audit.ts';
+import { getBench } from '../benches.ts';
 import { getDb } from '../db/index.ts';
 import { alarmRules, type AlarmRule } from '../db/schema.ts';
 import { HttpError } from '../http/responses.ts';
@@ -110,6 +111,7 @@ export async function listRules(benchId?: string): Promise<AlarmRule[]> {
 }
 
 export async function createRule(benchId: string, input: RuleInput, actorId: string | null): Promise<AlarmRule> {
+  if (!(await getBench(benchId))) throw new HttpError(404, 'no such bench');
   const row = await getDb().transaction(async (tx) => {
     const [created] = await tx
       .insert(alarmRules)

@@ -1,0 +1,264 @@
+// Retention: how long raw bins and the two rollup levels are kept, and the job that enforces it.
+//
+// The job deletes in bounded steps — at most `stepRows` rows of one gateway per statement, each
+// statement its own short transaction, with a pause between — so ingest's inserts never wait
+// behind a long-held lock or a burst of WAL. Every step walks the primary key (gateway_id, t0 /
+// block_t0), so a step costs the same however large the tables are.
+//
+// Runs marked keep are exempt: no raw batch or rollup block of any gateway of the run's bench that
+// overlaps the run's [start_ms, end_ms) is deleted (an open kept run protects everything after its start).
+//
+// Why not time partitions: dropping a partition is cheap only when nothing in it must stay, and a
+// kept run can sit in any partition; with day partitions we would still need these row deletes for
+// the kept spans, plus a partition manager racing ingest for new partitions. Bounded deletes keep
+// one mechanism; partitioning count_batches by t0 is noted as future work in DEVELOPERS.md for labs
+// whose raw data outgrows it.
+import { eq } from 'drizzle-orm';
+import { z } from 'zod';
+import { recordAudit } from './audit.ts';
+import { getDb, getDbHandle } from './db/index.ts';
+import { settings } from './db/schema.ts';
+import { runtime } from './runtime.ts';
+
+const DAY_MS = 86_400_000;
+const days = z.coerce.number().int('whole days').min(1, 'at least 1 day').max(36_500, 'at most 100 years');
+
+export const retentionSettingsSchema = z
+  .object({
+    /** Raw bins (count_batches), days. */
+    rawDays: days,
+    /** 1 s rollups, days. */
+    fineDays: days,
+    /** 1 min rollups, days. */
+    coarseDays: days,
+  })
+  .refine((s) => s.rawDays <= s.fineDays && s.fineDays <= s.coarseDays, {
+    message: 'keep coarser data at least as long as finer data (raw ≤ 1 s ≤ 1 min)',
+    path: ['fineDays'],
+  });
+export type RetentionSettings = z.infer<typeof retentionSettingsSchema>;
+
+/** A month of raw bins (the largest level by far), half a year of 1 s sums, ten years of 1 min sums. */
+export const DEFAULT_RETENTION: RetentionSettings = { rawDays: 30, fineDays: 180, coarseDays: 3650 };
+const SETTINGS_NAME = 'retention';
+
+export async function getRetention(): Promise<RetentionSettings> {
+  const [row] = await getDb().select().from(settings).where(eq(settings.name, SETTINGS_NAME));
+  const parsed = retentionSettingsSchema.safeParse(row?.value);
+  return parsed.success ? parsed.data : DEFAULT_RETENTION;
+}
+
+export async function setRetention(next: RetentionSettings, actorId: string | null): Promise<RetentionSettings> {
+  const value = retentionSettingsSchema.parse(next);
+  await getDb().transaction(async (tx) => {
+    const [before] = await tx.select().from(settings).where(eq(settings.name, SETTINGS_NAME)).for('update');
+    await tx
+      .insert(settings)
+      .values({ name: SETTINGS_NAME, value })
+      .onConflictDoUpdate({ target: settings.name, set: { value, updatedAt: new Date() } });
+    await recordAudit({ actorId, entity: 'settings', entityId: SETTINGS_NAME, action: 'update', before: before?.value ?? DEFAULT_RETENTION, after: value }, tx);
+  });
+  return value;
+}
+
+export type RetentionLevel = 'raw' | 'fine' | 'coarse';
+
+export interface RetentionResult {
+  startedAt: number;
+  finishedAt: number;
+  cutoffs: Record<RetentionLevel, number>;
+  deleted: Record<RetentionLevel, number>;
+  error?: string;
+}
+
+export interface RetentionRunOptions {
+  now?: number;
+  /** Rows per delete statement: small enough that one step holds its locks for milliseconds. */
+  stepRows?: number;
+  /** Pause between steps, ms, so ingest's transactions interleave. */
+  pauseMs?: number;
+}
+
+const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
+
+/** Time spans each gateway must keep: kept runs of its bench, [start, end) in ms. */
+async function keptSpans(): Promise<Map<string, { s: number[]; e: number[] }>> {
+  const { rows } = await getDbHandle().pool.query<{ gateway_id: string; s: number; e: number }>(
+    `select g.id as gateway_id, r.start_ms as s, coalesce(r.end_ms, 9007199254740991) as e
+       from runs r join gateways g on g.bench_id = r.bench_id where r.keep`,
+  );
+  const out = new Map<string, { s: number[]; e: number[] }>();
+  for (const r of rows) {
+    const k = out.get(r.gateway_id) ?? { s: [], e: [] };
+    k.s.push(Number(r.s));
+    k.e.push(Number(r.e));
+    out.set(r.gateway_id, k);
+  }
+  return out;
+}
+
+/** Distinct gateway ids of a table by a loose index scan (one probe per gateway, not a full scan). */
+async function gatewaysIn(table: 'count_batches' | 'rollups'): Promise<string[]> {
+  const { rows } = await getDbHandle().pool.query<{ id: string }>(
+    `with recursive g(id) as (
+       select min(gateway_id) from ${table}
+       union all
+       select (select min(gateway_id) from ${table} where gateway_id > g.id) from g where g.id is not null
+     ) select id from g where id is not null`,
+  );
+  return rows.map((r) => r.id);
+}
+
+async function deleteStep(level: RetentionLevel, gatewayId: string, cutoff: number, kept: { s: number[]; e: number[] }, limit: number): Promise<number> {
+  const pool = getDbHandle().pool;
+  if (level === 'raw') {
+    const res = await pool.query(
+      `delete from count_batches where gateway_id = $1 and t0 in (
+         select c.t0 from count_batches c
+          where c.gateway_id = $1 and c.t0 < $2 and c.t1 <= $2
+            and not exists (select 1 from unnest($3::int8[], $4::int8[]) k(s, e) where c.t0 < k.e and c.t1 > k.s)
+          order by c.t0 limit $5)`,
+      [gatewayId, cutoff, kept.s, kept.e, limit],
+    );
+    return res.rowCount ?? 0;
+  }
+  const stepMs = level === 'fine' ? 1_000 : 60_000;
+  const blockMs = stepMs * 60;
+  const res = await pool.query(
+    `delete from rollups where ctid = any(array(
+       select r.ctid from rollups r
+        where r.gateway_id = $1 and r.step_ms = $2 and r.block_t0 + $3 <= $4
+          and not exists (select 1 from unnest($5::int8[], $6::int8[]) k(s, e) where r.block_t0 < k.e and r.block_t0 + $3 > k.s)
+        limit $7))`,
+    [gatewayId, stepMs, blockMs, cutoff, kept.s, kept.e, limit],
+  );
+  return res.rowCount ?? 0;
+}
+
+/** One pass of the retention job. Safe to run while ingest writes; never touches kept runs. */
+export async function runRetention(opts: RetentionRunOptions = {}): Promise<RetentionResult> {
+  const startedAt = Date.now();
+  const now = opts.now ?? startedAt;
+  const stepRows = opts.stepRows ?? 500;
+  const pauseMs = opts.pauseMs ?? 20;
+  const cfg = await getRetention();
+  const cutoffs: Record<RetentionLevel, number> = { raw: now - cfg.rawDays * DAY_MS, fine: now - cfg.fineDays * DAY_MS, coarse: now - cfg.coarseDays * DAY_MS };
+  const deleted: Record<RetentionLevel, number> = { raw: 0, fine: 0, coarse: 0 };
+  const kept = await keptSpans();
+  const none = { s: [], e: [] };
+  for (const level of ['raw', 'fine', 'coarse'] as const) {
+    for (const gw of await gatewaysIn(level === 'raw' ? 'count_batches' : 'rollups')) {
+      for (;;) {
+        const n = await deleteStep(level, gw, cutoffs[level], kept.get(gw) ?? none, stepRows);
+        deleted[level] += n;
+        if (n < stepRows) break;
+        await sleep(pauseMs);
+      }
+    }
+  }
+  return { startedAt, finishedAt: Date.now(), cutoffs, deleted };
+}
+
+export interface StorageRow {
+  benchId: string | null;
+  level: RetentionLevel;
+  rows: number;
+  /** Bins (raw) or sums (rollups) held. */
+  values: number;
+  /** The table's size split by each bench's share of values: an estimate, bytes. */
+  approxBytes: number;
+  oldestMs: number | null;
+}
+
+/** Storage per bench and level, for the admin page. Scans the tables once each: seconds on big labs. */
+export async function storageUsage(): Promise<{ rows: StorageRow[]; tableBytes: Record<'count_batches' | 'rollups', number> }> {
+  const pool = getDbHandle().pool;
+  const sizes = await pool.query<{ raw: number; roll: number }>(
+    `select pg_total_relation_size('count_batches')::int8 as raw, pg_total_relation_size('rollups')::int8 as roll`,
+  );
+  const raw = await pool.query<{ bench_id: string | null; rows: number; vals: number; oldest: number | null }>(
+    `select g.bench_id, count(*)::int8 as rows, coalesce(sum(c.n * cardinality(c.keys)), 0)::int8 as vals, min(c.t0) as oldest
+       from count_batches c left join gateways g on g.id = c.gateway_id group by g.bench_id`,
+  );
+  const roll = await pool.query<{ bench_id: string | null; step_ms: number; rows: number; oldest: number | null }>(
+    `select g.bench_id, r.step_ms, count(*)::int8 as rows, min(r.block_t0) as oldest
+       from rollups r left join gateways g on g.id = r.gateway_id group by g.bench_id, r.step_ms`,
+  );
+  const tableBytes = { count_batches: Number(sizes.rows[0]?.raw ?? 0), rollups: Number(sizes.rows[0]?.roll ?? 0) };
+  const rawTotal = raw.rows.reduce((a, r) => a + Number(r.vals), 0) || 1;
+  const rollTotal = roll.rows.reduce((a, r) => a + Number(r.rows), 0) || 1;
+  const rows: StorageRow[] = [
+    ...raw.rows.map((r) => ({
+      benchId: r.bench_id,
+      level: 'raw' as const,
+      rows: Number(r.rows),
+      values: Number(r.vals),
+      approxBytes: Math.round((tableBytes.count_batches * Number(r.vals)) / rawTotal),
+      oldestMs: r.oldest === null ? null : Number(r.oldest),
+    })),
+    ...roll.rows.map((r) => ({
+      benchId: r.bench_id,
+      level: (Number(r.step_ms) === 1_000 ? 'fine' : 'coarse') as RetentionLevel,
+      rows: Number(r.rows),
+      values: Number(r.rows) * 60,
+      approxBytes: Math.round((tableBytes.rollups * Number(r.rows)) / rollTotal),
+      oldestMs: r.oldest === null ? null : Number(r.oldest),
+    })),
+  ];
+  return { rows, tableBytes };
+}
+
+/** The scheduled job; registered on runtime() so the admin page can show it and run it now. */
+export class RetentionJob {
+  private timer: NodeJS.Timeout | null = null;
+  private current: Promise<RetentionResult> | null = null;
+  last: RetentionResult | null = null;
+
+  constructor(private readonly everyMs: number) {}
+
+  start(): void {
+    this.timer = setInterval(() => void this.runNow(), this.everyMs);
+    this.timer.unref();
+  }
+
+  get running(): boolean {
+    return this.current !== null;
+  }
+
+  /** Starts a pass unless one is running; either way resolves with that pass's result. */
+  runNow(): Promise<RetentionResult> {
+    this.current ??= runRetention()
+      .catch((err: unknown): RetentionResult => {
+        const t = Date.now();
+        console.error('[retention]', err);
+        return { startedAt: t, finishedAt: t, cutoffs: { raw: 0, fine: 0, coarse: 0 }, deleted: { raw: 0, fine: 0, coarse: 0 }, error: err instanceof Error ? err.message : String(err) };
+      })
+      .then((r) => {
+        this.last = r;
+        this.current = null;
+        return r;
+      });
+    return this.current;
+  }
+
+  async stop(): Promise<void> {
+    if (this.timer) clearInterval(this.timer);
+    this.timer = null;
+    await this.current;
+  }
+}
+
+/** Every 10 min: often enough that a day's expiry goes in small bites, rarely enough to cost nothing. */
+export const RETENTION_EVERY_MS = 10 * 60_000;
+
+export function startRetentionJob(everyMs = RETENTION_EVERY_MS): RetentionJob {
+  const job = new RetentionJob(everyMs);
+  job.start();
+  runtime()['retention'] = job;
+  return job;
+}
+
+/** The running job; typed by shape, not instanceof, because this module loads twice (entry and Astro bundle). */
+export function retentionJob(): Pick<RetentionJob, 'runNow' | 'running' | 'last'> | null {
+  return (runtime()['retention'] as RetentionJob | undefined) ?? null;
+}
