@@ -1,0 +1,193 @@
+// The bench live view: one island so the panels share one subscription and one set of buffers.
+// Count messages go into typed ring buffers (rates, fringe cells) and only mark charts dirty;
+// figures (≈1/s), fitted sweeps and alarms update React state.
+import { useCallback, useEffect, useMemo, useRef, useState } from 'react';
+import type { BenchViewData, ViewerData } from '../../lib/bench-view.ts';
+import type { BenchFigures } from '../../lib/bench-figures.ts';
+import { benchFiguresSchema } from '../../lib/bench-figures-schema.ts';
+import { ApiError, errorText, fetchCounts, fetchFigures, fetchSweeps, sweepSchema, type Sweep } from '../../lib/client/api.ts';
+import { FringeCells } from '../../lib/client/fringe-cells.ts';
+import { RateRing } from '../../lib/client/rate-ring.ts';
+import type { CountsMessage } from '../../lib/live-messages.ts';
+import { FringeChart, type FringeHandle } from './FringeChart.tsx';
+import { RatesChart, type RatesHandle } from './RatesChart.tsx';
+import { PhotonStats, Readouts } from './Readouts.tsx';
+import { RunPanel } from './RunPanel.tsx';
+import { SweepControl } from './SweepControl.tsx';
+import { VisibilityTrend, type EnvelopePoint } from './VisibilityTrend.tsx';
+import { LiveBanner } from './LiveBanner.tsx';
+import { useLiveFeed } from './useLiveFeed.ts';
+
+/** The trend shows this much history, ms. */
+const TREND_MS = 30 * 60_000;
+/** Rates history fetched on load: the longest window, ms. */
+const RATES_BACKFILL_MS = 10 * 60_000;
+/** Step of the backfill, ms: the ring's bucket width. */
+const BACKFILL_STEP_MS = 100;
+/** Most envelope points kept (one per figures message ≈ 1/s over the trend span). */
+const MAX_ENVELOPE = 1800;
+
+export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerData }) {
+  const { bench, viewer } = props;
+  const channelIds = useMemo(() => bench.channels.map((c) => c.id), [bench]);
+  const ring = useMemo(() => new RateRing(channelIds), [channelIds]);
+  const cells = useMemo(() => new FringeCells(bench.drive.min, bench.drive.max), [bench]);
+  const rates = useRef<RatesHandle | null>(null);
+  const fringe = useRef<FringeHandle | null>(null);
+
+  const [hasCounts, setHasCounts] = useState(false);
+  const [countsError, setCountsError] = useState<string | null>(null);
+  const [figures, setFigures] = useState<BenchFigures | null>(null);
+  const [figuresLoading, setFiguresLoading] = useState(true);
+  const [figuresError, setFiguresError] = useState<string | null>(null);
+  const [sweeps, setSweeps] = useState<Sweep[]>([]);
+  const [sweepsLoading, setSweepsLoading] = useState(true);
+  const [sweepsError, setSweepsError] = useState<string | null>(null);
+  const [envelope, setEnvelope] = useState<EnvelopePoint[]>([]);
+  const [hasCc, setHasCc] = useState(false);
+  const seenCounts = useRef(false);
+
+  const onCounts = useCallback(
+    (m: CountsMessage) => {
+      const ch: Record<string, number[]> = {};
+      for (const [k, v] of Object.entries(m.ch)) ch[`${m.gateway}/${k}`] = v;
+      ring.add(m.t0, m.dt, ch);
+      if (m.x && bench.outA && bench.outB) {
+        const a = ch[bench.outA];
+        const b = ch[bench.outB];
+        if (a && b) cells.add(m.x, a, b, m.dt);
+        fringe.current?.invalidate();
+      }
+      if (m.cc && !hasCc) setHasCc(true);
+      rates.current?.invalidate();
+      if (!seenCounts.current) {
+        seenCounts.current = true;
+        setHasCounts(true);
+      }
+    },
+    [ring, cells, bench, hasCc],
+  );
+
+  const onMessage = useCallback(
+    (msg: { type: string; [k: string]: unknown }) => {
+      if (msg.type === 'figures') {
+        const f = benchFiguresSchema.safeParse(msg['figures']);
+        if (f.success) {
+          setFigures(f.data);
+          const v = f.data.visibility;
+          if (v && v.source === 'envelope') setEnvelope((e) => [...e.slice(-(MAX_ENVELOPE - 1)), { t: f.data.at, v: v.value }]);
+        }
+      } else if (msg.type === 'sweep') {
+        const s = sweepSchema.safeParse(msg['sweep']);
+        if (s.success) setSweeps((list) => [...list.filter((x) => x.start > Date.now() - TREND_MS && x.id !== s.data.id), s.data]);
+      }
+    },
+    [],
+  );
+
+  const live = useLiveFeed(bench.id, { onCounts, onMessage });
+
+  // Backfill what the page missed before the socket opened: rates, sweeps, the latest figures.
+  useEffect(() => {
+    const ctl = new AbortController();
+    const now = Date.now();
+    // The step must be a multiple of the stored bin width: 100 ms suits bins up to 100 ms, 1 s the rest.
+    fetchCounts(bench.id, now - RATES_BACKFILL_MS, now, BACKFILL_STEP_MS, ctl.signal)
+      .catch((err: unknown) => {
+        if (err instanceof ApiError && err.status === 422) return fetchCounts(bench.id, now - RATES_BACKFILL_MS, now, 1000, ctl.signal);
+        throw err;
+      })
+      .then(
+      (c) => {
+        const ch: Record<string, number[]> = {};
+        for (const [k, v] of Object.entries(c.channels)) ch[k] = v.map((n) => n ?? 0);
+        // Buckets the server had no bins for come back as null: leave them out rather than draw zeros.
+        const firstKey = Object.keys(c.channels)[0];
+        const col = firstKey ? c.channels[firstKey]! : [];
+        for (let i = 0; i < col.length; i++) {
+          if (col[i] == null) continue;
+          const one: Record<string, number[]> = {};
+          for (const k of Object.keys(ch)) one[k] = [ch[k]![i]!];
+          ring.add(c.t0 + i * c.step, c.step, one, true);
+        }
+        if (col.some((v) => v != null)) setHasCounts(true);
+        rates.current?.invalidate();
+      },
+      (err) => !ctl.signal.aborted && setCountsError(`History unavailable: ${errorText(err)}`),
+    );
+    fetchSweeps(bench.id, now - TREND_MS, now, ctl.signal).then(
+      (list) => {
+        setSweeps((cur) => [...list, ...cur.filter((s) => !list.some((l) => l.id === s.id))].sort((a, b) => a.start - b.start));
+        setSweepsLoading(false);
+      },
+      (err) => {
+        if (ctl.signal.aborted) return;
+        setSweepsError(errorText(err));
+        setSweepsLoading(false);
+      },
+    );
+    fetchFigures(bench.id, ctl.signal).then(
+      (f) => {
+        setFigures((cur) => cur ?? f);
+        setFiguresLoading(false);
+      },
+      (err) => {
+        if (ctl.signal.aborted) return;
+        setFiguresError(errorText(err));
+        setFiguresLoading(false);
+      },
+    );
+    return () => ctl.abort();
+  }, [bench.id]);
+
+  const outLabels = {
+    a: bench.channels.find((c) => c.id === bench.outA)?.label ?? 'Output A',
+    b: bench.channels.find((c) => c.id === bench.outB)?.label ?? 'Output B',
+  };
+  const lastSweep = sweeps.at(-1) ?? null;
+
+  return (
+    <div className="space-y-4">
+      <LiveBanner state={live} />
+      <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} />
+      <div className="grid gap-4 xl:grid-cols-2">
+        <RatesChart ring={ring} channels={bench.channels} onReady={(h) => (rates.current = h)} hasData={hasCounts} error={hasCounts ? null : countsError} />
+        <FringeChart
+          cells={cells}
+          sweeps={sweeps}
+          labels={outLabels}
+          onReady={(h) => (fringe.current = h)}
+          onClear={() => {
+            cells.clear();
+            fringe.current?.invalidate();
+          }}
+        />
+      </div>
+      <div className="grid gap-4 lg:grid-cols-3">
+        <div className="lg:col-span-2">
+          <VisibilityTrend sweeps={sweeps} envelope={envelope} limit={bench.visibilityLimit} loading={sweepsLoading} error={sweepsError} />
+        </div>
+        <PhotonStats figures={figures} hasCoincidences={hasCc} />
+      </div>
+      <div className="grid gap-4 lg:grid-cols-2">
+        {viewer.canOperate ? (
+          <SweepControl
+            bench={bench}
+            lastSweep={lastSweep}
+            onSweepStarted={() => {
+              cells.clear();
+              fringe.current?.invalidate();
+            }}
+          />
+        ) : (
+          <section className="card text-sm text-muted" aria-label="Drive">
+            <h2 className="mb-1 font-semibold text-ink">Drive</h2>
+            <p>You are following this bench read-only ({viewer.role}). Operators drive scans and runs.</p>
+            <p className="figure mt-1 text-xs">limits {bench.drive.min}–{bench.drive.max} V · step ≤ {bench.drive.maxStep} V · dwell ≥ {bench.drive.minDwellMs} ms</p>
+          </section>
+        )}
+        <RunPanel benchId={bench.id} initialRun={bench.activeRun} canOperate={viewer.canOperate} figures={figures} />
+      </div>
+    </div>
+  );
+}

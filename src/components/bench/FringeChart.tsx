@@ -1,0 +1,156 @@
+// Counts against the scan coordinate: the kept passes of the current direction accumulate cell by
+// cell (fringes emerge click by click at low rates), with the latest fits of that direction drawn
+// over them, both outputs.
+import { useEffect, useRef, useState } from 'react';
+import type uPlot from 'uplot';
+import { FrameGate } from '../../lib/client/frame-gate.ts';
+import type { FringeCells } from '../../lib/client/fringe-cells.ts';
+import { sweepFit, type Sweep } from '../../lib/client/api.ts';
+import { withAlpha } from '../../lib/client/chart-theme.ts';
+import { formatRate, formatValueErr } from '../../lib/client/format.ts';
+import { axis, useUPlot } from '../charts/useUPlot.ts';
+import { CURVE_POINTS, fitRates } from './fringe-curve.ts';
+
+/** Fringes change on the scale of a dwell step: 4 redraws per second follow them. */
+const REDRAW_MS = 250;
+export const KEEP_CHOICES = [1, 3, 10, 30] as const;
+
+export interface FringeHandle {
+  invalidate(): void;
+}
+
+interface Props {
+  cells: FringeCells;
+  /** Fitted sweeps, oldest first (the chart draws the newest of the current direction). */
+  sweeps: Sweep[];
+  labels: { a: string; b: string };
+  onReady: (h: FringeHandle) => void;
+  onClear: () => void;
+}
+
+export function FringeChart(props: Props) {
+  const { cells } = props;
+  const box = useRef<HTMLDivElement>(null);
+  const [keep, setKeep] = useState<number>(3);
+  const [clicks, setClicks] = useState(0);
+  const [dir, setDir] = useState<string | null>(null);
+  const curve = useRef({ x: new Float64Array(CURVE_POINTS), a: new Float64Array(CURVE_POINTS), b: new Float64Array(CURVE_POINTS), pa: new Float64Array(CURVE_POINTS), pb: new Float64Array(CURVE_POINTS) });
+  const sweepsRef = useRef(props.sweeps);
+  sweepsRef.current = props.sweeps;
+
+  // Data and fit curves share one x array: cell centres first, then the curve points, with nulls
+  // where a series has no value (uPlot needs aligned, sorted x).
+  const merged = useRef({ x: new Float64Array(0), cols: [] as (number | null)[][] });
+
+  const data = (): uPlot.AlignedData => {
+    const v = cells.view();
+    const direction = v.direction;
+    const fits = sweepsRef.current.filter((s) => !direction || s.direction === direction).slice(-2);
+    const last = fits.at(-1);
+    const prev = fits.length > 1 ? fits[0] : undefined;
+    const c = curve.current;
+    const lo = v.x.length ? v.x[0]! : cells.xMin;
+    const hi = v.x.length ? v.x[v.x.length - 1]! : cells.xMax;
+    const lf = last ? sweepFit(last) : null;
+    const pf = prev ? sweepFit(prev) : null;
+    for (let i = 0; i < CURVE_POINTS; i++) c.x[i] = lo + ((hi - lo) * i) / (CURVE_POINTS - 1);
+    if (lf) fitRates(lf, c.x, c.a, c.b);
+    if (pf) fitRates(pf, c.x, c.pa, c.pb);
+    // Merge the two sorted x sets.
+    const n = v.x.length + (lf || pf ? CURVE_POINTS : 0);
+    const m = merged.current;
+    if (m.x.length !== n) m.x = new Float64Array(n);
+    const cols: (number | null)[][] = [0, 1, 2, 3, 4, 5].map((k) => (m.cols[k]?.length === n ? m.cols[k]! : new Array<number | null>(n)));
+    let i = 0;
+    let j = 0;
+    const hasCurve = lf || pf;
+    for (let k = 0; k < n; k++) {
+      const takeData = i < v.x.length && (!hasCurve || j >= CURVE_POINTS || v.x[i]! <= c.x[j]!);
+      if (takeData) {
+        m.x[k] = v.x[i]!;
+        cols[0]![k] = v.a[i]!;
+        cols[1]![k] = v.b[i]!;
+        cols[2]![k] = cols[3]![k] = cols[4]![k] = cols[5]![k] = null;
+        i++;
+      } else {
+        m.x[k] = c.x[j]!;
+        cols[0]![k] = cols[1]![k] = null;
+        cols[2]![k] = lf ? c.a[j]! : null;
+        cols[3]![k] = lf ? c.b[j]! : null;
+        cols[4]![k] = pf ? c.pa[j]! : null;
+        cols[5]![k] = pf ? c.pb[j]! : null;
+        j++;
+      }
+    }
+    m.cols = cols;
+    return [m.x, ...cols];
+  };
+
+  const plot = useUPlot(
+    box,
+    (p) => ({
+      legend: { show: true, live: false },
+      cursor: { drag: { x: false, y: false }, points: { show: false } },
+      scales: { x: { time: false }, y: { range: (_u, _min, max) => [0, max > 0 ? max * 1.08 : 1] } },
+      axes: [axis(p, { label: 'scan coordinate (V)' }), axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map((v) => formatRate(v).replace(/ ?\/s/, '')) })],
+      series: [
+        { label: 'x (V)' },
+        { label: props.labels.a, stroke: p.ember, width: 0, points: { show: true, size: 4, fill: p.ember, stroke: p.ember }, spanGaps: false },
+        { label: props.labels.b, stroke: p.tide, width: 0, points: { show: true, size: 4, fill: p.tide, stroke: p.tide }, spanGaps: false },
+        { label: 'fit A', stroke: p.ink, width: 2, points: { show: false }, spanGaps: true },
+        { label: 'fit B', stroke: p.ink, width: 2, dash: [6, 4], points: { show: false }, spanGaps: true },
+        { label: 'previous fit A', stroke: withAlpha(p.ember, 0.45), width: 1.5, points: { show: false }, spanGaps: true },
+        { label: 'previous fit B', stroke: withAlpha(p.tide, 0.45), width: 1.5, points: { show: false }, spanGaps: true },
+      ],
+    }),
+    data,
+    300,
+  );
+
+  useEffect(() => {
+    const gate = new FrameGate('fringe', REDRAW_MS, () => {
+      plot.current?.setData(data());
+      setClicks(cells.clicks());
+      setDir(cells.direction);
+    });
+    props.onReady({ invalidate: () => gate.invalidate() });
+    return () => gate.stop();
+  }, []);
+
+  useEffect(() => {
+    plot.current?.setData(data());
+  }, [props.sweeps]);
+
+  const lastFit = props.sweeps.at(-1);
+  return (
+    <section className="card" aria-labelledby="fringe-h">
+      <div className="mb-2 flex flex-wrap items-center justify-between gap-2">
+        <div>
+          <h2 id="fringe-h" className="font-semibold">Fringes against the drive</h2>
+          <p className="text-xs text-muted">
+            <span className="figure">{clicks.toLocaleString()}</span> clicks in the kept {dir ? `${dir}-going ` : ''}passes
+            {lastFit && (
+              <>
+                {' · '}last fit <span className="figure" data-testid="last-fit-visibility">V = {formatValueErr({ value: lastFit.visibility, err: lastFit.visibilityErr })}</span>
+              </>
+            )}
+          </p>
+        </div>
+        <div className="flex items-center gap-2">
+          <label className="flex items-center gap-1.5 text-xs text-muted">
+            Passes kept
+            <select className="field !w-auto !py-1 text-xs" value={keep} onChange={(e) => { const k = Number(e.target.value); setKeep(k); cells.setKeep(k); }}>
+              {KEEP_CHOICES.map((k) => (
+                <option key={k} value={k}>{k}</option>
+              ))}
+            </select>
+          </label>
+          <button type="button" className="btn !py-1 text-xs" onClick={props.onClear}>Clear</button>
+        </div>
+      </div>
+      <div ref={box} className="relative min-h-[300px]" role="img" aria-label="Counts of both outputs against the scan coordinate, with the fitted fringe model">
+        {clicks === 0 && <p className="pointer-events-none absolute inset-x-0 top-24 z-10 text-center text-sm text-muted">No scan in progress. Fringes appear here while the drive sweeps.</p>}
+      </div>
+    </section>
+  );
+}

@@ -1,0 +1,149 @@
+// The bench's active run: start one with a title, stop it, and take timestamped notes during it,
+// optionally with a snapshot of the figures on screen. Observers read the notes only.
+import { useEffect, useState, type FormEvent } from 'react';
+import type { BenchFigures } from '../../lib/bench-figures.ts';
+import { addNote, errorText, fetchNotes, startRun, stopRun } from '../../lib/client/api.ts';
+import { formatClock, formatDuration, formatValueErr, formatRate } from '../../lib/client/format.ts';
+import type { NoteView, RunView } from '../../lib/runs.ts';
+
+interface Props {
+  benchId: string;
+  initialRun: RunView | null;
+  canOperate: boolean;
+  figures: BenchFigures | null;
+}
+
+export function snapshotLine(s: BenchFigures): string {
+  const parts = s.channels.filter((c) => c.role === 'out_a' || c.role === 'out_b').map((c) => `${c.label} ${formatRate(c.rateRaw)}`);
+  if (s.visibility) parts.push(`V ${formatValueErr(s.visibility)}`);
+  if (s.phase) parts.push(`φ ${formatValueErr(s.phase)} rad`);
+  if (s.g2) parts.push(`g²(0) ${formatValueErr(s.g2, 3)}`);
+  return parts.join(' · ');
+}
+
+export function RunPanel({ benchId, initialRun, canOperate, figures }: Props) {
+  const [run, setRun] = useState<RunView | null>(initialRun);
+  const [notes, setNotes] = useState<NoteView[] | null>(null);
+  const [notesError, setNotesError] = useState<string | null>(null);
+  const [title, setTitle] = useState('');
+  const [text, setText] = useState('');
+  const [withSnapshot, setWithSnapshot] = useState(true);
+  const [busy, setBusy] = useState(false);
+  const [error, setError] = useState<string | null>(null);
+  const [now, setNow] = useState(() => Date.now());
+
+  useEffect(() => {
+    const t = setInterval(() => setNow(Date.now()), 1000);
+    return () => clearInterval(t);
+  }, []);
+
+  useEffect(() => {
+    if (!run) {
+      setNotes(null);
+      return;
+    }
+    const ctl = new AbortController();
+    setNotesError(null);
+    fetchNotes(run.id, ctl.signal).then(setNotes, (err) => !ctl.signal.aborted && setNotesError(errorText(err)));
+    return () => ctl.abort();
+  }, [run?.id]);
+
+  const act = async (fn: () => Promise<void>) => {
+    setBusy(true);
+    setError(null);
+    try {
+      await fn();
+    } catch (err) {
+      setError(errorText(err));
+    } finally {
+      setBusy(false);
+    }
+  };
+
+  const onStart = (e: FormEvent) => {
+    e.preventDefault();
+    void act(async () => {
+      setRun(await startRun(benchId, title));
+      setTitle('');
+      setNotes([]);
+    });
+  };
+
+  const onNote = (e: FormEvent) => {
+    e.preventDefault();
+    if (!run) return;
+    void act(async () => {
+      const note = await addNote(run.id, { body: text, snapshot: withSnapshot ? figures : null });
+      setNotes((n) => [...(n ?? []), note]);
+      setText('');
+    });
+  };
+
+  return (
+    <section className="card" aria-labelledby="run-h">
+      <h2 id="run-h" className="mb-2 font-semibold">Run &amp; notes</h2>
+      {run ? (
+        <div className="mb-3 flex flex-wrap items-start justify-between gap-2">
+          <div>
+            <a href={`/runs/${run.id}`} className="font-medium hover:underline" data-testid="active-run-title">{run.title}</a>
+            <p className="text-xs text-muted">
+              started <span className="figure">{formatClock(run.startMs)}</span> by {run.startedBy?.name ?? 'someone'} · running <span className="figure">{formatDuration(now - run.startMs)}</span>
+            </p>
+          </div>
+          {canOperate && (
+            <button type="button" className="btn-danger" disabled={busy} onClick={() => void act(async () => { await stopRun(run.id); setRun(null); })}>
+              Stop run
+            </button>
+          )}
+        </div>
+      ) : canOperate ? (
+        <form onSubmit={onStart} className="mb-3 flex flex-wrap items-end gap-2">
+          <label className="min-w-0 flex-1">
+            <span className="label">Run title</span>
+            <input className="field" required maxLength={200} value={title} onChange={(e) => setTitle(e.target.value)} placeholder="e.g. Align arm 2 after mirror swap" />
+          </label>
+          <button type="submit" className="btn-primary" disabled={busy}>Start run</button>
+        </form>
+      ) : (
+        <p className="mb-3 text-sm text-muted">No run in progress.</p>
+      )}
+      {error && <p className="mb-2 text-sm text-bad" role="alert">{error}</p>}
+      {run && (
+        <>
+          {notesError ? (
+            <p className="text-sm text-bad">Notes unavailable: {notesError}</p>
+          ) : notes === null ? (
+            <p className="text-sm text-muted">Loading notes…</p>
+          ) : notes.length === 0 ? (
+            <p className="text-sm text-muted">No notes yet.</p>
+          ) : (
+            <ol className="max-h-64 space-y-2 overflow-y-auto text-sm" aria-label="Notes">
+              {notes.map((n) => (
+                <li key={n.id} className="border-l-2 border-accent pl-2">
+                  <p className="text-xs text-muted"><span className="figure">{formatClock(n.atMs)}</span> · {n.author?.name ?? 'someone'}</p>
+                  <p className="whitespace-pre-wrap">{n.body}</p>
+                  {n.snapshot && <p className="figure text-xs text-muted">{snapshotLine(n.snapshot)}</p>}
+                </li>
+              ))}
+            </ol>
+          )}
+          {canOperate && (
+            <form onSubmit={onNote} className="mt-3 space-y-2">
+              <label className="block">
+                <span className="label">Note</span>
+                <textarea className="field min-h-16" required maxLength={10000} value={text} onChange={(e) => setText(e.target.value)} />
+              </label>
+              <div className="flex flex-wrap items-center justify-between gap-2">
+                <label className="flex items-center gap-2 text-sm">
+                  <input type="checkbox" checked={withSnapshot} disabled={!figures} onChange={(e) => setWithSnapshot(e.target.checked)} />
+                  Attach current figures
+                </label>
+                <button type="submit" className="btn" disabled={busy}>Add note</button>
+              </div>
+            </form>
+          )}
+        </>
+      )}
+    </section>
+  );
+}

@@ -1,0 +1,102 @@
+// Drive control for operators: a sweep (from/to/step/dwell/passes), hold at a point, hold at
+// mid-fringe from the latest fit, stop. The admin's drive limits are shown here and enforced by the
+// server; the laser safety caution sits where the scan is started.
+import { useState, type FormEvent } from 'react';
+import type { BenchViewData } from '../../lib/bench-view.ts';
+import { errorText, sendCommand, sweepFit, type Sweep } from '../../lib/client/api.ts';
+import type { CommandBody } from '../../lib/contract/wire.ts';
+import { midFringeX } from './mid-fringe.ts';
+
+interface Props {
+  bench: BenchViewData;
+  lastSweep: Sweep | null;
+  /** Called after a sweep was accepted, so the fringe view starts afresh. */
+  onSweepStarted: () => void;
+}
+
+export function SweepControl({ bench, lastSweep, onSweepStarted }: Props) {
+  const d = bench.drive;
+  const [from, setFrom] = useState(String(d.min));
+  const [to, setTo] = useState(String(Math.min(d.max, d.min + (d.max - d.min) / 2)));
+  const [step, setStep] = useState(String(Math.min(d.maxStep, 0.05)));
+  const [dwell, setDwell] = useState(String(Math.max(d.minDwellMs, 20)));
+  const [passes, setPasses] = useState('4');
+  const [holdX, setHoldX] = useState(String((d.min + d.max) / 2));
+  const [busy, setBusy] = useState(false);
+  const [message, setMessage] = useState<{ ok: boolean; text: string } | null>(null);
+
+  const send = async (cmd: CommandBody, what: string) => {
+    setBusy(true);
+    setMessage(null);
+    try {
+      await sendCommand(bench.id, cmd);
+      setMessage({ ok: true, text: `${what}: sent to the gateway.` });
+      if (cmd.op === 'sweep') onSweepStarted();
+    } catch (err) {
+      setMessage({ ok: false, text: `${what} refused: ${errorText(err)}` });
+    } finally {
+      setBusy(false);
+    }
+  };
+
+  const startSweep = (e: FormEvent) => {
+    e.preventDefault();
+    void send({ op: 'sweep', from: Number(from), to: Number(to), step: Number(step), dwell: Number(dwell), sweeps: Number(passes) }, 'Sweep');
+  };
+
+  const fit = lastSweep ? sweepFit(lastSweep) : null;
+  const mid = fit ? midFringeX(fit, Math.min(Number(from), Number(to)), Math.max(Number(from), Number(to)), (Number(from) + Number(to)) / 2) : null;
+  const estSeconds = (Math.abs(Number(to) - Number(from)) / Math.max(Number(step), 1e-9)) * Number(dwell) * Number(passes) / 1000;
+
+  return (
+    <section className="card" aria-labelledby="drive-h">
+      <div className="mb-3 flex items-baseline justify-between gap-2">
+        <h2 id="drive-h" className="font-semibold">Drive</h2>
+        <p className="figure text-xs text-muted" data-testid="drive-limits">
+          limits {d.min}–{d.max} V · step ≤ {d.maxStep} V · dwell ≥ {d.minDwellMs} ms
+        </p>
+      </div>
+      <form onSubmit={startSweep} className="space-y-3">
+        <div className="grid grid-cols-2 gap-2 sm:grid-cols-5">
+          <label><span className="label">From (V)</span><input className="field figure" type="number" step="any" min={d.min} max={d.max} required value={from} onChange={(e) => setFrom(e.target.value)} /></label>
+          <label><span className="label">To (V)</span><input className="field figure" type="number" step="any" min={d.min} max={d.max} required value={to} onChange={(e) => setTo(e.target.value)} /></label>
+          <label><span className="label">Step (V)</span><input className="field figure" type="number" step="any" min="0" max={d.maxStep} required value={step} onChange={(e) => setStep(e.target.value)} /></label>
+          <label><span className="label">Dwell (ms)</span><input className="field figure" type="number" step="1" min={d.minDwellMs} max="60000" required value={dwell} onChange={(e) => setDwell(e.target.value)} /></label>
+          <label><span className="label">Passes</span><input className="field figure" type="number" step="1" min="1" max="10000" required value={passes} onChange={(e) => setPasses(e.target.value)} /></label>
+        </div>
+        <div className="rounded-md border border-warn/60 bg-sunken p-3 text-xs leading-relaxed" role="note" aria-label="Laser safety">
+          <p className="font-semibold text-warn">Before you scan</p>
+          <p className="text-ink">
+            Wear eyewear rated for {bench.wavelengthNm} nm{bench.wavelengthNm > 700 ? ' (the beam is invisible or faint)' : ''}; keep beams enclosed, stopped and below eye
+            level. Do not expose biased detectors to room light or let bright fringes overexpose them. Detector high voltage can be lethal: switch it off before
+            handling cables. Your lab's laser safety officer and local rules decide what is allowed.
+          </p>
+        </div>
+        <div className="flex flex-wrap items-center gap-2">
+          <button type="submit" className="btn-primary" disabled={busy}>Start sweep</button>
+          <span className="figure text-xs text-muted">≈ {Number.isFinite(estSeconds) ? estSeconds.toFixed(0) : '–'} s</span>
+          <button type="button" className="btn-danger ml-auto" disabled={busy} onClick={() => void send({ op: 'stop' }, 'Stop')}>Stop drive</button>
+        </div>
+      </form>
+      <div className="mt-3 flex flex-wrap items-end gap-2 border-t border-line pt-3">
+        <label className="w-32"><span className="label">Hold at (V)</span><input className="field figure" type="number" step="any" min={d.min} max={d.max} value={holdX} onChange={(e) => setHoldX(e.target.value)} /></label>
+        <button type="button" className="btn" disabled={busy} onClick={() => void send({ op: 'hold', x: Number(holdX) }, `Hold at ${holdX} V`)}>Hold</button>
+        <button
+          type="button"
+          className="btn"
+          disabled={busy || mid === null}
+          title={mid === null ? 'Needs a fitted sweep covering this range' : undefined}
+          onClick={() => mid !== null && void send({ op: 'hold', x: Number(mid.toFixed(4)) }, `Hold at mid-fringe ${mid.toFixed(3)} V`)}
+        >
+          Hold at mid-fringe{mid !== null && <span className="figure text-xs text-muted">{mid.toFixed(3)} V</span>}
+        </button>
+      </div>
+      <p className="mt-2 text-xs text-muted">
+        Mid-fringe comes from the latest {lastSweep?.direction ?? ''} fit; piezo hysteresis shifts it with the direction of approach, so trim with the contrast readout (0 at mid-fringe).
+      </p>
+      {message && (
+        <p className={`mt-2 text-sm ${message.ok ? 'text-good' : 'text-bad'}`} role="status" data-testid="drive-message">{message.text}</p>
+      )}
+    </section>
+  );
+}

@@ -1,0 +1,90 @@
+// Visibility over the last half hour: each fitted sweep with its 1σ band, the running (envelope)
+// estimate between sweeps, and the alarm limit as a line.
+import { useEffect, useRef } from 'react';
+import type uPlot from 'uplot';
+import type { Sweep } from '../../lib/client/api.ts';
+import { withAlpha } from '../../lib/client/chart-theme.ts';
+import { axis, useUPlot } from '../charts/useUPlot.ts';
+
+export interface EnvelopePoint {
+  /** ms since the epoch */
+  t: number;
+  v: number;
+}
+
+interface Props {
+  sweeps: Sweep[];
+  envelope: EnvelopePoint[];
+  limit: number | null;
+  loading: boolean;
+  error: string | null;
+}
+
+export function VisibilityTrend(props: Props) {
+  const box = useRef<HTMLDivElement>(null);
+  const ref = useRef(props);
+  ref.current = props;
+
+  const data = (): uPlot.AlignedData => {
+    const { sweeps, envelope, limit } = ref.current;
+    // Sweeps and envelope points on one sorted time axis, nulls where a series has no value.
+    const rows: [number, number | null, number | null, number | null, number | null][] = [];
+    for (const s of sweeps) {
+      const t = (s.start + s.end) / 2000;
+      rows.push([t, s.visibility, s.visibility - s.visibilityErr, s.visibility + s.visibilityErr, null]);
+    }
+    for (const e of envelope) rows.push([e.t / 1000, null, null, null, e.v]);
+    rows.sort((a, b) => a[0] - b[0]);
+    const x = rows.map((r) => r[0]);
+    const lim = rows.map(() => limit);
+    return [x, rows.map((r) => r[1]), rows.map((r) => r[2]), rows.map((r) => r[3]), rows.map((r) => r[4]), lim];
+  };
+
+  const plot = useUPlot(
+    box,
+    (p) => ({
+      legend: { show: true, live: false },
+      cursor: { drag: { x: false, y: false } },
+      scales: { x: { time: true }, y: { range: (_u, min, max) => [Math.max(0, Math.min(min, ref.current.limit ?? 1) - 0.02), Math.min(1.0, max + 0.01)] } },
+      axes: [axis(p), axis(p, { size: 56, label: 'visibility' })],
+      bands: [{ series: [3, 2], fill: withAlpha(p.accent, 0.18) }],
+      series: [
+        { label: 'time' },
+        { label: 'sweep fit', stroke: p.accent, width: 1.5, points: { show: true, size: 5, fill: p.accent }, spanGaps: true },
+        { label: '−1σ', stroke: 'transparent', points: { show: false }, spanGaps: true },
+        { label: '+1σ', stroke: 'transparent', points: { show: false }, spanGaps: true },
+        { label: 'running', stroke: p.muted, width: 1, dash: [3, 3], points: { show: false }, spanGaps: true },
+        { label: 'alarm limit', stroke: p.bad, width: 1.5, dash: [8, 4], points: { show: false }, spanGaps: true },
+      ],
+    }),
+    data,
+    200,
+  );
+
+  useEffect(() => {
+    plot.current?.setData(data());
+  }, [props.sweeps, props.envelope, props.limit]);
+
+  const empty = props.sweeps.length === 0 && props.envelope.length === 0;
+  return (
+    <section className="card" aria-labelledby="vis-h">
+      <div className="mb-2 flex items-baseline justify-between gap-2">
+        <h2 id="vis-h" className="font-semibold">Visibility trend</h2>
+        <p className="text-xs text-muted">
+          {props.limit !== null ? (
+            <>alarm below <span className="figure">{props.limit.toFixed(3)}</span></>
+          ) : (
+            'no visibility alarm set'
+          )}
+        </p>
+      </div>
+      <div ref={box} className="relative min-h-[200px]" role="img" aria-label="Visibility of each fitted sweep over time, with the alarm limit">
+        {(props.loading || props.error || empty) && (
+          <p className={`pointer-events-none absolute inset-x-0 top-16 z-10 text-center text-sm ${props.error ? 'text-bad' : 'text-muted'}`}>
+            {props.error ?? (props.loading ? 'Loading sweeps…' : 'No fitted sweeps in the last 30 minutes.')}
+          </p>
+        )}
+      </div>
+    </section>
+  );
+}

@@ -1,0 +1,34 @@
+// Where to hold for the steepest slope: the scan coordinate nearest `near` with cos θ(x) = 0, from
+// a fit's phase model θ = 2π(x + q·x²)/P + φ, searched within [lo, hi]. Null when none lies there.
+import { fringePhase } from '../../lib/analysis/fringe-model.ts';
+import type { SweepFit } from '../../lib/client/api.ts';
+
+/** Grid for bracketing zero crossings: far finer than a fringe for any sane sweep. */
+const GRID = 2000;
+
+export function midFringeX(fit: SweepFit, lo: number, hi: number, near: number): number | null {
+  const p = { period: fit.period, phase: fit.phase, quadratic: fit.quadratic };
+  const f = (x: number) => Math.cos(fringePhase(x, p));
+  let best: number | null = null;
+  let prevX = lo;
+  let prevF = f(lo);
+  for (let i = 1; i <= GRID; i++) {
+    const x = lo + ((hi - lo) * i) / GRID;
+    const fx = f(x);
+    if (prevF === 0 || prevF * fx < 0) {
+      // Bisection inside the bracket, to well under a millivolt.
+      let a = prevX;
+      let b = x;
+      for (let k = 0; k < 40; k++) {
+        const m = (a + b) / 2;
+        if (f(a) * f(m) <= 0) b = m;
+        else a = m;
+      }
+      const root = (a + b) / 2;
+      if (best === null || Math.abs(root - near) < Math.abs(best - near)) best = root;
+    }
+    prevX = x;
+    prevF = fx;
+  }
+  return best;
+}

@@ -1,0 +1,140 @@
+// Any time range of a bench on one zoomable chart. The counts API sums bins server-side; we ask
+// for a step that gives at most about one point per chart pixel, and ask again after every zoom.
+import { useEffect, useRef, useState } from 'react';
+import type uPlot from 'uplot';
+import type { ViewChannel } from '../../lib/bench-view.ts';
+import { errorText, fetchCounts, type CountsAnswer } from '../../lib/client/api.ts';
+import { formatDateTime, formatRate } from '../../lib/client/format.ts';
+import { axis, useUPlot } from '../charts/useUPlot.ts';
+import { channelColour } from '../bench/RatesChart.tsx';
+import { pickStep, toLocalInput } from './history-range.ts';
+
+const PRESETS: { label: string; ms: number }[] = [
+  { label: '15 min', ms: 15 * 60_000 },
+  { label: '1 h', ms: 3_600_000 },
+  { label: '6 h', ms: 6 * 3_600_000 },
+  { label: '24 h', ms: 86_400_000 },
+  { label: '7 d', ms: 7 * 86_400_000 },
+];
+
+interface Range {
+  from: number;
+  to: number;
+}
+
+export default function HistoryView({ benchId, channels }: { benchId: string; channels: ViewChannel[] }) {
+  const [range, setRange] = useState<Range>(() => ({ from: Date.now() - 3_600_000, to: Date.now() }));
+  const [answer, setAnswer] = useState<CountsAnswer | null>(null);
+  const [loading, setLoading] = useState(true);
+  const [error, setError] = useState<string | null>(null);
+  const [loadMs, setLoadMs] = useState<number | null>(null);
+  const box = useRef<HTMLDivElement>(null);
+  const answerRef = useRef(answer);
+  answerRef.current = answer;
+  const rangeRef = useRef(range);
+  rangeRef.current = range;
+
+  const width = () => Math.max(300, box.current?.clientWidth ?? 1200);
+  const step = pickStep(range.to - range.from, width());
+
+  const data = (): uPlot.AlignedData => {
+    const a = answerRef.current;
+    if (!a) return [[], ...channels.map(() => [])];
+    const n = Object.values(a.channels)[0]?.length ?? 0;
+    const x = new Float64Array(n);
+    for (let i = 0; i < n; i++) x[i] = (a.t0 + (i + 0.5) * a.step) / 1000;
+    // Rates, counts/s; buckets without bins stay null (a gap, not a zero).
+    const ys = channels.map((c) => (a.channels[c.id] ?? []).map((v) => (v == null ? null : (v * 1000) / a.step)));
+    return [x, ...ys];
+  };
+
+  const plot = useUPlot(
+    box,
+    (p) => ({
+      legend: { show: true, live: true },
+      cursor: { drag: { x: true, y: false, setScale: false } },
+      select: { show: true, left: 0, top: 0, width: 0, height: 0 },
+      scales: { x: { time: true, range: () => [rangeRef.current.from / 1000, rangeRef.current.to / 1000] } },
+      axes: [axis(p), axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map((v) => formatRate(v).replace(/ ?\/s/, '')) })],
+      series: [{ label: 'time' }, ...channels.map((c, i) => ({ label: c.label, stroke: channelColour(p, c.role, i), width: 1.25, points: { show: false }, value: (_u: uPlot, v: number | null) => formatRate(v) }))],
+      hooks: {
+        setSelect: [
+          (u: uPlot) => {
+            if (u.select.width < 4) return;
+            const from = u.posToVal(u.select.left, 'x') * 1000;
+            const to = u.posToVal(u.select.left + u.select.width, 'x') * 1000;
+            u.setSelect({ left: 0, top: 0, width: 0, height: 0 }, false);
+            setRange({ from: Math.round(from), to: Math.round(to) });
+          },
+        ],
+      },
+    }),
+    data,
+    360,
+  );
+
+  useEffect(() => {
+    const ctl = new AbortController();
+    setLoading(true);
+    setError(null);
+    const started = performance.now();
+    fetchCounts(benchId, range.from, range.to, step, ctl.signal).then(
+      (a) => {
+        setAnswer(a);
+        answerRef.current = a;
+        plot.current?.setData(data());
+        setLoadMs(performance.now() - started);
+        setLoading(false);
+      },
+      (err) => {
+        if (ctl.signal.aborted) return;
+        setError(errorText(err));
+        setLoading(false);
+      },
+    );
+    return () => ctl.abort();
+  }, [benchId, range.from, range.to, step]);
+
+  const q = new URLSearchParams({ from: String(range.from), to: String(range.to), step: String(step) });
+  const base = `/api/v1/benches/${encodeURIComponent(benchId)}/counts?${q}`;
+  const empty = answer && Object.values(answer.channels).every((col) => col.every((v) => v == null || v === 0));
+
+  return (
+    <section className="card space-y-3" aria-labelledby="hist-h">
+      <div className="flex flex-wrap items-end justify-between gap-3">
+        <div>
+          <h2 id="hist-h" className="font-semibold">Count rates</h2>
+          <p className="figure text-xs text-muted" data-testid="history-range">
+            {formatDateTime(range.from)} → {formatDateTime(range.to)} · step {step >= 1000 ? `${step / 1000} s` : `${step} ms`}
+            {loadMs !== null && ` · loaded in ${loadMs.toFixed(0)} ms`}
+          </p>
+        </div>
+        <div className="flex flex-wrap items-end gap-2">
+          <div role="group" aria-label="Range ending now" className="flex overflow-hidden rounded-md border border-line">
+            {PRESETS.map((p) => (
+              <button key={p.label} type="button" className="figure px-2.5 py-1 text-xs hover:bg-sunken" onClick={() => { const now = Date.now(); setRange({ from: now - p.ms, to: now }); }}>
+                {p.label}
+              </button>
+            ))}
+          </div>
+          <label><span className="label">From</span><input className="field figure !py-1 text-xs" type="datetime-local" value={toLocalInput(range.from)} onChange={(e) => { const t = new Date(e.target.value).getTime(); if (Number.isFinite(t) && t < range.to) setRange({ ...range, from: t }); }} /></label>
+          <label><span className="label">To</span><input className="field figure !py-1 text-xs" type="datetime-local" value={toLocalInput(range.to)} onChange={(e) => { const t = new Date(e.target.value).getTime(); if (Number.isFinite(t) && t > range.from) setRange({ ...range, to: t }); }} /></label>
+        </div>
+      </div>
+      <div ref={box} className="relative min-h-[360px]" role="img" aria-label="Count rates over the chosen time range; drag across the chart to zoom in">
+        {(loading || error || empty) && (
+          <p className={`pointer-events-none absolute inset-x-0 top-32 z-10 text-center text-sm ${error ? 'text-bad' : 'text-muted'}`} data-testid="history-state">
+            {error ? `Could not load counts: ${error}` : loading ? 'Loading…' : 'No counts in this range.'}
+          </p>
+        )}
+      </div>
+      <div className="flex flex-wrap items-center justify-between gap-2 text-sm">
+        <p className="text-xs text-muted">Drag across the chart to zoom in; pick a preset to zoom out.</p>
+        <div className="flex gap-2">
+          <a className="btn" href={`${base}&format=csv`} download={`${benchId}-counts.csv`}>Export CSV</a>
+          <a className="btn" href={base} download={`${benchId}-counts.json`}>Export JSON</a>
+        </div>
+      </div>
+    </section>
+  );
+}

@@ -1,0 +1,16 @@
+// Steps the history asks the counts API for. Every one is a multiple of the usual bin widths
+// (1, 10, 100 ms), so the server can sum bins into it exactly.
+const NICE_STEPS_MS = [100, 1_000, 10_000, 60_000, 600_000, 3_600_000, 86_400_000];
+
+/** Smallest nice step that keeps the points at or under one per `pixels`. */
+export function pickStep(spanMs: number, pixels: number): number {
+  const want = spanMs / Math.max(100, pixels);
+  return NICE_STEPS_MS.find((s) => s >= want) ?? NICE_STEPS_MS[NICE_STEPS_MS.length - 1]!;
+}
+
+/** ms since the epoch as the value of a datetime-local input, in local time. */
+export function toLocalInput(ms: number): string {
+  const d = new Date(ms);
+  const p = (n: number) => String(n).padStart(2, '0');
+  return `${d.getFullYear()}-${p(d.getMonth() + 1)}-${p(d.getDate())}T${p(d.getHours())}:${p(d.getMinutes())}`;
+}

@@ -1,0 +1,142 @@
+// The islands' side of the HTTP API: typed fetches whose answers are checked with zod, and errors
+// turned into one readable message (the server's `{ error }` when it sent one).
+import { z } from 'zod';
+import { benchFiguresSchema, type BenchFigures } from '../bench-figures-schema.ts';
+import { noteViewSchema, runViewSchema, type AddNoteBody, type NoteView, type RunView } from '../runs.ts';
+import type { CommandBody } from '../contract/wire.ts';
+
+export class ApiError extends Error {
+  constructor(
+    readonly status: number,
+    message: string,
+  ) {
+    super(message);
+  }
+}
+
+async function call<T>(path: string, schema: z.ZodType<T, z.ZodTypeDef, unknown>, init?: RequestInit, signal?: AbortSignal): Promise<T> {
+  let res: Response;
+  try {
+    res = await fetch(path, { ...init, signal: signal ?? null, headers: { accept: 'application/json', ...(init?.body ? { 'content-type': 'application/json' } : {}) } });
+  } catch (err) {
+    if (err instanceof DOMException && err.name === 'AbortError') throw err;
+    throw new ApiError(0, 'the server cannot be reached');
+  }
+  const text = await res.text();
+  let body: unknown = null;
+  try {
+    body = text ? JSON.parse(text) : null;
+  } catch {
+    // Not JSON (a proxy's error page): reported by status below.
+  }
+  if (!res.ok) {
+    const msg = body && typeof body === 'object' && 'error' in body && typeof body.error === 'string' ? body.error : `HTTP ${res.status}`;
+    throw new ApiError(res.status, msg);
+  }
+  const parsed = schema.safeParse(body);
+  if (!parsed.success) throw new ApiError(res.status, `unexpected answer from ${path.split('?')[0]}`);
+  return parsed.data;
+}
+
+/** Counts as the contract serves them: sums per `step` ms from `t0`, keyed "<gateway>/<key>". */
+export const countsAnswerSchema = z.object({
+  t0: z.number(),
+  step: z.number().positive(),
+  channels: z.record(z.string(), z.array(z.number().nullable())),
+  x: z.array(z.number().nullable()).optional(),
+  cc: z.array(z.number().nullable()).optional(),
+});
+export type CountsAnswer = z.infer<typeof countsAnswerSchema>;
+
+export function fetchCounts(bench: string, from: number, to: number, step: number, signal?: AbortSignal): Promise<CountsAnswer> {
+  const q = new URLSearchParams({ from: String(Math.floor(from)), to: String(Math.ceil(to)), step: String(step) });
+  return call(`/api/v1/benches/${encodeURIComponent(bench)}/counts?${q}`, countsAnswerSchema, undefined, signal);
+}
+
+/**
+ * The stored fit (sweeps-store.ts): the model's parameters with amplitudes and darks in counts per
+ * raw bin of `dtMs`; the rest of the stored fit is passed through.
+ */
+export const sweepFitSchema = z
+  .object({
+    amplitudeA: z.number(),
+    amplitudeB: z.number(),
+    visibility: z.number(),
+    period: z.number(),
+    phase: z.number(),
+    quadratic: z.number(),
+    darkPerBin: z.object({ a: z.number(), b: z.number() }).nullable(),
+    shown: z.enum(['raw', 'net']),
+    dtMs: z.number().positive(),
+    xMin: z.number().optional(),
+    xMax: z.number().optional(),
+  })
+  .passthrough();
+export type SweepFit = z.infer<typeof sweepFitSchema>;
+
+/** A fitted sweep from the sweeps endpoint or a 'sweep' message; `start`/`startMs` both accepted. */
+export const sweepSchema = z.preprocess(
+  (v) => {
+    if (!v || typeof v !== 'object') return v;
+    const o = v as Record<string, unknown>;
+    return { ...o, start: o['start'] ?? o['startMs'], end: o['end'] ?? o['endMs'] };
+  },
+  z.object({
+    id: z.number().optional(),
+    start: z.number(),
+    end: z.number(),
+    direction: z.enum(['up', 'down']),
+    visibility: z.number(),
+    visibilityErr: z.number(),
+    visibilityNet: z.number().nullable().optional(),
+    phase: z.number(),
+    periodX: z.number(),
+    counts: z.number(),
+    fit: z.unknown().optional(),
+  }),
+);
+export type Sweep = z.infer<typeof sweepSchema>;
+
+/** The drawable fit of a sweep, or null when the stored fit lacks what the model needs. */
+export function sweepFit(s: Sweep): SweepFit | null {
+  const p = sweepFitSchema.safeParse(s.fit);
+  return p.success ? p.data : null;
+}
+
+export function fetchSweeps(bench: string, from: number, to: number, signal?: AbortSignal): Promise<Sweep[]> {
+  const q = new URLSearchParams({ from: String(Math.floor(from)), to: String(Math.ceil(to)) });
+  return call(`/api/v1/benches/${encodeURIComponent(bench)}/sweeps?${q}`, z.array(sweepSchema), undefined, signal);
+}
+
+export async function fetchFigures(bench: string, signal?: AbortSignal): Promise<BenchFigures | null> {
+  const answer = await call(`/api/v1/benches/${encodeURIComponent(bench)}/figures`, z.object({ figures: benchFiguresSchema.nullable() }), undefined, signal);
+  return answer.figures;
+}
+
+export function sendCommand(bench: string, cmd: CommandBody): Promise<{ id: string }> {
+  return call(`/api/v1/benches/${encodeURIComponent(bench)}/commands`, z.object({ id: z.string() }), { method: 'POST', body: JSON.stringify(cmd) });
+}
+
+export function fetchRuns(bench: string, signal?: AbortSignal): Promise<RunView[]> {
+  return call(`/api/v1/benches/${encodeURIComponent(bench)}/runs`, z.array(runViewSchema), undefined, signal);
+}
+
+export function startRun(bench: string, title: string): Promise<RunView> {
+  return call(`/api/v1/benches/${encodeURIComponent(bench)}/runs`, runViewSchema, { method: 'POST', body: JSON.stringify({ title }) });
+}
+
+export function stopRun(id: number): Promise<RunView> {
+  return call(`/api/v1/runs/${id}/stop`, runViewSchema, { method: 'POST' });
+}
+
+export function fetchNotes(runId: number, signal?: AbortSignal): Promise<NoteView[]> {
+  return call(`/api/v1/runs/${runId}/notes`, z.array(noteViewSchema), undefined, signal);
+}
+
+export function addNote(runId: number, body: AddNoteBody): Promise<NoteView> {
+  return call(`/api/v1/runs/${runId}/notes`, noteViewSchema, { method: 'POST', body: JSON.stringify(body) });
+}
+
+export function errorText(err: unknown): string {
+  return err instanceof Error ? err.message : String(err);
+}

@@ -1,0 +1,100 @@
+// Live count rates as a ring of fixed-width time buckets per channel, in typed arrays allocated
+// once: messages add into buckets, redraws copy the visible span into reused output arrays.
+// 100 ms buckets × 6000 = the longest window (10 min) at a resolution the eye can follow.
+
+export const BUCKET_MS = 100;
+export const CAPACITY = 6000;
+
+export class RateRing {
+  /** Bucket width, ms: BUCKET_MS, or the bin width when bins are wider. */
+  bucketMs = BUCKET_MS;
+  readonly keys: string[];
+  private readonly sums: Float64Array[];
+  /** Milliseconds of bins that landed in each bucket (a partly filled bucket is not a dim one). */
+  private readonly covered: Float64Array;
+  /** Bucket index (t / bucketMs) held in each slot; −1 when empty. */
+  private readonly slotIndex: Float64Array;
+  private newest = -1;
+  /** Output arrays reused by every `view` call: seconds since the epoch, then rates in counts/s. */
+  private readonly outX = new Float64Array(CAPACITY);
+  private readonly outY: Float64Array[];
+
+  constructor(keys: string[]) {
+    this.keys = keys;
+    this.sums = keys.map(() => new Float64Array(CAPACITY));
+    this.outY = keys.map(() => new Float64Array(CAPACITY));
+    this.covered = new Float64Array(CAPACITY);
+    this.slotIndex = new Float64Array(CAPACITY).fill(-1);
+  }
+
+  clear(): void {
+    this.slotIndex.fill(-1);
+    this.newest = -1;
+  }
+
+  /** Bins wider than a bucket widen the buckets (and start over: old buckets have another width). */
+  private ensureWidth(dt: number): void {
+    const want = Math.max(BUCKET_MS, dt);
+    if (want !== this.bucketMs) {
+      this.bucketMs = want;
+      this.clear();
+    }
+  }
+
+  /**
+   * Adds bins [t0 + i·dt, t0 + (i+1)·dt) of the channels present in `ch` (others left as they are).
+   * `t0`, `dt` in ms; counts per bin. With `fillOnly`, buckets that already hold data are left
+   * alone (a backfill arriving after live messages must not count them twice).
+   */
+  add(t0: number, dt: number, ch: Record<string, ArrayLike<number>>, fillOnly = false): void {
+    this.ensureWidth(dt);
+    const cols = this.keys.map((k) => ch[k]);
+    const n = cols.find((c) => c)?.length ?? 0;
+    for (let i = 0; i < n; i++) {
+      const idx = Math.floor((t0 + i * dt) / this.bucketMs);
+      // Older than the ring holds: nothing to show it in.
+      if (this.newest >= 0 && idx <= this.newest - CAPACITY) continue;
+      const slot = idx % CAPACITY;
+      if (fillOnly && this.slotIndex[slot] === idx) continue;
+      if (this.slotIndex[slot] !== idx) {
+        this.slotIndex[slot] = idx;
+        this.covered[slot] = 0;
+        for (const s of this.sums) s[slot] = 0;
+      }
+      this.covered[slot]! += dt;
+      for (let c = 0; c < cols.length; c++) {
+        const col = cols[c];
+        if (col) this.sums[c]![slot]! += col[i]!;
+      }
+      if (idx > this.newest) this.newest = idx;
+    }
+  }
+
+  /** Newest bucket's start, ms; null when empty. */
+  newestMs(): number | null {
+    return this.newest < 0 ? null : this.newest * this.bucketMs;
+  }
+
+  /**
+   * Buckets from `fromMs` on that hold data, as [x (s), ...rates (counts/s)] views into the reused
+   * output arrays (valid until the next call). `floor` clamps rates up for log axes.
+   */
+  view(fromMs: number, floor = 0): { x: Float64Array; y: Float64Array[] } {
+    let len = 0;
+    if (this.newest >= 0) {
+      const first = Math.max(Math.floor(fromMs / this.bucketMs), this.newest - CAPACITY + 1);
+      for (let idx = first; idx <= this.newest; idx++) {
+        const slot = idx % CAPACITY;
+        const cov = this.covered[slot]!;
+        if (this.slotIndex[slot] !== idx || cov <= 0) continue;
+        this.outX[len] = (idx * this.bucketMs) / 1000;
+        for (let c = 0; c < this.keys.length; c++) {
+          const r = (this.sums[c]![slot]! * 1000) / cov;
+          this.outY[c]![len] = r < floor ? floor : r;
+        }
+        len++;
+      }
+    }
+    return { x: this.outX.subarray(0, len), y: this.outY.map((a) => a.subarray(0, len)) };
+  }
+}

@@ -1,0 +1,38 @@
+// What the lab overview shows per bench beside the live figures: gateways online, open alarms,
+// and who is running what.
+import { count, isNull } from 'drizzle-orm';
+import type { OverviewBench } from '../overview.ts';
+import { listBenches } from './benches.ts';
+import { getDb } from './db/index.ts';
+import { alarmEvents, gateways } from './db/schema.ts';
+import { activeRuns } from './runs.ts';
+
+export async function loadOverview(): Promise<OverviewBench[]> {
+  const db = getDb();
+  const [benchRows, gws, alarms, runs] = await Promise.all([
+    listBenches(),
+    db.select({ id: gateways.id, benchId: gateways.benchId, status: gateways.status, revokedAt: gateways.revokedAt }).from(gateways),
+    db
+      .select({ benchId: alarmEvents.benchId, severity: alarmEvents.severity, n: count() })
+      .from(alarmEvents)
+      .where(isNull(alarmEvents.clearedAt))
+      .groupBy(alarmEvents.benchId, alarmEvents.severity),
+    activeRuns(),
+  ]);
+  return benchRows.map((b) => {
+    const mine = gws.filter((g) => g.benchId === b.id);
+    const open = alarms.filter((a) => a.benchId === b.id);
+    return {
+      id: b.id,
+      name: b.name,
+      wavelengthNm: b.wavelengthNm,
+      description: b.description,
+      gatewaysOnline: mine.filter((g) => (g.status as { state?: unknown } | null)?.state === 'online' && !g.revokedAt).length,
+      gatewaysTotal: mine.length,
+      openAlarms: open.reduce((s, a) => s + a.n, 0),
+      criticalAlarms: open.filter((a) => a.severity === 'critical').reduce((s, a) => s + a.n, 0),
+      activeRun: runs.get(b.id) ?? null,
+    };
+  });
+}
+
