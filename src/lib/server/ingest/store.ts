@@ -131,12 +131,13 @@ export class BatchWriter {
       const existing = spans.get(item) ?? [];
       const plan = planBatch(item.batch, existing);
       outcomes.set(item, plan.kind === 'store' ? { kind: 'stored', slices: plan.slices } : plan);
+      // The batch arrived, whatever becomes of it: its seq closes no gap and opens none.
+      h.seqGaps += seqAdvance(seq.get(item.gatewayId)!, item.batch.boot, item.batch.seq);
       if (plan.kind === 'rejected') {
         h.rejected++;
         noteReject(h, plan.reason, item.arrivedAt);
         continue;
       }
-      h.seqGaps += seqAdvance(seq.get(item.gatewayId)!, item.batch.boot, item.batch.seq);
       if (plan.kind === 'duplicate') {
         h.duplicates++;
         continue;

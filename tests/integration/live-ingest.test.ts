@@ -1,0 +1,220 @@
+// The live path end to end in one process: gateway (mqtt.js) → embedded broker → PostgreSQL →
+// WebSocket. Exactly-once storage, late bins and rollups, broker policy, status and resume.
+import { eq, sql } from 'drizzle-orm';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { topicFor } from '../../src/lib/contract/wire.ts';
+import type { CountsMessage } from '../../src/lib/live-messages.ts';
+import { getDb } from '../../src/lib/server/db/index.ts';
+import { channels, countBatches, gatewayHealth, gateways, rollups } from '../../src/lib/server/db/schema.ts';
+import { revokeGateway } from '../../src/lib/server/provisioning.ts';
+import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
+import { userWithToken } from '../helpers/web-app.ts';
+
+let t: TestLive;
+let observerToken: string;
+// Ten minutes ago, on a minute boundary: bins in the past, like a live gateway's.
+const BASE = Math.floor(Date.now() / 60_000) * 60_000 - 600_000;
+
+beforeAll(async () => {
+  t = await startTestLive();
+  observerToken = (await userWithToken('observer')).token;
+});
+afterAll(async () => {
+  await t.close();
+});
+
+async function rawSum(gatewayId: string): Promise<{ rows: number; bins: number; sum: number }> {
+  const [r] = await getDb()
+    .select({
+      rows: sql<number>`count(*)::int`,
+      bins: sql<number>`coalesce(sum(n), 0)::int`,
+      sum: sql<number>`coalesce((select sum(v) from count_batches c2, unnest(c2.counts) v where c2.gateway_id = ${gatewayId}), 0)::int`,
+    })
+    .from(countBatches)
+    .where(eq(countBatches.gatewayId, gatewayId));
+  return r!;
+}
+
+async function rollupTotal(gatewayId: string, stepMs: number): Promise<{ sum: number; bins: number }> {
+  const [r] = await getDb()
+    .select({
+      sum: sql<number>`coalesce((select sum(v) from rollups r2, unnest(r2.sums) v where r2.gateway_id = ${gatewayId} and r2.step_ms = ${stepMs} and r2.key <> '#cc'), 0)::int`,
+      bins: sql<number>`coalesce((select sum(v) from rollups r2, unnest(r2.bins) v where r2.gateway_id = ${gatewayId} and r2.step_ms = ${stepMs} and r2.key <> '#cc'), 0)::int`,
+    })
+    .from(rollups)
+    .limit(1);
+  return r ?? { sum: 0, bins: 0 };
+}
+
+async function health(gatewayId: string) {
+  const [h] = await getDb().select().from(gatewayHealth).where(eq(gatewayHealth.gatewayId, gatewayId));
+  return h!;
+}
+
+describe('exactly once', () => {
+  it('stores a batch, pushes it, and ignores the same batch sent again', async () => {
+    const gw = await freshGateway();
+    const ws = await openLive(t.baseUrl, gw.benchId, observerToken);
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    const batch = { ...makeBatch(BASE, 100, 0), x: Array.from({ length: 100 }, (_, i) => i * 0.1), cc: Array.from({ length: 100 }, () => 1) };
+    await publishBatch(client, gw.gatewayId, batch);
+    const msg = (await ws.next((m) => m.type === 'counts')) as CountsMessage;
+    expect(msg).toEqual({ type: 'counts', bench: gw.benchId, gateway: gw.gatewayId, t0: BASE, dt: 10, ch: batch.ch, x: batch.x, cc: batch.cc });
+    const before = await rawSum(gw.gatewayId);
+    await publishBatch(client, gw.gatewayId, batch);
+    await publishBatch(client, gw.gatewayId, batch);
+    expect(await rawSum(gw.gatewayId)).toEqual(before);
+    expect(before.bins).toBe(100);
+    const h = await health(gw.gatewayId);
+    expect(h.accepted).toBe(1);
+    expect(h.duplicates).toBe(2);
+    expect(ws.messages.filter((m) => m.type === 'counts')).toHaveLength(1);
+    // Channels appear on first report.
+    const chs = await getDb().select().from(channels).where(eq(channels.gatewayId, gw.gatewayId));
+    expect(chs.map((c) => c.key).sort()).toEqual(['a', 'b']);
+    await client.endAsync();
+    ws.ws.close();
+  });
+
+  it('stores only the uncovered bins of a differently chunked re-send, and late bins with their rollups', async () => {
+    const gw = await freshGateway();
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    const value = (k: string, i: number) => (k === 'a' ? 1000 + i : 7);
+    // Bins are indexed from BASE so any chunking carries the same values.
+    const chunk = (from: number, n: number, seq: number) =>
+      makeBatch(BASE + from * 10, n, seq, { value: (k, i) => value(k, from + i) });
+    await publishBatch(client, gw.gatewayId, chunk(1000, 100, 0));
+    await publishBatch(client, gw.gatewayId, chunk(1100, 100, 1));
+    await publishBatch(client, gw.gatewayId, chunk(1050, 100, 2)); // fully covered: duplicate
+    await publishBatch(client, gw.gatewayId, chunk(1150, 150, 3)); // 1200–1300 new
+    await publishBatch(client, gw.gatewayId, chunk(0, 100, 4)); // late: ten seconds earlier
+    const raw = await rawSum(gw.gatewayId);
+    expect(raw.bins).toBe(400);
+    let expected = 0;
+    for (const from of [0, 1000]) for (let i = from; i < from + (from ? 300 : 100); i++) expected += value('a', i) + value('b', i);
+    expect(raw.sum).toBe(expected);
+    for (const step of [1_000, 60_000]) expect(await rollupTotal(gw.gatewayId, step)).toEqual({ sum: expected, bins: 800 });
+    const h = await health(gw.gatewayId);
+    expect(h.accepted).toBe(4);
+    expect(h.duplicates).toBe(1);
+    await client.endAsync();
+  });
+
+  it('rejects an overlap on a different bin grid and counts seq gaps', async () => {
+    const gw = await freshGateway();
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    await publishBatch(client, gw.gatewayId, makeBatch(BASE, 100, 1));
+    await publishBatch(client, gw.gatewayId, makeBatch(BASE + 500, 10, 2, { dt: 100 }));
+    await publishBatch(client, gw.gatewayId, makeBatch(BASE + 2000, 10, 5));
+    const h = await health(gw.gatewayId);
+    expect(h.rejected).toBe(1);
+    expect((h.lastRejects as { reason: string }[])[0]!.reason).toMatch(/different bin grid/);
+    expect(h.seqGaps).toBe(2);
+    expect(h.clockOffsetMs).toBeGreaterThan(500_000);
+    await client.endAsync();
+  });
+});
+
+describe('broker policy', () => {
+  it('refuses a wrong token and a revoked gateway at CONNECT', async () => {
+    const gw = await freshGateway();
+    await expect(connectGateway(t.mqttPort, gw.gatewayId, 'fwg_wrong')).rejects.toMatchObject({ code: 4 });
+    await expect(connectGateway(t.mqttPort, 'no-such-gateway', gw.token)).rejects.toMatchObject({ code: 4 });
+    const live = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    const closed = new Promise<void>((r) => live.once('close', () => r()));
+    await revokeGateway(gw.gatewayId);
+    await closed; // revocation drops the live session
+    await expect(connectGateway(t.mqttPort, gw.gatewayId, gw.token)).rejects.toMatchObject({ code: 5 });
+    await until(async () => (await health(gw.gatewayId)).refused >= 2, 5_000, 'refusals counted');
+  });
+
+  it('refuses publishing under another gateway id and stores nothing of it', async () => {
+    const a = await freshGateway();
+    const b = await freshGateway();
+    const client = await connectGateway(t.mqttPort, a.gatewayId, a.token);
+    const closed = new Promise<void>((r) => client.once('close', () => r()));
+    void client.publishAsync(topicFor(b.gatewayId, 'counts'), JSON.stringify(makeBatch(BASE, 10, 0)), { qos: 1 }).catch(() => undefined);
+    await closed;
+    client.end(true);
+    await until(async () => (await health(a.gatewayId)).refused === 1, 5_000, 'refusal counted');
+    expect((await rawSum(b.gatewayId)).rows).toBe(0);
+    expect((await rawSum(a.gatewayId)).rows).toBe(0);
+  });
+
+  it('refuses subscribing to anything but its own cmd topic', async () => {
+    const a = await freshGateway();
+    const b = await freshGateway();
+    const client = await connectGateway(t.mqttPort, a.gatewayId, a.token);
+    const own = await client.subscribeAsync(topicFor(a.gatewayId, 'cmd'), { qos: 1 });
+    expect(own[0]!.qos).toBe(1);
+    for (const topic of [topicFor(b.gatewayId, 'cmd'), 'fringewise/v1/+/counts', '#', '$SYS/#']) {
+      // mqtt.js rejects the call on a refused topic; the SUBACK is on the error (stack notes, trap 6).
+      const err = (await client.subscribeAsync(topic, { qos: 1 }).catch((e: unknown) => e)) as { packet?: { granted?: number[] } };
+      expect(err.packet?.granted).toEqual([128]);
+    }
+    expect(client.connected).toBe(true);
+    await until(async () => (await health(a.gatewayId)).refused === 4, 5_000, 'refusals counted');
+    await client.endAsync();
+  });
+});
+
+describe('status, commands and resume', () => {
+  it('stores retained status, announces channels, and turns offline by last will', async () => {
+    const gw = await freshGateway();
+    const ws = await openLive(t.baseUrl, gw.benchId, observerToken);
+    const status = { v: 1, state: 'online', boot: 'b1', channels: ['a', 'b', 'h'], scan: { min: 0, max: 100, unit: 'V' }, software: 'test 1' };
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token, {
+      will: { topic: topicFor(gw.gatewayId, 'status'), payload: Buffer.from(JSON.stringify({ ...status, state: 'offline' })), qos: 1, retain: true },
+    });
+    await client.publishAsync(topicFor(gw.gatewayId, 'status'), JSON.stringify(status), { qos: 1, retain: true });
+    expect(await ws.next((m) => m.type === 'status' && m.state === 'online')).toMatchObject({ gateway: gw.gatewayId, channels: ['a', 'b', 'h'] });
+    const chs = await getDb().select().from(channels).where(eq(channels.gatewayId, gw.gatewayId));
+    expect(chs).toHaveLength(3);
+    client.stream.destroy(); // abrupt loss: the broker publishes the will
+    await ws.next((m) => m.type === 'status' && m.state === 'offline');
+    const [row] = await getDb().select().from(gateways).where(eq(gateways.id, gw.gatewayId));
+    expect(row!.status).toMatchObject({ state: 'offline' });
+    expect(row!.lastSeenAt).not.toBeNull();
+    ws.ws.close();
+  });
+
+  it('sends a command and pushes its ack to the bench', async () => {
+    const gw = await freshGateway();
+    const ws = await openLive(t.baseUrl, gw.benchId, observerToken);
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    await client.subscribeAsync(topicFor(gw.gatewayId, 'cmd'), { qos: 1 });
+    client.on('message', (_topic, payload) => {
+      const cmd = JSON.parse(String(payload)) as { id: string };
+      void client.publishAsync(topicFor(gw.gatewayId, 'ack'), JSON.stringify({ v: 1, id: cmd.id, ok: true }), { qos: 1 });
+    });
+    const ack = await t.live.commands.send(gw.gatewayId, { v: 1, id: 'cmd-1', op: 'stop' });
+    expect(ack).toEqual({ v: 1, id: 'cmd-1', ok: true });
+    expect(await ws.next((m) => m.type === 'ack')).toEqual({ type: 'ack', bench: gw.benchId, gateway: gw.gatewayId, id: 'cmd-1', ok: true });
+    await client.endAsync();
+    ws.ws.close();
+  });
+
+  it('answers resume with what was stored since a time', async () => {
+    const gw = await freshGateway();
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    for (let i = 0; i < 5; i++) await publishBatch(client, gw.gatewayId, makeBatch(BASE + i * 1000, 100, i));
+    const ws = await openLive(t.baseUrl, gw.benchId, observerToken);
+    ws.ws.send(JSON.stringify({ type: 'resume', since: BASE + 2500 }));
+    const done = await ws.next((m) => m.type === 'resumed');
+    expect(done).toMatchObject({ since: BASE + 2500, until: BASE + 5000, batches: 3, complete: true });
+    // Contiguous batches may arrive merged into fewer messages (the outbox coalesces).
+    const got = ws.messages.filter((m): m is CountsMessage => m.type === 'counts');
+    expect(got[0]!.t0).toBe(BASE + 2000);
+    expect(got.reduce((n, m) => n + m.ch['a']!.length, 0)).toBe(300);
+    ws.ws.send('{"type":"resume","since":-1}');
+    expect(await ws.next((m) => m.type === 'error')).toMatchObject({ type: 'error' });
+    await client.endAsync();
+    ws.ws.close();
+  });
+
+  it('refuses a live socket without auth or for a missing bench', async () => {
+    const gw = await freshGateway();
+    await expect(openLive(t.baseUrl, gw.benchId, 'fwp_nope')).rejects.toThrow(/401/);
+    await expect(openLive(t.baseUrl, 'no-such-bench', observerToken)).rejects.toThrow(/403/);
+  });
+});
