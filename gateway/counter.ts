@@ -30,7 +30,12 @@ export const MAX_BATCH_BINS = 1000;
 export type CommandResult = { ok: true } | { ok: false; error: string };
 
 export interface CounterSink {
-  bins(bins: Bins): void;
+  /**
+   * Hands over a batch; resolves once it is stored in the gateway's queue (never rejects: the
+   * gateway logs its own failures). Real-time drivers need not wait; a file replay waits, which
+   * paces it to the disk.
+   */
+  bins(bins: Bins): Promise<void>;
   /** The counter's channels or scan changed (a serial counter's new header line). */
   info(info: CounterInfo): void;
   /** A recoverable problem worth a log line (a bad serial line); the driver carries on. */
