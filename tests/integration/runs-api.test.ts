@@ -1,0 +1,51 @@
+// Runs and notes API: operators start one run per bench, stop it, and note into it (optionally
+// with a figures snapshot); observers read only.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { RunningApp } from '../../src/server/app.ts';
+import { startWebApp, userWithToken } from '../helpers/web-app.ts';
+
+let app: RunningApp;
+let op: string;
+let obs: string;
+
+const call = (token: string, path: string, body?: unknown) =>
+  fetch(new URL(path, app.url), {
+    method: body === undefined ? 'GET' : 'POST',
+    headers: { authorization: `Bearer ${token}`, ...(body === undefined ? {} : { 'content-type': 'application/json' }) },
+    ...(body === undefined ? {} : { body: JSON.stringify(body) }),
+  });
+
+beforeAll(async () => {
+  app = await startWebApp();
+  op = (await userWithToken('operator')).token;
+  obs = (await userWithToken('observer')).token;
+});
+afterAll(async () => app?.close());
+
+describe('runs API', () => {
+  it('starts one active run per bench, takes notes, stops', async () => {
+    expect((await call(obs, '/api/v1/benches/mz-633/runs', { title: 'x' })).status).toBe(403);
+    expect((await call(op, '/api/v1/benches/mz-633/runs', { title: '  ' })).status).toBe(422);
+    const started = await call(op, '/api/v1/benches/mz-633/runs', { title: 'Align' });
+    expect(started.status).toBe(201);
+    const run = (await started.json()) as { id: number; endMs: number | null };
+    expect(run.endMs).toBeNull();
+    expect((await call(op, '/api/v1/benches/mz-633/runs', { title: 'Second' })).status).toBe(409);
+
+    const snapshot = { benchId: 'mz-633', at: Date.now(), windowMs: 1000, channels: [], visibility: { value: 0.98, err: 0.001, source: 'sweep', net: false }, phase: null, contrast: 0.1, g2: null, alpha: null, shotNoise: null };
+    const noted = await call(op, `/api/v1/runs/${run.id}/notes`, { body: 'Fringes clean', snapshot });
+    expect(noted.status).toBe(201);
+    expect((await call(op, `/api/v1/runs/${run.id}/notes`, { body: 'x', snapshot: { ...snapshot, benchId: 'mz-810' } })).status).toBe(422);
+    expect((await call(obs, `/api/v1/runs/${run.id}/notes`, { body: 'no' })).status).toBe(403);
+    const notes = (await (await call(obs, `/api/v1/runs/${run.id}/notes`)).json()) as { body: string; snapshot: { visibility: { value: number } } | null }[];
+    expect(notes).toHaveLength(1);
+    expect(notes[0]!.snapshot?.visibility.value).toBe(0.98);
+
+    expect((await call(obs, `/api/v1/runs/${run.id}/stop`, {})).status).toBe(403);
+    expect((await call(op, `/api/v1/runs/${run.id}/stop`, {})).status).toBe(200);
+    expect((await call(op, `/api/v1/runs/${run.id}/stop`, {})).status).toBe(409);
+    expect((await call(op, `/api/v1/runs/${run.id}/notes`, { body: 'late' })).status).toBe(409);
+    const list = (await (await call(obs, '/api/v1/benches/mz-633/runs')).json()) as { id: number; noteCount: number }[];
+    expect(list.find((r) => r.id === run.id)?.noteCount).toBe(1);
+  });
+});
