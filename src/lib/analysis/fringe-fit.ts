@@ -537,13 +537,90 @@ function visibilityEstimate(pr: Problem, fit: SingleFit, method: 'auto' | Interv
   return { value: v, err: (upper - lower) / 2, lower, upper, method: 'profile' };
 }
 
-/** One output's own visibility, with θ(x) held at the joint fit's. */
+/**
+ * One output's own visibility, with θ(x) held at the joint fit's. With the phase fixed the model
+ * m = A + W·(±cos θ) + d is linear in (A, W = A·V), so −ln L is convex there and plain Newton
+ * steps (halved while any m would go non-positive) converge in a few passes without cos or sin.
+ */
 function outputVisibility(pr: Problem, joint: Float64Array, output: 'a' | 'b'): Measured {
-  const single: Problem = { ...pr, useA: output === 'a', useB: output === 'b' };
-  const free = [output === 'a' ? IA : IB, IV];
-  const m = minimize(single, joint, free);
-  const cov = covarianceOf(single, m.p, free);
-  return { value: m.p[IV] as number, err: cov ? Math.sqrt(Math.max(0, cov[IV * NP + IV] as number)) : Number.NaN };
+  const len = pr.len;
+  const counts = output === 'a' ? pr.na : pr.nb;
+  const dark = output === 'a' ? pr.da : pr.db;
+  const sign = output === 'a' ? 1 : -1;
+  const c = new Float64Array(len);
+  for (let i = 0; i < len; i++) {
+    const u = pr.u[i] as number;
+    c[i] = sign * Math.cos((joint[IPSI] as number) + u * ((joint[IK] as number) + (joint[IKAPPA] as number) * u));
+  }
+  let A = joint[output === 'a' ? IA : IB] as number;
+  let W = A * (joint[IV] as number);
+  let fixedV: number | null = null; // set to 1 when the unconstrained optimum lies beyond V = 1
+  for (let iter = 0; iter < 50; iter++) {
+    let gA = 0;
+    let gW = 0;
+    let hAA = 0;
+    let hAW = 0;
+    let hWW = 0;
+    for (let i = 0; i < len; i++) {
+      const ci = c[i] as number;
+      const n = counts[i] as number;
+      const m = A + (fixedV === null ? W : A * fixedV) * ci + dark;
+      if (!(m > 0)) continue;
+      const r = 1 - n / m;
+      const h = n / (m * m);
+      const dA = fixedV === null ? 1 : 1 + fixedV * ci;
+      gA += r * dA;
+      gW += r * ci;
+      hAA += h * dA * dA;
+      hAW += h * dA * ci;
+      hWW += h * ci * ci;
+    }
+    let stepA: number;
+    let stepW = 0;
+    if (fixedV === null) {
+      const det = hAA * hWW - hAW * hAW;
+      if (!(det > 0)) break;
+      stepA = (hWW * gA - hAW * gW) / det;
+      stepW = (hAA * gW - hAW * gA) / det;
+    } else {
+      if (!(hAA > 0)) break;
+      stepA = gA / hAA;
+    }
+    let t = 1;
+    for (let k = 0; k < 30; k++) {
+      const a = A - t * stepA;
+      const w = W - t * stepW;
+      let ok = a > 0;
+      for (let i = 0; ok && i < len; i++) if (!(a + (fixedV === null ? w : a * fixedV) * (c[i] as number) + dark > 0) && (counts[i] as number) > 0) ok = false;
+      if (ok) break;
+      t /= 2;
+    }
+    A -= t * stepA;
+    W -= t * stepW;
+    if (fixedV === null && W > A) {
+      fixedV = 1;
+      continue;
+    }
+    if (Math.abs(t * stepA) < 1e-10 * A && Math.abs(t * stepW) < 1e-10 * (Math.abs(W) + A)) break;
+  }
+  // Fisher information in (A, W) at the optimum (V = 1 at the bound), then Var(V = W/A) by the delta method.
+  const V = fixedV ?? Math.max(0, W / A);
+  let fAA = 0;
+  let fAW = 0;
+  let fWW = 0;
+  for (let i = 0; i < len; i++) {
+    const ci = c[i] as number;
+    const m = A * (1 + V * ci) + dark;
+    if (!(m > 0)) continue;
+    fAA += 1 / m;
+    fAW += ci / m;
+    fWW += (ci * ci) / m;
+  }
+  const det = fAA * fWW - fAW * fAW;
+  if (!(det > 0)) return { value: V, err: Number.NaN };
+  // Cov(A, W) = F⁻¹; ∂V/∂A = −V/A, ∂V/∂W = 1/A.
+  const varV = (fAA + 2 * V * fAW + V * V * fWW) / (det * A * A);
+  return { value: V, err: Math.sqrt(Math.max(0, varV)) };
 }
 
 function measuredAt(values: Float64Array, cov: Float64Array, i: number): Measured {
