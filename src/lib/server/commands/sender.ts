@@ -2,6 +2,7 @@
 // back on its ack topic (they reach the bench's live clients through the fan-out as well).
 import type { Ack, Command } from '../../contract/wire.ts';
 import { topicFor } from '../../contract/wire.ts';
+import { recordAudit } from '../audit.ts';
 import type { Fanout } from '../ingest/fanout.ts';
 import type { MqttTransport } from '../mqtt/transport.ts';
 import type { CommandSender } from '../runtime.ts';
@@ -21,6 +22,9 @@ export class BrokerCommandSender implements CommandSender {
     this.unsubscribe = fanout.subscribe((_bench, m) => {
       if (m.type !== 'ack') return;
       const ack = m as { gateway: string; id: string; ok: boolean; error?: string };
+      void recordAudit({ actorId: null, entity: 'command', entityId: ack.id, action: ack.ok ? 'ack' : 'refused', after: { gateway: ack.gateway, ok: ack.ok, error: ack.error } }).catch(
+        (err: unknown) => console.warn('[commands] could not record an ack:', err instanceof Error ? err.message : err),
+      );
       const p = this.pending.get(ack.id);
       if (!p || p.gatewayId !== ack.gateway) return;
       this.pending.delete(ack.id);

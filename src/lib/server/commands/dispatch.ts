@@ -1,0 +1,35 @@
+// `POST /api/v1/benches/{id}/commands`: check the bench's drive limits, pick the gateway that drives
+// the bench, publish with a fresh id, and record it. The gateway's ack arrives later on its ack
+// topic and reaches the bench's live clients (and the audit trail) through the fan-out.
+import { randomUUID } from 'node:crypto';
+import { asc, eq } from 'drizzle-orm';
+import type { Command, CommandBody } from '../../contract/wire.ts';
+import { recordAudit } from '../audit.ts';
+import { getBench } from '../benches.ts';
+import { getDb } from '../db/index.ts';
+import { gateways } from '../db/schema.ts';
+import { HttpError } from '../http/responses.ts';
+import { runtime } from '../runtime.ts';
+import { driveLimitViolation } from './drive-limits.ts';
+
+/** The bench's drive: the first gateway (oldest first) whose status announces a scan range, else its first gateway. */
+export async function driveGateway(benchId: string): Promise<string | null> {
+  const rows = await getDb().select({ id: gateways.id, status: gateways.status }).from(gateways).where(eq(gateways.benchId, benchId)).orderBy(asc(gateways.createdAt), asc(gateways.id));
+  const withScan = rows.find((r) => typeof r.status === 'object' && r.status !== null && 'scan' in r.status);
+  return (withScan ?? rows[0])?.id ?? null;
+}
+
+export async function dispatchCommand(benchId: string, body: CommandBody, actorId: string): Promise<{ id: string; gateway: string }> {
+  const bench = await getBench(benchId);
+  if (!bench) throw new HttpError(404, 'no such bench');
+  const violation = driveLimitViolation(body, bench);
+  if (violation) throw new HttpError(422, violation);
+  const gateway = await driveGateway(benchId);
+  if (!gateway) throw new HttpError(422, 'this bench has no gateway to send the command to');
+  const sender = runtime().commands;
+  if (!sender) throw new HttpError(503, 'the live path is not running');
+  const command: Command = { ...body, v: 1, id: randomUUID() };
+  await sender.publish(gateway, command);
+  await recordAudit({ actorId, entity: 'command', entityId: command.id, action: 'send', after: { bench: benchId, gateway, command } });
+  return { id: command.id, gateway };
+}

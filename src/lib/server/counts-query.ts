@@ -1,0 +1,141 @@
+// Binned counts of a bench for `GET /api/v1/benches/{id}/counts`, read from the coarsest store that
+// serves the step exactly: 1 min rollups when the step is a multiple of a minute, 1 s rollups when
+// it is a multiple of a second, raw rows otherwise. Buckets are aligned to multiples of the step
+// since the epoch, so two queries with the same step always agree; a bin counts in the bucket
+// holding its start (exact when the step is a multiple of the bin width, as the contract asks).
+import { getDbHandle } from './db/index.ts';
+import { benchChannels, type BenchChannel } from './benches.ts';
+import { HttpError } from './http/responses.ts';
+import { CC_KEY } from './ingest/rollup-math.ts';
+
+/** Most buckets one answer may hold. */
+export const MAX_POINTS = 100_000;
+/** Longest span read from raw rows (ms): longer spans need a step that rollups serve. */
+export const MAX_RAW_SPAN_MS = 6 * 3_600_000;
+
+export type Resolution = 'raw' | '1s' | '1min';
+
+export interface CountsResult {
+  t0: number;
+  step: number;
+  resolution: Resolution;
+  /** One column per channel, "<gateway>/<key>"; null where no bin was stored. */
+  channels: Record<string, (number | null)[]>;
+  /** Mean scan coordinate per bucket (raw resolution only: rollups keep no x). */
+  x?: (number | null)[];
+  /** Summed coincidences per bucket. */
+  cc?: (number | null)[];
+  /** The bench's channels in column order, with labels and roles (for CSV metadata). */
+  channelInfo: BenchChannel[];
+}
+
+export function resolutionFor(step: number): { resolution: Resolution; levelMs: number | null } {
+  if (step % 60_000 === 0) return { resolution: '1min', levelMs: 60_000 };
+  if (step % 1_000 === 0) return { resolution: '1s', levelMs: 1_000 };
+  return { resolution: 'raw', levelMs: null };
+}
+
+class Buckets {
+  readonly values = new Map<string, (number | null)[]>();
+  constructor(
+    readonly t0: number,
+    readonly step: number,
+    readonly points: number,
+  ) {}
+  index(t: number): number {
+    const i = Math.floor((t - this.t0) / this.step);
+    return i >= 0 && i < this.points ? i : -1;
+  }
+  column(name: string): (number | null)[] {
+    let col = this.values.get(name);
+    if (!col) {
+      col = new Array<number | null>(this.points).fill(null);
+      this.values.set(name, col);
+    }
+    return col;
+  }
+  add(name: string, i: number, v: number): void {
+    const col = this.column(name);
+    col[i] = (col[i] ?? 0) + v;
+  }
+}
+
+export async function queryCounts(benchId: string, from: number, to: number, step: number): Promise<CountsResult> {
+  if (!(to > from)) throw new HttpError(422, 'to must be after from');
+  const t0 = Math.floor(from / step) * step;
+  const points = Math.ceil((to - t0) / step);
+  if (points > MAX_POINTS) throw new HttpError(422, `that asks for ${points} points; at most ${MAX_POINTS}: use a larger step or a shorter span`);
+  const { resolution, levelMs } = resolutionFor(step);
+  if (resolution === 'raw' && to - t0 > MAX_RAW_SPAN_MS) {
+    throw new HttpError(422, `spans over ${MAX_RAW_SPAN_MS / 3_600_000} h need a step that is a multiple of 1000 ms`);
+  }
+  const channelInfo = await benchChannels(benchId);
+  const gatewayIds = [...new Set(channelInfo.map((c) => c.gateway))];
+  const b = new Buckets(t0, step, points);
+  for (const c of channelInfo) b.column(`${c.gateway}/${c.key}`);
+  const end = t0 + points * step;
+  let xSum: number[] | null = null;
+  let xN: number[] | null = null;
+
+  if (gatewayIds.length && levelMs !== null) {
+    const blockMs = levelMs * 60;
+    const { rows } = await getDbHandle().pool.query<{ gateway_id: string; key: string; block_t0: number; sums: number[]; bins: number[] }>(
+      `select gateway_id, key, block_t0, sums, bins from rollups
+        where gateway_id = any($1::text[]) and step_ms = $2 and block_t0 >= $3 and block_t0 < $4`,
+      [gatewayIds, levelMs, Math.floor(t0 / blockMs) * blockMs, end],
+    );
+    for (const r of rows) {
+      const name = r.key === CC_KEY ? null : `${r.gateway_id}/${r.key}`;
+      for (let i = 0; i < r.sums.length; i++) {
+        if (!r.bins[i]) continue;
+        const at = b.index(r.block_t0 + i * levelMs);
+        if (at < 0) continue;
+        b.add(name ?? '#cc', at, r.sums[i]!);
+      }
+    }
+  } else if (gatewayIds.length) {
+    // Stored spans of a gateway never overlap: the last row starting before t0 plus those starting inside.
+    const { rows } = await getDbHandle().pool.query<{ gateway_id: string; t0: number; dt: number; n: number; keys: string[]; counts: number[]; x: number[] | null; cc: number[] | null }>(
+      `select c.gateway_id, c.t0, c.dt, c.n, c.keys, c.counts, c.x, c.cc
+         from unnest($1::text[]) as g(id)
+         cross join lateral (
+           (select * from count_batches c where c.gateway_id = g.id and c.t0 <= $2 order by c.t0 desc limit 1)
+           union all
+           (select * from count_batches c where c.gateway_id = g.id and c.t0 > $2 and c.t0 < $3)
+         ) c
+        where c.t1 > $2`,
+      [gatewayIds, t0, end],
+    );
+    for (const r of rows) {
+      r.keys.forEach((key, k) => {
+        const name = `${r.gateway_id}/${key}`;
+        for (let j = 0; j < r.n; j++) {
+          const at = b.index(r.t0 + j * r.dt);
+          if (at >= 0) b.add(name, at, r.counts[k * r.n + j]!);
+        }
+      });
+      for (let j = 0; j < r.n; j++) {
+        const at = b.index(r.t0 + j * r.dt);
+        if (at < 0) continue;
+        if (r.cc) b.add('#cc', at, r.cc[j]!);
+        if (r.x) {
+          xSum ??= new Array<number>(points).fill(0);
+          xN ??= new Array<number>(points).fill(0);
+          xSum[at]! += r.x[j]!;
+          xN[at]! += 1;
+        }
+      }
+    }
+  }
+
+  const channels: Record<string, (number | null)[]> = {};
+  for (const [name, col] of b.values) if (name !== '#cc') channels[name] = col;
+  const result: CountsResult = { t0, step, resolution, channels, channelInfo };
+  if (xSum && xN) {
+    const n = xN;
+    result.x = xSum.map((s, i) => (n[i] ? s / n[i]! : null));
+  }
+  const cc = b.values.get('#cc');
+  if (cc) result.cc = cc;
+  return result;
+}
