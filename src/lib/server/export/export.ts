@@ -96,7 +96,7 @@ interface BatchRow {
 }
 
 /** Pages one gateway's batches overlapping [from, to) in t0 order. */
-async function* gatewayBatches(gatewayId: string, fromMs: number, toMs: number): AsyncGenerator<BatchRow> {
+export async function* gatewayBatches(gatewayId: string, fromMs: number, toMs: number): AsyncGenerator<BatchRow> {
   const pool = getDbHandle().pool;
   // The batch holding `from` may start before it: find it with one backward probe on the primary key.
   const first = await pool.query<{ t0: number | null }>('select max(t0) as t0 from count_batches where gateway_id = $1 and t0 <= $2', [gatewayId, fromMs]);

@@ -1,0 +1,231 @@
+// Import of a counts CSV into a new run: streamed from the request body (size-capped), parsed by
+// CountsCsvReader, and stored ALL-OR-NOTHING in one transaction under a pseudo-gateway
+// `imp-<runId>` of the bench (no token, so nothing can connect as it). Rows and rollups are written
+// the way ingest writes them; after COMMIT every stored batch is announced as 'batch-stored', so
+// the analysis that listens to ingest sees imported data too.
+import { Readable } from 'node:stream';
+import { parse } from 'csv-parse';
+import type pg from 'pg';
+import { z } from 'zod';
+import type { CountBatch } from '../../contract/wire.ts';
+import { recordAudit } from '../audit.ts';
+import { getBench } from '../benches.ts';
+import { getDbHandle } from '../db/index.ts';
+import { drizzle } from 'drizzle-orm/node-postgres';
+import { serverEvents } from '../events.ts';
+import { HttpError } from '../http/responses.ts';
+import type { Slice } from '../ingest/coverage.ts';
+import { rollupDeltas } from '../ingest/rollup-math.ts';
+import { gatewayBatches } from './export.ts';
+import { CountsCsvReader, type ChannelInfo, type ImportIssue } from './import-parser.ts';
+
+/** 50 MiB: about 2–3 million bins of a two-channel table, an afternoon at 10 ms bins. */
+export const MAX_IMPORT_BYTES = 50 * 1024 * 1024;
+export const IMPORT_GATEWAY_PREFIX = 'imp-';
+/** Batches buffered before a write inside the import's transaction. */
+const WRITE_EVERY = 20;
+const ROWS_PER_STATEMENT = 200;
+const PREVIEW_ROWS = 10;
+
+export const importOptionsSchema = z.object({
+  title: z.string().trim().min(1, 'give the run a title').max(200),
+});
+
+export class ImportError extends HttpError {
+  constructor(readonly issues: ImportIssue[]) {
+    super(422, `the file has ${issues.length === 20 ? '20 or more' : issues.length} problem${issues.length === 1 ? '' : 's'}; nothing was stored`);
+  }
+}
+
+/** The body's bytes, refusing (413) past the limit even when no Content-Length was sent. */
+async function* capped(body: ReadableStream<Uint8Array>, maxBytes: number): AsyncGenerator<Uint8Array> {
+  let total = 0;
+  const reader = body.getReader();
+  try {
+    for (;;) {
+      const { done, value } = await reader.read();
+      if (done) return;
+      total += value.byteLength;
+      if (total > maxBytes) throw new HttpError(413, `the file is larger than ${Math.round(maxBytes / 1024 / 1024)} MiB`);
+      yield value;
+    }
+  } finally {
+    await reader.cancel().catch(() => undefined);
+  }
+}
+
+/** Feeds every record to the reader; `afterRecord` may await (writes), which pauses the parse. */
+async function readAll(body: ReadableStream<Uint8Array>, reader: CountsCsvReader, maxBytes: number, afterRecord?: (fields: string[], isData: boolean) => Promise<void> | void): Promise<void> {
+  const parser = Readable.from(capped(body, maxBytes)).pipe(
+    parse({ relax_column_count: true, relax_quotes: true, raw: true, info: true, skip_empty_lines: true, bom: true }),
+  );
+  let line = 0;
+  let headerSeen = false;
+  try {
+    for await (const rec of parser as AsyncIterable<{ record: string[]; raw: string; info: { lines: number } }>) {
+      line = rec.info.lines;
+      reader.record(rec.record, line, rec.raw);
+      const isComment = (rec.record[0] ?? '').trim().startsWith('#');
+      const isData = headerSeen && !isComment;
+      if (!isComment) headerSeen = true;
+      await afterRecord?.(rec.record, isData);
+      if (reader.full) break;
+    }
+  } catch (err) {
+    if (err instanceof HttpError) throw err;
+    const where = (err as { lines?: number }).lines ?? line + 1;
+    throw new ImportError([...reader.issues, { line: where, message: `not readable as CSV: ${err instanceof Error ? err.message : String(err)}`.slice(0, 200) }]);
+  } finally {
+    parser.destroy();
+  }
+  reader.end(line);
+}
+
+export interface ImportPreview {
+  channels: { column: string; key: string; label: string | null }[];
+  hasX: boolean;
+  hasCc: boolean;
+  dtMs: number | null;
+  rows: number;
+  fromMs: number | null;
+  /** End of the last bin, ms. */
+  toMs: number | null;
+  firstRows: string[][];
+  issues: ImportIssue[];
+}
+
+/** Reads the whole file and reports what an import would store; stores nothing. */
+export async function previewImport(body: ReadableStream<Uint8Array>, maxBytes = MAX_IMPORT_BYTES): Promise<ImportPreview> {
+  const reader = new CountsCsvReader(() => undefined);
+  const firstRows: string[][] = [];
+  try {
+    await readAll(body, reader, maxBytes, (fields, isData) => {
+      if (isData && firstRows.length < PREVIEW_ROWS) firstRows.push(fields.map((f) => f.trim()));
+    });
+  } catch (err) {
+    if (!(err instanceof ImportError)) throw err;
+    reader.issues.splice(0, reader.issues.length, ...err.issues);
+  }
+  return {
+    channels: reader.channels.map((c) => ({ column: c.column, key: c.key, label: c.label })),
+    hasX: reader.hasX,
+    hasCc: reader.hasCc,
+    dtMs: reader.dt,
+    rows: reader.rows,
+    fromMs: reader.firstT,
+    toMs: reader.lastT !== null && reader.dt !== null ? reader.lastT + reader.dt : null,
+    firstRows,
+    issues: reader.issues,
+  };
+}
+
+export interface ImportResult {
+  runId: number;
+  gatewayId: string;
+  bins: number;
+  batches: number;
+  fromMs: number;
+  toMs: number;
+  channels: string[];
+}
+
+async function insertSlices(client: pg.PoolClient, gatewayId: string, slices: Slice[], seq0: number): Promise<void> {
+  for (let at = 0; at < slices.length; at += ROWS_PER_STATEMENT) {
+    const params: unknown[] = [];
+    const values = slices.slice(at, at + ROWS_PER_STATEMENT).map((s, i) => {
+      const p = params.length;
+      params.push(gatewayId, s.t0, s.t0 + s.n * s.dt, s.dt, s.n, s.keys, s.counts, s.x, s.cc, 'import', seq0 + at + i);
+      return `($${p + 1}, $${p + 2}, $${p + 3}, $${p + 4}, $${p + 5}, $${p + 6}::text[], $${p + 7}::int4[], $${p + 8}::float8[], $${p + 9}::int4[], $${p + 10}, $${p + 11})`;
+    });
+    await client.query(`insert into count_batches (gateway_id, t0, t1, dt, n, keys, counts, x, cc, boot, seq) values ${values.join(', ')}`, params);
+  }
+  // Same deltas and the same upsert as ingest's store stage (ingest/store.ts), so imported rollups are indistinguishable.
+  const deltas = rollupDeltas(slices.map((slice) => ({ gatewayId, slice })));
+  for (let at = 0; at < deltas.length; at += ROWS_PER_STATEMENT) {
+    const params: unknown[] = [];
+    const values = deltas.slice(at, at + ROWS_PER_STATEMENT).map((d) => {
+      const p = params.length;
+      params.push(d.gatewayId, d.key, d.stepMs, d.blockT0, d.sums, d.bins);
+      return `($${p + 1}, $${p + 2}, $${p + 3}, $${p + 4}, $${p + 5}::int8[], $${p + 6}::int4[])`;
+    });
+    await client.query(
+      `insert into rollups as r (gateway_id, key, step_ms, block_t0, sums, bins) values ${values.join(', ')}
+       on conflict (gateway_id, key, step_ms, block_t0) do update set
+         sums = (select array_agg(a + b order by i) from unnest(r.sums, excluded.sums) with ordinality as t(a, b, i)),
+         bins = (select array_agg(a + b order by i) from unnest(r.bins, excluded.bins) with ordinality as t(a, b, i))`,
+      params,
+    );
+  }
+}
+
+async function insertChannels(client: pg.PoolClient, benchId: string, gatewayId: string, channels: ChannelInfo[]): Promise<void> {
+  for (const c of channels) {
+    // Role stays unset: the bench's own out_a/out_b keep driving its live figures.
+    await client.query(
+      `insert into channels (gateway_id, key, bench_id, label, dark_rate, dark_rate_err, dead_time_ns, dead_time_model, efficiency)
+       values ($1, $2, $3, $4, $5, $6, $7, $8, $9)`,
+      [gatewayId, c.key, benchId, c.label ?? c.column, c.darkRate, c.darkRateErr, c.deadTimeNs, c.deadTimeModel ?? 'nonparalyzable', c.efficiency ?? 1],
+    );
+  }
+}
+
+/** Stores the file as a new run, or nothing at all (422 with line-numbered issues, 413 past the size limit). */
+export async function importCounts(benchId: string, body: ReadableStream<Uint8Array>, opts: { title: string; userId: string | null; maxBytes?: number }): Promise<ImportResult> {
+  if (!(await getBench(benchId))) throw new HttpError(404, 'no such bench');
+  const client = await getDbHandle().pool.connect();
+  let broken = false;
+  let result: ImportResult;
+  try {
+    await client.query('begin');
+    const run = await client.query<{ id: number }>(
+      `insert into runs (bench_id, title, start_ms, end_ms, started_by, source) values ($1, $2, 0, 0, $3, 'import') returning id`,
+      [benchId, opts.title, opts.userId],
+    );
+    const runId = Number(run.rows[0]!.id);
+    const gatewayId = `${IMPORT_GATEWAY_PREFIX}${runId}`;
+    await client.query('insert into gateways (id, bench_id) values ($1, $2)', [gatewayId, benchId]);
+    const pending: Slice[] = [];
+    let batches = 0;
+    let bins = 0;
+    const reader = new CountsCsvReader((s) => pending.push(s));
+    const write = async () => {
+      const slices = pending.splice(0);
+      if (!slices.length || reader.failed) return;
+      await insertSlices(client, gatewayId, slices, batches);
+      batches += slices.length;
+      bins += slices.reduce((a, s) => a + s.n, 0);
+    };
+    await readAll(body, reader, opts.maxBytes ?? MAX_IMPORT_BYTES, async () => {
+      if (pending.length >= WRITE_EVERY) await write();
+    });
+    if (reader.failed) throw new ImportError(reader.issues);
+    await write();
+    const fromMs = reader.firstT!;
+    const toMs = reader.lastT! + reader.dt!;
+    await client.query('update runs set start_ms = $2, end_ms = $3 where id = $1', [runId, fromMs, toMs]);
+    await insertChannels(client, benchId, gatewayId, reader.channels);
+    result = { runId, gatewayId, bins, batches, fromMs, toMs, channels: reader.channels.map((c) => `${gatewayId}/${c.key}`) };
+    await recordAudit({ actorId: opts.userId, entity: 'run', entityId: String(runId), action: 'import', after: result }, drizzle(client));
+    await client.query('commit');
+  } catch (err) {
+    broken = true;
+    await client.query('rollback').catch(() => undefined);
+    throw err;
+  } finally {
+    client.release(broken);
+  }
+  await announce(benchId, result);
+  return result;
+}
+
+/** Emits each stored batch as ingest does, re-read page by page so memory stays bounded. */
+async function announce(benchId: string, r: ImportResult): Promise<void> {
+  const bus = serverEvents();
+  let seq = 0;
+  for await (const b of gatewayBatches(r.gatewayId, r.fromMs, r.toMs)) {
+    const ch: Record<string, number[]> = {};
+    b.keys.forEach((k, i) => (ch[k] = b.counts.slice(i * b.n, (i + 1) * b.n)));
+    const batch: CountBatch = { v: 1, boot: 'import', seq: seq++, t0: b.t0, dt: b.dt, ch, ...(b.x && { x: b.x }), ...(b.cc && { cc: b.cc }) };
+    bus.emit('batch-stored', { benchId, gatewayId: r.gatewayId, batch, receivedAt: Date.now() });
+  }
+}

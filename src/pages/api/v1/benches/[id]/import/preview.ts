@@ -1,0 +1,11 @@
+import { benchIdSchema } from '../../../../../../lib/contract/wire.ts';
+import { previewImport } from '../../../../../../lib/server/export/import.ts';
+import { uploadBody } from '../../../../../../lib/server/export/upload.ts';
+import { endpoint } from '../../../../../../lib/server/http/endpoint.ts';
+import { json, parseOr422 } from '../../../../../../lib/server/http/responses.ts';
+
+/** Body: the CSV (text/csv). Answers what an import would store — channels, bin width, first rows, problems — and stores nothing. */
+export const POST = endpoint('operator', async (ctx) => {
+  parseOr422(benchIdSchema, ctx.params['id']);
+  return json(await previewImport(uploadBody(ctx.request)));
+});
