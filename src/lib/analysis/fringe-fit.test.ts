@@ -190,6 +190,24 @@ describe('joint Poisson ML fringe fit', () => {
     expect(Math.abs(r.visibility.value - 0.7)).toBeLessThan(3 * r.visibility.err);
   });
 
+  it('gives a low visibility an interval reaching down to its true value', () => {
+    let covered = 0;
+    for (let t = 0; t < 40; t++) {
+      const r = fit(simulateSweep({ ...BASE, amplitudeA: 50, amplitudeB: 50, visibility: 0.05, seed: 300 + t }));
+      expect(r.visibility.lower).toBeGreaterThanOrEqual(0);
+      if (r.visibility.lower <= 0.05 && 0.05 <= r.visibility.upper) covered++;
+    }
+    expect(covered).toBeGreaterThanOrEqual(20);
+  });
+
+  it('warns when there is no significant fringe', () => {
+    const flat = fit(simulateSweep({ ...BASE, amplitudeA: 50, amplitudeB: 50, visibility: 0, seed: 77 }));
+    expect(flat.quality.fringeDeltaCash).toBeLessThan(14.16);
+    expect(flat.warnings.some((w) => /no significant fringe/.test(w))).toBe(true);
+    const clear = fit(simulateSweep({ ...BASE, seed: 78 }));
+    expect(clear.warnings).toEqual([]);
+  });
+
   it('refuses what it cannot fit', () => {
     const s = simulateSweep({ ...BASE, seed: 1 });
     expect(fitFringes({ x: s.x.slice(0, 5), countsA: s.countsA.slice(0, 5), countsB: s.countsB.slice(0, 5) }).ok).toBe(false);

@@ -35,6 +35,12 @@ export interface FringeFitOptions {
   interval?: 'auto' | IntervalMethod;
 }
 
+/**
+ * Fringe detection threshold on ΔC: the 99.73% ("3σ") point of χ² with 3 degrees of freedom
+ * (V, phase and period added to a flat model), 14.16; the period search makes it optimistic.
+ */
+export const FRINGE_DETECTION_DELTA_C = 14.16;
+
 /** Below this many net counts in a pass (both outputs) the profile interval is used by default. */
 export const LOW_COUNT_TOTAL = 10_000;
 
@@ -90,6 +96,12 @@ export interface FringeFit {
     pValue: number;
     iterations: number;
     converged: boolean;
+    /**
+     * C(no fringe) − C(fit): how much the fringe improves on flat outputs. Below
+     * FRINGE_DETECTION_DELTA_C the "fringe" may be noise, and period, phase and the V interval
+     * mean little (the period search makes the interval undercover near V = 0).
+     */
+    fringeDeltaCash: number;
   };
   /** Covariance of the shown fit's parameters, in the order of `names`. */
   covariance: { names: string[]; matrix: number[][] };
@@ -122,7 +134,7 @@ interface Problem {
 
 /** Smallest amplitude the fit may step to, counts per bin: keeps the model positive. */
 const MIN_AMPLITUDE = 1e-9;
-/** Stop when the predicted decrease of C/2 falls below this. */
+/** Stop when the predicted decrease of C/2 (a log-likelihood, dimensionless) falls below this. */
 const CONVERGED_DECREASE = 1e-9;
 const MAX_ITERATIONS = 200;
 
@@ -265,8 +277,10 @@ function minimize(pr: Problem, start: Float64Array, free: number[]): Minimum {
   for (; iterations < MAX_ITERATIONS && !converged; iterations++) {
     // V pinned at a bound with the gradient pushing outward stays there for this step.
     const v = p[IV] as number;
+    // Parameters with no information at this point (the phase terms when V = 0) sit out the step.
     const keep = free.filter((param) => {
       const ga = cur.g[param] as number;
+      if (!((cur.f[param * NP + param] as number) > 0)) return false;
       return !(param === IV && ((v >= 1 && ga < 0) || (v <= 0 && ga > 0)));
     });
     const nk = keep.length;
@@ -333,6 +347,23 @@ function deviance(pr: Problem, p: Float64Array): number {
     if (pr.useB) d += term(B * (1 - V * cs) + pr.db, pr.nb[i] as number);
   }
   return 2 * d;
+}
+
+/** Cash C of flat outputs (V = 0): each output's ML level is its mean count, floored at its dark level. */
+function flatCash(pr: Problem): number {
+  let sa = 0;
+  let sb = 0;
+  for (let i = 0; i < pr.len; i++) {
+    sa += pr.na[i] as number;
+    sb += pr.nb[i] as number;
+  }
+  const ma = Math.max(sa / pr.len, pr.da + MIN_AMPLITUDE);
+  const mb = Math.max(sb / pr.len, pr.db + MIN_AMPLITUDE);
+  const la = Math.log(ma);
+  const lb = Math.log(mb);
+  let c = 0;
+  for (let i = 0; i < pr.len; i++) c += ma - (pr.na[i] as number) * la + mb - (pr.nb[i] as number) * lb;
+  return 2 * c;
 }
 
 /** Wrap an angle to (−π, π]. */
@@ -712,6 +743,8 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   const matrix = names.map((_, i) => names.map((__, j) => cov[i * NP + j] as number));
   const dev = deviance(shownProblem, fit.min.p);
   const dof = 2 * len - fit.free.length;
+  const fringeDeltaCash = flatCash(shownProblem) - fit.min.cost;
+  if (fringeDeltaCash < FRINGE_DETECTION_DELTA_C) warnings.push('no significant fringe: the outputs are consistent with flat counts');
   const phase = measuredAt(values, cov, 4);
   return {
     ok: true,
@@ -731,7 +764,7 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
     },
     counts: { a: sumA, b: sumB, bins: len },
     darkPerBin: calibrated ? { a: da, b: db } : null,
-    quality: { cash: fit.min.cost, deviance: dev, dof, pValue: chiSquareSf(dev, dof), iterations: fit.min.iterations, converged: fit.min.converged },
+    quality: { cash: fit.min.cost, deviance: dev, dof, pValue: chiSquareSf(dev, dof), iterations: fit.min.iterations, converged: fit.min.converged, fringeDeltaCash },
     covariance: { names, matrix },
     warnings,
   };

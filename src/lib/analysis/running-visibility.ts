@@ -88,7 +88,9 @@ export function envelopeVisibility(countsA: ArrayLike<number>, countsB: ArrayLik
   const balance = above / n;
   const warnings: string[] = [];
   if (balance < BALANCE_BAND[0] || balance > BALANCE_BAND[1]) warnings.push('the phase did not sample the fringe evenly in this window: the envelope estimate is biased');
-  return { value, err: value > 0 ? Math.sqrt(varR) / (2 * value) : Math.sqrt(Math.sqrt(varR)), bins: n, balance, warnings };
+  // At V = 0 the delta method fails; quote the V whose square is one σ of V² instead.
+  const err = value > 0 ? Math.sqrt(varR) / (2 * value) : Math.sqrt(Math.sqrt(varR));
+  return { value, err, bins: n, balance, warnings };
 }
 
 export interface VisibilityTrend {
