@@ -1,0 +1,87 @@
+// A gateway's health for its page and `GET /api/v1/gateways/{gw}/health`: online state, last seen,
+// recent rates, seq gaps (possible loss), rejected batches with the last reasons, broker refusals,
+// and the clock offset between its bins and their arrival.
+import { eq } from 'drizzle-orm';
+import { getDb, getDbHandle } from './db/index.ts';
+import { gatewayHealth, gateways } from './db/schema.ts';
+
+/** Rates are over the bins of this last stretch of time (ms). */
+export const RATE_WINDOW_MS = 60_000;
+
+export interface GatewayHealthView {
+  id: string;
+  benchId: string;
+  online: boolean;
+  revoked: boolean;
+  /** The last status payload the gateway sent (retained; its last will says offline). */
+  status: { state?: string; boot?: string; channels?: string[]; software?: string; scan?: { min: number; max: number; unit: string } } | null;
+  lastSeenAt: number | null;
+  accepted: number;
+  duplicates: number;
+  rejected: number;
+  refused: number;
+  seqGaps: number;
+  lastRejects: { at: number; reason: string }[];
+  lastBoot: string | null;
+  lastSeq: number | null;
+  /** Arrival minus the end of the last bin, ms (positive: the data arrives that late). */
+  clockOffsetMs: number | null;
+  rates: {
+    windowMs: number;
+    batchesPerMinute: number;
+    binsPerSecond: number;
+    /** Counts per second per channel key, over the bins in the window. */
+    countsPerSecond: Record<string, number>;
+  };
+}
+
+export async function loadGatewayHealth(gatewayId: string, now = Date.now()): Promise<GatewayHealthView | null> {
+  const [row] = await getDb()
+    .select({ g: gateways, h: gatewayHealth })
+    .from(gateways)
+    .leftJoin(gatewayHealth, eq(gatewayHealth.gatewayId, gateways.id))
+    .where(eq(gateways.id, gatewayId))
+    .limit(1);
+  if (!row) return null;
+  const { g, h } = row;
+  const status = (g.status ?? null) as GatewayHealthView['status'];
+  const { rows } = await getDbHandle().pool.query<{ n: number; dt: number; keys: string[]; counts: number[] }>(
+    'select n, dt, keys, counts from count_batches where gateway_id = $1 and t0 >= $2 and t0 < $3',
+    [gatewayId, now - RATE_WINDOW_MS, now],
+  );
+  let bins = 0;
+  const sums: Record<string, { counts: number; ms: number }> = {};
+  for (const r of rows) {
+    bins += r.n;
+    r.keys.forEach((k, i) => {
+      const s = (sums[k] ??= { counts: 0, ms: 0 });
+      for (let j = 0; j < r.n; j++) s.counts += r.counts[i * r.n + j]!;
+      s.ms += r.n * r.dt;
+    });
+  }
+  const countsPerSecond: Record<string, number> = {};
+  for (const [k, s] of Object.entries(sums)) countsPerSecond[k] = s.ms ? (s.counts * 1000) / s.ms : 0;
+  return {
+    id: g.id,
+    benchId: g.benchId,
+    online: status?.state === 'online' && !g.revokedAt,
+    revoked: !!g.revokedAt,
+    status,
+    lastSeenAt: g.lastSeenAt ? g.lastSeenAt.getTime() : null,
+    accepted: h?.accepted ?? 0,
+    duplicates: h?.duplicates ?? 0,
+    rejected: h?.rejected ?? 0,
+    refused: h?.refused ?? 0,
+    seqGaps: h?.seqGaps ?? 0,
+    lastRejects: (h?.lastRejects ?? []) as { at: number; reason: string }[],
+    lastBoot: h?.lastBoot ?? null,
+    lastSeq: h?.lastSeq ?? null,
+    clockOffsetMs: h?.clockOffsetMs ?? null,
+    rates: {
+      windowMs: RATE_WINDOW_MS,
+      batchesPerMinute: (rows.length * 60_000) / RATE_WINDOW_MS,
+      binsPerSecond: (bins * 1000) / RATE_WINDOW_MS,
+      countsPerSecond,
+    },
+  };
+}

@@ -1,0 +1,8 @@
+import { loadGatewayHealth } from '../../../../../lib/server/gateway-health.ts';
+import { endpoint } from '../../../../../lib/server/http/endpoint.ts';
+import { json, problem } from '../../../../../lib/server/http/responses.ts';
+
+export const GET = endpoint('observer', async ({ params }) => {
+  const health = await loadGatewayHealth(params['gw'] ?? '');
+  return health ? json(health) : problem(404, 'no such gateway');
+});
