@@ -1,6 +1,6 @@
 // Starts the real Fringewise app in the test process: built Astro handler, own HTTP server on a
 // free port, migrations, demo seed and the local mail catcher, against the test run's database.
-import { optionsFromEnv, startApp, type RunningApp } from '../../src/server/app.ts';
+import { startApp, type RunningApp } from '../../src/server/app.ts';
 import { livePathOptionsFromEnv } from '../../src/server/live-path.ts';
 import { createApiToken } from '../../src/lib/server/auth/api-tokens.ts';
 import type { Role } from '../../src/lib/server/auth/roles.ts';
