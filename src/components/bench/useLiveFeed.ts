@@ -1,23 +1,35 @@
 // The bench view's subscription to the live socket. The socket itself (connection, back-off,
-// resume after a drop) belongs to src/lib/client/live-socket.ts; this hook only routes messages.
-// TODO: subscribe through live-socket.ts once it lands; until then the view shows the backfill only.
-import { useState } from 'react';
+// resume after a drop) belongs to src/lib/client/live-socket.ts; this hook only routes messages:
+// counts to the buffers, everything else (figures, sweeps, alarms) to the view.
+import { useEffect, useRef, useState } from 'react';
+import { liveSocket, type LiveSocketState } from '../../lib/client/live-socket.ts';
 import type { CountsMessage } from '../../lib/live-messages.ts';
 
-export interface LiveFeedState {
-  status: 'connecting' | 'open' | 'closed';
-  /** Whether the socket was open at least once (a later drop is a lost connection, not a start). */
-  everOpen: boolean;
-  /** When the next reconnection attempt is due, ms since the epoch. */
-  retryAt: number | null;
-}
+export type LiveFeedState = LiveSocketState;
 
 export interface LiveHandlers {
   onCounts: (m: CountsMessage) => void;
   onMessage: (m: { type: string; [k: string]: unknown }) => void;
 }
 
-export function useLiveFeed(_bench: string, _handlers: LiveHandlers): LiveFeedState {
-  const [state] = useState<LiveFeedState>({ status: 'connecting', everOpen: false, retryAt: null });
+export function useLiveFeed(bench: string, handlers: LiveHandlers): LiveFeedState {
+  const socket = liveSocket(bench);
+  const [state, setState] = useState<LiveFeedState>(socket.state);
+  const ref = useRef(handlers);
+  ref.current = handlers;
+
+  useEffect(() => {
+    const s = liveSocket(bench);
+    const offState = s.onState(setState);
+    const off = s.subscribe((m) => {
+      if (m.type === 'counts') ref.current.onCounts(m as CountsMessage);
+      else ref.current.onMessage(m as { type: string; [k: string]: unknown });
+    });
+    return () => {
+      off();
+      offState();
+    };
+  }, [bench]);
+
   return state;
 }

@@ -1,6 +1,6 @@
 // Steps the history asks the counts API for. Every one is a multiple of the usual bin widths
 // (1, 10, 100 ms), so the server can sum bins into it exactly.
-const NICE_STEPS_MS = [100, 1_000, 10_000, 60_000, 600_000, 3_600_000, 86_400_000];
+const NICE_STEPS_MS = [100, 200, 500, 1_000, 2_000, 5_000, 10_000, 30_000, 60_000, 120_000, 300_000, 600_000, 1_800_000, 3_600_000, 86_400_000];
 
 /** Smallest nice step that keeps the points at or under one per `pixels`. */
 export function pickStep(spanMs: number, pixels: number): number {
