@@ -2,7 +2,7 @@
 // its link sets a password once), roles, deactivation, reset links, benches, drive limits,
 // channels and gateway tokens, each leaving an audit row.
 import { and, desc, eq, sql } from 'drizzle-orm';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { getDb } from '../../src/lib/server/db/index.ts';
 import { auditLog, benches, caughtMail, channels, users } from '../../src/lib/server/db/schema.ts';
 import { createOneTimeLink } from '../../src/lib/server/one-time-links.ts';
@@ -14,7 +14,17 @@ import { resetSignInLimits, startWebApp, uniqueEmail, userWithToken } from '../h
 let app: RunningApp;
 let admin: HttpClient;
 let adminId: string;
+// Everything the server logs while these tests run, and every secret they handle: none may meet.
+const logged: string[] = [];
+const secrets: string[] = [];
 beforeAll(async () => {
+  for (const level of ['log', 'info', 'warn', 'error', 'debug'] as const) {
+    const original = console[level].bind(console);
+    vi.spyOn(console, level).mockImplementation((...args: unknown[]) => {
+      logged.push(args.map((a) => (a instanceof Error ? `${a.message} ${a.stack}` : typeof a === 'string' ? a : JSON.stringify(a))).join(' '));
+      original(...args);
+    });
+  }
   app = await startWebApp();
   resetSignInLimits();
   const a = await userWithToken('admin', 'pages-admin');
@@ -62,6 +72,7 @@ describe('invitations', () => {
     const link = /https?:\/\/\S+\/welcome\/[A-Za-z0-9_-]+/.exec(mail.text)?.[0];
     expect(link).toBeTruthy();
     const path = new URL(link!).pathname;
+    secrets.push(path.split('/').at(-1)!, 'first-password-1');
 
     // The admin reads the same message on the outbox page.
     const outbox = await admin.get('/admin/outbox');
@@ -121,6 +132,7 @@ describe('invitations', () => {
     const mail = await mailTo(u.email);
     expect(mail.text).toContain('2 hours');
     const path = new URL(/https?:\/\/\S+\/welcome\/[A-Za-z0-9_-]+/.exec(mail.text)![0]).pathname;
+    secrets.push(path.split('/').at(-1)!, 'reset-password-9');
     const c = new HttpClient(app.url);
     expect((await c.get(path)).text).toContain('Set a new password');
     expect((await c.postForm(path, { password: 'reset-password-9', confirm: 'reset-password-9' })).status).toBe(303);
@@ -195,6 +207,7 @@ describe('benches and gateways', () => {
     const rotated = await admin.postForm(`/admin/benches/${id}`, { intent: 'gateway-rotate', gatewayId: gw });
     const second = inputValue(rotated.text, 'gw-token');
     expect(second).toMatch(/^fwg_/);
+    secrets.push(first!, second!);
     expect(await verifyGatewayToken(gw, first!)).toBeNull();
     expect(await verifyGatewayToken(gw, second!)).toEqual({ benchId: id });
 
@@ -220,5 +233,13 @@ describe('benches and gateways', () => {
     const [after] = await getDb().select().from(channels).where(and(eq(channels.gatewayId, gw), eq(channels.key, 'a')));
     expect(after).toMatchObject({ role: null, darkRate: null, darkRateErr: null });
     expect((await audits('channel', `${gw}/a`)).length).toBe(2);
+  });
+});
+
+describe('logs', () => {
+  it('never contain a token, a one-time link or a password handled above', () => {
+    expect(secrets.length).toBeGreaterThanOrEqual(6);
+    const all = logged.join('\n');
+    for (const secret of secrets) expect(all).not.toContain(secret);
   });
 });

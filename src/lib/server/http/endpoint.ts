@@ -3,6 +3,7 @@
 import type { APIContext, APIRoute } from 'astro';
 import type { SessionUser } from '../auth/lucia.ts';
 import { hasRole, type Role } from '../auth/roles.ts';
+import { errorForLog } from '../log-safe.ts';
 import { HttpError, problem } from './responses.ts';
 
 export type Guarded = APIRoute & { requiredRole: Role };
@@ -17,7 +18,7 @@ export function endpoint(role: Role, handler: (ctx: AuthedContext) => Promise<Re
       return await handler(Object.assign(ctx, { user }));
     } catch (err) {
       if (err instanceof HttpError) return problem(err.status, err.message);
-      console.error('[api]', ctx.request.method, ctx.url.pathname, err);
+      console.error('[api]', ctx.request.method, ctx.url.pathname, errorForLog(err));
       return problem(500, 'internal error');
     }
   };

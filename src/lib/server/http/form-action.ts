@@ -1,6 +1,7 @@
 // Form posts on server-rendered pages: parse the fields with zod, run one action, and turn every
 // expected failure into a message the page shows next to the form (with a fitting status).
 import { ZodError, type z } from 'zod';
+import { errorForLog } from '../log-safe.ts';
 import { NotFoundError } from '../provisioning.ts';
 import { DuplicateError } from '../users.ts';
 import { HttpError, readForm } from './responses.ts';
@@ -17,7 +18,7 @@ export function describeError(err: unknown): { status: number; message: string }
 
 /**
  * Runs `action` with the parsed form; sets the response status on failure. Unexpected errors are
- * logged without the form (it may hold passwords) and shown as a generic message.
+ * logged without the form or query values (they may hold passwords) and shown as a generic message.
  */
 export async function formAction<T, R>(
   astro: { request: Request; response: { status?: number }; url: URL },
@@ -28,7 +29,7 @@ export async function formAction<T, R>(
     return { ok: true, value: await action(await readForm(astro.request, schema)) };
   } catch (err) {
     const known = describeError(err);
-    if (!known) console.error('[form]', astro.url.pathname, err instanceof Error ? err.message : 'unknown error');
+    if (!known) console.error('[form]', astro.url.pathname, errorForLog(err));
     const outcome = known ?? { status: 500, message: 'Something went wrong; the server log has the details.' };
     astro.response.status = outcome.status;
     return { ok: false, ...outcome };
