@@ -4,7 +4,9 @@
 //   the period ends.
 // - Changes that arrive together (within `gatherMs`, 2 s by default) are sent as one mail per
 //   recipient list: a digest when several rules fire at once (a power cut trips them all).
-import { METRIC_INFO, type AlarmMetric, type Severity } from '../../alarm-messages.ts';
+import { METRIC_INFO, SEVERITIES, type AlarmMetric, type Severity } from '../../alarm-messages.ts';
+
+const SEVERITY_ORDER: readonly Severity[] = SEVERITIES;
 
 export interface MailItem {
   ruleId: number;
@@ -129,7 +131,7 @@ function describe(item: MailItem): string[] {
 
 export function formatSingle(item: MailItem): { subject: string; text: string } {
   return {
-    subject: `[Fringewise] ${item.severity.toUpperCase()} ${item.change}: ${item.benchName} — ${item.ruleName}${about(item)}`,
+    subject: `[Fringewise] ${item.severity.toUpperCase()} ${item.change}: ${item.benchName} - ${item.ruleName}${about(item)}`,
     text: [...describe(item), '', 'Acknowledge it on the bench page in Fringewise.'].join('\n'),
   };
 }
@@ -138,11 +140,14 @@ export function formatDigest(items: MailItem[], quietMs = DEFAULT_QUIET_MS): { s
   const sorted = [...items].sort((a, b) => a.at - b.at);
   const raised = sorted.filter((i) => i.change === 'raised').length;
   const benches = [...new Set(sorted.map((i) => i.benchName))].join(', ');
+  const worst = SEVERITY_ORDER.filter((s) => sorted.some((i) => i.severity === s)).pop() ?? 'info';
+  const rules = [...new Set(sorted.map((i) => i.ruleName))];
+  const named = rules.slice(0, 3).join(', ') + (rules.length > 3 ? ` and ${rules.length - 3} more` : '');
   const lines = sorted.map(
     (i) => `${new Date(i.at).toISOString()}  ${i.change.padEnd(7)}  ${i.severity.padEnd(8)}  ${i.benchName} — ${i.ruleName}${about(i)}: ${fmtValue(i.metric, i.value)}`,
   );
   return {
-    subject: `[Fringewise] digest: ${sorted.length} alarm changes (${raised} raised) on ${benches}`,
+    subject: `[Fringewise] ${worst.toUpperCase()} digest: ${sorted.length} alarm changes (${raised} raised) - ${named} on ${benches}`,
     text: [
       `${sorted.length} alarm changes, oldest first. Changes of one rule within ${Math.round(quietMs / 60_000)} min of its last mail are gathered here rather than sent one by one.`,
       '',

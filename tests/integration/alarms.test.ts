@@ -1,0 +1,175 @@
+// Alarms end to end inside one process: rules with audit, evaluation on 'batch-stored' events,
+// alarm_events rows, live pushes, acknowledgement, and e-mail through the real mail catcher.
+import { and, desc, eq, inArray } from 'drizzle-orm';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { CountBatch } from '../../src/lib/contract/wire.ts';
+import { AlarmEngine } from '../../src/lib/server/alarms/engine.ts';
+import { acknowledge, listEvents } from '../../src/lib/server/alarms/event-store.ts';
+import { createRule, deleteRule, ruleInputSchema, updateRule } from '../../src/lib/server/alarms/rules.ts';
+import { closeDb, getDb } from '../../src/lib/server/db/index.ts';
+import { alarmEvents, auditLog, caughtMail } from '../../src/lib/server/db/schema.ts';
+import { serverEvents } from '../../src/lib/server/events.ts';
+import { startMailCatcher, type MailCatcher } from '../../src/lib/server/mail/catcher.ts';
+import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
+import { runtime } from '../../src/lib/server/runtime.ts';
+import type { AlarmMessage } from '../../src/lib/alarm-messages.ts';
+import { userWithToken } from '../helpers/web-app.ts';
+
+const tag = `${process.pid.toString(36)}${Date.now().toString(36)}`.slice(-8);
+const BENCH = `al-${tag}`;
+const GW = `al-${tag}-gw`;
+let catcher: MailCatcher;
+let engine: AlarmEngine;
+let operatorId: string;
+const pushed: AlarmMessage[] = [];
+const savedLive = runtime().live;
+
+/** A one-second batch whose channels have the given rates (counts/s), ending now (so it is not stale). */
+function batch(rates: Record<string, number>, t0 = Math.floor(Date.now() / 1000) * 1000 - 1000): CountBatch {
+  const ch: Record<string, number[]> = {};
+  for (const [k, r] of Object.entries(rates)) ch[k] = Array.from({ length: 10 }, () => r / 10);
+  return { v: 1, boot: 'b', seq: 0, t0, dt: 100, ch };
+}
+
+const emit = (b: CountBatch) => serverEvents().emit('batch-stored', { benchId: BENCH, gatewayId: GW, batch: b, receivedAt: Date.now() });
+
+async function eventsOf(ruleId: number) {
+  await engine.idle();
+  return await getDb().select().from(alarmEvents).where(eq(alarmEvents.ruleId, ruleId)).orderBy(alarmEvents.id);
+}
+
+async function mailTo(address: string, atLeast: number, timeoutMs = 5000) {
+  const until = Date.now() + timeoutMs;
+  for (;;) {
+    const rows = await getDb().select().from(caughtMail).orderBy(desc(caughtMail.id)).limit(200);
+    const mine = rows.filter((m) => m.to.includes(address));
+    if (mine.length >= atLeast || Date.now() > until) return mine;
+    await new Promise((r) => setTimeout(r, 100));
+  }
+}
+
+beforeAll(async () => {
+  delete process.env['SMTP_URL'];
+  catcher = await startMailCatcher(0);
+  process.env['FRINGEWISE_CATCHER_URL'] = catcher.url;
+  await createBench({ id: BENCH, name: `Alarm bench ${tag}`, wavelengthNm: 810 });
+  await createGateway(GW, BENCH);
+  operatorId = (await userWithToken('operator', 'alarm-op')).id;
+  runtime().live = { publish: (_b, m) => void pushed.push(m as unknown as AlarmMessage), subscribe: () => () => undefined, clientCount: () => 0 };
+  // Gather 150 ms, quiet 60 s: the test sees the first mail at once and no second one within its run.
+  engine = new AlarmEngine({ tickMs: 50, mail: { gatherMs: 150, quietMs: 60_000 } });
+  await engine.start();
+});
+
+afterAll(async () => {
+  await engine?.stop();
+  runtime().live = savedLive;
+  await catcher?.close();
+  await closeDb();
+});
+
+describe('alarm rules', () => {
+  it('validates hysteresis direction and channel form', () => {
+    expect(ruleInputSchema.safeParse({ name: 'x', metric: 'rate_high', threshold: 10, clearThreshold: 20 }).success).toBe(false);
+    expect(ruleInputSchema.safeParse({ name: 'x', metric: 'visibility_low', threshold: 0.8, clearThreshold: 0.7 }).success).toBe(false);
+    expect(ruleInputSchema.safeParse({ name: 'x', metric: 'rate_high', channel: 'nogateway', threshold: 10, clearThreshold: 5 }).success).toBe(false);
+    expect(ruleInputSchema.safeParse({ name: 'x', metric: 'phase_drift', channel: 'gw/a', threshold: 1, clearThreshold: 0.5 }).success).toBe(false);
+    expect(ruleInputSchema.safeParse({ name: 'x', metric: 'rate_high', channel: 'gw/a', threshold: 10, clearThreshold: 5, recipients: ['a@b.example'] }).success).toBe(true);
+  });
+
+  it('audits every change with who, before and after', async () => {
+    const input = ruleInputSchema.parse({ name: 'Audit me', metric: 'rate_low', threshold: 10, clearThreshold: 20, enabled: false });
+    const rule = await createRule(BENCH, input, operatorId);
+    await updateRule(BENCH, rule.id, { ...input, threshold: 5 }, operatorId);
+    await deleteRule(BENCH, rule.id, operatorId);
+    const rows = await getDb()
+      .select()
+      .from(auditLog)
+      .where(and(eq(auditLog.entity, 'alarm_rule'), eq(auditLog.entityId, String(rule.id))))
+      .orderBy(auditLog.id);
+    expect(rows.map((r) => r.action)).toEqual(['create', 'update', 'delete']);
+    expect(rows.every((r) => r.actorId === operatorId)).toBe(true);
+    expect((rows[1]!.before as { threshold: number }).threshold).toBe(10);
+    expect((rows[1]!.after as { threshold: number }).threshold).toBe(5);
+    expect(rows[2]!.after).toBeNull();
+  });
+});
+
+describe('alarm evaluation on ingest', () => {
+  it('raises on the batch that crosses, mails the recipients, pushes live, clears past the clear threshold, and takes an acknowledgement', async () => {
+    const rule = await createRule(
+      BENCH,
+      ruleInputSchema.parse({ name: 'Detector A overexposed', metric: 'rate_high', channel: `${GW}/a`, threshold: 1_000_000, clearThreshold: 800_000, severity: 'critical', recipients: [`night-${tag}@lab.example`] }),
+      null,
+    );
+    await engine.reload();
+    emit(batch({ a: 500_000, b: 2_000_000 }));
+    expect(await eventsOf(rule.id)).toHaveLength(0);
+    emit(batch({ a: 1_500_000, b: 10 }));
+    const raised = await eventsOf(rule.id);
+    expect(raised).toHaveLength(1);
+    expect(raised[0]!.subject).toBe(`${GW}/a`);
+    expect(raised[0]!.value).toBeCloseTo(1_500_000);
+    expect(raised[0]!.clearedAt).toBeNull();
+    expect(pushed.some((m) => m.type === 'alarm' && m.change === 'raised' && m.bench === BENCH && m.event.ruleId === rule.id)).toBe(true);
+
+    emit(batch({ a: 900_000 })); // inside the hysteresis band: still raised
+    expect((await eventsOf(rule.id))[0]!.clearedAt).toBeNull();
+    emit(batch({ a: 700_000 }));
+    expect((await eventsOf(rule.id))[0]!.clearedAt).not.toBeNull();
+
+    const mails = await mailTo(`night-${tag}@lab.example`, 1);
+    expect(mails).toHaveLength(1);
+    const mail = mails[0]!;
+    expect(mail.subject).toContain('CRITICAL');
+    expect(mail.subject).toContain('Detector A overexposed');
+    expect(mail.subject).toContain(`Alarm bench ${tag}`);
+    // Raise and clear arrived within the gather window: one mail holding both.
+    expect(mail.text).toContain(`${GW}/a`);
+    expect(mail.text).toContain('1500000');
+
+    const acked = await acknowledge(BENCH, raised[0]!.id, operatorId, 'Closed the shutter, lowered the pump');
+    expect(acked.ackComment).toBe('Closed the shutter, lowered the pump');
+    await expect(acknowledge(BENCH, raised[0]!.id, operatorId, 'again')).rejects.toMatchObject({ status: 409 });
+    const listed = await listEvents({ benchIds: [BENCH] });
+    expect(listed.find((e) => e.id === raised[0]!.id)?.ackedBy).toMatch(/alarm-op/);
+  });
+
+  it('raises only after the hold time, measured in data time', async () => {
+    const rule = await createRule(BENCH, ruleInputSchema.parse({ name: 'Dim', metric: 'rate_low', channel: `${GW}/b`, threshold: 100, clearThreshold: 200, holdSeconds: 2 }), null);
+    await engine.reload();
+    const t = Math.floor(Date.now() / 1000) * 1000 - 5000;
+    emit(batch({ b: 10 }, t)); // ends t+1 s: hold starts
+    emit(batch({ b: 10 }, t + 1000)); // ends t+2 s: held 1 s
+    expect(await eventsOf(rule.id)).toHaveLength(0);
+    emit(batch({ b: 10 }, t + 2000)); // ends t+3 s: held 2 s → raise
+    expect(await eventsOf(rule.id)).toHaveLength(1);
+  });
+
+  it('a flapping signal sends one mail, not a storm', async () => {
+    const to = `flap-${tag}@lab.example`;
+    const rule = await createRule(BENCH, ruleInputSchema.parse({ name: 'Flappy', metric: 'rate_high', channel: `${GW}/c`, threshold: 1000, clearThreshold: 900, recipients: [to] }), null);
+    await engine.reload();
+    for (let i = 0; i < 40; i++) emit(batch({ c: i % 2 ? 500 : 5000 }));
+    const events = await eventsOf(rule.id);
+    expect(events).toHaveLength(20);
+    await new Promise((r) => setTimeout(r, 600));
+    // 40 changes: one mail now; whatever came after it waits for the digest at the end of the quiet period.
+    const mails = await mailTo(to, 2, 1000);
+    expect(mails).toHaveLength(1);
+    expect(mails[0]!.subject).toContain('Flappy');
+  });
+
+  it('closes the open alarms of a rule that is disabled', async () => {
+    const input = ruleInputSchema.parse({ name: 'Soon off', metric: 'rate_high', channel: `${GW}/d`, threshold: 10, clearThreshold: 5 });
+    const rule = await createRule(BENCH, input, null);
+    await engine.reload();
+    emit(batch({ d: 100 }));
+    expect((await eventsOf(rule.id))[0]!.clearedAt).toBeNull();
+    await updateRule(BENCH, rule.id, { ...input, enabled: false }, null);
+    await engine.reload();
+    expect((await eventsOf(rule.id))[0]!.clearedAt).not.toBeNull();
+    const open = await getDb().select().from(alarmEvents).where(and(eq(alarmEvents.benchId, BENCH), inArray(alarmEvents.ruleId, [rule.id])));
+    expect(open.every((e) => e.clearedAt !== null)).toBe(true);
+  });
+});
