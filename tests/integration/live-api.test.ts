@@ -1,0 +1,130 @@
+// The live path's HTTP side against the built app: counts (JSON, CSV, raw vs rollups), commands
+// (drive limits, publish, ack) and gateway health.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { topicFor } from '../../src/lib/contract/wire.ts';
+import { getDb } from '../../src/lib/server/db/index.ts';
+import { benches } from '../../src/lib/server/db/schema.ts';
+import { buildIfStale } from '../../src/server/build.ts';
+import { eq } from 'drizzle-orm';
+import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, type TestLive } from '../helpers/live-path.ts';
+import { userWithToken } from '../helpers/web-app.ts';
+
+let t: TestLive;
+let observer: string;
+let operator: string;
+const BASE = Math.floor(Date.now() / 3_600_000) * 3_600_000 - 2 * 3_600_000;
+
+beforeAll(async () => {
+  buildIfStale();
+  t = await startTestLive({ web: true });
+  observer = (await userWithToken('observer')).token;
+  operator = (await userWithToken('operator')).token;
+});
+afterAll(async () => {
+  await t.close();
+});
+
+const get = (path: string, token: string, headers: Record<string, string> = {}) =>
+  fetch(`${t.baseUrl}${path}`, { headers: { authorization: `Bearer ${token}`, ...headers } });
+
+describe('GET /api/v1/benches/{id}/counts', () => {
+  let gw: Awaited<ReturnType<typeof freshGateway>>;
+  // 3 minutes of 10 ms bins: a = 1 per bin, b = bin index within the batch.
+  beforeAll(async () => {
+    gw = await freshGateway();
+    const c = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    for (let i = 0; i < 180; i++) {
+      const b = makeBatch(BASE + i * 1000, 100, i, { value: (k, j) => (k === 'a' ? 1 : j) });
+      await publishBatch(c, gw.gatewayId, { ...b, x: Array.from({ length: 100 }, (_, j) => j / 10), cc: Array.from({ length: 100 }, () => 2) });
+    }
+    await c.endAsync();
+  });
+
+  it('sums to the step from raw rows, 1 s and 1 min rollups alike', async () => {
+    const from = BASE;
+    const to = BASE + 180_000;
+    const raw = await (await get(`/api/v1/benches/${gw.benchId}/counts?from=${from}&to=${to}&step=500`, observer)).json();
+    const sec = await (await get(`/api/v1/benches/${gw.benchId}/counts?from=${new Date(from).toISOString()}&to=${new Date(to).toISOString()}&step=1000`, observer)).json();
+    const min = await (await get(`/api/v1/benches/${gw.benchId}/counts?from=${from}&to=${to}&step=60000`, observer)).json();
+    const a = `${gw.gatewayId}/a`;
+    expect(raw.resolution).toBe('raw');
+    expect(sec.resolution).toBe('1s');
+    expect(min.resolution).toBe('1min');
+    expect(raw.channels[a]).toHaveLength(360);
+    expect(raw.channels[a][0]).toBe(50);
+    expect(sec.channels[a]).toEqual(new Array(180).fill(100));
+    expect(min.channels[a]).toEqual([6000, 6000, 6000]);
+    expect(min.channels[`${gw.gatewayId}/b`]).toEqual(new Array(3).fill(60 * 4950));
+    expect(raw.x[0]).toBeCloseTo(2.45, 10);
+    expect(sec.cc[0]).toBe(200);
+  });
+
+  it('answers CSV with metadata comments', async () => {
+    const res = await get(`/api/v1/benches/${gw.benchId}/counts?from=${BASE}&to=${BASE + 3000}&step=1000`, observer, { accept: 'text/csv' });
+    expect(res.headers.get('content-type')).toMatch(/text\/csv/);
+    const lines = (await res.text()).trim().split('\n');
+    expect(lines[0]).toBe('# fringewise counts csv v1');
+    expect(lines.some((l) => l.startsWith('# step_ms: 1000'))).toBe(true);
+    const header = lines.find((l) => !l.startsWith('#'))!;
+    expect(header).toBe(`t_ms,${gw.gatewayId}/a,${gw.gatewayId}/b,cc`);
+    expect(lines.slice(-3)).toEqual([`${BASE},100,4950,200`, `${BASE + 1000},100,4950,200`, `${BASE + 2000},100,4950,200`]);
+  });
+
+  it('refuses bad and oversized queries with a reason', async () => {
+    const bad = await get(`/api/v1/benches/${gw.benchId}/counts?from=yesterday&to=${BASE}`, observer);
+    expect(bad.status).toBe(422);
+    const huge = await get(`/api/v1/benches/${gw.benchId}/counts?from=0&to=${BASE}&step=1000`, observer);
+    expect(huge.status).toBe(422);
+    expect((await huge.json()).error).toMatch(/points/);
+    expect((await get(`/api/v1/benches/${gw.benchId}/counts?from=0&to=1`, 'fwp_nope')).status).toBe(401);
+  });
+});
+
+describe('POST /api/v1/benches/{id}/commands', () => {
+  it('checks drive limits, publishes with a fresh id, and pushes the ack', async () => {
+    const gw = await freshGateway();
+    await getDb().update(benches).set({ driveMin: 0, driveMax: 50, driveMaxStep: 0.5, driveMinDwellMs: 5 }).where(eq(benches.id, gw.benchId));
+    const post = (token: string, body: unknown) =>
+      fetch(`${t.baseUrl}/api/v1/benches/${gw.benchId}/commands`, { method: 'POST', headers: { authorization: `Bearer ${token}`, 'content-type': 'application/json' }, body: JSON.stringify(body) });
+    expect((await post(observer, { op: 'stop' })).status).toBe(403);
+    const outside = await post(operator, { op: 'sweep', from: 0, to: 80, step: 0.1, dwell: 10, sweeps: 1 });
+    expect(outside.status).toBe(422);
+    expect((await outside.json()).error).toMatch(/to 80 V is outside/);
+    expect((await post(operator, { op: 'hold', x: 'high' })).status).toBe(422);
+
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    await client.subscribeAsync(topicFor(gw.gatewayId, 'cmd'), { qos: 1 });
+    const got = new Promise<{ id: string; op: string; v: number }>((resolve) => client.once('message', (_t, p) => resolve(JSON.parse(String(p)))));
+    const ws = await openLive(t.baseUrl, gw.benchId, observer);
+    const res = await post(operator, { op: 'sweep', from: 0, to: 40, step: 0.05, dwell: 20, sweeps: 4 });
+    expect(res.status).toBe(202);
+    const { id } = (await res.json()) as { id: string };
+    const cmd = await got;
+    expect(cmd).toEqual({ v: 1, id, op: 'sweep', from: 0, to: 40, step: 0.05, dwell: 20, sweeps: 4 });
+    await client.publishAsync(topicFor(gw.gatewayId, 'ack'), JSON.stringify({ v: 1, id, ok: false, error: 'out of scan range' }), { qos: 1 });
+    expect(await ws.next((m) => m.type === 'ack')).toEqual({ type: 'ack', bench: gw.benchId, gateway: gw.gatewayId, id, ok: false, error: 'out of scan range' });
+    await client.endAsync();
+    ws.ws.close();
+  });
+});
+
+describe('GET /api/v1/gateways/{gw}/health', () => {
+  it('reports counters, rejects with reasons, rates and the page renders', async () => {
+    const gw = await freshGateway();
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    const now = Math.floor(Date.now() / 1000) * 1000 - 5000;
+    await publishBatch(client, gw.gatewayId, makeBatch(now, 100, 0, { value: () => 3 }));
+    await client.publishAsync(topicFor(gw.gatewayId, 'counts'), '{"v":1,"boot":"x","seq":1,"t0":5,"dt":10,"ch":{"a":[1]}}', { qos: 1 });
+    const res = await get(`/api/v1/gateways/${gw.gatewayId}/health`, observer);
+    expect(res.status).toBe(200);
+    const h = await res.json();
+    expect(h).toMatchObject({ id: gw.gatewayId, accepted: 1, rejected: 1, seqGaps: 0, refused: 0 });
+    expect(h.lastRejects[0].reason).toMatch(/t0 is not a multiple of dt/);
+    expect(h.rates.countsPerSecond.a).toBeCloseTo(300, 6);
+    expect(h.clockOffsetMs).toBeGreaterThanOrEqual(3000);
+    const page = await get(`/benches/${gw.benchId}/gateways/${gw.gatewayId}`, observer);
+    expect(page.status).toBe(200);
+    expect(await page.text()).toContain('t0 is not a multiple of dt');
+    await client.endAsync();
+  });
+});
