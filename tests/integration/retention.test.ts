@@ -1,0 +1,66 @@
+// Retention deletes exactly what is older than each level's limit, in bounded steps, and nothing
+// that overlaps a kept run of the gateway's bench.
+import { eq, inArray } from 'drizzle-orm';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { closeDb, getDb } from '../../src/lib/server/db/index.ts';
+import { countBatches, rollups, runs } from '../../src/lib/server/db/schema.ts';
+import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
+import { getRetention, runRetention, setRetention, storageUsage } from '../../src/lib/server/retention.ts';
+
+const tag = `${process.pid.toString(36)}${Date.now().toString(36)}`.slice(-8);
+const BENCH = `rt-${tag}`;
+const GW = `rt-${tag}-gw`;
+const DAY = 86_400_000;
+const NOW = Math.floor(Date.now() / 60_000) * 60_000;
+
+/** A one-minute raw batch (60 bins of 1 s) starting at t0. */
+const raw = (t0: number) => ({ gatewayId: GW, t0, t1: t0 + 60_000, dt: 1000, n: 60, keys: ['a'], counts: Array<number>(60).fill(7), boot: 'b', seq: 0 });
+const block = (stepMs: number, blockT0: number) => ({ gatewayId: GW, key: 'a', stepMs, blockT0, sums: Array<number>(60).fill(1), bins: Array<number>(60).fill(1) });
+
+// Raw limit 10 days, 1 s rollups 20 days, 1 min rollups 40 days.
+const ageDays = [5, 15, 25, 30, 45, 50];
+const keptDay = 30; // a kept run covers one hour around 30 days ago
+
+beforeAll(async () => {
+  await createBench({ id: BENCH, name: 'Retention bench', wavelengthNm: 633 });
+  await createGateway(GW, BENCH);
+  const db = getDb();
+  await db.insert(countBatches).values(ageDays.map((d) => raw(NOW - d * DAY)));
+  await db.insert(rollups).values(ageDays.flatMap((d) => [block(1000, Math.floor((NOW - d * DAY) / 60_000) * 60_000), block(60_000, Math.floor((NOW - d * DAY) / 3_600_000) * 3_600_000)]));
+  await db.insert(runs).values([
+    { benchId: BENCH, title: 'Kept calibration', startMs: NOW - keptDay * DAY - 1_800_000, endMs: NOW - keptDay * DAY + 1_800_000, keep: true },
+    // Not kept: no protection.
+    { benchId: BENCH, title: 'Ordinary', startMs: NOW - 45 * DAY - 1_800_000, endMs: NOW - 45 * DAY + 1_800_000, keep: false },
+  ]);
+});
+
+afterAll(async () => closeDb());
+
+describe('retention', () => {
+  it('refuses settings that keep finer data longer than coarser data', async () => {
+    await expect(setRetention({ rawDays: 30, fineDays: 10, coarseDays: 40 }, null)).rejects.toThrow();
+  });
+
+  it('deletes exactly what is past each limit, and nothing of a kept run', async () => {
+    await setRetention({ rawDays: 10, fineDays: 20, coarseDays: 40 }, null);
+    expect(await getRetention()).toEqual({ rawDays: 10, fineDays: 20, coarseDays: 40 });
+    const before = await storageUsage();
+    expect(before.rows.find((r) => r.benchId === BENCH && r.level === 'raw')?.rows).toBe(ageDays.length);
+
+    // Steps of 1 row: exercises the bounded loop.
+    const result = await runRetention({ now: NOW, stepRows: 1, pauseMs: 0 });
+    const db = getDb();
+    const ages = (ts: number[]) => ts.map((t) => Math.round((NOW - t) / DAY)).sort((a, b) => a - b);
+    const rawLeft = await db.select({ t0: countBatches.t0 }).from(countBatches).where(eq(countBatches.gatewayId, GW));
+    expect(ages(rawLeft.map((r) => r.t0))).toEqual([5, 30]);
+    const fineLeft = await db.select({ t: rollups.blockT0, step: rollups.stepMs }).from(rollups).where(eq(rollups.gatewayId, GW));
+    expect(ages(fineLeft.filter((r) => r.step === 1000).map((r) => r.t))).toEqual([5, 15, 30]);
+    expect(ages(fineLeft.filter((r) => r.step === 60_000).map((r) => r.t))).toEqual([5, 15, 25, 30]);
+    expect(result.deleted.raw).toBeGreaterThanOrEqual(4);
+    expect(result.error).toBeUndefined();
+
+    // A second pass finds nothing more of this gateway.
+    await runRetention({ now: NOW, stepRows: 1, pauseMs: 0 });
+    expect(await db.select().from(countBatches).where(inArray(countBatches.gatewayId, [GW]))).toHaveLength(2);
+  });
+});
