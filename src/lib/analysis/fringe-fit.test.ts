@@ -78,23 +78,32 @@ describe('joint Poisson ML fringe fit', () => {
 
   // Honest uncertainties: the 68.27% interval (ΔC = 1, Cash 1979) must cover the true V in 62–74%
   // of ≥ 200 seeded sweeps (the binomial spread of 200 trials is ±3.3%).
-  const coverage = (spec: Omit<SweepSpec, 'seed'>, seed0: number): { rate: number; methods: Set<string> } => {
+  const coverage = (spec: Omit<SweepSpec, 'seed'>, seed0: number) => {
     let covered = 0;
+    let period = 0;
+    let phase = 0;
     const methods = new Set<string>();
     const trials = 200;
     for (let t = 0; t < trials; t++) {
       const r = fit(simulateSweep({ ...spec, seed: seed0 + t }));
       methods.add(r.visibility.method);
       if (r.visibility.lower <= (spec.visibility as number) && (spec.visibility as number) <= r.visibility.upper) covered++;
+      if (Math.abs(r.period.value - (spec.period as number)) <= r.period.err) period++;
+      if (Math.abs(r.phase.value - (spec.phase as number)) <= r.phase.err) phase++;
     }
-    return { rate: covered / trials, methods };
+    return { rate: covered / trials, period: period / trials, phase: phase / trials, methods };
   };
 
-  it('has 62–74% coverage of its 68% interval for V at high counts (Fisher)', () => {
+  it('has 62–74% coverage of its 68% interval for V at high counts (Fisher), and honest period and phase errors', () => {
     const c = coverage(BASE, 1000);
     expect([...c.methods]).toEqual(['fisher']);
     expect(c.rate).toBeGreaterThanOrEqual(0.62);
     expect(c.rate).toBeLessThanOrEqual(0.74);
+    // Period and φ(x = 0) errors come through the change of variables from the fit's own.
+    for (const r of [c.period, c.phase]) {
+      expect(r).toBeGreaterThanOrEqual(0.6);
+      expect(r).toBeLessThanOrEqual(0.76);
+    }
   });
 
   it('has 62–74% coverage of its 68% interval for V at about 20 counts per bin (profile likelihood)', () => {
