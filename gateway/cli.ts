@@ -6,6 +6,7 @@ import { z } from 'zod';
 import { DEMO_BENCHES, findDemoBench } from '../simulators/demo-benches.ts';
 import { gatewayIdSchema } from '../src/lib/contract/wire.ts';
 import type { Counter } from './counter.ts';
+import { brokerUrlForGateways } from './demo.ts';
 import { ReplayCounter } from './drivers/replay.ts';
 import { SerialCounter } from './drivers/serial.ts';
 import { SimCounter } from './drivers/sim.ts';
@@ -58,16 +59,6 @@ const argsSchema = z
   });
 type Args = z.infer<typeof argsSchema>;
 
-function defaultUrl(): string {
-  const external = process.env['MQTT_URL'];
-  if (!external) return `mqtt://127.0.0.1:${process.env['MQTT_PORT'] ?? 1883}`;
-  // The server's URL may carry its own privileged credentials; a gateway signs in as itself.
-  const u = new URL(external);
-  u.username = '';
-  u.password = '';
-  return u.href;
-}
-
 function parse(argv: string[]): Args {
   const { values } = parseArgs({
     args: argv,
@@ -82,7 +73,7 @@ function parse(argv: string[]): Args {
   const parsed = argsSchema.safeParse({
     ...values,
     token: values['token'] ?? process.env['FRINGEWISE_GATEWAY_TOKEN'],
-    url: values['url'] ?? defaultUrl(),
+    url: values['url'] ?? brokerUrlForGateways(process.env['MQTT_URL'] || null, '127.0.0.1', Number(process.env['MQTT_PORT'] ?? 1883)),
     prefix: values['prefix'] ?? process.env['MQTT_PREFIX'] ?? 'fringewise/v1',
     'queue-dir': values['queue-dir'] ?? path.join('.data', 'gateway', id ?? ''),
     'queue-max-mb': values['queue-max-mb'] ?? 1024,

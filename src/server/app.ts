@@ -1,6 +1,7 @@
 // Starts every part of Fringewise in one process, in order, and stops them in reverse:
 // database → migrations → demo seed → mail catcher → live path (broker, ingest, hub) → alarms and
-// retention → web server.
+// retention → simulated gateways → web server.
+import path from 'node:path';
 import { startAlarmEngine, stopAlarmEngine } from '../lib/server/alarms/engine.ts';
 import { closeDb } from '../lib/server/db/index.ts';
 import { migrateDatabase } from '../lib/server/db/migrate.ts';
@@ -8,7 +9,7 @@ import { startMailCatcher } from '../lib/server/mail/catcher.ts';
 import { mailCatcherEnabled } from '../lib/server/mail/config.ts';
 import { startRetentionJob } from '../lib/server/retention.ts';
 import { buildIfStale } from './build.ts';
-import { connectDatabase } from './database.ts';
+import { DATA_DIR, connectDatabase } from './database.ts';
 import { startWebServer, type UpgradeHandler } from './http.ts';
 import { livePathOptionsFromEnv, startLivePath, type LivePathOptions } from './live-path.ts';
 
@@ -62,7 +63,8 @@ export async function startApp(opts: AppOptions): Promise<RunningApp> {
     await migrateDatabase();
     if (opts.seed) {
       const { seedDemo } = await import('../lib/server/seed.ts');
-      await seedDemo();
+      // The demo gateways' tokens go to the data directory only when they will run here.
+      await seedDemo(opts.simulate ? { dataDir: DATA_DIR } : {});
     }
     if (mailCatcherEnabled()) {
       const catcher = await startMailCatcher(Number(process.env['FRINGEWISE_CATCHER_PORT'] ?? 0));
@@ -76,6 +78,19 @@ export async function startApp(opts: AppOptions): Promise<RunningApp> {
     const retention = startRetentionJob();
     stops.push(() => retention.stop());
     console.log(live.transport.port === null ? '[mqtt] connected to the external broker' : `[mqtt] broker listening on ${opts.live.mqttHost}:${live.transport.port}`);
+    if (opts.simulate) {
+      // The demo benches' simulated gateways, once the broker is up; stopped before it, so they
+      // deliver what they hold and sign off.
+      const { readDemoGatewayTokens } = await import('../lib/server/seed.ts');
+      const { brokerUrlForGateways, startDemoGateways } = await import('../../gateway/demo.ts');
+      const demo = await startDemoGateways({
+        url: brokerUrlForGateways(opts.live.mqttUrl, opts.live.mqttHost, live.transport.port),
+        prefix: opts.live.prefix,
+        tokens: readDemoGatewayTokens(DATA_DIR),
+        queueRoot: path.join(DATA_DIR, 'gateway'),
+      });
+      stops.push(() => demo.stop());
+    }
     const upgrades: Record<string, UpgradeHandler> = { ...live.upgrades };
     if (!opts.web) return { url: '', mqttPort: live.transport.port, close: stopAll };
     const web = await startWebServer({ port: opts.port, host: opts.host, upgrades });
