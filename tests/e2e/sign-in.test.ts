@@ -58,6 +58,8 @@ describe('in a browser', () => {
       ['people', '/admin/users'],
       ['benches', '/admin/benches'],
       ['bench-edit', `/admin/benches/${DEMO_BENCH_ROWS[0]!.id}`],
+      ['audit', '/admin/audit'],
+      ['outbox', '/admin/outbox'],
     ] as const) {
       await page.goto(app.url + path);
       expect(await page.locator('h1').first().textContent()).toBeTruthy();

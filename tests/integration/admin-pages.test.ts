@@ -233,6 +233,11 @@ describe('benches and gateways', () => {
     const [after] = await getDb().select().from(channels).where(and(eq(channels.gatewayId, gw), eq(channels.key, 'a')));
     expect(after).toMatchObject({ role: null, darkRate: null, darkRateErr: null });
     expect((await audits('channel', `${gw}/a`)).length).toBe(2);
+
+    const trail = await admin.get('/admin/audit');
+    expect(trail.status).toBe(200);
+    expect(trail.text).toContain(`${gw}/a`);
+    expect(trail.text).toContain('darkRate: 120 → null');
   });
 });
 

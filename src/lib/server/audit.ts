@@ -1,9 +1,9 @@
 // The audit trail: every admin change to people, benches, gateways, channels and limits writes one
 // row saying who changed what, with the state before and after. One function, so every caller
 // records the same shape; pass the transaction so the row commits or rolls back with the change.
-import { desc } from 'drizzle-orm';
+import { desc, eq } from 'drizzle-orm';
 import { getDb, type Db } from './db/index.ts';
-import { auditLog } from './db/schema.ts';
+import { auditLog, users } from './db/schema.ts';
 
 export type AuditEntity = 'user' | 'bench' | 'gateway' | 'channel' | 'alarm_rule' | 'settings' | (string & {});
 
@@ -31,6 +31,12 @@ export async function recordAudit(entry: AuditEntry, db: Executor = getDb()): Pr
   });
 }
 
+/** Newest first, with the actor's e-mail (null when the CLI or the system made the change). */
 export async function listAudit(limit = 200) {
-  return await getDb().select().from(auditLog).orderBy(desc(auditLog.id)).limit(limit);
+  return await getDb()
+    .select({ id: auditLog.id, at: auditLog.at, actor: users.email, entity: auditLog.entity, entityId: auditLog.entityId, action: auditLog.action, before: auditLog.before, after: auditLog.after })
+    .from(auditLog)
+    .leftJoin(users, eq(users.id, auditLog.actorId))
+    .orderBy(desc(auditLog.id))
+    .limit(limit);
 }
