@@ -53,6 +53,7 @@ export async function run(): Promise<Record<string, number>> {
     result['liveScriptMsMedian'] = m[Math.floor(m.length / 2)] ?? NaN;
     result['liveScriptMsP95'] = m[Math.floor(m.length * 0.95)] ?? NaN;
     await gw.endAsync();
+    console.log('[live-view]', JSON.stringify(result));
 
     // 2. 24 h history: 24 batches of 3600 one-second bins.
     const hist = await freshGateway();

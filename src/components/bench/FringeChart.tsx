@@ -109,7 +109,7 @@ export function FringeChart(props: Props) {
 
   useEffect(() => {
     const gate = new FrameGate('fringe', REDRAW_MS, () => {
-      plot.current?.setData(data());
+      plot.current?.batch(() => plot.current?.setData(data()));
       setClicks(cells.clicks());
       setDir(cells.direction);
     });
