@@ -134,8 +134,11 @@ interface Problem {
 
 /** Smallest amplitude the fit may step to, counts per bin: keeps the model positive. */
 const MIN_AMPLITUDE = 1e-9;
-/** Stop when the predicted decrease of C/2 (a log-likelihood, dimensionless) falls below this. */
-const CONVERGED_DECREASE = 1e-9;
+/**
+ * Stop when the predicted decrease of C/2 (a log-likelihood, dimensionless) falls below this: the
+ * parameters are then within about √(2·1e-6) ≈ 0.0014σ of the minimum, far inside any interval.
+ */
+const CONVERGED_DECREASE = 1e-6;
 const MAX_ITERATIONS = 200;
 
 interface Evaluation {
