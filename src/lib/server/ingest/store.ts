@@ -95,6 +95,9 @@ export class BatchWriter {
 
   private async write(items: Item[]): Promise<void> {
     const client = await getDbHandle().pool.connect();
+    // A server shutdown mid-transaction also emits 'error' on the client; unhandled, it would end the process.
+    const onError = (err: Error) => console.warn('[ingest] database connection lost:', err.message);
+    client.on('error', onError);
     let broken = false;
     try {
       await client.query('begin');
@@ -106,6 +109,7 @@ export class BatchWriter {
       await client.query('rollback').catch(() => undefined);
       throw err;
     } finally {
+      client.off('error', onError);
       // A client that failed mid-transaction may hold a dead socket: discard it instead of pooling it.
       client.release(broken);
     }
