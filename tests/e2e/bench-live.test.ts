@@ -37,7 +37,7 @@ describe('bench live view', () => {
   it('lets an operator sweep and shows the fit with a visibility within the truth ± 3σ', async () => {
     const page = operator.page;
     await page.goto(`${app.url}/benches/${BENCH}`);
-    await page.getByRole('heading', { name: 'Drive' }).waitFor();
+    await page.getByRole('heading', { name: 'Drive', exact: true }).waitFor();
     await page.getByLabel('From (V)').fill('5');
     await page.getByLabel('To (V)').fill('45');
     await page.getByLabel('Step (V)').fill('0.1');
