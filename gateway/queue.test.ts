@@ -77,6 +77,15 @@ describe('DiskQueue', () => {
     await again.close();
   });
 
+  it('refuses a second user of the same directory while the first is open', async () => {
+    const q = await DiskQueue.open(dir);
+    await expect(DiskQueue.open(dir)).rejects.toThrow(/in use by process/);
+    await q.close();
+    // A lock left by a process that is gone (here: pid 2^22 + 1, above Linux's pid_max) is taken over.
+    await writeFile(path.join(dir, 'lock'), `${2 ** 22 + 1}\n`);
+    await (await DiskQueue.open(dir)).close();
+  });
+
   it('rolls segments over and deletes the ones fully acknowledged', async () => {
     const q = await DiskQueue.open(dir, { segmentBytes: 200, maxBytes: 1e6, cursorEveryMs: 1 });
     for (let i = 0; i < 30; i++) await q.append(payload(i));

@@ -5,6 +5,7 @@
 // On disk, in one directory:
 //   <first index, 20 digits>.seg  append-only segments, one record per line: `<crc32 hex> <payload>\n`
 //   cursor                        index of the first record not yet acknowledged (decimal)
+//   lock                          pid of the process using the queue: two writers would interleave lines
 // Record indices are implicit: a segment's name is the index of its first line. Only the last
 // segment is ever written, so a crash can leave at most a partial last line there; opening the
 // queue cuts it off. A line whose checksum fails (a torn or rotted sector) is skipped and counted.
@@ -56,6 +57,7 @@ interface Segment {
 
 const SEGMENT_NAME = /^(\d{20})\.seg$/;
 const CURSOR = 'cursor';
+const LOCK = 'lock';
 const NEWLINE = Buffer.from('\n');
 /**
  * Read size, bytes: a record is at most 256 KiB of payload plus 10 bytes of framing, so a chunk
@@ -91,6 +93,7 @@ export class DiskQueue {
       onLoss: options.onLoss,
     };
     await mkdir(dir, { recursive: true });
+    await takeLock(dir);
     const segments: Segment[] = [];
     for (const name of (await readdir(dir)).sort()) {
       const m = SEGMENT_NAME.exec(name);
@@ -187,6 +190,7 @@ export class DiskQueue {
     await this.exclusive(async () => {
       await this.persistCursor();
       await this.fd.close();
+      await unlink(path.join(this.dir, LOCK)).catch(() => undefined);
     });
   }
 
@@ -345,6 +349,32 @@ async function readCursor(dir: string): Promise<number> {
     return /^\d{1,15}$/.test(text) ? Number(text) : 0;
   } catch {
     return 0;
+  }
+}
+
+/** Claims the queue for this process; a lock left by a process that is gone is taken over. */
+async function takeLock(dir: string): Promise<void> {
+  const file = path.join(dir, LOCK);
+  for (let attempt = 0; ; attempt++) {
+    try {
+      await writeFile(file, `${process.pid}\n`, { flag: 'wx' });
+      return;
+    } catch (err) {
+      if ((err as NodeJS.ErrnoException).code !== 'EEXIST' || attempt > 0) throw err;
+    }
+    const pid = Number((await readFile(file, 'utf8').catch(() => '')).trim());
+    if (Number.isInteger(pid) && pid > 0 && isAlive(pid)) throw new Error(`queue ${dir} is in use by process ${pid}`);
+    await unlink(file).catch(() => undefined);
+  }
+}
+
+function isAlive(pid: number): boolean {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch (err) {
+    // EPERM: the process exists but belongs to someone else.
+    return (err as NodeJS.ErrnoException).code === 'EPERM';
   }
 }
 
