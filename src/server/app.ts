@@ -3,6 +3,9 @@
 // retention → simulated gateways → web server.
 import path from 'node:path';
 import { startAlarmEngine, stopAlarmEngine } from '../lib/server/alarms/engine.ts';
+import { closeAnalysisPool, fitFringesAsync } from '../lib/server/analysis-worker.ts';
+import { startAnalysis } from '../lib/server/analysis/service.ts';
+import { runtime } from '../lib/server/runtime.ts';
 import { closeDb } from '../lib/server/db/index.ts';
 import { migrateDatabase } from '../lib/server/db/migrate.ts';
 import { startMailCatcher } from '../lib/server/mail/catcher.ts';
@@ -73,6 +76,16 @@ export async function startApp(opts: AppOptions): Promise<RunningApp> {
     }
     const live = await startLivePath(opts.live);
     stops.push(() => live.close());
+    const analysis = startAnalysis({
+      fit: (pass, options) => fitFringesAsync({ x: pass.x, countsA: pass.a, countsB: pass.b }, options),
+      publish: (benchId, message) => live.hub.publish(benchId, message),
+    });
+    runtime().analysis = analysis;
+    stops.push(async () => {
+      delete runtime().analysis;
+      analysis.close();
+      await closeAnalysisPool();
+    });
     const alarms = await startAlarmEngine();
     stops.push(() => stopAlarmEngine(alarms));
     const retention = startRetentionJob();

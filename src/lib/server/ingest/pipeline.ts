@@ -1,6 +1,7 @@
 // The ingest pipeline, transport-agnostic: both broker modes hand it (gateway, kind, payload) and
 // acknowledge the MQTT message when `handle` resolves. decode → store → fan-out.
 import type { CountsMessage } from '../../live-messages.ts';
+import { serverEvents } from '../events.ts';
 import type { Slice } from './coverage.ts';
 import { decodeInbound, type InboundKind } from './decode.ts';
 import { Fanout } from './fanout.ts';
@@ -38,14 +39,19 @@ export class Ingest {
       const decoded = decodeInbound(kind, payload);
       if (!decoded.ok) {
         await this.writer.reject(gatewayId, `${kind}: ${decoded.reason}`);
+        serverEvents().emit('batch-rejected', { benchId, gatewayId, reason: decoded.reason, at: arrivedAt });
         return;
       }
       const msg = decoded.value;
       if (msg.kind === 'counts') {
         const outcome = await this.writer.submit(gatewayId, msg.value, arrivedAt);
-        if (outcome.kind === 'rejected') console.warn(`[ingest] ${gatewayId}: batch rejected: ${outcome.reason}`);
+        if (outcome.kind === 'rejected') {
+          console.warn(`[ingest] ${gatewayId}: batch rejected: ${outcome.reason}`);
+          serverEvents().emit('batch-rejected', { benchId, gatewayId, reason: outcome.reason, at: arrivedAt });
+        }
       } else if (msg.kind === 'status') {
         await storeStatus(gatewayId, msg.value);
+        serverEvents().emit('gateway-status', { benchId, gatewayId, status: msg.value, at: arrivedAt });
         const { state, channels, scan, software } = msg.value;
         this.fanout.emit(benchId, { type: 'status', bench: benchId, gateway: gatewayId, state, at: arrivedAt, ...(channels && { channels }), ...(scan && { scan }), ...(software && { software }) });
       } else {
@@ -61,6 +67,13 @@ export class Ingest {
   private onStored(e: StoredEvent): void {
     const benchId = this.directory.cached(e.gatewayId);
     if (!benchId) return;
-    for (const s of e.slices) this.fanout.emit(benchId, countsMessage(benchId, e.gatewayId, s));
+    const receivedAt = Date.now();
+    for (const s of e.slices) {
+      const msg = countsMessage(benchId, e.gatewayId, s);
+      this.fanout.emit(benchId, msg);
+      // Fits and alarms listen on the server bus; boot/seq are the ingest's business, not theirs.
+      const batch = { v: 1 as const, boot: '', seq: 0, t0: s.t0, dt: s.dt, ch: msg.ch, ...(msg.x && { x: msg.x }), ...(msg.cc && { cc: msg.cc }) };
+      serverEvents().emit('batch-stored', { benchId, gatewayId: e.gatewayId, batch, receivedAt });
+    }
   }
 }
