@@ -63,7 +63,8 @@ beforeAll(async () => {
 
 afterAll(async () => {
   await engine?.stop();
-  runtime().live = savedLive;
+  if (savedLive) runtime().live = savedLive;
+  else delete runtime().live;
   await catcher?.close();
   await closeDb();
 });

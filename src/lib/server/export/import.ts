@@ -37,6 +37,10 @@ export class ImportError extends HttpError {
   }
 }
 
+export function mib(bytes: number): string {
+  return `${Number((bytes / 1024 / 1024).toFixed(2))} MiB`;
+}
+
 /** The body's bytes, refusing (413) past the limit even when no Content-Length was sent. */
 async function* capped(body: ReadableStream<Uint8Array>, maxBytes: number): AsyncGenerator<Uint8Array> {
   let total = 0;
@@ -46,7 +50,7 @@ async function* capped(body: ReadableStream<Uint8Array>, maxBytes: number): Asyn
       const { done, value } = await reader.read();
       if (done) return;
       total += value.byteLength;
-      if (total > maxBytes) throw new HttpError(413, `the file is larger than ${Math.round(maxBytes / 1024 / 1024)} MiB`);
+      if (total > maxBytes) throw new HttpError(413, `the file is larger than ${mib(maxBytes)}`);
       yield value;
     }
   } finally {
@@ -56,9 +60,10 @@ async function* capped(body: ReadableStream<Uint8Array>, maxBytes: number): Asyn
 
 /** Feeds every record to the reader; `afterRecord` may await (writes), which pauses the parse. */
 async function readAll(body: ReadableStream<Uint8Array>, reader: CountsCsvReader, maxBytes: number, afterRecord?: (fields: string[], isData: boolean) => Promise<void> | void): Promise<void> {
-  const parser = Readable.from(capped(body, maxBytes)).pipe(
-    parse({ relax_column_count: true, relax_quotes: true, raw: true, info: true, skip_empty_lines: true, bom: true }),
-  );
+  const source = Readable.from(capped(body, maxBytes));
+  const parser = source.pipe(parse({ relax_column_count: true, relax_quotes: true, raw: true, info: true, skip_empty_lines: true, bom: true }));
+  // pipe() does not forward errors: the size cap (413) must end the parse, not hang it.
+  source.on('error', (err) => parser.destroy(err));
   let line = 0;
   let headerSeen = false;
   try {
@@ -77,6 +82,7 @@ async function readAll(body: ReadableStream<Uint8Array>, reader: CountsCsvReader
     throw new ImportError([...reader.issues, { line: where, message: `not readable as CSV: ${err instanceof Error ? err.message : String(err)}`.slice(0, 200) }]);
   } finally {
     parser.destroy();
+    source.destroy();
   }
   reader.end(line);
 }
