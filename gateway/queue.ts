@@ -24,7 +24,7 @@ import path from 'node:path';
 import { crc32 } from 'node:zlib';
 
 export interface QueueOptions {
-  /** Most bytes kept on disk; default 1 GiB (≈ 10 h of a 3-channel bench at 10 ms bins). */
+  /** Most bytes kept on disk; default 1 GiB (≈ 4 days of a 3-channel bench at 10 ms bins). */
   maxBytes?: number;
   /** A segment is closed past this size; default 8 MiB, at most an eighth of `maxBytes`. */
   segmentBytes?: number;
