@@ -27,7 +27,6 @@ interface BenchState {
   phaseHistory: { t: number; theta: number }[];
   figures: BenchFigures | null;
   lastBatchAt: number;
-  periodHint: number | undefined;
   fitting: Promise<void>;
 }
 
@@ -50,7 +49,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
   const state = (benchId: string): BenchState => {
     let s = states.get(benchId);
     if (!s) {
-      s = { tracker: new SweepTracker(), recent: new RecentBins(), settings: null, sweepPoints: [], sweepNet: false, phaseHistory: [], figures: null, lastBatchAt: 0, periodHint: undefined, fitting: Promise.resolve() };
+      s = { tracker: new SweepTracker(), recent: new RecentBins(), settings: null, sweepPoints: [], sweepNet: false, phaseHistory: [], figures: null, lastBatchAt: 0, fitting: Promise.resolve() };
       states.set(benchId, s);
       void loadRecentSweeps(benchId, s);
     }
@@ -93,11 +92,12 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     const options: FringeFitOptions = {
       ...(outA?.darkRate != null ? { darkA: outA.darkRate * binS } : {}),
       ...(outB?.darkRate != null ? { darkB: outB.darkRate * binS } : {}),
-      ...(s.periodHint ? { periodHint: s.periodHint } : {}),
+      // Piezos are nonlinear (common practice): the linear model fails the goodness of fit on
+      // full-stroke sweeps, while the quadratic term costs one parameter.
+      quadratic: true,
     };
     const result = await opts.fit({ x: pass.x, a: pass.a, b: pass.b }, options);
     if (!result.ok) return;
-    s.periodHint = result.period.value;
     const summary = await storeSweep(benchId, pass, result);
     if (!summary) return;
     const shown = result.shown === 'net' && result.visibilityNet ? result.visibilityNet : result.visibility;

@@ -44,6 +44,13 @@ describe('SweepTracker', () => {
     expect(passes[1]!.x[passes[1]!.x.length - 1]).toBe(0.5);
   });
 
+  it('does not fold a long rest before the sweep into its first pass', () => {
+    const t = new SweepTracker({ restMs: 50 });
+    const passes = feed(t, [...new Array<number>(5_000).fill(0), ...triangle()], 0, 10);
+    // The first pass starts at most one rest period (50 bins) before the drive moved.
+    expect(passes[0]!.startMs).toBeGreaterThanOrEqual(5_000 - 50);
+  });
+
   it('restarts on a gap instead of fitting across it', () => {
     const t = new SweepTracker({ restMs: 50 });
     const xs = triangle();

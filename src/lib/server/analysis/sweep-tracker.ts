@@ -76,7 +76,9 @@ export class SweepTracker {
     const passes = splitSweeps(this.x.view());
     const last = passes[passes.length - 1];
     for (const p of passes.slice(0, -1)) done.push(this.extract(p.start, p.end, p.direction));
-    let keepFrom = last ? last.start : Math.max(0, this.x.length - this.maxBins);
+    // With no pass under way the drive is resting: keep only the last rest period, which holds the
+    // first step's dwell of a sweep about to start.
+    let keepFrom = last ? last.start : Math.max(0, this.x.length - Math.ceil(this.restMs / this.dt));
     const restAt = last ? this.restedSince(last.start) : null;
     if (last && restAt !== null) {
       done.push(this.extract(last.start, restAt, last.direction));
