@@ -148,11 +148,6 @@ export class SerialCounter implements Counter {
     this.lastWarnAt = now;
     this.sink?.warn(`bad serial line (${this.badLines} so far): ${reason}`);
   }
-
-  /** Lines rejected so far. */
-  get rejected(): number {
-    return this.badLines;
-  }
 }
 
 /** A tty is read through libuv's tty handle (non-blocking); anything else as a plain file or FIFO. */
