@@ -1,13 +1,13 @@
 // Alarm rules: validation (zod) and admin CRUD. Every change writes an audit row in the same
 // transaction (who, when, before, after) and tells the running engine to reload.
-import { and, asc, eq } from 'drizzle-orm';
+import { and, asc, desc, eq } from 'drizzle-orm';
 import { z } from 'zod';
 import { ALARM_METRICS, METRIC_INFO, SEVERITIES } from '../../alarm-messages.ts';
 import { channelKeySchema, gatewayIdSchema } from '../../contract/wire.ts';
 import { recordAudit } from '../audit.ts';
 import { getBench } from '../benches.ts';
 import { getDb } from '../db/index.ts';
-import { alarmRules, type AlarmRule } from '../db/schema.ts';
+import { alarmRules, auditLog, users, type AlarmRule } from '../db/schema.ts';
 import { HttpError } from '../http/responses.ts';
 import { runtime } from '../runtime.ts';
 
@@ -154,4 +154,15 @@ export async function deleteRule(benchId: string, id: number, actorId: string | 
     await recordAudit({ actorId, entity: 'alarm_rule', entityId: String(id), action: 'delete', before: auditShape(before) }, tx);
   });
   reloadEngine();
+}
+
+/** The audit rows of alarm rules, newest first, with the actor's e-mail. */
+export async function ruleAudit(limit = 100) {
+  return await getDb()
+    .select({ id: auditLog.id, at: auditLog.at, actor: users.email, entityId: auditLog.entityId, action: auditLog.action, before: auditLog.before, after: auditLog.after })
+    .from(auditLog)
+    .leftJoin(users, eq(users.id, auditLog.actorId))
+    .where(eq(auditLog.entity, 'alarm_rule'))
+    .orderBy(desc(auditLog.id))
+    .limit(limit);
 }

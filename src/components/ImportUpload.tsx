@@ -1,0 +1,169 @@
+// Upload of a counts CSV recorded offline: preview first (nothing stored), then import into a new run.
+import { useState } from 'react';
+
+interface Preview {
+  channels: { column: string; key: string; label: string | null }[];
+  hasX: boolean;
+  hasCc: boolean;
+  dtMs: number | null;
+  rows: number;
+  fromMs: number | null;
+  toMs: number | null;
+  firstRows: string[][];
+  issues: { line: number; message: string }[];
+}
+interface Imported {
+  runId: number;
+  bins: number;
+  fromMs: number;
+  toMs: number;
+}
+
+const MAX_BYTES = 50 * 1024 * 1024;
+
+async function post<T>(url: string, file: File): Promise<T> {
+  const res = await fetch(url, { method: 'POST', headers: { 'content-type': 'text/csv', accept: 'application/json' }, body: file });
+  const body = (await res.json().catch(() => null)) as (T & { error?: string; issues?: Preview['issues'] }) | null;
+  if (!res.ok) throw Object.assign(new Error(body?.error ?? `HTTP ${res.status}`), { issues: body?.issues ?? [] });
+  return body as T;
+}
+
+const iso = (ms: number | null) => (ms === null ? '—' : new Date(ms).toISOString().replace('T', ' ').slice(0, 23) + ' UTC');
+
+export default function ImportUpload({ benchId }: { benchId: string }) {
+  const [file, setFile] = useState<File | null>(null);
+  const [title, setTitle] = useState('');
+  const [preview, setPreview] = useState<Preview | null>(null);
+  const [error, setError] = useState<string | null>(null);
+  const [issues, setIssues] = useState<Preview['issues']>([]);
+  const [done, setDone] = useState<Imported | null>(null);
+  const [busy, setBusy] = useState(false);
+  const base = `/api/v1/benches/${encodeURIComponent(benchId)}/import`;
+
+  const run = async <T,>(fn: () => Promise<T>): Promise<T | null> => {
+    setBusy(true);
+    setError(null);
+    setIssues([]);
+    try {
+      return await fn();
+    } catch (err) {
+      setError(err instanceof Error ? err.message : 'failed');
+      setIssues((err as { issues?: Preview['issues'] }).issues ?? []);
+      return null;
+    } finally {
+      setBusy(false);
+    }
+  };
+
+  const shownIssues = preview?.issues.length ? preview.issues : issues;
+  return (
+    <div className="flex flex-col gap-4">
+      <form
+        className="grid items-end gap-3 sm:grid-cols-[2fr_2fr_auto]"
+        onSubmit={(e) => {
+          e.preventDefault();
+          if (!file) return;
+          setDone(null);
+          void run(() => post<Preview>(`${base}/preview`, file)).then((p) => setPreview(p));
+        }}
+      >
+        <div>
+          <label className="label" htmlFor="imp-file">
+            CSV file (at most 50 MiB)
+          </label>
+          <input
+            id="imp-file"
+            className="field"
+            type="file"
+            accept=".csv,text/csv,text/plain"
+            required
+            onChange={(e) => {
+              const f = e.target.files?.[0] ?? null;
+              setFile(f);
+              setPreview(null);
+              setDone(null);
+              setError(f && f.size > MAX_BYTES ? 'This file is larger than 50 MiB; split it and import the parts.' : null);
+            }}
+          />
+        </div>
+        <div>
+          <label className="label" htmlFor="imp-title">
+            Run title
+          </label>
+          <input id="imp-title" className="field" value={title} onChange={(e) => setTitle(e.target.value)} maxLength={200} placeholder="e.g. Offline calibration, 3 March" />
+        </div>
+        <button className="btn" type="submit" disabled={!file || busy || file.size > MAX_BYTES}>
+          Check file
+        </button>
+      </form>
+
+      {error && (
+        <p role="alert" className="text-sm text-bad">
+          {error}
+        </p>
+      )}
+      {shownIssues.length > 0 && (
+        <div role="alert" className="rounded-md border border-bad px-3 py-2 text-sm">
+          <p className="mb-1 font-semibold text-bad">Problems found (nothing was stored):</p>
+          <ul className="figure list-inside list-disc text-xs">
+            {shownIssues.map((i) => (
+              <li key={`${i.line}-${i.message}`}>
+                line {i.line}: {i.message}
+              </li>
+            ))}
+          </ul>
+        </div>
+      )}
+
+      {preview && preview.issues.length === 0 && (
+        <section aria-label="Preview" className="rounded-md border border-line p-3">
+          <p className="text-sm">
+            <span className="figure">{preview.rows.toLocaleString('en')}</span> bins of <span className="figure">{preview.dtMs} ms</span>, {iso(preview.fromMs)} to {iso(preview.toMs)};
+            channels {preview.channels.map((c) => c.key).join(', ')}
+            {preview.hasX ? ', scan x' : ''}
+            {preview.hasCc ? ', coincidences' : ''}.
+          </p>
+          <div className="my-2 overflow-x-auto">
+            <table className="table figure">
+              <thead>
+                <tr>
+                  <th scope="col">t_ms</th>
+                  {preview.channels.map((c) => (
+                    <th scope="col" key={c.column}>
+                      {c.key}
+                    </th>
+                  ))}
+                  {preview.hasX && <th scope="col">x</th>}
+                  {preview.hasCc && <th scope="col">cc</th>}
+                </tr>
+              </thead>
+              <tbody>
+                {preview.firstRows.map((r, i) => (
+                  <tr key={i}>
+                    {r.map((v, j) => (
+                      <td key={j}>{v}</td>
+                    ))}
+                  </tr>
+                ))}
+              </tbody>
+            </table>
+          </div>
+          <button
+            className="btn-primary"
+            type="button"
+            disabled={busy || !file || !title.trim()}
+            onClick={() => void run(() => post<Imported>(`${base}?title=${encodeURIComponent(title.trim())}`, file!)).then((r) => r && (setDone(r), setPreview(null)))}
+          >
+            {title.trim() ? 'Import as a new run' : 'Give the run a title to import'}
+          </button>
+        </section>
+      )}
+
+      {done && (
+        <p role="status" className="rounded-md border border-good px-3 py-2 text-sm text-good">
+          Imported <span className="figure">{done.bins.toLocaleString('en')}</span> bins into run {done.runId} ({iso(done.fromMs)} to {iso(done.toMs)}).
+        </p>
+      )}
+    </div>
+  );
+}
