@@ -10,7 +10,7 @@ import { startApp } from '../../src/server/app.ts';
 import { livePathOptionsFromEnv } from '../../src/server/live-path.ts';
 import { connectGateway, freshGateway, makeBatch, publishBatch } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
-import { openBrowser, signIn } from '../e2e/browser.ts';
+import { launchBrowser, signIn } from '../helpers/browser.ts';
 import { setup as startTestDb, teardown as stopTestDb } from '../setup/global-db.ts';
 import { buildIfStale } from '../../src/server/build.ts';
 
@@ -24,7 +24,7 @@ export async function run(): Promise<Record<string, number>> {
   const ownDb = !process.env['DATABASE_URL'];
   if (ownDb) await startTestDb();
   const app = await startApp({ port: 0, host: '127.0.0.1', seed: true, simulate: false, build: false, web: true, live: { ...livePathOptionsFromEnv(), mqttUrl: null, mqttPort: 0 } });
-  const browser = await openBrowser({ init: "localStorage.setItem('fw-perf', '1')" });
+  const browser = await launchBrowser({ width: 1440, height: 1000, init: "localStorage.setItem('fw-perf', '1')" });
   const result: Record<string, number> = {};
   try {
     const user = await userWithToken('operator', 'bench');

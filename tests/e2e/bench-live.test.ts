@@ -3,26 +3,28 @@
 // simulator's truth; an observer follows the same bench read-only, and a command forged from the
 // observer's session is refused; screenshots of every screen in both themes go to test-results/.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { startApp, type RunningApp } from '../../src/server/app.ts';
-import { livePathOptionsFromEnv } from '../../src/server/live-path.ts';
+import type { Page } from 'playwright-core';
+import type { RunningApp } from '../../src/server/app.ts';
 import { findDemoBench } from '../../simulators/demo-benches.ts';
-import { openBrowser, screenshotBothThemes, signIn, type Browser } from './browser.ts';
+import { launchBrowser, screenshotBothThemes, signIn, type Browser } from '../helpers/browser.ts';
+import { startWebApp } from '../helpers/web-app.ts';
 
 const BENCH = 'mz-810';
+const DEMO = findDemoBench(BENCH)!;
 // Gated on the herald, the outputs carry almost no dark counts (250/s × 2 ns × 2·10⁵ heralds/s
 // ≈ 0.1/s) and < 0.1% dead-time loss at ≈ 36 kc/s, so the fitted raw visibility estimates the
 // optics' visibility itself.
-const TRUTH = findDemoBench(BENCH)!.model.optics.visibility;
+const TRUTH = DEMO.model.optics.visibility;
 
 let app: RunningApp;
 let operator: Browser;
 let observer: Browser;
 
 beforeAll(async () => {
-  delete process.env['SMTP_URL'];
-  app = await startApp({ port: 0, host: '127.0.0.1', seed: true, simulate: true, build: false, web: true, live: { ...livePathOptionsFromEnv(), mqttUrl: null, mqttPort: 0 } });
-  operator = await openBrowser();
-  observer = await openBrowser({ width: 1024, height: 1366 });
+  app = await startWebApp({ simulate: true });
+  operator = await launchBrowser({ width: 1440, height: 1000 });
+  // The observer follows on a tablet at the bench.
+  observer = await launchBrowser({ width: 1024, height: 768 });
   await signIn(operator.page, app.url, 'operator@lab.example', 'demo-operator-pass');
   await signIn(observer.page, app.url, 'observer@lab.example', 'demo-observer-pass');
 });
@@ -33,26 +35,40 @@ afterAll(async () => {
   await app?.close();
 });
 
+/** "V = 0.9712 ± 0.0031" as shown beside the fringes. */
+async function shownVisibility(page: Page): Promise<{ value: number; err: number }> {
+  const text = (await page.getByTestId('last-fit-visibility').textContent()) ?? '';
+  const m = /([\d.]+)\s*±\s*([\d.]+)/.exec(text);
+  if (!m) throw new Error(`no visibility in "${text}"`);
+  return { value: Number(m[1]), err: Number(m[2]) };
+}
+
+async function waitForLiveRate(page: Page, testId: string): Promise<void> {
+  await page.getByTestId(testId).waitFor();
+  await page.waitForFunction((id) => /\d/.test(document.querySelector(`[data-testid="${id}"]`)?.textContent ?? ''), testId, { timeout: 30_000 });
+}
+
 describe('bench live view', () => {
   it('lets an operator sweep and shows the fit with a visibility within the truth ± 3σ', async () => {
     const page = operator.page;
     await page.goto(`${app.url}/benches/${BENCH}`);
-    await page.getByRole('heading', { name: 'Drive', exact: true }).waitFor();
-    await page.getByLabel('From (V)').fill('5');
-    await page.getByLabel('To (V)').fill('45');
-    await page.getByLabel('Step (V)').fill('0.1');
-    await page.getByLabel('Dwell (ms)').fill('10');
-    await page.getByLabel('Passes').fill('4');
-    await expect(page.getByRole('note', { name: 'Laser safety' }).textContent()).resolves.toContain('safety officer');
+    await waitForLiveRate(page, 'rate-a');
+    // Four passes over four fringes (a fringe every ≈ 10 V): 400 steps of 10 ms, ≈ 16 s.
+    await page.getByLabel('From (V)', { exact: true }).fill('5');
+    await page.getByLabel('To (V)', { exact: true }).fill('45');
+    await page.getByLabel('Step (V)', { exact: true }).fill('0.1');
+    await page.getByLabel('Dwell (ms)', { exact: true }).fill('10');
+    await page.getByLabel('Passes', { exact: true }).fill('4');
+    expect(await page.getByRole('note', { name: 'Laser safety' }).textContent()).toContain('safety officer');
     await page.getByRole('button', { name: 'Start sweep' }).click();
-    await expect(page.getByTestId('drive-message').textContent()).resolves.toContain('sent');
-    const fit = page.getByTestId('last-fit-visibility');
-    await fit.waitFor({ timeout: 90_000 });
-    const res = await page.evaluate(async (b) => (await fetch(`/api/v1/benches/${b}/sweeps?from=${Date.now() - 300_000}`)).json(), BENCH);
-    const sweeps = res as { visibility: number; visibilityErr: number }[];
-    expect(sweeps.length).toBeGreaterThan(0);
-    const last = sweeps.at(-1)!;
-    expect(Math.abs(last.visibility - TRUTH)).toBeLessThanOrEqual(3 * last.visibilityErr);
+    await expect.poll(() => page.getByTestId('drive-message').textContent()).toContain('sent');
+    await page.getByTestId('last-fit-visibility').waitFor({ timeout: 90_000 });
+    const v = await shownVisibility(page);
+    expect(v.err).toBeGreaterThan(0);
+    expect(v.err).toBeLessThan(0.02);
+    expect(Math.abs(v.value - TRUTH)).toBeLessThanOrEqual(3 * v.err);
+    // The fit is drawn over the counts: its series is in the chart's legend.
+    expect(await page.locator('#fringe-h').locator('xpath=ancestor::section').locator('.u-legend').textContent()).toContain('fit A');
     await page.waitForTimeout(1500);
     await screenshotBothThemes(page, 'bench-operator');
   });
@@ -60,39 +76,53 @@ describe('bench live view', () => {
   it('lets an observer follow live without controls, and refuses a forged command', async () => {
     const page = observer.page;
     await page.goto(`${app.url}/benches/${BENCH}`);
-    await page.getByTestId('rate-a').waitFor();
-    await page.waitForFunction(() => !/–/.test(document.querySelector('[data-testid="rate-a"]')?.textContent ?? '–'), null, { timeout: 30_000 });
-    expect(await page.getByRole('button', { name: 'Start sweep' }).count()).toBe(0);
-    expect(await page.getByRole('button', { name: 'Stop drive' }).count()).toBe(0);
-    expect(await page.getByRole('button', { name: 'Start run' }).count()).toBe(0);
-    const status = await page.evaluate(async (b) => {
-      const r = await fetch(`/api/v1/benches/${b}/commands`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ op: 'stop' }) });
-      return r.status;
+    await waitForLiveRate(page, 'rate-a');
+    await waitForLiveRate(page, 'rate-b');
+    for (const name of ['Start sweep', 'Stop drive', 'Hold', 'Start run', 'Add note']) {
+      expect(await page.getByRole('button', { name, exact: true }).count(), name).toBe(0);
+    }
+    expect(await page.getByRole('spinbutton').count()).toBe(0);
+    // A command forged from the observer's own page: the browser adds its real Origin and the
+    // session cookie, so only the role check stands in the way.
+    const res = await page.evaluate(async (b) => {
+      const r = await fetch(`/api/v1/benches/${b}/commands`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ op: 'sweep', from: 0, to: 20, step: 0.1, dwell: 10, sweeps: 1 }) });
+      return { status: r.status, body: await r.text() };
     }, BENCH);
-    expect(status).toBe(403);
+    expect(res.status).toBe(403);
+    expect(res.body).toContain('operator');
     await screenshotBothThemes(page, 'bench-observer-tablet');
   });
 
-  it('captures every screen in both themes', async () => {
+  it('keeps a run with a note and a snapshot, and captures every screen in both themes', async () => {
     const page = operator.page;
-    // A run with a note, so the runs list and report have content.
-    const run = await page.evaluate(async (b) => {
-      const r = await fetch(`/api/v1/benches/${b}/runs`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ title: 'Screenshot run' }) });
-      return (await r.json()) as { id: number };
-    }, BENCH);
-    await page.evaluate(async (id) => {
-      await fetch(`/api/v1/runs/${id}/notes`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ body: 'Aligned arm 2; fringes look clean.' }) });
-    }, run.id);
+    await page.goto(`${app.url}/benches/${BENCH}`);
+    await waitForLiveRate(page, 'rate-a');
+    await page.getByLabel('Run title').fill('Screenshot run');
+    await page.getByRole('button', { name: 'Start run' }).click();
+    const title = page.getByTestId('active-run-title');
+    await title.waitFor();
+    const href = await title.getAttribute('href');
+    await page.getByLabel('Note', { exact: true }).fill('Aligned arm 2; fringes look clean.');
+    await page.getByRole('button', { name: 'Add note' }).click();
+    await expect.poll(() => page.getByRole('list', { name: 'Notes' }).textContent()).toContain('Aligned arm 2');
+    // The snapshot line carries the figures on screen, with units.
+    expect(await page.getByRole('list', { name: 'Notes' }).textContent()).toMatch(/\/s/);
+    await screenshotBothThemes(page, 'bench-run');
+    await page.getByRole('button', { name: 'Stop run' }).click();
+    await page.getByLabel('Run title').waitFor();
+
     for (const [name, path] of [
       ['overview', '/'],
       ['history', `/benches/${BENCH}/history`],
       ['runs', '/runs'],
-      ['run-report', `/runs/${run.id}`],
+      ['run-report', href!],
+      ['gateway', `/benches/${BENCH}/gateways/${DEMO.gateway}`],
     ] as const) {
-      await page.goto(app.url + path);
-      await page.waitForTimeout(2500);
+      const res = await page.goto(app.url + path);
+      expect(res?.status(), path).toBe(200);
+      await page.waitForTimeout(2000);
       await screenshotBothThemes(page, name);
     }
-    await page.evaluate(async (id) => fetch(`/api/v1/runs/${id}/stop`, { method: 'POST' }), run.id);
+    expect(await page.getByRole('heading', { level: 1 }).count()).toBeGreaterThan(0);
   });
 });

@@ -2,22 +2,22 @@
 // the light and the dark theme; screenshots go to test-results/ for a human look.
 import { mkdirSync } from 'node:fs';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { BrowserContext, Page } from 'playwright-core';
+import type { Page } from 'playwright-core';
 import { DEMO_ACCOUNTS, DEMO_BENCH_ROWS } from '../../src/lib/server/seed.ts';
 import type { RunningApp } from '../../src/server/app.ts';
-import { launchBrowser } from '../helpers/browser.ts';
+import { launchBrowser, type Browser } from '../helpers/browser.ts';
 import { startWebApp } from '../helpers/web-app.ts';
 
 const SHOTS = 'test-results';
 let app: RunningApp;
-let browser: { context: BrowserContext; close(): Promise<void> };
+let browser: Browser;
 let page: Page;
 
 beforeAll(async () => {
   mkdirSync(SHOTS, { recursive: true });
   app = await startWebApp();
   browser = await launchBrowser();
-  page = await browser.context.newPage();
+  page = browser.page;
 });
 afterAll(async () => {
   await browser?.close();

@@ -6,12 +6,13 @@ import { createApiToken } from '../../src/lib/server/auth/api-tokens.ts';
 import type { Role } from '../../src/lib/server/auth/roles.ts';
 import { createUser } from '../../src/lib/server/users.ts';
 
-export async function startWebApp(): Promise<RunningApp> {
+/** `simulate`: also run the demo benches' simulated gateways (in the run's own data folder, see tests/setup/global-app.ts). */
+export async function startWebApp(opts: { simulate?: boolean } = {}): Promise<RunningApp> {
   process.env['FRINGEWISE_SIMULATE'] = '0';
   // Tests read invitations from the catcher; a developer's SMTP_URL must not send them for real.
   delete process.env['SMTP_URL'];
   // MQTT port 0: a free port, so test files never fight over 1883.
-  return await startApp({ port: 0, host: '127.0.0.1', seed: true, simulate: false, build: false, web: true, live: { ...livePathOptionsFromEnv(), mqttUrl: null, mqttPort: 0 } });
+  return await startApp({ port: 0, host: '127.0.0.1', seed: true, simulate: opts.simulate ?? false, build: false, web: true, live: { ...livePathOptionsFromEnv(), mqttUrl: null, mqttPort: 0 } });
 }
 
 let serial = 0;

@@ -10,7 +10,7 @@ import { channelColour } from '../bench/RatesChart.tsx';
 import { pickStep, toLocalInput } from './history-range.ts';
 
 const PRESETS: { label: string; ms: number }[] = [
-  { label: '15 min', ms: 15 * 60_000 },
+  { label: '10 min', ms: 10 * 60_000 },
   { label: '1 h', ms: 3_600_000 },
   { label: '6 h', ms: 6 * 3_600_000 },
   { label: '24 h', ms: 86_400_000 },
