@@ -26,6 +26,8 @@ export interface GatewaySessions {
 export interface AnalysisFigures {
   /** The bench's latest live figures (null until it has sent counts since the start). */
   figures(benchId: string): import('../bench-figures.ts').BenchFigures | null;
+  /** Fits the sweeps in one gateway's stored bins (an imported run); resolves with how many were stored. */
+  fitStored(benchId: string, gatewayId: string, fromMs: number, toMs: number): Promise<number>;
 }
 
 export interface Runtime {

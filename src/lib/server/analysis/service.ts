@@ -14,6 +14,7 @@ import { computeFigures, type ChannelSettings } from './live-figures.ts';
 import { RecentBins } from './recent-bins.ts';
 import { SweepTracker, type CompletedPass } from './sweep-tracker.ts';
 import { sweepsBetween, storeSweep } from './sweeps-store.ts';
+import { gatewayBatches } from '../export/export.ts';
 
 export type FitFn = (pass: { x: Float64Array; a: Float64Array; b: Float64Array }, options: FringeFitOptions) => Promise<FringeFitResult>;
 export type Publish = (benchId: string, message: { type: string; bench: string; [k: string]: unknown }) => void;
@@ -41,6 +42,8 @@ const WINDOW_MS = 10_000;
 
 export interface AnalysisService {
   figures(benchId: string): BenchFigures | null;
+  /** Fits the sweeps in one gateway's stored bins (an imported run); resolves with how many were stored. */
+  fitStored(benchId: string, gatewayId: string, fromMs: number, toMs: number): Promise<number>;
   close(): void;
 }
 
@@ -82,9 +85,8 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     for (const r of rows.slice(-8)) s.sweepPoints.push({ timeMs: (r.startMs + r.endMs) / 2, value: r.visibilityNet ?? r.visibility, err: r.visibilityErr });
   }
 
-  async function fitAndStore(benchId: string, s: BenchState, pass: CompletedPass, settings: { channels: ChannelSettings[] }) {
-    const outA = settings.channels.find((c) => c.role === 'out_a');
-    const outB = settings.channels.find((c) => c.role === 'out_b');
+  /** Fits one pass with the outputs' dark calibration and stores it; null when the fit failed or the pass was stored before. */
+  async function fitPass(benchId: string, pass: CompletedPass, outA: ChannelSettings | undefined, outB: ChannelSettings | undefined) {
     let meanBins = 0;
     for (const n of pass.binsPerPoint) meanBins += n;
     meanBins /= pass.binsPerPoint.length;
@@ -97,9 +99,15 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
       quadratic: true,
     };
     const result = await opts.fit({ x: pass.x, a: pass.a, b: pass.b }, options);
-    if (!result.ok) return;
+    if (!result.ok) return null;
     const summary = await storeSweep(benchId, pass, result);
-    if (!summary) return;
+    return summary ? { result, summary } : null;
+  }
+
+  async function fitAndStore(benchId: string, s: BenchState, pass: CompletedPass, settings: { channels: ChannelSettings[] }) {
+    const fitted = await fitPass(benchId, pass, settings.channels.find((c) => c.role === 'out_a'), settings.channels.find((c) => c.role === 'out_b'));
+    if (!fitted) return;
+    const { result, summary } = fitted;
     const shown = result.shown === 'net' && result.visibilityNet ? result.visibilityNet : result.visibility;
     s.sweepNet = result.shown === 'net';
     s.sweepPoints.push({ timeMs: (pass.startMs + pass.endMs) / 2, value: shown.value, err: shown.err });
@@ -107,6 +115,31 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     serverEvents().emit('sweep-fitted', { benchId, sweep: summary });
     const [row] = await sweepsBetween(benchId, pass.startMs, pass.startMs, 1);
     opts.publish(benchId, { type: 'sweep', bench: benchId, sweep: { ...summary, fit: row?.fit ?? null } });
+  }
+
+  async function fitStored(benchId: string, gatewayId: string, fromMs: number, toMs: number): Promise<number> {
+    const rows = await getDb().select().from(channelsTable).where(eq(channelsTable.gatewayId, gatewayId));
+    const keys = rows.map((r) => r.key).sort();
+    // Explicit roles where the file carried them; otherwise the contract's default, the first two keys.
+    const keyA = rows.find((r) => r.role === 'out_a')?.key ?? keys[0];
+    const keyB = rows.find((r) => r.role === 'out_b')?.key ?? keys.find((k) => k !== keyA);
+    if (!keyA || !keyB) return 0;
+    const settingsOf = (key: string): ChannelSettings => {
+      const r = rows.find((c) => c.key === key);
+      return { gateway: gatewayId, key, label: r?.label ?? key, role: key === keyA ? 'out_a' : 'out_b', darkRate: r?.darkRate ?? null, darkRateErr: r?.darkRateErr ?? null, deadTimeNs: r?.deadTimeNs ?? null, deadTimeModel: r?.deadTimeModel ?? 'nonparalyzable', efficiency: r?.efficiency ?? 1 };
+    };
+    const tracker = new SweepTracker();
+    const passes: CompletedPass[] = [];
+    for await (const b of gatewayBatches(gatewayId, fromMs, toMs)) {
+      const ia = b.keys.indexOf(keyA);
+      const ib = b.keys.indexOf(keyB);
+      if (ia < 0 || ib < 0 || !b.x) continue;
+      passes.push(...tracker.push(b.t0, b.dt, b.x, b.counts.slice(ia * b.n, (ia + 1) * b.n), b.counts.slice(ib * b.n, (ib + 1) * b.n)));
+    }
+    passes.push(...tracker.flush());
+    let stored = 0;
+    for (const pass of passes) if (await fitPass(benchId, pass, settingsOf(keyA), settingsOf(keyB))) stored++;
+    return stored;
   }
 
   const onBatch = ({ benchId, gatewayId, batch }: { benchId: string; gatewayId: string; batch: CountBatch }) => {
@@ -159,6 +192,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
 
   return {
     figures: (benchId) => states.get(benchId)?.figures ?? null,
+    fitStored,
     close: () => {
       clearInterval(timer);
       serverEvents().off('batch-stored', onBatch);

@@ -51,6 +51,15 @@ describe('SweepTracker', () => {
     expect(passes[0]!.startMs).toBeGreaterThanOrEqual(5_000 - 50);
   });
 
+  it('hands back the pass under way when the record ends', () => {
+    const t = new SweepTracker({ restMs: 50 });
+    const up = triangle().slice(0, 84);
+    expect(feed(t, up, 0, 10)).toEqual([]);
+    const [last] = t.flush();
+    expect(last?.direction).toBe('up');
+    expect(t.flush()).toEqual([]);
+  });
+
   it('restarts on a gap instead of fitting across it', () => {
     const t = new SweepTracker({ restMs: 50 });
     const xs = triangle();

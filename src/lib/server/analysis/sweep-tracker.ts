@@ -89,6 +89,14 @@ export class SweepTracker {
     return done;
   }
 
+  /** Ends the record (a file's last bin): the pass under way, if long enough, is complete too. */
+  flush(): CompletedPass[] {
+    const last = splitSweeps(this.x.view()).at(-1);
+    const done = last ? [this.extract(last.start, last.end, last.direction)] : [];
+    this.reset();
+    return done;
+  }
+
   reset(): void {
     this.drop(this.x.length);
   }

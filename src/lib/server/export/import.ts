@@ -7,16 +7,14 @@ import { Readable } from 'node:stream';
 import { parse } from 'csv-parse';
 import type pg from 'pg';
 import { z } from 'zod';
-import type { CountBatch } from '../../contract/wire.ts';
 import { recordAudit } from '../audit.ts';
 import { getBench } from '../benches.ts';
 import { getDbHandle } from '../db/index.ts';
 import { drizzle } from 'drizzle-orm/node-postgres';
-import { serverEvents } from '../events.ts';
 import { HttpError } from '../http/responses.ts';
 import type { Slice } from '../ingest/coverage.ts';
 import { rollupDeltas } from '../ingest/rollup-math.ts';
-import { gatewayBatches } from './export.ts';
+import { runtime } from '../runtime.ts';
 import { CountsCsvReader, type ChannelInfo, type ImportIssue } from './import-parser.ts';
 
 /** 50 MiB: about 2–3 million bins of a two-channel table, an afternoon at 10 ms bins. */
@@ -220,18 +218,16 @@ export async function importCounts(benchId: string, body: ReadableStream<Uint8Ar
   } finally {
     client.release(broken);
   }
-  await announce(benchId, result);
+  await analyse(benchId, result);
   return result;
 }
 
-/** Emits each stored batch as ingest does, re-read page by page so memory stays bounded. */
-async function announce(benchId: string, r: ImportResult): Promise<void> {
-  const bus = serverEvents();
-  let seq = 0;
-  for await (const b of gatewayBatches(r.gatewayId, r.fromMs, r.toMs)) {
-    const ch: Record<string, number[]> = {};
-    b.keys.forEach((k, i) => (ch[k] = b.counts.slice(i * b.n, (i + 1) * b.n)));
-    const batch: CountBatch = { v: 1, boot: 'import', seq: seq++, t0: b.t0, dt: b.dt, ch, ...(b.x && { x: b.x }), ...(b.cc && { cc: b.cc }) };
-    bus.emit('batch-stored', { benchId, gatewayId: r.gatewayId, batch, receivedAt: Date.now() });
-  }
+/**
+ * Imported data gets the same analysis as live data: its sweeps are fitted and stored like live
+ * ones. Live figures and alarms are about the present, so they are not fed with old bins.
+ */
+async function analyse(benchId: string, r: ImportResult): Promise<void> {
+  const analysis = runtime().analysis;
+  if (!analysis) return;
+  await analysis.fitStored(benchId, r.gatewayId, r.fromMs, r.toMs).catch((err: unknown) => console.warn('[import] fitting failed:', err instanceof Error ? err.message : err));
 }
