@@ -1,0 +1,63 @@
+// Stability of a bench over a time range: overlapping Allan deviation of each channel's rate and of
+// the interferometer phase, beside the white-Poisson reference √(R/τ) a rate cannot beat.
+import { allanDeviation, type AllanPoint } from '../../analysis/allan.ts';
+import { phaseAtHold, unfoldPhase } from '../../analysis/phase.ts';
+import { queryCounts } from '../counts-query.ts';
+import { sweepsBetween } from './sweeps-store.ts';
+
+export interface RateStability {
+  channel: string;
+  role: string;
+  /** Mean rate over the range, counts/s. */
+  meanRate: number;
+  points: (AllanPoint & { poissonLimit: number })[];
+}
+
+export interface Stability {
+  from: number;
+  to: number;
+  /** τ₀: the bucket the series were read at, s. */
+  tau0: number;
+  rates: RateStability[];
+  /** Allan deviation of the phase (rad) while the drive held still; null without a visibility to scale by. */
+  phase: { visibility: number; points: AllanPoint[] } | null;
+  /** Buckets with no stored bins are left out of the series, which joins across them. */
+  missingBuckets: number;
+}
+
+/** Reads the range at `stepMs` and computes the Allan deviations (τ = step·2^k). */
+export async function benchStability(benchId: string, from: number, to: number, stepMs: number): Promise<Stability> {
+  const counts = await queryCounts(benchId, from, to, stepMs);
+  const tau0 = stepMs / 1000;
+  let missing = 0;
+  const rates: RateStability[] = [];
+  const series = new Map<string, number[]>();
+  for (const info of counts.channelInfo) {
+    const name = `${info.gateway}/${info.key}`;
+    const col = counts.channels[name];
+    if (!col) continue;
+    const present = col.filter((v): v is number => v !== null).map((v) => v / tau0);
+    missing = Math.max(missing, col.length - present.length);
+    if (present.length < 4) continue;
+    series.set(info.role, present);
+    const meanRate = present.reduce((a, b) => a + b, 0) / present.length;
+    rates.push({
+      channel: name,
+      role: info.role,
+      meanRate,
+      points: allanDeviation(present, tau0).map((p) => ({ ...p, poissonLimit: Math.sqrt(meanRate / p.tau) })),
+    });
+  }
+
+  // Phase needs the fringe visibility: the latest sweep fit before the range's end.
+  let phase: Stability['phase'] = null;
+  const a = series.get('out_a');
+  const b = series.get('out_b');
+  const [fit] = (await sweepsBetween(benchId, to - 86_400_000, to)).slice(-1);
+  if (a && b && a.length === b.length && fit) {
+    const visibility = fit.visibilityNet ?? fit.visibility;
+    const folded = a.map((ra, i) => phaseAtHold(ra * tau0, (b[i] as number) * tau0, { visibility, efficiencyRatio: 1 }).value).filter(Number.isFinite);
+    if (folded.length >= 4) phase = { visibility, points: allanDeviation(unfoldPhase(folded), tau0) };
+  }
+  return { from, to, tau0, rates, phase, missingBuckets: missing };
+}
