@@ -35,8 +35,13 @@ it('fits the up and down sweeps of an imported file', async () => {
     direction: string;
     visibility: number;
     visibilityErr: number;
+    fit: { piezoNmPerV: { value: number; err: number } | null };
   }[];
   expect(sweeps.map((s) => s.direction)).toEqual(['up', 'down']);
   // Drawn with V = 0.93: each fit within 4σ of it.
   for (const s of sweeps) expect(Math.abs(s.visibility - trueV)).toBeLessThan(4 * s.visibilityErr);
+  // The fixture's fringe period is 2.5 V; a retro-reflecting mirror (path factor 2, the bench
+  // default) moves λ/2 per fringe (references.md, "Mirror motion d to optical path"), so
+  // 780 nm / (2 · 2.5 V) = 156 nm/V.
+  for (const s of sweeps) expect(Math.abs(s.fit.piezoNmPerV!.value - 156)).toBeLessThan(4 * s.fit.piezoNmPerV!.err + 0.5);
 });

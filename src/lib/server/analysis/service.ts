@@ -87,6 +87,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
 
   /** Fits one pass with the outputs' dark calibration and stores it; null when the fit failed or the pass was stored before. */
   async function fitPass(benchId: string, pass: CompletedPass, outA: ChannelSettings | undefined, outB: ChannelSettings | undefined) {
+    const [optics] = await getDb().select({ wavelengthNm: benches.wavelengthNm, pathFactor: benches.pathFactor }).from(benches).where(eq(benches.id, benchId)).limit(1);
     let meanBins = 0;
     for (const n of pass.binsPerPoint) meanBins += n;
     meanBins /= pass.binsPerPoint.length;
@@ -100,7 +101,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     };
     const result = await opts.fit({ x: pass.x, a: pass.a, b: pass.b }, options);
     if (!result.ok) return null;
-    const summary = await storeSweep(benchId, pass, result);
+    const summary = await storeSweep(benchId, pass, result, optics ?? null);
     return summary ? { result, summary } : null;
   }
 

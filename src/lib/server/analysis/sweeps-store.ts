@@ -1,6 +1,8 @@
 // Fitted sweeps in the database: one row per pass (bench, start, direction), written once.
 import { and, asc, eq, gte, lte } from 'drizzle-orm';
 import type { FringeFit } from '../../analysis/fringe-fit.ts';
+import type { Measured } from '../../analysis/measured.ts';
+import { piezoCalibration } from '../../analysis/piezo.ts';
 import type { FittedSweepSummary } from '../events.ts';
 import { getDb } from '../db/index.ts';
 import { sweeps } from '../db/schema.ts';
@@ -22,10 +24,27 @@ export interface StoredFit {
   outputs: FringeFit['outputs'];
   quality: FringeFit['quality'];
   visibilityInterval: { lower: number; upper: number; method: string };
+  /** Mirror travel per volt over this pass, nm/V, for the bench's wavelength and path geometry. */
+  piezoNmPerV: Measured | null;
   warnings: string[];
 }
 
-export async function storeSweep(benchId: string, pass: CompletedPass, fit: FringeFit): Promise<FittedSweepSummary | null> {
+export interface BenchOptics {
+  wavelengthNm: number;
+  /** Optical path change per unit of mirror travel (2 for a retro-reflecting mirror in one arm). */
+  pathFactor: number;
+}
+
+/** The pass's mean fringe period: with θ = 2π(x + q·x²)/P + φ the phase advance over [x₀, x₁] sets it. */
+function meanPeriod(fit: FringeFit, xMin: number, xMax: number): Measured {
+  const q = fit.quadratic?.value ?? 0;
+  const span = xMax - xMin;
+  const advance = span + q * (xMax * xMax - xMin * xMin);
+  const scale = advance > 0 ? span / advance : 1;
+  return { value: fit.period.value * scale, err: fit.period.err * scale };
+}
+
+export async function storeSweep(benchId: string, pass: CompletedPass, fit: FringeFit, optics: BenchOptics | null): Promise<FittedSweepSummary | null> {
   const shownV = fit.shown === 'net' && fit.visibilityNet ? fit.visibilityNet : fit.visibility;
   let bins = 0;
   for (const n of pass.binsPerPoint) bins += n;
@@ -51,6 +70,7 @@ export async function storeSweep(benchId: string, pass: CompletedPass, fit: Frin
     outputs: fit.outputs,
     quality: fit.quality,
     visibilityInterval: { lower: shownV.lower, upper: shownV.upper, method: shownV.method },
+    piezoNmPerV: optics && xMax > xMin ? piezoCalibration(meanPeriod(fit, xMin, xMax), optics.wavelengthNm, optics.pathFactor) : null,
     warnings: fit.warnings,
   };
   const [row] = await getDb()
