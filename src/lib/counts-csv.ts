@@ -1,18 +1,8 @@
 // The counts CSV of the wire contract, pure: `#` metadata lines (bench, wavelength, channels and
 // roles, corrections, units), then `t_ms,<gateway>/<key>,…[,x][,cc]` and one row per bin. Used by
 // the export (and any other CSV writer of counts) and read back by the import, so both sides agree.
-export interface CsvChannelMeta {
-  gateway: string;
-  key: string;
-  label: string;
-  role: 'out_a' | 'out_b' | 'herald' | 'aux';
-  /** counts/s and its 1σ; null when not measured. */
-  darkRate: number | null;
-  darkRateErr: number | null;
-  deadTimeNs: number | null;
-  deadTimeModel: 'nonparalyzable' | 'paralyzable';
-  efficiency: number;
-}
+import type { ChannelCalibration } from './channel-calibration.ts';
+export type CsvChannelMeta = ChannelCalibration;
 
 export interface CsvMeta {
   benchId: string;

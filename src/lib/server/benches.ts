@@ -2,9 +2,10 @@
 // contract (first two keys of the first gateway serve as out_a/out_b until an admin sets roles).
 import { asc, eq } from 'drizzle-orm';
 import { getDb } from './db/index.ts';
+import type { ChannelCalibration, ChannelRole } from '../channel-calibration.ts';
 import { benches, channels, gateways, type Bench, type Channel } from './db/schema.ts';
 
-export type ChannelRole = 'out_a' | 'out_b' | 'herald' | 'aux';
+export type { ChannelRole };
 
 export interface BenchChannel {
   gateway: string;
@@ -47,4 +48,21 @@ export async function benchChannels(benchId: string): Promise<BenchChannel[]> {
   const gws = await db.select({ id: gateways.id }).from(gateways).where(eq(gateways.benchId, benchId)).orderBy(asc(gateways.createdAt), asc(gateways.id));
   const rows = await db.select().from(channels).where(eq(channels.benchId, benchId));
   return effectiveRoles(rows, gws.map((g) => g.id));
+}
+
+/** The bench's channels in role order with their corrections (dark rate, dead time, efficiency). */
+export async function benchCalibrations(benchId: string): Promise<ChannelCalibration[]> {
+  const roles = await benchChannels(benchId);
+  const rows = await getDb().select().from(channels).where(eq(channels.benchId, benchId));
+  return roles.map((c) => {
+    const row = rows.find((r) => r.gatewayId === c.gateway && r.key === c.key);
+    return {
+      ...c,
+      darkRate: row?.darkRate ?? null,
+      darkRateErr: row?.darkRateErr ?? null,
+      deadTimeNs: row?.deadTimeNs ?? null,
+      deadTimeModel: row?.deadTimeModel ?? 'nonparalyzable',
+      efficiency: row?.efficiency ?? 1,
+    };
+  });
 }

@@ -1,26 +1,15 @@
 // The counts API's CSV answer, in the contract's counts CSV (src/lib/counts-csv.ts, shared with the
 // export and the import), plus the step and the resolution it was read from.
-import { eq } from 'drizzle-orm';
-import { channelColumn, columnsOf, metadataLines, rowLine, type CsvChannelMeta } from '../counts-csv.ts';
+import { channelColumn, columnsOf, metadataLines, rowLine } from '../counts-csv.ts';
+import { benchCalibrations } from './benches.ts';
 import type { CountsResult } from './counts-query.ts';
-import { getDb } from './db/index.ts';
-import { channels, type Bench } from './db/schema.ts';
+import type { Bench } from './db/schema.ts';
 
 const RESOLUTION_NOTE = { raw: 'raw bins', '1s': '1 s rollups', '1min': '1 min rollups' } as const;
 
 export async function countsCsv(bench: Bench, from: number, to: number, r: CountsResult): Promise<string> {
-  const rows = await getDb().select().from(channels).where(eq(channels.benchId, bench.id));
-  const chans: CsvChannelMeta[] = r.channelInfo.map((c) => {
-    const row = rows.find((x) => x.gatewayId === c.gateway && x.key === c.key);
-    return {
-      ...c,
-      darkRate: row?.darkRate ?? null,
-      darkRateErr: row?.darkRateErr ?? null,
-      deadTimeNs: row?.deadTimeNs ?? null,
-      deadTimeModel: row?.deadTimeModel ?? 'nonparalyzable',
-      efficiency: row?.efficiency ?? 1,
-    };
-  });
+  const calibrations = await benchCalibrations(bench.id);
+  const chans = r.channelInfo.flatMap((c) => calibrations.filter((k) => k.gateway === c.gateway && k.key === c.key));
   const meta = { benchId: bench.id, benchName: bench.name, wavelengthNm: bench.wavelengthNm, fromMs: from, toMs: to, run: null, channels: chans, hasX: !!r.x, hasCc: !!r.cc };
   let out = metadataLines(meta);
   out += `# step_ms: ${r.step} (each row sums the bins that start in [t_ms, t_ms + step_ms); read from ${RESOLUTION_NOTE[r.resolution]})\n`;

@@ -7,20 +7,10 @@ import { g2FromCoincidences, heraldedAlpha, mandelQ } from '../../analysis/photo
 import { envelopeVisibility, runningVisibility, type VisibilityPoint } from '../../analysis/running-visibility.ts';
 import { phaseNoise, phaseSensitivity } from '../../analysis/sensitivity.ts';
 import type { BenchFigures, ChannelFigures } from '../../bench-figures.ts';
+import type { ChannelCalibration } from '../../channel-calibration.ts';
 import type { RecentBins } from './recent-bins.ts';
 
-export interface ChannelSettings {
-  gateway: string;
-  key: string;
-  label: string;
-  role: 'out_a' | 'out_b' | 'herald' | 'aux';
-  /** counts/s and its 1σ; null when uncalibrated. */
-  darkRate: number | null;
-  darkRateErr: number | null;
-  deadTimeNs: number | null;
-  deadTimeModel: 'nonparalyzable' | 'paralyzable';
-  efficiency: number;
-}
+export type ChannelSettings = ChannelCalibration;
 
 export interface FiguresInput {
   benchId: string;

@@ -6,7 +6,7 @@ import type { FringeFitOptions, FringeFitResult } from '../../analysis/fringe-fi
 import type { VisibilityPoint } from '../../analysis/running-visibility.ts';
 import type { BenchFigures } from '../../bench-figures.ts';
 import type { CountBatch } from '../../contract/wire.ts';
-import { benchChannels } from '../benches.ts';
+import { benchCalibrations } from '../benches.ts';
 import { getDb } from '../db/index.ts';
 import { benches, channels as channelsTable } from '../db/schema.ts';
 import { serverEvents } from '../events.ts';
@@ -62,19 +62,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
   async function settingsFor(benchId: string, s: BenchState) {
     if (s.settings && Date.now() - s.settings.loadedAt < SETTINGS_TTL_MS) return s.settings;
     const [bench] = await getDb().select({ cw: benches.coincidenceWindowNs }).from(benches).where(eq(benches.id, benchId)).limit(1);
-    const roles = await benchChannels(benchId);
-    const rows = await getDb().select().from(channelsTable).where(eq(channelsTable.benchId, benchId));
-    const channels: ChannelSettings[] = roles.map((r) => {
-      const row = rows.find((c) => c.gatewayId === r.gateway && c.key === r.key);
-      return {
-        ...r,
-        darkRate: row?.darkRate ?? null,
-        darkRateErr: row?.darkRateErr ?? null,
-        deadTimeNs: row?.deadTimeNs ?? null,
-        deadTimeModel: row?.deadTimeModel ?? 'nonparalyzable',
-        efficiency: row?.efficiency ?? 1,
-      };
-    });
+    const channels = await benchCalibrations(benchId);
     s.settings = { channels, coincidenceWindowNs: bench?.cw ?? 2, loadedAt: Date.now() };
     return s.settings;
   }

@@ -47,8 +47,9 @@ describe('SweepTracker', () => {
   it('does not fold a long rest before the sweep into its first pass', () => {
     const t = new SweepTracker({ restMs: 50 });
     const passes = feed(t, [...new Array<number>(5_000).fill(0), ...triangle()], 0, 10);
-    // The first pass starts at most one rest period (50 bins) before the drive moved.
-    expect(passes[0]!.startMs).toBeGreaterThanOrEqual(5_000 - 50);
+    // The rest is cut to one step's dwell (4 bins) before the drive moved.
+    expect(passes[0]!.startMs).toBe(5_000 - 0);
+    expect(passes[0]!.binsPerPoint[0]).toBe(4);
   });
 
   it('hands back the pass under way when the record ends', () => {

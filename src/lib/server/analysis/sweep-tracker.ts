@@ -121,7 +121,29 @@ export class SweepTracker {
     this.t0 += k * this.dt;
   }
 
-  private extract(start: number, end: number, direction: SweepDirection): CompletedPass {
+  /**
+   * Where the pass really starts: a drive that rested before sweeping leaves a long run of bins at
+   * the first step, during which only the phase drift moved. Keep as much of it as one step's
+   * dwell (the median run of equal x in the pass), so the first point weighs like the others.
+   */
+  private trimLeadingRest(start: number, end: number): number {
+    const xs = this.x.view();
+    const runs: number[] = [];
+    let i = start;
+    while (i < end) {
+      let j = i + 1;
+      while (j < end && xs[j] === xs[i]) j++;
+      runs.push(j - i);
+      i = j;
+    }
+    const first = runs[0] ?? 0;
+    const sorted = runs.slice(1).sort((a, b) => a - b);
+    const dwell = sorted[sorted.length >> 1] ?? first;
+    return first > 2 * dwell ? start + first - dwell : start;
+  }
+
+  private extract(from: number, end: number, direction: SweepDirection): CompletedPass {
+    const start = this.trimLeadingRest(from, end);
     const xs = this.x.view();
     const as = this.a.view();
     const bs = this.b.view();

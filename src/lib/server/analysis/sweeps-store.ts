@@ -3,19 +3,14 @@ import { and, asc, eq, gte, lte } from 'drizzle-orm';
 import type { FringeFit } from '../../analysis/fringe-fit.ts';
 import type { Measured } from '../../analysis/measured.ts';
 import { piezoCalibration } from '../../analysis/piezo.ts';
+import type { FringeParams } from '../../analysis/fringe-model.ts';
 import type { FittedSweepSummary } from '../events.ts';
 import { getDb } from '../db/index.ts';
 import { sweeps } from '../db/schema.ts';
 import type { CompletedPass } from './sweep-tracker.ts';
 
 /** What a screen needs to draw the fit over per-bin counts, with amplitudes per raw bin. */
-export interface StoredFit {
-  amplitudeA: number;
-  amplitudeB: number;
-  visibility: number;
-  period: number;
-  phase: number;
-  quadratic: number;
+export interface StoredFit extends FringeParams {
   darkPerBin: { a: number; b: number } | null;
   shown: 'raw' | 'net';
   dtMs: number;
@@ -118,4 +113,39 @@ export async function sweepsBetween(benchId: string, fromMs: number, toMs: numbe
     .where(and(eq(sweeps.benchId, benchId), gte(sweeps.endMs, fromMs), lte(sweeps.startMs, toMs)))
     .orderBy(asc(sweeps.startMs))
     .limit(limit);
+}
+
+/** A stored sweep as the contract's `GET …/sweeps` gives it (and the run report shows it). */
+export interface SweepView {
+  id: number;
+  start: number;
+  end: number;
+  direction: 'up' | 'down';
+  visibility: number;
+  visibilityErr: number;
+  visibilityNet: number | null;
+  phase: number;
+  phaseErr: number;
+  periodX: number;
+  periodXErr: number;
+  counts: number;
+  fit: unknown;
+}
+
+export function sweepView(r: typeof sweeps.$inferSelect): SweepView {
+  return {
+    id: r.id,
+    start: r.startMs,
+    end: r.endMs,
+    direction: r.direction,
+    visibility: r.visibility,
+    visibilityErr: r.visibilityErr,
+    visibilityNet: r.visibilityNet,
+    phase: r.phase,
+    phaseErr: r.phaseErr,
+    periodX: r.periodX,
+    periodXErr: r.periodXErr,
+    counts: r.counts,
+    fit: r.fit,
+  };
 }

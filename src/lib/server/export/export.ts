@@ -2,12 +2,12 @@
 // each gateway's count_batches are read in pages of PAGE_ROWS by keyset on the primary key
 // (gateway_id, t0), merged by time, and written as rows as soon as no later batch can add to them.
 // Memory holds a page per gateway plus one batch's bins, whatever the length of the range.
-import { and, asc, eq } from 'drizzle-orm';
+import { and, eq } from 'drizzle-orm';
 import { z } from 'zod';
-import { columnsOf, metadataLines, rowCells, rowLine, type CsvChannelMeta, type CsvMeta, type CsvRow } from '../../counts-csv.ts';
-import { benchChannels, getBench } from '../benches.ts';
+import { columnsOf, metadataLines, rowCells, rowLine, type CsvMeta, type CsvRow } from '../../counts-csv.ts';
+import { benchCalibrations, getBench } from '../benches.ts';
 import { getDb, getDbHandle } from '../db/index.ts';
-import { channels, runs } from '../db/schema.ts';
+import { runs } from '../db/schema.ts';
 import { HttpError } from '../http/responses.ts';
 import { timeParam } from '../http/time-params.ts';
 
@@ -49,22 +49,7 @@ export async function planExport(benchId: string, q: ExportQuery): Promise<Expor
   }
   if (!(toMs > fromMs)) throw new HttpError(422, 'to must be after from');
   if (toMs - fromMs > MAX_RANGE_MS) throw new HttpError(422, 'at most 31 days per export; use the counts API with a step for longer spans');
-  const roles = await benchChannels(benchId);
-  const rows = await getDb().select().from(channels).where(eq(channels.benchId, benchId)).orderBy(asc(channels.gatewayId), asc(channels.key));
-  const chans: CsvChannelMeta[] = roles.map((c) => {
-    const row = rows.find((r) => r.gatewayId === c.gateway && r.key === c.key)!;
-    return {
-      gateway: c.gateway,
-      key: c.key,
-      label: c.label,
-      role: c.role,
-      darkRate: row.darkRate,
-      darkRateErr: row.darkRateErr,
-      deadTimeNs: row.deadTimeNs,
-      deadTimeModel: row.deadTimeModel,
-      efficiency: row.efficiency,
-    };
-  });
+  const chans = await benchCalibrations(benchId);
   const gws = [...new Set(chans.map((c) => c.gateway))];
   const { rows: flags } = await getDbHandle().pool.query<{ has_x: boolean; has_cc: boolean }>(
     `select exists(select 1 from count_batches where gateway_id = any($1) and t0 < $3 and t1 > $2 and x is not null) as has_x,

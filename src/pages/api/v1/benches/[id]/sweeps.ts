@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { sweepsBetween } from '../../../../../lib/server/analysis/sweeps-store.ts';
+import { sweepView, sweepsBetween } from '../../../../../lib/server/analysis/sweeps-store.ts';
 import { getBench } from '../../../../../lib/server/benches.ts';
 import { endpoint } from '../../../../../lib/server/http/endpoint.ts';
 import { json, parseOr422, problem } from '../../../../../lib/server/http/responses.ts';
@@ -20,21 +20,5 @@ export const GET = endpoint('observer', async ({ params, url }) => {
   const from = q.from ?? to - DAY_MS;
   if (from > to) return problem(422, 'from is after to');
   const rows = await sweepsBetween(bench.id, from, to);
-  return json(
-    rows.map((r) => ({
-      id: r.id,
-      start: r.startMs,
-      end: r.endMs,
-      direction: r.direction,
-      visibility: r.visibility,
-      visibilityErr: r.visibilityErr,
-      visibilityNet: r.visibilityNet,
-      phase: r.phase,
-      phaseErr: r.phaseErr,
-      periodX: r.periodX,
-      periodXErr: r.periodXErr,
-      counts: r.counts,
-      fit: r.fit,
-    })),
-  );
+  return json(rows.map(sweepView));
 });
