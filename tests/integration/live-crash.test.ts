@@ -106,10 +106,13 @@ describe('SIGKILL of the server mid-stream', () => {
 describe('PostgreSQL restart mid-stream', () => {
   let cluster: Cluster | undefined;
   let dir: string | undefined;
+  // Test files share one process: hand the run's own database back to the files after this one.
+  const runDatabaseUrl = process.env['DATABASE_URL'];
   afterAll(async () => {
     await closeDb();
     cluster?.stop();
     if (dir) rmSync(dir, { recursive: true, force: true });
+    process.env['DATABASE_URL'] = runDatabaseUrl;
   });
 
   it('holds batches while the database is down and stores each exactly once after', async () => {
