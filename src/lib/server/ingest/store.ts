@@ -1,9 +1,9 @@
 // The store stage: a batched writer. Batches wait while a write is in flight and go together in
 // the next one (group commit), so a quiet gateway's batch is written at once (low latency) and a
-// busy broker's batches share one transaction and multi-row statements (throughput). Each write
-// stores the raw rows, their rollups, new channels and the health counters in ONE transaction, and
-// a batch's promise resolves only after COMMIT: the broker PUBACKs after that, so a crash loses
-// nothing the gateway was told is safe.
+// busy broker's batches share one statement (throughput). Each write stores the raw rows, their
+// rollups, new channels and the health counters in ONE statement (write-statement.ts), which is
+// its own transaction, and a batch's promise resolves only after it committed: the broker PUBACKs
+// after that, so a crash loses nothing the gateway was told is safe.
 import type pg from 'pg';
 import type { CountBatch } from '../../contract/wire.ts';
 import { getDbHandle } from '../db/index.ts';
@@ -11,6 +11,7 @@ import { batchSpan, planBatch, type Slice, type StoredSpan } from './coverage.ts
 import { withDbRetry } from './db-retry.ts';
 import { emptyDelta, noteReject, seqAdvance, type HealthDelta } from './health-delta.ts';
 import { rollupDeltas } from './rollup-math.ts';
+import { writeStatement, type StoredSlice } from './write-statement.ts';
 
 export type BatchOutcome = { kind: 'stored'; slices: Slice[] } | { kind: 'duplicate' } | { kind: 'rejected'; reason: string };
 
@@ -18,9 +19,8 @@ type Item =
   | { kind: 'batch'; gatewayId: string; batch: CountBatch; arrivedAt: number; resolve: (o: BatchOutcome) => void }
   | { kind: 'reject' | 'refused'; gatewayId: string; reason: string; at: number; resolve: () => void };
 
-/** Most batches in one transaction: bounds statement size (12 parameters a row, PostgreSQL allows 65,535). */
+/** Most batches in one write: bounds the statement to a few MB (1,000 × 400 counts ≈ 2 MB of text). */
 const MAX_ITEMS_PER_WRITE = 1_000;
-const ROWS_PER_STATEMENT = 400;
 
 export interface StoredEvent {
   gatewayId: string;
@@ -95,27 +95,30 @@ export class BatchWriter {
 
   private async write(items: Item[]): Promise<void> {
     const client = await getDbHandle().pool.connect();
-    // A server shutdown mid-transaction also emits 'error' on the client; unhandled, it would end the process.
+    // A server shutdown mid-statement also emits 'error' on the client; unhandled, it would end the process.
     const onError = (err: Error) => console.warn('[ingest] database connection lost:', err.message);
     client.on('error', onError);
     let broken = false;
     try {
-      await client.query('begin');
-      const result = await this.writeInTransaction(client, items);
-      await client.query('commit');
+      const result = await this.writeOnce(client, items);
       this.afterCommit(items, result);
     } catch (err) {
       broken = true;
-      await client.query('rollback').catch(() => undefined);
       throw err;
     } finally {
       client.off('error', onError);
-      // A client that failed mid-transaction may hold a dead socket: discard it instead of pooling it.
+      // A client that failed mid-statement may hold a dead socket: discard it instead of pooling it.
       client.release(broken);
     }
   }
 
-  private async writeInTransaction(client: pg.PoolClient, items: Item[]) {
+  /**
+   * Reads the stored spans the batches touch, plans in memory, then writes everything in one
+   * statement. The read needs no transaction around it: this writer is the only one that stores
+   * batches of its gateways (one server per database, gateways partitioned between writers), and
+   * the primary key stops anything that slipped in between (an import) from being doubled.
+   */
+  private async writeOnce(client: pg.PoolClient, items: Item[]) {
     const batches = items.filter((i): i is Extract<Item, { kind: 'batch' }> => i.kind === 'batch');
     const gatewayIds = [...new Set(items.map((i) => i.gatewayId))];
     const seq = await this.loadSeqState(client, gatewayIds);
@@ -123,7 +126,7 @@ export class BatchWriter {
 
     const health = new Map<string, HealthDelta>(gatewayIds.map((g) => [g, emptyDelta()]));
     const outcomes = new Map<Item, BatchOutcome>();
-    const stored: { gatewayId: string; slice: Slice; boot: string; seq: number }[] = [];
+    const stored: StoredSlice[] = [];
     for (const item of items) {
       const h = health.get(item.gatewayId)!;
       if (item.kind !== 'batch') {
@@ -167,14 +170,13 @@ export class BatchWriter {
       h.lastSeq = s.seq;
     }
 
-    await this.insertRows(client, stored);
-    await this.upsertRollups(client, stored);
-    const newChannels = await this.insertChannels(client, stored);
-    await this.applyHealth(client, health);
+    const newChannels = this.newChannels(stored);
+    const { text, values } = writeStatement(stored, rollupDeltas(stored), newChannels.map((c) => c.split('/') as [string, string]), health);
+    await client.query(text, values);
     return { outcomes, newChannels, seq };
   }
 
-  private afterCommit(items: Item[], result: Awaited<ReturnType<BatchWriter['writeInTransaction']>>): void {
+  private afterCommit(items: Item[], result: Awaited<ReturnType<BatchWriter['writeOnce']>>): void {
     for (const c of result.newChannels) this.knownChannels.add(c);
     for (const [g, s] of result.seq) this.seqState.set(g, s);
     for (const item of items) {
@@ -206,7 +208,7 @@ export class BatchWriter {
         this.seqState.set(g, { boot: r?.last_boot ?? null, seq: r?.last_seq ?? null });
       }
     }
-    // Work on copies: if the transaction rolls back, the cached state must stay as it was.
+    // Work on copies: if the write fails, the cached state must stay as it was.
     return new Map(gatewayIds.map((g) => [g, { ...this.seqState.get(g)! }]));
   }
 
@@ -239,84 +241,10 @@ export class BatchWriter {
     return out;
   }
 
-  private async insertRows(client: pg.PoolClient, stored: { gatewayId: string; slice: Slice; boot: string; seq: number }[]) {
-    for (let at = 0; at < stored.length; at += ROWS_PER_STATEMENT) {
-      const chunk = stored.slice(at, at + ROWS_PER_STATEMENT);
-      const params: unknown[] = [];
-      const values = chunk.map(({ gatewayId, slice: s, boot, seq }) => {
-        const p = params.length;
-        params.push(gatewayId, s.t0, s.t0 + s.n * s.dt, s.dt, s.n, s.keys, s.counts, s.x, s.cc, boot, seq);
-        return `($${p + 1}, $${p + 2}, $${p + 3}, $${p + 4}, $${p + 5}, $${p + 6}::text[], $${p + 7}::int4[], $${p + 8}::float8[], $${p + 9}::int4[], $${p + 10}, $${p + 11})`;
-      });
-      // The coverage plan already excludes stored bins; ON CONFLICT stays as the last line of defence.
-      await client.query(
-        `insert into count_batches (gateway_id, t0, t1, dt, n, keys, counts, x, cc, boot, seq) values ${values.join(', ')} on conflict do nothing`,
-        params,
-      );
-    }
-  }
-
-  private async upsertRollups(client: pg.PoolClient, stored: { gatewayId: string; slice: Slice }[]) {
-    const deltas = rollupDeltas(stored);
-    for (let at = 0; at < deltas.length; at += ROWS_PER_STATEMENT) {
-      const chunk = deltas.slice(at, at + ROWS_PER_STATEMENT);
-      const params: unknown[] = [];
-      const values = chunk.map((d) => {
-        const p = params.length;
-        params.push(d.gatewayId, d.key, d.stepMs, d.blockT0, d.sums, d.bins);
-        return `($${p + 1}, $${p + 2}, $${p + 3}, $${p + 4}, $${p + 5}::int8[], $${p + 6}::int4[])`;
-      });
-      await client.query(
-        `insert into rollups as r (gateway_id, key, step_ms, block_t0, sums, bins) values ${values.join(', ')}
-         on conflict (gateway_id, key, step_ms, block_t0) do update set
-           sums = (select array_agg(a + b order by i) from unnest(r.sums, excluded.sums) with ordinality as t(a, b, i)),
-           bins = (select array_agg(a + b order by i) from unnest(r.bins, excluded.bins) with ordinality as t(a, b, i))`,
-        params,
-      );
-    }
-  }
-
-  /** Contract: a bench's channels are created when its gateway first reports them. */
-  private async insertChannels(client: pg.PoolClient, stored: { gatewayId: string; slice: Slice }[]): Promise<string[]> {
+  /** Channels not yet known to exist, as `gateway/key`: the contract creates them on first report. */
+  private newChannels(stored: StoredSlice[]): string[] {
     const fresh = new Set<string>();
     for (const { gatewayId, slice } of stored) for (const k of slice.keys) if (!this.knownChannels.has(`${gatewayId}/${k}`)) fresh.add(`${gatewayId}/${k}`);
-    if (!fresh.size) return [];
-    const pairs = [...fresh].map((c) => c.split('/') as [string, string]);
-    await client.query(
-      `insert into channels (gateway_id, key, bench_id)
-       select g.id, u.key, g.bench_id from unnest($1::text[], $2::text[]) as u(gw, key) join gateways g on g.id = u.gw
-       on conflict do nothing`,
-      [pairs.map((p) => p[0]), pairs.map((p) => p[1])],
-    );
     return [...fresh];
-  }
-
-  private async applyHealth(client: pg.PoolClient, health: Map<string, HealthDelta>) {
-    const params: unknown[] = [];
-    const values = [...health].map(([g, h]) => {
-      const p = params.length;
-      params.push(g, h.accepted, h.duplicates, h.rejected, h.refused, h.seqGaps, JSON.stringify(h.rejects), h.lastBoot, h.lastSeq, h.clockOffsetMs);
-      return `($${p + 1}, $${p + 2}::int8, $${p + 3}::int8, $${p + 4}::int8, $${p + 5}::int8, $${p + 6}::int8, $${p + 7}::jsonb, $${p + 8}, $${p + 9}::int8, $${p + 10}::float8)`;
-    });
-    if (!values.length) return;
-    await client.query(
-      `insert into gateway_health as h (gateway_id, accepted, duplicates, rejected, refused, seq_gaps, last_rejects, last_boot, last_seq, clock_offset_ms)
-       select v.* from (values ${values.join(', ')}) as v(gateway_id, accepted, duplicates, rejected, refused, seq_gaps, last_rejects, last_boot, last_seq, clock_offset_ms)
-       join gateways g on g.id = v.gateway_id
-       on conflict (gateway_id) do update set
-         accepted = h.accepted + excluded.accepted,
-         duplicates = h.duplicates + excluded.duplicates,
-         rejected = h.rejected + excluded.rejected,
-         refused = h.refused + excluded.refused,
-         seq_gaps = h.seq_gaps + excluded.seq_gaps,
-         last_rejects = case when jsonb_array_length(excluded.last_rejects) = 0 then h.last_rejects else
-           (select coalesce(jsonb_agg(e order by i), '[]'::jsonb) from jsonb_array_elements(excluded.last_rejects || h.last_rejects) with ordinality as t(e, i) where i <= 20) end,
-         last_boot = coalesce(excluded.last_boot, h.last_boot),
-         last_seq = coalesce(excluded.last_seq, h.last_seq),
-         clock_offset_ms = coalesce(excluded.clock_offset_ms, h.clock_offset_ms)`,
-      params,
-    );
-    const seen = [...health].filter(([, h]) => h.accepted + h.duplicates > 0).map(([g]) => g);
-    if (seen.length) await client.query('update gateways set last_seen_at = now() where id = any($1::text[])', [seen]);
   }
 }
