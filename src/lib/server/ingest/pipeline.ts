@@ -7,7 +7,8 @@ import { decodeInbound, type InboundKind } from './decode.ts';
 import { Fanout } from './fanout.ts';
 import { GatewayDirectory } from './gateway-directory.ts';
 import { storeStatus } from './status-store.ts';
-import { BatchWriter, type StoredEvent } from './store.ts';
+import type { StoredEvent } from './store.ts';
+import { WriterPool } from './writer-pool.ts';
 
 export function countsMessage(benchId: string, gatewayId: string, s: Slice): CountsMessage {
   const ch: Record<string, number[]> = {};
@@ -21,7 +22,7 @@ export function countsMessage(benchId: string, gatewayId: string, s: Slice): Cou
 export class Ingest {
   readonly fanout = new Fanout();
   readonly directory = new GatewayDirectory();
-  readonly writer = new BatchWriter((e) => this.onStored(e));
+  readonly writer = new WriterPool((e) => this.onStored(e));
 
   /**
    * Handles one message a gateway published on its own topic. Resolves when the message may be
