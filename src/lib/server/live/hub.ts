@@ -1,6 +1,12 @@
 // The WebSocket hub behind `GET /api/v1/live?bench=`: authenticates the upgrade with the same check
 // as the middleware, keeps each bench's clients, pushes what the fan-out emits, answers `resume`,
 // and terminates sockets that stop answering pings.
+//
+// Push in frames: what the fan-out emits for a bench waits at most FRAME_MS, is coalesced
+// (contiguous counts of a gateway merge), serialised ONCE to a Buffer and handed to every client of
+// the bench, which writes the whole frame with one socket write. With 200 browsers and 200 batches/s
+// the per-message, per-client send was half the server's CPU and put it behind (DEVELOPERS.md,
+// "Ingest benchmark").
 import type http from 'node:http';
 import type { Socket } from 'node:net';
 import type { Duplex } from 'node:stream';
@@ -11,13 +17,20 @@ import { authenticate } from '../auth/authenticate.ts';
 import type { SessionUser } from '../auth/lucia.ts';
 import type { Fanout } from '../ingest/fanout.ts';
 import { canReadBench } from './access.ts';
-import { Outbox } from './outbox.ts';
+import { coalesceCounts } from './coalesce.ts';
+import { Outbox, type Queued, type Sink } from './outbox.ts';
 import { countsSince } from './resume.ts';
 
 /** Ping period; a socket that has not answered the previous ping by the next one is terminated (ms). */
 const HEARTBEAT_MS = 30_000;
 /** Largest client message accepted (bytes): clients only send small control messages. */
 const MAX_CLIENT_MESSAGE_BYTES = 4 * 1024;
+/**
+ * Shortest time between two frames to a bench's clients (ms). A frame goes out at once when the
+ * previous one is older; otherwise messages gather until then. 10 ms keeps publish → browser within
+ * the 20 ms budget over the broker and caps socket writes at 100 a second per client.
+ */
+export const FRAME_MS = 10;
 
 interface LiveClient {
   ws: WebSocket;
@@ -38,6 +51,11 @@ export class LiveHub {
   private readonly benches = new Map<string, Set<LiveClient>>();
   private readonly heartbeat: NodeJS.Timeout;
   private readonly unsubscribe: () => void;
+  /** Messages of the coming frame, per bench, in emission order. */
+  private pending = new Map<string, (LiveMessage | FeatureMessage)[]>();
+  private frameTimer: NodeJS.Timeout | null = null;
+  private frameImmediate: NodeJS.Immediate | null = null;
+  private lastFrameAt = -Infinity;
 
   constructor(fanout: Fanout) {
     this.unsubscribe = fanout.subscribe((benchId, message) => this.publish(benchId, message));
@@ -45,12 +63,35 @@ export class LiveHub {
     this.heartbeat.unref();
   }
 
-  /** Sends a message to every client watching a bench (fits, alarms and the like call this too). */
+  /** Sends a message to every client watching a bench in the next frame (fits, alarms and the like call this too). */
   publish(benchId: string, message: LiveMessage | FeatureMessage): void {
-    const clients = this.benches.get(benchId);
-    if (!clients?.size) return;
-    const text = JSON.stringify(message);
-    for (const c of clients) c.outbox.push({ msg: message, text, bytes: text.length });
+    if (!this.benches.get(benchId)?.size) return;
+    const list = this.pending.get(benchId);
+    if (list) list.push(message);
+    else this.pending.set(benchId, [message]);
+    this.scheduleFrame();
+  }
+
+  private scheduleFrame(): void {
+    if (this.frameTimer || this.frameImmediate) return;
+    const wait = this.lastFrameAt + FRAME_MS - performance.now();
+    // setImmediate, not 0 ms: every batch of the same COMMIT is emitted before it runs.
+    if (wait <= 0) this.frameImmediate = setImmediate(() => this.frame());
+    else this.frameTimer = setTimeout(() => this.frame(), wait);
+  }
+
+  private frame(): void {
+    this.frameTimer = null;
+    this.frameImmediate = null;
+    this.lastFrameAt = performance.now();
+    const pending = this.pending;
+    this.pending = new Map();
+    for (const [benchId, messages] of pending) {
+      const clients = this.benches.get(benchId);
+      if (!clients?.size) continue;
+      const items = coalesceCounts(messages, (m) => m, (_a, _b, merged) => merged).map((m) => this.queued(m));
+      for (const c of clients) c.outbox.pushFrame(items);
+    }
   }
 
   clientCount(benchId?: string): number {
@@ -62,6 +103,7 @@ export class LiveHub {
 
   /** The `upgrade` handler for LIVE_PATH. */
   readonly handleUpgrade = (req: http.IncomingMessage, socket: Duplex, head: Buffer): void => {
+    // Nagle's algorithm holds small frames back for tens of ms (stack notes, TCP_NODELAY lesson).
     (socket as Socket).setNoDelay?.(true);
     void this.admit(req, socket, head).catch((err) => {
       console.error('[live] upgrade failed:', err);
@@ -82,11 +124,20 @@ export class LiveHub {
     }
     if (!(await canReadBench(auth.user, bench.data))) return refuse(socket, 403, 'Forbidden', 'you may not watch this bench');
     const user = auth.user;
-    this.wss.handleUpgrade(req, socket, head, (ws) => this.attach(ws, bench.data, user));
+    this.wss.handleUpgrade(req, socket, head, (ws) => this.attach(ws, socket, bench.data, user));
   }
 
-  private attach(ws: WebSocket, bench: string, user: SessionUser): void {
-    const client: LiveClient = { ws, bench, user, outbox: new Outbox(ws, bench), alive: true, resuming: false };
+  private attach(ws: WebSocket, socket: Duplex, bench: string, user: SessionUser): void {
+    // ws writes to the socket we handed it, so corking it gathers a frame's messages into one write.
+    const sink: Sink = {
+      get bufferedAmount() {
+        return ws.bufferedAmount;
+      },
+      send: (data) => ws.send(data, { binary: false }),
+      cork: () => socket.cork(),
+      uncork: () => socket.uncork(),
+    };
+    const client: LiveClient = { ws, bench, user, outbox: new Outbox(sink, bench), alive: true, resuming: false };
     const set = this.benches.get(bench) ?? new Set();
     set.add(client);
     this.benches.set(bench, set);
@@ -132,9 +183,10 @@ export class LiveHub {
     }
   }
 
-  private queued(msg: LiveMessage) {
-    const text = JSON.stringify(msg);
-    return { msg, text, bytes: text.length };
+  /** Serialises once; the same Buffer goes to every client (ws would re-encode a string per send). */
+  private queued(msg: LiveMessage | FeatureMessage): Queued {
+    const data = Buffer.from(JSON.stringify(msg));
+    return { msg, data, bytes: data.length };
   }
 
   private beat(): void {
@@ -153,6 +205,9 @@ export class LiveHub {
   async close(): Promise<void> {
     this.unsubscribe();
     clearInterval(this.heartbeat);
+    if (this.frameTimer) clearTimeout(this.frameTimer);
+    if (this.frameImmediate) clearImmediate(this.frameImmediate);
+    this.pending.clear();
     for (const set of this.benches.values()) for (const c of set) c.ws.terminate();
     this.benches.clear();
     await new Promise<void>((resolve) => this.wss.close(() => resolve()));
