@@ -1,25 +1,7 @@
 // Upload of a counts CSV recorded offline: preview first (nothing stored), then import into a new run.
 import { useState } from 'react';
+import { MAX_IMPORT_BYTES, type ImportPreview as Preview, type ImportResult as Imported } from '../lib/import-shapes.ts';
 
-interface Preview {
-  channels: { column: string; key: string; label: string | null }[];
-  hasX: boolean;
-  hasCc: boolean;
-  dtMs: number | null;
-  rows: number;
-  fromMs: number | null;
-  toMs: number | null;
-  firstRows: string[][];
-  issues: { line: number; message: string }[];
-}
-interface Imported {
-  runId: number;
-  bins: number;
-  fromMs: number;
-  toMs: number;
-}
-
-const MAX_BYTES = 50 * 1024 * 1024;
 
 async function post<T>(url: string, file: File): Promise<T> {
   const res = await fetch(url, { method: 'POST', headers: { 'content-type': 'text/csv', accept: 'application/json' }, body: file });
@@ -82,7 +64,7 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
               setFile(f);
               setPreview(null);
               setDone(null);
-              setError(f && f.size > MAX_BYTES ? 'This file is larger than 50 MiB; split it and import the parts.' : null);
+              setError(f && f.size > MAX_IMPORT_BYTES ? 'This file is larger than 50 MiB; split it and import the parts.' : null);
             }}
           />
         </div>
@@ -92,7 +74,7 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
           </label>
           <input id="imp-title" className="field" value={title} onChange={(e) => setTitle(e.target.value)} maxLength={200} placeholder="e.g. Offline calibration, 3 March" />
         </div>
-        <button className="btn" type="submit" disabled={!file || busy || file.size > MAX_BYTES}>
+        <button className="btn" type="submit" disabled={!file || busy || file.size > MAX_IMPORT_BYTES}>
           Check file
         </button>
       </form>

@@ -8,12 +8,10 @@
 // 0…2^31−1, x a finite number, cc an integer ≥ 0. No empty cells.
 import { channelKeySchema, MAX_BINS, MAX_COUNT } from '../../contract/wire.ts';
 import { parseChannelLine } from '../../counts-csv.ts';
+import type { ImportIssue } from '../../import-shapes.ts';
 import type { Slice } from '../ingest/coverage.ts';
 
-export interface ImportIssue {
-  line: number;
-  message: string;
-}
+export type { ImportIssue };
 
 export interface ChannelInfo {
   column: string;

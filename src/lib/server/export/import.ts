@@ -15,10 +15,9 @@ import { HttpError } from '../http/responses.ts';
 import type { Slice } from '../ingest/coverage.ts';
 import { rollupDeltas } from '../ingest/rollup-math.ts';
 import { runtime } from '../runtime.ts';
-import { CountsCsvReader, type ChannelInfo, type ImportIssue } from './import-parser.ts';
+import { MAX_IMPORT_BYTES, type ImportIssue, type ImportPreview, type ImportResult } from '../../import-shapes.ts';
+import { CountsCsvReader, type ChannelInfo } from './import-parser.ts';
 
-/** 50 MiB: about 2–3 million bins of a two-channel table, an afternoon at 10 ms bins. */
-export const MAX_IMPORT_BYTES = 50 * 1024 * 1024;
 export const IMPORT_GATEWAY_PREFIX = 'imp-';
 /** Batches buffered before a write inside the import's transaction. */
 const WRITE_EVERY = 20;
@@ -85,18 +84,6 @@ async function readAll(body: ReadableStream<Uint8Array>, reader: CountsCsvReader
   reader.end(line);
 }
 
-export interface ImportPreview {
-  channels: { column: string; key: string; label: string | null }[];
-  hasX: boolean;
-  hasCc: boolean;
-  dtMs: number | null;
-  rows: number;
-  fromMs: number | null;
-  /** End of the last bin, ms. */
-  toMs: number | null;
-  firstRows: string[][];
-  issues: ImportIssue[];
-}
 
 /** Reads the whole file and reports what an import would store; stores nothing. */
 export async function previewImport(body: ReadableStream<Uint8Array>, maxBytes = MAX_IMPORT_BYTES): Promise<ImportPreview> {
@@ -123,15 +110,6 @@ export async function previewImport(body: ReadableStream<Uint8Array>, maxBytes =
   };
 }
 
-export interface ImportResult {
-  runId: number;
-  gatewayId: string;
-  bins: number;
-  batches: number;
-  fromMs: number;
-  toMs: number;
-  channels: string[];
-}
 
 async function insertSlices(client: pg.PoolClient, gatewayId: string, slices: Slice[], seq0: number): Promise<void> {
   for (let at = 0; at < slices.length; at += ROWS_PER_STATEMENT) {

@@ -1,7 +1,8 @@
 // The request side of an upload: refuses an announced oversize body before reading a byte (413);
 // the import counts bytes as it reads too, for bodies sent without a Content-Length.
 import { HttpError } from '../http/responses.ts';
-import { MAX_IMPORT_BYTES, mib } from './import.ts';
+import { MAX_IMPORT_BYTES } from '../../import-shapes.ts';
+import { mib } from './import.ts';
 
 export function uploadBody(request: Request, maxBytes = MAX_IMPORT_BYTES): ReadableStream<Uint8Array> {
   const declared = Number(request.headers.get('content-length') ?? NaN);

@@ -1,0 +1,33 @@
+// What the import routes answer, shared by the server and the upload island. Pure.
+
+/** 50 MiB: about 2–3 million bins of a two-channel table, an afternoon at 10 ms bins. */
+export const MAX_IMPORT_BYTES = 50 * 1024 * 1024;
+
+export interface ImportIssue {
+  /** 1-based line of the file. */
+  line: number;
+  message: string;
+}
+
+export interface ImportPreview {
+  channels: { column: string; key: string; label: string | null }[];
+  hasX: boolean;
+  hasCc: boolean;
+  dtMs: number | null;
+  rows: number;
+  fromMs: number | null;
+  /** End of the last bin, ms. */
+  toMs: number | null;
+  firstRows: string[][];
+  issues: ImportIssue[];
+}
+
+export interface ImportResult {
+  runId: number;
+  gatewayId: string;
+  bins: number;
+  batches: number;
+  fromMs: number;
+  toMs: number;
+  channels: string[];
+}
