@@ -2,6 +2,8 @@
 // Count messages go into typed ring buffers (rates, fringe cells) and only mark charts dirty;
 // figures (≈1/s), fitted sweeps and alarms update React state.
 import { useCallback, useEffect, useMemo, useRef, useState } from 'react';
+import AlarmList from '../AlarmList.tsx';
+import { alarmMessageSchema, applyAlarmMessage, type AlarmEventView } from '../../lib/alarm-messages.ts';
 import type { BenchViewData, ViewerData } from '../../lib/bench-view.ts';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { benchFiguresSchema } from '../../lib/bench-figures-schema.ts';
@@ -16,6 +18,7 @@ import { RunPanel } from './RunPanel.tsx';
 import { SweepControl } from './SweepControl.tsx';
 import { VisibilityTrend, type EnvelopePoint } from './VisibilityTrend.tsx';
 import { LiveBanner } from './LiveBanner.tsx';
+import { AlarmBanner } from './AlarmBanner.tsx';
 import { useLiveFeed } from './useLiveFeed.ts';
 
 /** The trend shows this much history, ms. */
@@ -27,7 +30,7 @@ const BACKFILL_STEP_MS = 100;
 /** Most envelope points kept (one per figures message ≈ 1/s over the trend span). */
 const MAX_ENVELOPE = 1800;
 
-export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerData }) {
+export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerData; alarms: AlarmEventView[] }) {
   const { bench, viewer } = props;
   const channelIds = useMemo(() => bench.channels.map((c) => c.id), [bench]);
   const ring = useMemo(() => new RateRing(channelIds), [channelIds]);
@@ -45,6 +48,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
   const [sweepsError, setSweepsError] = useState<string | null>(null);
   const [envelope, setEnvelope] = useState<EnvelopePoint[]>([]);
   const [hasCc, setHasCc] = useState(false);
+  const [alarms, setAlarms] = useState<AlarmEventView[]>(props.alarms);
   const seenCounts = useRef(false);
 
   const onCounts = useCallback(
@@ -80,6 +84,9 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
       } else if (msg.type === 'sweep') {
         const s = sweepSchema.safeParse(msg['sweep']);
         if (s.success) setSweeps((list) => [...list.filter((x) => x.start > Date.now() - TREND_MS && x.id !== s.data.id), s.data]);
+      } else if (msg.type === 'alarm') {
+        const a = alarmMessageSchema.safeParse(msg);
+        if (a.success) setAlarms((list) => applyAlarmMessage(list, a.data));
       }
     },
     [],
@@ -149,6 +156,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
   return (
     <div className="space-y-4">
       <LiveBanner state={live} />
+      <AlarmBanner events={alarms} />
       <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} />
       <div className="grid gap-4 xl:grid-cols-2">
         <RatesChart ring={ring} channels={bench.channels} onReady={(h) => (rates.current = h)} hasData={hasCounts} error={hasCounts ? null : countsError} />
@@ -188,6 +196,11 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
         )}
         <RunPanel benchId={bench.id} initialRun={bench.activeRun} canOperate={viewer.canOperate} figures={figures} />
       </div>
+      <section id="alarms" className="card scroll-mt-4" aria-labelledby="alarms-h">
+        <h2 id="alarms-h" className="mb-2 font-semibold">Alarms</h2>
+        {/* The list keeps its own copy from the same socket, so an acknowledgement made here also clears the banner through the server's message. */}
+        <AlarmList benchId={bench.id} initial={props.alarms} canAck={viewer.canOperate} />
+      </section>
     </div>
   );
 }

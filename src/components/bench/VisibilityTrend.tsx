@@ -4,7 +4,7 @@ import { useEffect, useRef } from 'react';
 import type uPlot from 'uplot';
 import type { Sweep } from '../../lib/client/api.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
-import { axis, useUPlot } from '../charts/useUPlot.ts';
+import { axis, timeAxis, useUPlot } from '../charts/useUPlot.ts';
 
 export interface EnvelopePoint {
   /** ms since the epoch */
@@ -18,6 +18,8 @@ interface Props {
   limit: number | null;
   loading: boolean;
   error: string | null;
+  /** Said when there is nothing to draw (the live view and a run report mean different spans). */
+  emptyText?: string;
 }
 
 export function VisibilityTrend(props: Props) {
@@ -45,14 +47,16 @@ export function VisibilityTrend(props: Props) {
     (p) => ({
       legend: { show: true, live: false },
       cursor: { drag: { x: false, y: false } },
-      scales: { x: { time: true }, y: { range: (_u, min, max) => [Math.max(0, Math.min(min, ref.current.limit ?? 1) - 0.02), Math.min(1.0, max + 0.01)] } },
-      axes: [axis(p), axis(p, { size: 56, label: 'visibility' })],
+      // Without points uPlot hands an empty span (null or 0): show the useful 0.8–1 rather than 0–0.01.
+      scales: { x: { time: true }, y: { range: (_u, min, max) => (min == null || max == null || !(max > 0) ? [0.8, 1] : [Math.max(0, Math.min(min, ref.current.limit ?? 1) - 0.02), Math.min(1.0, max + 0.01)]) } },
+      axes: [timeAxis(p), axis(p, { size: 56, label: 'visibility' })],
       bands: [{ series: [3, 2], fill: withAlpha(p.accent, 0.18) }],
       series: [
         { label: 'time' },
-        { label: 'sweep fit', stroke: p.accent, width: 1.5, points: { show: true, size: 5, fill: p.accent }, spanGaps: true },
-        { label: '−1σ', stroke: 'transparent', points: { show: false }, spanGaps: true },
-        { label: '+1σ', stroke: 'transparent', points: { show: false }, spanGaps: true },
+        { label: 'sweep fit ± 1σ', stroke: p.accent, width: 1.5, points: { show: true, size: 5, fill: p.accent }, spanGaps: true },
+        // The band's edges: drawn as the shaded band only, so kept out of the legend ('hidden!' beats uPlot's unlayered legend CSS).
+        { label: '−1σ', class: 'hidden!', stroke: 'transparent', points: { show: false }, spanGaps: true },
+        { label: '+1σ', class: 'hidden!', stroke: 'transparent', points: { show: false }, spanGaps: true },
         { label: 'running', stroke: p.muted, width: 1, dash: [3, 3], points: { show: false }, spanGaps: true },
         { label: 'alarm limit', stroke: p.bad, width: 1.5, dash: [8, 4], points: { show: false }, spanGaps: true },
       ],
@@ -80,8 +84,8 @@ export function VisibilityTrend(props: Props) {
       </div>
       <div ref={box} className="relative min-h-[200px]" role="img" aria-label="Visibility of each fitted sweep over time, with the alarm limit">
         {(props.loading || props.error || empty) && (
-          <p className={`pointer-events-none absolute inset-x-0 top-16 z-10 text-center text-sm ${props.error ? 'text-bad' : 'text-muted'}`}>
-            {props.error ?? (props.loading ? 'Loading sweeps…' : 'No fitted sweeps in the last 30 minutes.')}
+          <p className={`pointer-events-none absolute left-1/2 top-[40%] z-10 -translate-x-1/2 -translate-y-1/2 rounded-md border border-line bg-panel px-3 py-1.5 text-center text-sm ${props.error ? 'text-bad' : 'text-muted'}`}>
+            {props.error ?? (props.loading ? 'Loading sweeps…' : props.emptyText ?? 'No fitted sweeps in the last 30 minutes.')}
           </p>
         )}
       </div>
