@@ -27,7 +27,8 @@ export interface BenchViewData {
   outA: string | null;
   outB: string | null;
   herald: string | null;
-  gateways: { id: string; online: boolean; lastSeenMs: number | null }[];
+  /** `scan`: the range the gateway's drive reports it can reach (its last status), null when unreported. */
+  gateways: { id: string; online: boolean; lastSeenMs: number | null; scan: { min: number; max: number; unit: string } | null }[];
   /** Lowest acceptable visibility from the enabled visibility alarm rules; null without one. */
   visibilityLimit: number | null;
   activeRun: RunView | null;

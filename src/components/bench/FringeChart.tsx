@@ -7,7 +7,7 @@ import { FrameGate } from '../../lib/client/frame-gate.ts';
 import type { FringeCells } from '../../lib/client/fringe-cells.ts';
 import { sweepFit, type Sweep } from '../../lib/client/api.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
-import { formatRate, formatValueErr } from '../../lib/client/format.ts';
+import { formatRateTick, formatValueErr } from '../../lib/client/format.ts';
 import { axis, useUPlot } from '../charts/useUPlot.ts';
 import { CURVE_POINTS, fitRates } from './fringe-curve.ts';
 
@@ -92,7 +92,7 @@ export function FringeChart(props: Props) {
       legend: { show: true, live: false },
       cursor: { drag: { x: false, y: false }, points: { show: false } },
       scales: { x: { time: false }, y: { range: (_u, _min, max) => [0, max > 0 ? max * 1.08 : 1] } },
-      axes: [axis(p, { label: 'scan coordinate (V)' }), axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map((v) => formatRate(v).replace(/ ?\/s/, '')) })],
+      axes: [axis(p, { label: 'scan coordinate (V)' }), axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map(formatRateTick) })],
       series: [
         { label: 'x (V)' },
         { label: props.labels.a, stroke: p.ember, width: 0, points: { show: true, size: 4, fill: p.ember, stroke: p.ember }, spanGaps: false },
@@ -149,7 +149,7 @@ export function FringeChart(props: Props) {
         </div>
       </div>
       <div ref={box} className="relative min-h-[300px]" role="img" aria-label="Counts of both outputs against the scan coordinate, with the fitted fringe model">
-        {clicks === 0 && <p className="pointer-events-none absolute inset-x-0 top-24 z-10 text-center text-sm text-muted">No scan in progress. Fringes appear here while the drive sweeps.</p>}
+        {clicks === 0 && <p className="pointer-events-none absolute left-1/2 top-[40%] z-10 -translate-x-1/2 -translate-y-1/2 rounded-md border border-line bg-panel px-3 py-1.5 text-center text-sm text-muted">No scan in progress. Fringes appear here while the drive sweeps.</p>}
       </div>
     </section>
   );

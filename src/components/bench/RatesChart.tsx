@@ -5,9 +5,9 @@ import type uPlot from 'uplot';
 import { FrameGate } from '../../lib/client/frame-gate.ts';
 import type { RateRing } from '../../lib/client/rate-ring.ts';
 import type { ViewChannel } from '../../lib/bench-view.ts';
-import { axis, useUPlot } from '../charts/useUPlot.ts';
+import { axis, timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
 import type { ChartPalette } from '../../lib/client/chart-theme.ts';
-import { formatRate } from '../../lib/client/format.ts';
+import { formatRate, formatRateTick } from '../../lib/client/format.ts';
 
 export const WINDOWS_S = [10, 30, 60, 180, 600] as const;
 /** Smallest rate drawn on the log axis, counts/s: zero has no logarithm. */
@@ -40,6 +40,11 @@ export function RatesChart(props: { ring: RateRing; channels: ViewChannel[]; onR
     return [v.x, ...v.y];
   };
 
+  // A herald runs 5–10× above the gated outputs: on the outputs' axis it would flatten them, so
+  // it gets its own axis on the right.
+  const hasHerald = channels.some((c) => c.role === 'herald');
+  const yScale = (): uPlot.Scale => (log ? { distr: 3, log: 10 } : { range: (_u, _min, max) => [0, max > 0 ? max * 1.08 : 1] });
+
   const plot = useUPlot(
     box,
     (p) => ({
@@ -47,12 +52,24 @@ export function RatesChart(props: { ring: RateRing; channels: ViewChannel[]; onR
       cursor: { drag: { x: false, y: false } },
       scales: {
         x: { time: true, range: () => { const now = Date.now() / 1000; return [now - settings.current.windowS, now]; } },
-        y: log ? { distr: 3, log: 10 } : { range: (_u, _min, max) => [0, max > 0 ? max * 1.08 : 1] },
+        y: yScale(),
+        ...(hasHerald ? { herald: yScale() } : {}),
       },
-      axes: [axis(p), axis(p, { size: 64, values: (_u, ticks) => ticks.map((t) => formatRate(t).replace(' /s', '').replace('/s', '')), label: 'counts/s' })],
+      axes: [
+        timeAxis(p),
+        axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map(formatRateTick) }),
+        ...(hasHerald ? [axis(p, { scale: 'herald', side: 1, size: 64, label: 'herald counts/s', grid: { show: false }, values: (_u, t) => t.map(formatRateTick) })] : []),
+      ],
       series: [
-        { label: 'time' },
-        ...channels.map((c, i) => ({ label: c.label, stroke: channelColour(p, c.role, i), width: 1.5, points: { show: false }, value: (_u: uPlot, v: number | null) => formatRate(v) })),
+        { label: 'time', value: timeLegendValue },
+        ...channels.map((c, i) => ({
+          label: c.label,
+          stroke: channelColour(p, c.role, i),
+          width: 1.5,
+          points: { show: false },
+          value: (_u: uPlot, v: number | null) => formatRate(v),
+          ...(c.role === 'herald' ? { scale: 'herald' } : {}),
+        })),
       ],
     }),
     data,
@@ -94,8 +111,8 @@ export function RatesChart(props: { ring: RateRing; channels: ViewChannel[]; onR
         </div>
       </div>
       <div ref={box} className="relative min-h-[260px]" role="img" aria-label={`Count rates of ${channels.map((c) => c.label).join(', ')} over the last ${windowS} s`}>
-        {!props.hasData && !props.error && <p className="absolute inset-0 z-10 grid place-items-center text-sm text-muted">Waiting for counts…</p>}
-        {props.error && <p className="absolute inset-0 z-10 grid place-items-center text-sm text-bad">{props.error}</p>}
+        {!props.hasData && !props.error && <p className="pointer-events-none absolute left-1/2 top-[40%] z-10 -translate-x-1/2 -translate-y-1/2 rounded-md border border-line bg-panel px-3 py-1.5 text-center text-sm text-muted">Waiting for counts…</p>}
+        {props.error && <p className="pointer-events-none absolute left-1/2 top-[40%] z-10 -translate-x-1/2 -translate-y-1/2 rounded-md border border-line bg-panel px-3 py-1.5 text-center text-sm text-bad">{props.error}</p>}
       </div>
     </section>
   );

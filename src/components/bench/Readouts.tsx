@@ -1,22 +1,34 @@
 // Large readouts an operator reads from across the bench: both output rates (raw and corrected),
 // V ± σ, phase, contrast and the phase noise against the shot-noise limit.
 import type { BenchFigures, ChannelFigures } from '../../lib/bench-figures.ts';
-import { formatNumber, formatRate, formatValueErr } from '../../lib/client/format.ts';
+import { formatNumber, formatRateErr, formatValueErr, rateParts } from '../../lib/client/format.ts';
 
-function Tile(props: { label: string; value: string; sub?: string | undefined; tone?: string; testId?: string; wide?: boolean }) {
+/** A number read from across the bench: the value large, its unit and uncertainty smaller beside it, never wrapping. */
+function Tile(props: { label: string; value: string; unit?: string | undefined; subs?: (string | null)[]; tone?: string; testId?: string }) {
   return (
-    <div className={`card !p-3 ${props.wide ? 'sm:col-span-2' : ''}`}>
-      <p className="label">{props.label}</p>
-      <p className={`figure text-2xl font-medium leading-tight md:text-3xl ${props.tone ?? ''}`} data-testid={props.testId}>{props.value}</p>
-      {props.sub && <p className="figure mt-0.5 text-xs text-muted">{props.sub}</p>}
+    <div className="card min-w-0 !p-3">
+      <p className="label truncate" title={props.label}>{props.label}</p>
+      <p className="figure whitespace-nowrap leading-tight" data-testid={props.testId}>
+        <span className={`text-2xl font-medium md:text-3xl ${props.tone ?? ''}`}>{props.value}</span>
+        {props.unit && <span className="ml-1 text-sm text-muted">{props.unit}</span>}
+      </p>
+      {props.subs?.map((s, i) => s && <p key={i} className="figure mt-0.5 truncate text-xs text-muted" title={s}>{s}</p>)}
     </div>
   );
 }
 
 function rateTile(c: ChannelFigures | undefined, label: string, tone: string, testId: string) {
-  const corrected = c?.rateCorrected ? `corrected ${formatRate(c.rateCorrected.value)} ± ${formatRate(c.rateCorrected.err).replace('/s', '')}` : c ? 'no correction (see warning)' : '';
-  const loss = c?.deadTimeLoss != null ? ` · dead time ${(c.deadTimeLoss * 100).toFixed(1)}%` : '';
-  return <Tile label={label} value={formatRate(c?.rateRaw)} sub={c ? corrected + loss : 'waiting for counts'} tone={tone} testId={testId} />;
+  const r = rateParts(c?.rateRaw);
+  // The corrected rate on the raw rate's scale, so the unit above serves both.
+  const corrected = c?.rateCorrected ? `corr. ${formatRateErr(c.rateCorrected, c.rateRaw)}` : c ? 'uncorrected (see warning)' : 'waiting for counts';
+  const loss = c?.deadTimeLoss != null ? `dead-time loss ${(c.deadTimeLoss * 100).toFixed(1)} %` : null;
+  return <Tile label={label} value={r.value} unit={r.unit} subs={[corrected, loss]} tone={tone} testId={testId} />;
+}
+
+/** Value and uncertainty rounded together, split for a tile. */
+function splitErr(v: { value: number; err: number }, decimals?: number): { value: string; err: string } {
+  const [value = '–', err = ''] = formatValueErr(v, decimals).split(' ± ');
+  return { value, err };
 }
 
 export function Readouts(props: { figures: BenchFigures | null; loading: boolean; error: string | null }) {
@@ -24,7 +36,9 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
   const a = f?.channels.find((c) => c.role === 'out_a');
   const b = f?.channels.find((c) => c.role === 'out_b');
   const v = f?.visibility;
+  const vs = v ? splitErr(v) : null;
   const ph = f?.phase;
+  const phs = ph ? splitErr(ph) : null;
   const sn = f?.shotNoise;
   const warnings = f?.channels.filter((c) => c.warning) ?? [];
   return (
@@ -34,21 +48,23 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
         {rateTile(a, a?.label ?? 'Output A', 'text-ember', 'rate-a')}
         {rateTile(b, b?.label ?? 'Output B', 'text-tide', 'rate-b')}
         <Tile
-          label={v ? `Visibility (${v.source === 'sweep' ? 'fit' : 'envelope'}${v.net ? ', net of darks' : ''})` : 'Visibility'}
-          value={v ? formatValueErr(v) : '–'}
-          sub={v ? undefined : 'needs a sweep or drift'}
+          label={`Visibility${v?.net ? ', net of darks' : ''}`}
+          value={vs?.value ?? '–'}
+          subs={[vs ? `± ${vs.err}` : null, !v ? 'needs a sweep or drift' : v.source === 'sweep' ? 'mean of recent fits' : 'fringe envelope (drift)']}
           testId="visibility"
         />
         <Tile
           label="Phase"
-          value={ph ? `${formatValueErr(ph)} rad` : '–'}
-          sub={ph?.driftRadPerS != null ? `drift ${formatNumber(ph.driftRadPerS * 1000, 2)} mrad/s` : 'at hold only'}
+          value={phs?.value ?? '–'}
+          unit={ph ? 'rad' : undefined}
+          subs={[phs ? `± ${phs.err} rad` : null, ph?.driftRadPerS != null ? `drift ${formatNumber(ph.driftRadPerS * 1000, 2)} mrad/s` : 'while holding only']}
         />
-        <Tile label="Contrast (A−B)/(A+B)" value={formatNumber(f?.contrast, 3)} sub="0 at mid-fringe" />
+        <Tile label="Contrast (A−B)/(A+B)" value={formatNumber(f?.contrast, 3)} subs={['0 at mid-fringe']} />
         <Tile
-          label="Phase noise / shot noise"
-          value={sn ? `${sn.ratio.toFixed(2)}×` : '–'}
-          sub={sn ? `${sn.dB >= 0 ? '+' : ''}${sn.dB.toFixed(1)} dB · limit ${(sn.limitRad * 1000).toFixed(2)} mrad` : 'at hold only'}
+          label="Phase noise"
+          value={sn ? sn.ratio.toFixed(2) : '–'}
+          unit={sn ? '× shot noise' : undefined}
+          subs={sn ? [`${sn.dB >= 0 ? '+' : ''}${sn.dB.toFixed(1)} dB`, `limit ${(sn.limitRad * 1000).toFixed(2)} mrad`] : ['while holding only']}
         />
       </div>
       {warnings.length > 0 && (
@@ -70,15 +86,15 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
       {!f ? (
         <p className="text-sm text-muted">Waiting for figures…</p>
       ) : (
-        <dl className="grid grid-cols-[auto_1fr] gap-x-4 gap-y-1.5 text-sm">
+        <dl className="grid grid-cols-[1fr_auto] gap-x-4 gap-y-1.5 text-sm [&>dd]:whitespace-nowrap">
           {f.channels.map((c) => (
             <div key={c.channel} className="contents">
               <dt className="text-muted">Mandel Q, {c.label}</dt>
-              <dd className="figure text-right">{formatValueErr(c.mandelQ, 4)}</dd>
+              <dd className="figure text-right">{formatValueErr(c.mandelQ)}</dd>
             </div>
           ))}
           <dt className="text-muted">g²(0), accidentals subtracted</dt>
-          <dd className="figure text-right">{f.g2 ? formatValueErr(f.g2, 3) : props.hasCoincidences ? 'waiting' : 'no coincidences'}</dd>
+          <dd className="figure text-right">{f.g2 ? formatValueErr(f.g2) : props.hasCoincidences ? 'waiting' : 'no coincidences'}</dd>
           {f.g2 && (
             <>
               <dt className="text-muted">accidentals</dt>
@@ -88,12 +104,12 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
           {f.alpha && (
             <>
               <dt className="text-muted">heralded α</dt>
-              <dd className="figure text-right">{formatValueErr(f.alpha, 3)}</dd>
+              <dd className="figure text-right">{formatValueErr(f.alpha)}</dd>
             </>
           )}
         </dl>
       )}
-      <p className="mt-2 text-xs text-muted">Q from the counts per bin over the last {f ? (f.windowMs / 1000).toFixed(0) : '–'} s: 0 Poissonian, &lt; 0 sub-Poissonian. g²(0) = 1 coherent, 0 single photon.</p>
+      <p className="mt-2 text-xs text-muted">Q from the counts per bin over the last {f ? (f.windowMs / 1000).toFixed(0) : '–'} s: 0 Poissonian, &lt; 0 sub-Poissonian. g²(0) = 1 coherent, 0 single photon. While the drive sweeps, Q and g²(0) measure the fringes, not the light.</p>
     </section>
   );
 }

@@ -3,7 +3,7 @@
 import { useEffect, useState, type FormEvent } from 'react';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { addNote, errorText, fetchNotes, startRun, stopRun } from '../../lib/client/api.ts';
-import { formatClock, formatDuration, formatValueErr, formatRate } from '../../lib/client/format.ts';
+import { formatClock, formatDuration, formatSnapshot } from '../../lib/client/format.ts';
 import type { NoteView, RunView } from '../../lib/runs.ts';
 
 interface Props {
@@ -11,14 +11,6 @@ interface Props {
   initialRun: RunView | null;
   canOperate: boolean;
   figures: BenchFigures | null;
-}
-
-export function snapshotLine(s: BenchFigures): string {
-  const parts = s.channels.filter((c) => c.role === 'out_a' || c.role === 'out_b').map((c) => `${c.label} ${formatRate(c.rateRaw)}`);
-  if (s.visibility) parts.push(`V ${formatValueErr(s.visibility)}`);
-  if (s.phase) parts.push(`φ ${formatValueErr(s.phase)} rad`);
-  if (s.g2) parts.push(`g²(0) ${formatValueErr(s.g2, 3)}`);
-  return parts.join(' · ');
 }
 
 export function RunPanel({ benchId, initialRun, canOperate, figures }: Props) {
@@ -122,7 +114,7 @@ export function RunPanel({ benchId, initialRun, canOperate, figures }: Props) {
                 <li key={n.id} className="border-l-2 border-accent pl-2">
                   <p className="text-xs text-muted"><span className="figure">{formatClock(n.atMs)}</span> · {n.author?.name ?? 'someone'}</p>
                   <p className="whitespace-pre-wrap">{n.body}</p>
-                  {n.snapshot && <p className="figure text-xs text-muted">{snapshotLine(n.snapshot)}</p>}
+                  {n.snapshot && <p className="figure text-xs text-muted">{formatSnapshot(n.snapshot)}</p>}
                 </li>
               ))}
             </ol>

@@ -14,14 +14,28 @@ interface Props {
   onSweepStarted: () => void;
 }
 
+/**
+ * What a sweep may span: the admin's limits (the server refuses beyond them) narrowed to the range
+ * the drive's gateway reports it can reach (the gateway refuses beyond that).
+ */
+export function reachable(bench: BenchViewData): { min: number; max: number; gateway: { min: number; max: number } | null } {
+  const owner = bench.outA?.split('/')[0];
+  const scan = bench.gateways.find((g) => g.id === owner)?.scan ?? bench.gateways.find((g) => g.scan)?.scan ?? null;
+  const min = scan ? Math.max(bench.drive.min, scan.min) : bench.drive.min;
+  const max = scan ? Math.min(bench.drive.max, scan.max) : bench.drive.max;
+  // Disjoint ranges: keep the admin's, so the server's refusal explains the problem.
+  return min < max ? { min, max, gateway: scan } : { min: bench.drive.min, max: bench.drive.max, gateway: scan };
+}
+
 export function SweepControl({ bench, lastSweep, onSweepStarted }: Props) {
   const d = bench.drive;
-  const [from, setFrom] = useState(String(d.min));
-  const [to, setTo] = useState(String(Math.min(d.max, d.min + (d.max - d.min) / 2)));
+  const range = reachable(bench);
+  const [from, setFrom] = useState(String(range.min));
+  const [to, setTo] = useState(String(range.min + (range.max - range.min) / 2));
   const [step, setStep] = useState(String(Math.min(d.maxStep, 0.05)));
   const [dwell, setDwell] = useState(String(Math.max(d.minDwellMs, 20)));
   const [passes, setPasses] = useState('4');
-  const [holdX, setHoldX] = useState(String((d.min + d.max) / 2));
+  const [holdX, setHoldX] = useState(String((range.min + range.max) / 2));
   const [busy, setBusy] = useState(false);
   const [message, setMessage] = useState<{ ok: boolean; text: string } | null>(null);
 
@@ -52,14 +66,15 @@ export function SweepControl({ bench, lastSweep, onSweepStarted }: Props) {
     <section className="card" aria-labelledby="drive-h">
       <div className="mb-3 flex items-baseline justify-between gap-2">
         <h2 id="drive-h" className="font-semibold">Drive</h2>
-        <p className="figure text-xs text-muted" data-testid="drive-limits">
+        <p className="figure text-right text-xs text-muted" data-testid="drive-limits">
           limits {d.min}–{d.max} V · step ≤ {d.maxStep} V · dwell ≥ {d.minDwellMs} ms
+          {range.gateway && <><br />drive reaches {range.gateway.min}–{range.gateway.max} V</>}
         </p>
       </div>
       <form onSubmit={startSweep} className="space-y-3">
         <div className="grid grid-cols-2 gap-2 sm:grid-cols-5">
-          <label><span className="label">From (V)</span><input className="field figure" type="number" step="any" min={d.min} max={d.max} required value={from} onChange={(e) => setFrom(e.target.value)} /></label>
-          <label><span className="label">To (V)</span><input className="field figure" type="number" step="any" min={d.min} max={d.max} required value={to} onChange={(e) => setTo(e.target.value)} /></label>
+          <label><span className="label">From (V)</span><input className="field figure" type="number" step="any" min={range.min} max={range.max} required value={from} onChange={(e) => setFrom(e.target.value)} /></label>
+          <label><span className="label">To (V)</span><input className="field figure" type="number" step="any" min={range.min} max={range.max} required value={to} onChange={(e) => setTo(e.target.value)} /></label>
           <label><span className="label">Step (V)</span><input className="field figure" type="number" step="any" min="0" max={d.maxStep} required value={step} onChange={(e) => setStep(e.target.value)} /></label>
           <label><span className="label">Dwell (ms)</span><input className="field figure" type="number" step="1" min={d.minDwellMs} max="60000" required value={dwell} onChange={(e) => setDwell(e.target.value)} /></label>
           <label><span className="label">Passes</span><input className="field figure" type="number" step="1" min="1" max="10000" required value={passes} onChange={(e) => setPasses(e.target.value)} /></label>
@@ -79,7 +94,7 @@ export function SweepControl({ bench, lastSweep, onSweepStarted }: Props) {
         </div>
       </form>
       <div className="mt-3 flex flex-wrap items-end gap-2 border-t border-line pt-3">
-        <label className="w-32"><span className="label">Hold at (V)</span><input className="field figure" type="number" step="any" min={d.min} max={d.max} value={holdX} onChange={(e) => setHoldX(e.target.value)} /></label>
+        <label className="w-32"><span className="label">Hold at (V)</span><input className="field figure" type="number" step="any" min={range.min} max={range.max} value={holdX} onChange={(e) => setHoldX(e.target.value)} /></label>
         <button type="button" className="btn" disabled={busy} onClick={() => void send({ op: 'hold', x: Number(holdX) }, `Hold at ${holdX} V`)}>Hold</button>
         <button
           type="button"

@@ -66,3 +66,29 @@ export function axis(p: ChartPalette, extra: uPlot.Axis = {}): uPlot.Axis {
     ...extra,
   };
 }
+
+// Time-axis labels on a 24-hour clock with day-month dates (uPlot's default is a 12-hour clock and
+// month/day/year, easy to misread in a lab log). Rows: [smallest tick step (s), tick label, then the
+// label added where the year, month, day, hour, minute or second changes, mode]; see uPlot's axes docs.
+const TIME_24H: (string | number | null)[][] = [
+  [31_536_000, '{YYYY}', null, null, null, null, null, null, 1],
+  [2_419_200, '{MMM}', '\n{YYYY}', null, null, null, null, null, 1],
+  [86_400, '{D} {MMM}', '\n{YYYY}', null, null, null, null, null, 1],
+  [3_600, '{HH}:{mm}', '\n{D} {MMM} {YYYY}', null, '\n{D} {MMM}', null, null, null, 1],
+  [60, '{HH}:{mm}', '\n{D} {MMM} {YYYY}', null, '\n{D} {MMM}', null, null, null, 1],
+  [1, ':{ss}', '\n{D} {MMM} {YYYY} {HH}:{mm}', null, '\n{D} {MMM} {HH}:{mm}', null, '\n{HH}:{mm}', null, 1],
+  [0.001, ':{ss}.{fff}', '\n{D} {MMM} {YYYY} {HH}:{mm}', null, '\n{D} {MMM} {HH}:{mm}', null, '\n{HH}:{mm}', null, 1],
+];
+
+/** The x axis of a time chart (x in seconds since the epoch). */
+export function timeAxis(p: ChartPalette, extra: uPlot.Axis = {}): uPlot.Axis {
+  return axis(p, { values: TIME_24H, ...extra });
+}
+
+/** The hovered time in a legend, on the same 24-hour clock: "2026-05-01 14:03:27". */
+export function timeLegendValue(_u: uPlot, v: number | null): string {
+  if (v == null) return '–';
+  const d = new Date(v * 1000);
+  const p = (n: number) => String(n).padStart(2, '0');
+  return `${d.getFullYear()}-${p(d.getMonth() + 1)}-${p(d.getDate())} ${p(d.getHours())}:${p(d.getMinutes())}:${p(d.getSeconds())}`;
+}

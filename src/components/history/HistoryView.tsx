@@ -4,8 +4,8 @@ import { useEffect, useRef, useState } from 'react';
 import type uPlot from 'uplot';
 import type { ViewChannel } from '../../lib/bench-view.ts';
 import { errorText, fetchCounts, type CountsAnswer } from '../../lib/client/api.ts';
-import { formatDateTime, formatRate } from '../../lib/client/format.ts';
-import { axis, useUPlot } from '../charts/useUPlot.ts';
+import { formatDateTime, formatRate, formatRateTick } from '../../lib/client/format.ts';
+import { axis, timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
 import { channelColour } from '../bench/RatesChart.tsx';
 import { pickStep, toLocalInput } from './history-range.ts';
 
@@ -55,8 +55,8 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
       cursor: { drag: { x: true, y: false, setScale: false } },
       select: { show: true, left: 0, top: 0, width: 0, height: 0 },
       scales: { x: { time: true, range: () => [rangeRef.current.from / 1000, rangeRef.current.to / 1000] } },
-      axes: [axis(p), axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map((v) => formatRate(v).replace(/ ?\/s/, '')) })],
-      series: [{ label: 'time' }, ...channels.map((c, i) => ({ label: c.label, stroke: channelColour(p, c.role, i), width: 1.25, points: { show: false }, value: (_u: uPlot, v: number | null) => formatRate(v) }))],
+      axes: [timeAxis(p), axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map(formatRateTick) })],
+      series: [{ label: 'time', value: timeLegendValue }, ...channels.map((c, i) => ({ label: c.label, stroke: channelColour(p, c.role, i), width: 1.25, points: { show: false }, value: (_u: uPlot, v: number | null) => formatRate(v) }))],
       hooks: {
         setSelect: [
           (u: uPlot) => {
@@ -123,7 +123,7 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
       </div>
       <div ref={box} className="relative min-h-[360px]" role="img" aria-label="Count rates over the chosen time range; drag across the chart to zoom in">
         {(loading || error || empty) && (
-          <p className={`pointer-events-none absolute inset-x-0 top-32 z-10 text-center text-sm ${error ? 'text-bad' : 'text-muted'}`} data-testid="history-state">
+          <p className={`pointer-events-none absolute left-1/2 top-[40%] z-10 -translate-x-1/2 -translate-y-1/2 rounded-md border border-line bg-panel px-3 py-1.5 text-center text-sm ${error ? 'text-bad' : 'text-muted'}`} data-testid="history-state">
             {error ? `Could not load counts: ${error}` : loading ? 'Loading…' : 'No counts in this range.'}
           </p>
         )}

@@ -60,7 +60,7 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
                 <a href={`/benches/${b.id}`} className="text-lg font-semibold hover:underline">{b.name}</a>
                 <p className="figure text-xs text-muted">{b.wavelengthNm} nm</p>
               </div>
-              <span className={`rounded-full border px-2 py-0.5 text-xs font-medium ${online ? 'border-good text-good' : 'border-bad text-bad'}`}>
+              <span className={`shrink-0 whitespace-nowrap rounded-full border px-2 py-0.5 text-xs font-medium ${online ? 'border-good text-good' : 'border-bad text-bad'}`}>
                 {online ? 'online' : 'offline'}
                 <span className="figure"> {b.gatewaysOnline}/{b.gatewaysTotal}</span>
               </span>

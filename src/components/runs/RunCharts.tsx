@@ -3,8 +3,8 @@ import { useEffect, useRef, useState } from 'react';
 import type uPlot from 'uplot';
 import type { ViewChannel } from '../../lib/bench-view.ts';
 import { errorText, fetchCounts, type CountsAnswer } from '../../lib/client/api.ts';
-import { formatRate } from '../../lib/client/format.ts';
-import { axis, useUPlot } from '../charts/useUPlot.ts';
+import { formatRateTick } from '../../lib/client/format.ts';
+import { axis, timeAxis, useUPlot } from '../charts/useUPlot.ts';
 import { channelColour } from '../bench/RatesChart.tsx';
 import { pickStep } from '../history/history-range.ts';
 import { VisibilityTrend } from '../bench/VisibilityTrend.tsx';
@@ -34,7 +34,7 @@ export default function RunCharts(props: { benchId: string; from: number; to: nu
     (p) => ({
       legend: { show: true, live: false },
       scales: { x: { time: true } },
-      axes: [axis(p), axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map((v) => formatRate(v).replace(/ ?\/s/, '')) })],
+      axes: [timeAxis(p), axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map(formatRateTick) })],
       series: [{ label: 'time' }, ...channels.map((c, i) => ({ label: c.label, stroke: channelColour(p, c.role, i), width: 1.25, points: { show: false } }))],
     }),
     data,
@@ -59,11 +59,11 @@ export default function RunCharts(props: { benchId: string; from: number; to: nu
       <section className="card break-inside-avoid" aria-labelledby="run-rates-h">
         <h2 id="run-rates-h" className="mb-2 font-semibold">Count rates during the run</h2>
         <div ref={box} className="relative min-h-[240px]" role="img" aria-label="Count rates over the run">
-          {(!answer || error) && <p className={`pointer-events-none absolute inset-x-0 top-20 z-10 text-center text-sm ${error ? 'text-bad' : 'text-muted'}`}>{error ? `Could not load counts: ${error}` : 'Loading…'}</p>}
+          {(!answer || error) && <p className={`pointer-events-none absolute left-1/2 top-[40%] z-10 -translate-x-1/2 -translate-y-1/2 rounded-md border border-line bg-panel px-3 py-1.5 text-center text-sm ${error ? 'text-bad' : 'text-muted'}`}>{error ? `Could not load counts: ${error}` : 'Loading…'}</p>}
         </div>
       </section>
       <div className="break-inside-avoid">
-        <VisibilityTrend sweeps={props.sweeps} envelope={[]} limit={null} loading={false} error={null} />
+        <VisibilityTrend sweeps={props.sweeps} envelope={[]} limit={null} loading={false} error={null} emptyText="No sweeps were fitted during this run." />
       </div>
     </div>
   );

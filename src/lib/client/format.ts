@@ -1,16 +1,51 @@
 // Number formatting for readouts: fixed significant figures so digits do not jump, SI prefixes
-// for rates, and a value with its uncertainty rounded to the uncertainty's precision.
+// for rates, and a value with its uncertainty rounded to the uncertainty's precision. Pure, so
+// server-rendered pages (run report, runs list) format exactly as the islands do.
+import type { BenchFigures } from '../bench-figures.ts';
 
 const DASH = '–';
 
-/** Counts per second as e.g. "36.2 k/s"; "–" when absent. */
-export function formatRate(r: number | null | undefined): string {
-  if (r == null || !Number.isFinite(r)) return DASH;
+/** Scale of a rate: counts/s below 10³, then kc/s and Mc/s (kilo-, mega-counts per second). */
+function rateScale(r: number): { div: number; unit: string } {
   const a = Math.abs(r);
-  if (a >= 1e6) return `${(r / 1e6).toFixed(2)} M/s`;
-  if (a >= 1e4) return `${(r / 1e3).toFixed(1)} k/s`;
-  if (a >= 1e3) return `${(r / 1e3).toFixed(2)} k/s`;
-  return `${r.toFixed(a >= 100 ? 0 : 1)} /s`;
+  if (a >= 1e6) return { div: 1e6, unit: 'Mc/s' };
+  if (a >= 1e3) return { div: 1e3, unit: 'kc/s' };
+  return { div: 1, unit: 'counts/s' };
+}
+
+/** A rate split for a readout: the number large, the unit beside it; "–" and no unit when absent. */
+export function rateParts(r: number | null | undefined): { value: string; unit: string } {
+  if (r == null || !Number.isFinite(r)) return { value: DASH, unit: '' };
+  const { div, unit } = rateScale(r);
+  const scaled = r / div;
+  // Decimals fixed per decade, so the digits of a live readout stay put from update to update.
+  const decimals = div === 1 ? (Math.abs(r) >= 100 ? 0 : 1) : Math.abs(scaled) >= 100 ? 1 : 2;
+  return { value: scaled.toFixed(decimals), unit };
+}
+
+/** Counts per second as e.g. "36.21 kc/s"; "–" when absent. */
+export function formatRate(r: number | null | undefined): string {
+  const p = rateParts(r);
+  return p.unit ? `${p.value} ${p.unit}` : p.value;
+}
+
+/**
+ * A rate with its uncertainty on one scale, e.g. "36.21 ± 0.05 kc/s"; `like` picks the scale of
+ * another rate shown beside it, and the unit is left off when it is that one's.
+ */
+export function formatRateErr(v: { value: number; err: number } | null | undefined, like?: number): string {
+  if (!v || !Number.isFinite(v.value)) return DASH;
+  const { div, unit } = rateScale(like ?? v.value);
+  const text = formatValueErr({ value: v.value / div, err: v.err / div });
+  return like === undefined ? `${text} ${unit}` : text;
+}
+
+/** Axis ticks of a counts/s axis (the unit is in the axis label): "0", "500", "1.5 k", "200 k", "1.2 M". */
+export function formatRateTick(r: number | null | undefined): string {
+  if (r == null || !Number.isFinite(r)) return '';
+  const { div, unit } = rateScale(r);
+  const n = Number((r / div).toPrecision(3));
+  return div === 1 ? String(n) : `${n} ${unit[0]}`;
 }
 
 /** Decimals that show the uncertainty with two significant digits (at most 6). */
@@ -48,4 +83,13 @@ export function formatDuration(ms: number): string {
   if (s >= 3600) return `${Math.floor(s / 3600)} h ${String(Math.floor((s % 3600) / 60)).padStart(2, '0')} min`;
   if (s >= 60) return `${Math.floor(s / 60)} min ${String(s % 60).padStart(2, '0')} s`;
   return `${s} s`;
+}
+
+/** One line of the figures attached to a note: "Output A 36.21 kc/s · Output B … · V 0.9712 ± 0.0031". */
+export function formatSnapshot(s: BenchFigures): string {
+  const parts = s.channels.filter((c) => c.role === 'out_a' || c.role === 'out_b').map((c) => `${c.label} ${formatRate(c.rateRaw)}`);
+  if (s.visibility) parts.push(`V ${formatValueErr(s.visibility)}`);
+  if (s.phase) parts.push(`φ ${formatValueErr(s.phase)} rad`);
+  if (s.g2) parts.push(`g²(0) ${formatValueErr(s.g2)}`);
+  return parts.join(' · ');
 }

@@ -5,6 +5,10 @@ import { benchChannels, getBench } from './benches.ts';
 import { getDb } from './db/index.ts';
 import { alarmRules, channels, gateways } from './db/schema.ts';
 import { activeRuns } from './runs.ts';
+import { statusSchema } from '../contract/wire.ts';
+
+/** Only the scan range of a stored status; the rest of it is the health page's business. */
+const storedScanSchema = statusSchema.pick({ scan: true });
 
 export async function loadBenchView(benchId: string): Promise<BenchViewData | null> {
   const bench = await getBench(benchId);
@@ -44,7 +48,8 @@ export async function loadBenchView(benchId: string): Promise<BenchViewData | nu
     herald: byRole('herald'),
     gateways: gws.map((g) => {
       const state = (g.status as { state?: unknown } | null)?.state;
-      return { id: g.id, online: state === 'online' && !g.revokedAt, lastSeenMs: g.lastSeenAt ? g.lastSeenAt.getTime() : null };
+      const scan = storedScanSchema.safeParse(g.status ?? {});
+      return { id: g.id, online: state === 'online' && !g.revokedAt, lastSeenMs: g.lastSeenAt ? g.lastSeenAt.getTime() : null, scan: scan.success ? (scan.data.scan ?? null) : null };
     }),
     // Several rules: the strictest (highest) limit is the one the trend must stay above.
     visibilityLimit: limits.length ? Math.max(...limits.map((l) => l.threshold)) : null,
