@@ -106,6 +106,24 @@ async function profiled<T>(dir: string | null, phase: string, fn: () => Promise<
   }
 }
 
+/**
+ * Runs `fn` for gateway `i` once per batch period (100 ms), phase-shifted by i/20 of the period:
+ * independent benches are not in step, and 20 timers created together would fire in the same
+ * tick, turning the steady load into one burst of 20 batches every 100 ms. Returns a stop function.
+ */
+function every(i: number, fn: () => void): () => void {
+  const period = BINS * DT_MS;
+  let timer: NodeJS.Timeout | undefined;
+  const start = setTimeout(() => {
+    fn();
+    timer = setInterval(fn, period);
+  }, (i * period) / GATEWAYS);
+  return () => {
+    clearTimeout(start);
+    clearInterval(timer);
+  };
+}
+
 function pct(sorted: number[], p: number): number {
   return sorted.length ? sorted[Math.min(sorted.length - 1, Math.floor(sorted.length * p))]! : NaN;
 }
@@ -152,10 +170,10 @@ async function bareBroker(): Promise<{ qos1MsgsPerS: number; roundTripP50Ms: num
   const lat: number[] = [];
   sub.on('message', (_t, p) => lat.push(performance.now() - Number(JSON.parse(String(p)).sent)));
   const timers = pubs.map((p, i) =>
-    setInterval(() => void p.publishAsync(`bench/${i}/counts`, JSON.stringify({ ...batch(0, 0), sent: performance.now() }), { qos: 1 }), (BINS * DT_MS)),
+    every(i, () => void p.publishAsync(`bench/${i}/counts`, JSON.stringify({ ...batch(0, 0), sent: performance.now() }), { qos: 1 })),
   );
   await new Promise((r) => setTimeout(r, 5_000));
-  timers.forEach(clearInterval);
+  timers.forEach((stop) => stop());
   await new Promise((r) => setTimeout(r, 200));
   lat.sort((a, b) => a - b);
   await Promise.all([...pubs, sub].map((c) => c.endAsync()));
@@ -209,19 +227,19 @@ async function fringewise(soakMs: number, profileDir: string | null) {
   const began = performance.now();
   const pending: Promise<void>[] = [];
   const timers = clients.map((c, i) =>
-    setInterval(() => {
+    every(i, () => {
       const seq = seqs[i]!++;
       const t0 = start + seq * BINS * DT_MS;
       clientsWorker.postMessage({ key: `${gws[i]!.gatewayId}/${t0}`, at: now() });
       pending.push(c.publishAsync(topicFor(gws[i]!.gatewayId, 'counts'), payload(t0, seq), { qos: 1 }).then(() => undefined));
-    }, BINS * DT_MS),
+    }),
   );
   const sampler = setInterval(() => {
     const m = process.memoryUsage();
     memory.push({ t: round((performance.now() - began) / 1000, 0), rssMb: round(m.rss / 2 ** 20, 1), heapMb: round(m.heapUsed / 2 ** 20, 1) });
   }, 5_000);
   await profiled(profileDir, 'realistic', () => new Promise((r) => setTimeout(r, soakMs)));
-  timers.forEach(clearInterval);
+  timers.forEach((stop) => stop());
   clearInterval(sampler);
   await Promise.all(pending);
   const realSeconds = (performance.now() - began) / 1000;
