@@ -171,8 +171,9 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
           }}
         />
       </div>
-      <div className="grid gap-4 lg:grid-cols-3">
-        <div className="lg:col-span-2">
+      {/* Side by side only from xl: at tablet width a third is too narrow for the statistics' values. */}
+      <div className="grid gap-4 xl:grid-cols-3">
+        <div className="xl:col-span-2">
           <VisibilityTrend sweeps={sweeps} envelope={envelope} limit={bench.visibilityLimit} loading={sweepsLoading} error={sweepsError} />
         </div>
         <PhotonStats figures={figures} hasCoincidences={hasCc} />
