@@ -302,6 +302,8 @@ export async function run(opts: { soakSeconds?: number; profileDir?: string | nu
         saturationVsBareBroker: round(fw.saturation.msgsPerS / bare.qos1MsgsPerS),
         wsP99MinusBrokerP99Ms: round(fw.realistic.wsP99Ms - bare.roundTripP99Ms),
         ingestVsCopyBinsPerS: round(fw.saturation.binsPerS / copy.copyBinsPerS),
+        // Offered: every gateway's channels × 1,000 bins/s; below ~0.97 the server fell behind.
+        realisticStoredVsOffered: round(fw.realistic.binsPerS / ((GATEWAYS * KEYS.length * BINS * 1000) / (BINS * DT_MS))),
       },
       memorySamples: mem,
     };
