@@ -6,6 +6,9 @@ import type { Sweep } from '../../lib/client/api.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
 import { axis, timeAxis, useUPlot } from '../charts/useUPlot.ts';
 
+/** Narrowest time span drawn, s: two sweeps seconds apart would otherwise get millisecond ticks. */
+const MIN_SPAN_S = 120;
+
 export interface EnvelopePoint {
   /** ms since the epoch */
   t: number;
@@ -48,7 +51,7 @@ export function VisibilityTrend(props: Props) {
       legend: { show: true, live: false },
       cursor: { drag: { x: false, y: false } },
       // Without points uPlot hands an empty span (null or 0): show the useful 0.8–1 rather than 0–0.01.
-      scales: { x: { time: true }, y: { range: (_u, min, max) => (min == null || max == null || !(max > 0) ? [0.8, 1] : [Math.max(0, Math.min(min, ref.current.limit ?? 1) - 0.02), Math.min(1.0, max + 0.01)]) } },
+      scales: { x: { time: true, range: (_u, min, max) => (min == null || max == null || max - min < MIN_SPAN_S ? [(max ?? Date.now() / 1000) - MIN_SPAN_S, (max ?? Date.now() / 1000) + 5] : [min, max]) }, y: { range: (_u, min, max) => (min == null || max == null || !(max > 0) ? [0.8, 1] : [Math.max(0, Math.min(min, ref.current.limit ?? 1) - 0.02), Math.min(1.0, max + 0.01)]) } },
       axes: [timeAxis(p), axis(p, { size: 56, label: 'visibility' })],
       bands: [{ series: [3, 2], fill: withAlpha(p.accent, 0.18) }],
       series: [
