@@ -178,7 +178,8 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
         </div>
         <PhotonStats figures={figures} hasCoincidences={hasCc} />
       </div>
-      <div className="grid gap-4 lg:grid-cols-2">
+      {/* The drive's five fields need the full width of a tablet. */}
+      <div className="grid gap-4 xl:grid-cols-2">
         {viewer.canOperate ? (
           <SweepControl
             bench={bench}
