@@ -3,6 +3,7 @@
 import { useEffect, useState } from 'react';
 import { alarmEventViewSchema, alarmMessageSchema, applyAlarmMessage, type AlarmEventView } from '../lib/alarm-messages.ts';
 import { liveSocket } from '../lib/client/live-socket.ts';
+import { formatDateTime } from '../lib/client/format.ts';
 
 interface Props {
   benchId: string;
@@ -19,7 +20,7 @@ const SEVERITY_CLASS: Record<AlarmEventView['severity'], string> = {
 };
 
 function when(iso: string): string {
-  return new Date(iso).toLocaleString(undefined, { dateStyle: 'short', timeStyle: 'medium' });
+  return formatDateTime(Date.parse(iso));
 }
 
 async function ack(benchId: string, id: number, comment: string): Promise<AlarmEventView> {

@@ -55,7 +55,15 @@ export async function seedDemo(opts: { dataDir?: string } = {}): Promise<void> {
   const before = JSON.stringify(tokens);
   for (const b of DEMO_BENCHES) {
     const [exists] = await db.select({ id: benches.id }).from(benches).where(eq(benches.id, b.id)).limit(1);
-    if (!exists) await createBench({ id: b.id, name: b.name, wavelengthNm: b.wavelengthNm, description: b.description });
+    if (!exists) {
+      await createBench({ id: b.id, name: b.name, wavelengthNm: b.wavelengthNm, description: b.description });
+      // The settings an admin would enter for these benches: drive limits inside what the piezo
+      // reaches, the path geometry and the counter's coincidence window.
+      await db
+        .update(benches)
+        .set({ driveMin: b.scan.min, driveMax: b.scan.max, pathFactor: b.model.optics.pathFactor, coincidenceWindowNs: b.model.coincidenceWindowNs || 2 })
+        .where(eq(benches.id, b.id));
+    }
     const [gw] = await db.select({ revokedAt: gateways.revokedAt }).from(gateways).where(eq(gateways.id, b.gateway)).limit(1);
     if (!gw) tokens[b.gateway] = (await createGateway(b.gateway, b.id)).token;
     else if (gw.revokedAt) delete tokens[b.gateway];

@@ -142,7 +142,11 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
       alpha = r.alpha;
     } else {
       const r = g2FromCoincidences({ counts1: ta.counts, counts2: tb.counts, coincidences, seconds: ta.seconds, windowS: input.coincidenceWindowNs * 1e-9 });
-      g2 = { value: r.g2.value, err: r.g2.err, accidentals: r.accidentals };
+      // Few coincidences (accidentals at a fraction of a count per window, as on slow InGaAs
+      // benches): the Gaussian error collapses to 0 at 0 counts, so quote the exact Garwood
+      // interval's half-width instead.
+      const err = coincidences < 20 ? (r.interval.upper - r.interval.lower) / 2 : r.g2.err;
+      g2 = { value: r.g2.value, err, accidentals: r.accidentals };
     }
   }
 

@@ -89,21 +89,20 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     };
     const result = await opts.fit({ x: pass.x, a: pass.a, b: pass.b }, options);
     if (!result.ok) return null;
-    const summary = await storeSweep(benchId, pass, result, optics ?? null);
-    return summary ? { result, summary } : null;
+    const stored = await storeSweep(benchId, pass, result, optics ?? null);
+    return stored ? { result, ...stored } : null;
   }
 
   async function fitAndStore(benchId: string, s: BenchState, pass: CompletedPass, settings: { channels: ChannelSettings[] }) {
     const fitted = await fitPass(benchId, pass, settings.channels.find((c) => c.role === 'out_a'), settings.channels.find((c) => c.role === 'out_b'));
     if (!fitted) return;
-    const { result, summary } = fitted;
+    const { result, summary, fit } = fitted;
     const shown = result.shown === 'net' && result.visibilityNet ? result.visibilityNet : result.visibility;
     s.sweepNet = result.shown === 'net';
     s.sweepPoints.push({ timeMs: (pass.startMs + pass.endMs) / 2, value: shown.value, err: shown.err });
     if (s.sweepPoints.length > 32) s.sweepPoints.splice(0, s.sweepPoints.length - 32);
     serverEvents().emit('sweep-fitted', { benchId, sweep: summary });
-    const [row] = await sweepsBetween(benchId, pass.startMs, pass.startMs, 1);
-    opts.publish(benchId, { type: 'sweep', bench: benchId, sweep: { ...summary, fit: row?.fit ?? null } });
+    opts.publish(benchId, { type: 'sweep', bench: benchId, sweep: { ...summary, fit } });
   }
 
   async function fitStored(benchId: string, gatewayId: string, fromMs: number, toMs: number): Promise<number> {

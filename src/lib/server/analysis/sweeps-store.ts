@@ -39,7 +39,8 @@ function meanPeriod(fit: FringeFit, xMin: number, xMax: number): Measured {
   return { value: fit.period.value * scale, err: fit.period.err * scale };
 }
 
-export async function storeSweep(benchId: string, pass: CompletedPass, fit: FringeFit, optics: BenchOptics | null): Promise<FittedSweepSummary | null> {
+/** Stores a fitted pass; null when that pass was stored before. */
+export async function storeSweep(benchId: string, pass: CompletedPass, fit: FringeFit, optics: BenchOptics | null): Promise<{ summary: FittedSweepSummary; fit: StoredFit } | null> {
   const shownV = fit.shown === 'net' && fit.visibilityNet ? fit.visibilityNet : fit.visibility;
   let bins = 0;
   for (const n of pass.binsPerPoint) bins += n;
@@ -88,7 +89,7 @@ export async function storeSweep(benchId: string, pass: CompletedPass, fit: Frin
     .onConflictDoNothing()
     .returning();
   if (!row) return null;
-  return summary(row);
+  return { summary: summary(row), fit: stored };
 }
 
 function summary(row: typeof sweeps.$inferSelect): FittedSweepSummary {
