@@ -32,6 +32,8 @@ export interface RunningApp {
   url: string;
   /** The embedded broker's port (null with an external broker). */
   mqttPort: number | null;
+  /** WebSocket upgrade handlers by path, for a web server started elsewhere (`npm run dev`). */
+  upgrades: Record<string, UpgradeHandler>;
   close(): Promise<void>;
 }
 
@@ -105,10 +107,10 @@ export async function startApp(opts: AppOptions): Promise<RunningApp> {
       stops.push(() => demo.stop());
     }
     const upgrades: Record<string, UpgradeHandler> = { ...live.upgrades };
-    if (!opts.web) return { url: '', mqttPort: live.transport.port, close: stopAll };
+    if (!opts.web) return { url: '', mqttPort: live.transport.port, upgrades, close: stopAll };
     const web = await startWebServer({ port: opts.port, host: opts.host, upgrades });
     stops.push(() => web.close());
-    return { url: web.url, mqttPort: live.transport.port, close: stopAll };
+    return { url: web.url, mqttPort: live.transport.port, upgrades, close: stopAll };
   } catch (err) {
     await stopAll();
     throw err;
