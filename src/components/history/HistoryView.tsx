@@ -1,5 +1,7 @@
 // Any time range of a bench on one zoomable chart. The counts API sums bins server-side; we ask
 // for a step that gives at most about one point per chart pixel, and ask again after every zoom.
+// The fitted sweeps and the stability of the same range sit below it, each fetching on its own so
+// the three requests run in parallel.
 import { useEffect, useRef, useState } from 'react';
 import type uPlot from 'uplot';
 import type { ViewChannel } from '../../lib/bench-view.ts';
@@ -7,7 +9,10 @@ import { errorText, fetchCounts, type CountsAnswer } from '../../lib/client/api.
 import { formatDateTime, formatRate, formatRateTick } from '../../lib/client/format.ts';
 import { axis, timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
 import { channelColour } from '../bench/RatesChart.tsx';
+import { ChartState } from '../charts/ChartState.tsx';
 import { pickStep, toLocalInput } from './history-range.ts';
+import { StabilityCard } from './StabilityCard.tsx';
+import { SweepHistory } from './SweepHistory.tsx';
 
 const PRESETS: { label: string; ms: number }[] = [
   { label: '10 min', ms: 10 * 60_000 },
@@ -100,41 +105,45 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
   const empty = answer && Object.values(answer.channels).every((col) => col.every((v) => v == null || v === 0));
 
   return (
-    <section className="card space-y-3" aria-labelledby="hist-h">
-      <div className="flex flex-wrap items-end justify-between gap-3">
-        <div>
-          <h2 id="hist-h" className="font-semibold">Count rates</h2>
-          <p className="figure text-xs text-muted" data-testid="history-range">
-            {formatDateTime(range.from)} → {formatDateTime(range.to)} · step {step >= 1000 ? `${step / 1000} s` : `${step} ms`}
-            {loadMs !== null && ` · loaded in ${loadMs.toFixed(0)} ms`}
-          </p>
-        </div>
-        <div className="flex flex-wrap items-end gap-2">
-          <div role="group" aria-label="Range ending now" className="flex overflow-hidden rounded-md border border-line">
-            {PRESETS.map((p) => (
-              <button key={p.label} type="button" className="figure px-2.5 py-1 text-xs hover:bg-sunken" onClick={() => { const now = Date.now(); setRange({ from: now - p.ms, to: now }); }}>
-                {p.label}
-              </button>
-            ))}
+    <div className="space-y-4">
+      <section className="card space-y-3" aria-labelledby="hist-h">
+        <div className="flex flex-wrap items-end justify-between gap-3">
+          <div>
+            <h2 id="hist-h" className="font-semibold">Count rates</h2>
+            <p className="figure text-xs text-muted" data-testid="history-range">
+              {formatDateTime(range.from)} → {formatDateTime(range.to)} · step {step >= 1000 ? `${step / 1000} s` : `${step} ms`}
+              {loadMs !== null && ` · loaded in ${loadMs.toFixed(0)} ms`}
+            </p>
           </div>
-          <label><span className="label">From</span><input className="field figure !py-1 text-xs" type="datetime-local" value={toLocalInput(range.from)} onChange={(e) => { const t = new Date(e.target.value).getTime(); if (Number.isFinite(t) && t < range.to) setRange({ ...range, from: t }); }} /></label>
-          <label><span className="label">To</span><input className="field figure !py-1 text-xs" type="datetime-local" value={toLocalInput(range.to)} onChange={(e) => { const t = new Date(e.target.value).getTime(); if (Number.isFinite(t) && t > range.from) setRange({ ...range, to: t }); }} /></label>
+          <div className="flex flex-wrap items-end gap-2">
+            <div role="group" aria-label="Range ending now" className="flex overflow-hidden rounded-md border border-line">
+              {PRESETS.map((p) => (
+                <button key={p.label} type="button" className="figure px-2.5 py-1 text-xs hover:bg-sunken" onClick={() => { const now = Date.now(); setRange({ from: now - p.ms, to: now }); }}>
+                  {p.label}
+                </button>
+              ))}
+            </div>
+            <label><span className="label">From</span><input className="field figure !py-1 text-xs" type="datetime-local" value={toLocalInput(range.from)} onChange={(e) => { const t = new Date(e.target.value).getTime(); if (Number.isFinite(t) && t < range.to) setRange({ ...range, from: t }); }} /></label>
+            <label><span className="label">To</span><input className="field figure !py-1 text-xs" type="datetime-local" value={toLocalInput(range.to)} onChange={(e) => { const t = new Date(e.target.value).getTime(); if (Number.isFinite(t) && t > range.from) setRange({ ...range, to: t }); }} /></label>
+          </div>
         </div>
-      </div>
-      <div ref={box} className="relative min-h-[360px]" role="img" aria-label="Count rates over the chosen time range; drag across the chart to zoom in">
-        {(loading || error || empty) && (
-          <p className={`pointer-events-none absolute left-1/2 top-[40%] z-10 -translate-x-1/2 -translate-y-1/2 rounded-md border border-line bg-panel px-3 py-1.5 text-center text-sm ${error ? 'text-bad' : 'text-muted'}`} data-testid="history-state">
-            {error ? `Could not load counts: ${error}` : loading ? 'Loading…' : 'No counts in this range.'}
-          </p>
-        )}
-      </div>
-      <div className="flex flex-wrap items-center justify-between gap-2 text-sm">
-        <p className="text-xs text-muted">Drag across the chart to zoom in; pick a preset to zoom out.</p>
-        <div className="flex gap-2">
-          <a className="btn" href={`${base}&format=csv`} download={`${benchId}-counts.csv`}>Export CSV</a>
-          <a className="btn" href={base} download={`${benchId}-counts.json`}>Export JSON</a>
+        <div ref={box} className="relative min-h-[360px]" role="img" aria-label="Count rates over the chosen time range; drag across the chart to zoom in">
+          {(loading || error || empty) && (
+            <ChartState error={!!error} testId="history-state">
+              {error ? `Could not load counts: ${error}` : loading ? 'Loading…' : 'No counts in this range.'}
+            </ChartState>
+          )}
         </div>
-      </div>
-    </section>
+        <div className="flex flex-wrap items-center justify-between gap-2 text-sm">
+          <p className="text-xs text-muted">Drag across the chart to zoom in; pick a preset to zoom out.</p>
+          <div className="flex gap-2">
+            <a className="btn" href={`${base}&format=csv`} download={`${benchId}-counts.csv`}>Export CSV</a>
+            <a className="btn" href={base} download={`${benchId}-counts.json`}>Export JSON</a>
+          </div>
+        </div>
+      </section>
+      <SweepHistory benchId={benchId} from={range.from} to={range.to} />
+      <StabilityCard benchId={benchId} channels={channels} from={range.from} to={range.to} />
+    </div>
   );
 }

@@ -14,3 +14,14 @@ export function toLocalInput(ms: number): string {
   const p = (n: number) => String(n).padStart(2, '0');
   return `${d.getFullYear()}-${p(d.getMonth() + 1)}-${p(d.getDate())}T${p(d.getHours())}:${p(d.getMinutes())}`;
 }
+
+/** Points wanted in a stability series: enough for τ up to τ₀·2¹⁰ with many terms at short τ. */
+const STABILITY_POINTS = 2000;
+/** Above this span, ms, the series is read at whole seconds, which the 1 s rollups serve fast. */
+const ROLLUP_SPAN_MS = 5 * 60_000;
+
+/** τ₀ (ms) for the stability of a span: about 2000 buckets, whole seconds beyond a few minutes. */
+export function stabilityStep(spanMs: number): number {
+  const step = pickStep(spanMs, STABILITY_POINTS);
+  return spanMs > ROLLUP_SPAN_MS ? Math.max(1_000, step) : step;
+}

@@ -2,6 +2,8 @@
 // turned into one readable message (the server's `{ error }` when it sent one).
 import { z } from 'zod';
 import { benchFiguresSchema, type BenchFigures } from '../bench-figures-schema.ts';
+import { alarmEventViewSchema, type AlarmEventView } from '../alarm-messages.ts';
+import { stabilitySchema, type Stability } from '../stability.ts';
 import { noteViewSchema, runViewSchema, type AddNoteBody, type NoteView, type RunView } from '../runs.ts';
 import type { CommandBody } from '../contract/wire.ts';
 
@@ -70,6 +72,9 @@ export const sweepFitSchema = z
     dtMs: z.number().positive(),
     xMin: z.number().optional(),
     xMax: z.number().optional(),
+    /** Mirror travel per volt over the pass, nm/V; null when the bench's optics are unknown (older fits lack it). */
+    piezoNmPerV: z.object({ value: z.number(), err: z.number() }).nullable().optional(),
+    quality: z.object({ pValue: z.number() }).passthrough().optional(),
   })
   .passthrough();
 export type SweepFit = z.infer<typeof sweepFitSchema>;
@@ -106,6 +111,15 @@ export function sweepFit(s: Sweep): SweepFit | null {
 export function fetchSweeps(bench: string, from: number, to: number, signal?: AbortSignal): Promise<Sweep[]> {
   const q = new URLSearchParams({ from: String(Math.floor(from)), to: String(Math.ceil(to)) });
   return call(`/api/v1/benches/${encodeURIComponent(bench)}/sweeps?${q}`, z.array(sweepSchema), undefined, signal);
+}
+
+export function fetchStability(bench: string, from: number, to: number, step: number, signal?: AbortSignal): Promise<Stability> {
+  const q = new URLSearchParams({ from: String(Math.floor(from)), to: String(Math.ceil(to)), step: String(step) });
+  return call(`/api/v1/benches/${encodeURIComponent(bench)}/stability?${q}`, stabilitySchema, undefined, signal);
+}
+
+export function fetchOpenAlarms(bench: string, signal?: AbortSignal): Promise<AlarmEventView[]> {
+  return call(`/api/v1/benches/${encodeURIComponent(bench)}/alarms?open=1`, z.array(alarmEventViewSchema), undefined, signal);
 }
 
 export async function fetchFigures(bench: string, signal?: AbortSignal): Promise<BenchFigures | null> {

@@ -1,29 +1,10 @@
 // Stability of a bench over a time range: overlapping Allan deviation of each channel's rate and of
 // the interferometer phase, beside the white-Poisson reference √(R/τ) a rate cannot beat.
-import { allanDeviation, type AllanPoint } from '../../analysis/allan.ts';
+import { allanDeviation } from '../../analysis/allan.ts';
 import { phaseAtHold, unfoldPhase } from '../../analysis/phase.ts';
 import { queryCounts } from '../counts-query.ts';
+import type { RateStability, Stability } from '../../stability.ts';
 import { sweepsBetween } from './sweeps-store.ts';
-
-export interface RateStability {
-  channel: string;
-  role: string;
-  /** Mean rate over the range, counts/s. */
-  meanRate: number;
-  points: (AllanPoint & { poissonLimit: number })[];
-}
-
-export interface Stability {
-  from: number;
-  to: number;
-  /** τ₀: the bucket the series were read at, s. */
-  tau0: number;
-  rates: RateStability[];
-  /** Allan deviation of the phase (rad) while the drive held still; null without a visibility to scale by. */
-  phase: { visibility: number; points: AllanPoint[] } | null;
-  /** Buckets with no stored bins are left out of the series, which joins across them. */
-  missingBuckets: number;
-}
 
 /** Reads the range at `stepMs` and computes the Allan deviations (τ = step·2^k). */
 export async function benchStability(benchId: string, from: number, to: number, stepMs: number): Promise<Stability> {

@@ -1,0 +1,211 @@
+// The fitted sweeps of a history range: each pass's visibility with its ±1σ whisker on the same time
+// axis as the count rates above, up and down passes apart (they differ by the piezo's hysteresis),
+// and a summary per direction an operator can quote: how many, mean V and its scatter, the piezo
+// calibration.
+import { useEffect, useMemo, useRef, useState } from 'react';
+import type uPlot from 'uplot';
+import { errorText, fetchSweeps, sweepFit, type Sweep } from '../../lib/client/api.ts';
+import { withAlpha } from '../../lib/client/chart-theme.ts';
+import { formatClock, formatNumber, formatValueErr } from '../../lib/client/format.ts';
+import { ChartState } from '../charts/ChartState.tsx';
+import { errorBars } from '../charts/error-bars.ts';
+import { axis, timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
+
+const HEIGHT = 220;
+
+interface Props {
+  benchId: string;
+  from: number;
+  to: number;
+}
+
+interface Summary {
+  label: string;
+  n: number;
+  /** Mean of the fitted V with their sample standard deviation (the scatter from pass to pass). */
+  v: { value: number; err: number } | null;
+  /** Median of the fits' own 1σ: scatter well above it means the visibility moved. */
+  medianErr: number | null;
+  piezo: { value: number; err: number } | null;
+  medianP: number | null;
+}
+
+function meanSd(xs: number[]): { value: number; err: number } | null {
+  if (xs.length === 0) return null;
+  const mean = xs.reduce((a, b) => a + b, 0) / xs.length;
+  const sd = xs.length > 1 ? Math.sqrt(xs.reduce((a, b) => a + (b - mean) ** 2, 0) / (xs.length - 1)) : NaN;
+  return { value: mean, err: sd };
+}
+
+/** Mean ± σ, or the mean alone when one value gives no scatter. */
+function meanText(v: { value: number; err: number } | null, decimals: number): string {
+  if (!v) return '–';
+  return Number.isFinite(v.err) ? formatValueErr(v, decimals) : v.value.toFixed(decimals);
+}
+
+function median(xs: number[]): number | null {
+  if (xs.length === 0) return null;
+  const s = [...xs].sort((a, b) => a - b);
+  const m = s.length >> 1;
+  return s.length % 2 ? s[m]! : (s[m - 1]! + s[m]!) / 2;
+}
+
+function summarise(label: string, list: Sweep[]): Summary {
+  const fits = list.map(sweepFit);
+  return {
+    label,
+    n: list.length,
+    v: meanSd(list.map((s) => s.visibility)),
+    medianErr: median(list.map((s) => s.visibilityErr)),
+    piezo: meanSd(fits.flatMap((f) => (f?.piezoNmPerV ? [f.piezoNmPerV.value] : []))),
+    medianP: median(fits.flatMap((f) => (f?.quality ? [f.quality.pValue] : []))),
+  };
+}
+
+/** One hovered sweep in words: when, which way, V, period, fit p-value and piezo calibration. */
+function describe(s: Sweep): string {
+  const f = sweepFit(s);
+  const parts = [
+    `${formatClock(s.start)}–${formatClock(s.end)}`,
+    `${s.direction} pass`,
+    `V ${formatValueErr({ value: s.visibility, err: s.visibilityErr })}`,
+    `period ${formatNumber(s.periodX, 3)} V`,
+    f?.quality ? `p = ${f.quality.pValue.toPrecision(2)}` : null,
+    f?.piezoNmPerV ? `piezo ${formatValueErr(f.piezoNmPerV)} nm/V` : null,
+  ];
+  return parts.filter(Boolean).join(' · ');
+}
+
+export function SweepHistory({ benchId, from, to }: Props) {
+  const [sweeps, setSweeps] = useState<Sweep[]>([]);
+  const [loading, setLoading] = useState(true);
+  const [error, setError] = useState<string | null>(null);
+  const [hover, setHover] = useState<number | null>(null);
+  const box = useRef<HTMLDivElement>(null);
+  const ref = useRef({ sweeps, from, to });
+  ref.current = { sweeps, from, to };
+
+  const data = (): uPlot.AlignedData => {
+    const list = ref.current.sweeps;
+    // One x per sweep (its middle): the up and down series are null where the other direction is.
+    return [list.map((s) => (s.start + s.end) / 2000), list.map((s) => (s.direction === 'up' ? s.visibility : null)), list.map((s) => (s.direction === 'down' ? s.visibility : null))];
+  };
+  const lo = (i: number) => { const s = ref.current.sweeps[i]; return s ? s.visibility - s.visibilityErr : null; };
+  const hi = (i: number) => { const s = ref.current.sweeps[i]; return s ? s.visibility + s.visibilityErr : null; };
+
+  const plot = useUPlot(
+    box,
+    (p) => ({
+      legend: { show: true, live: false },
+      cursor: { drag: { x: false, y: false }, points: { size: 9 } },
+      scales: {
+        x: { time: true, range: () => [ref.current.from / 1000, ref.current.to / 1000] },
+        // The whiskers' extent with a margin, never above 1 where the visibility cannot be.
+        y: {
+          range: () => {
+            const list = ref.current.sweeps;
+            if (list.length === 0) return [0.8, 1];
+            let min = Infinity;
+            let max = -Infinity;
+            for (const s of list) {
+              min = Math.min(min, s.visibility - s.visibilityErr);
+              max = Math.max(max, s.visibility + s.visibilityErr);
+            }
+            const pad = Math.max(0.002, (max - min) * 0.1);
+            return [Math.max(0, min - pad), Math.min(1, max + pad)];
+          },
+        },
+      },
+      // Same axis width as the count-rate chart above, so the two time axes line up.
+      axes: [timeAxis(p), axis(p, { size: 64, label: 'visibility (raw)' })],
+      series: [
+        { label: 'time', value: timeLegendValue },
+        { label: 'up pass ± 1σ', stroke: p.accent, width: 0, points: { show: true, size: 6, fill: p.accent, stroke: p.accent } },
+        // Hollow markers in the ember hue: apart from the up passes by shape as well as colour.
+        { label: 'down pass ± 1σ', stroke: p.ember, width: 0, points: { show: true, size: 7, width: 1.5, fill: p.panel, stroke: p.ember } },
+      ],
+      hooks: {
+        draw: [errorBars(1, lo, hi, withAlpha(p.accent, 0.55)), errorBars(2, lo, hi, withAlpha(p.ember, 0.55))],
+        setCursor: [(u: uPlot) => setHover(u.cursor.idx ?? null)],
+      },
+    }),
+    data,
+    HEIGHT,
+  );
+
+  useEffect(() => {
+    const ctl = new AbortController();
+    setLoading(true);
+    setError(null);
+    setHover(null);
+    fetchSweeps(benchId, from, to, ctl.signal).then(
+      (list) => {
+        setSweeps(list);
+        setLoading(false);
+      },
+      (err) => {
+        if (ctl.signal.aborted) return;
+        setError(errorText(err));
+        setLoading(false);
+      },
+    );
+    return () => ctl.abort();
+  }, [benchId, from, to]);
+
+  useEffect(() => {
+    plot.current?.setData(data());
+  }, [sweeps]);
+
+  const rows = useMemo(() => {
+    const up = sweeps.filter((s) => s.direction === 'up');
+    const down = sweeps.filter((s) => s.direction === 'down');
+    return [summarise('up', up), summarise('down', down), summarise('all', sweeps)];
+  }, [sweeps]);
+  const hovered = hover !== null ? sweeps[hover] : undefined;
+  const empty = !loading && !error && sweeps.length === 0;
+
+  return (
+    <section className="card space-y-3" aria-labelledby="sweeps-h" data-testid="history-sweeps">
+      <div className="flex flex-wrap items-baseline justify-between gap-2">
+        <h2 id="sweeps-h" className="font-semibold">Visibility over time</h2>
+        <p className="text-xs text-muted">each fitted sweep in the range, raw (no dark subtraction) · hover a point for its fit</p>
+      </div>
+      <div ref={box} className="relative" style={{ minHeight: HEIGHT }} role="img" aria-label="Fitted visibility of each sweep in the range, up and down passes apart, with ±1σ whiskers">
+        {(loading || error || empty) && (
+          <ChartState error={!!error} testId="sweeps-state">
+            {error ? `Could not load sweeps: ${error}` : loading ? 'Loading sweeps…' : 'No sweeps in this range.'}
+          </ChartState>
+        )}
+      </div>
+      <p className="figure min-h-4 truncate text-xs text-muted" aria-live="polite">{hovered ? describe(hovered) : '\u00a0'}</p>
+      {sweeps.length > 0 && (
+        <div className="overflow-x-auto">
+          <table className="table figure" aria-label="Sweeps in the range by direction">
+            <thead>
+              <tr>
+                <th scope="col">Passes</th>
+                <th scope="col" className="text-right">Sweeps</th>
+                <th scope="col" className="text-right">Mean V ± σ (scatter)</th>
+                <th scope="col" className="text-right">Median fit ±1σ</th>
+                <th scope="col" className="text-right">Piezo nm/V ± σ</th>
+                <th scope="col" className="text-right">Median fit p</th>
+              </tr>
+            </thead>
+            <tbody>
+              {rows.map((r) => (
+                <tr key={r.label} className={r.label === 'all' ? 'font-medium' : ''}>
+                  <th scope="row" className="text-left font-sans">{r.label}</th>
+                  <td className="text-right">{r.n}</td>
+                  <td className="text-right">{meanText(r.v, 4)}</td>
+                  <td className="text-right">{formatNumber(r.medianErr, 4)}</td>
+                  <td className="text-right">{meanText(r.piezo, 1)}</td>
+                  <td className="text-right">{r.medianP !== null ? r.medianP.toPrecision(2) : '–'}</td>
+                </tr>
+              ))}
+            </tbody>
+          </table>
+        </div>
+      )}
+    </section>
+  );
+}

@@ -1,0 +1,36 @@
+// The stability endpoint's answer (GET /api/v1/benches/{id}/stability): pure types and their zod
+// schema, shared by the server that computes it and the history island that draws it.
+import { z } from 'zod';
+import type { AllanPoint } from './analysis/allan.ts';
+
+export interface RateStability {
+  channel: string;
+  role: string;
+  /** Mean rate over the range, counts/s. */
+  meanRate: number;
+  /** `poissonLimit`: √(R/τ), counts/s, the white counting-noise floor the rate cannot beat. */
+  points: (AllanPoint & { poissonLimit: number })[];
+}
+
+export interface Stability {
+  from: number;
+  to: number;
+  /** τ₀: the bucket the series were read at, s. */
+  tau0: number;
+  rates: RateStability[];
+  /** Allan deviation of the phase (rad) while the drive held still; null without a visibility to scale by. */
+  phase: { visibility: number; points: AllanPoint[] } | null;
+  /** Buckets with no stored bins are left out of the series, which joins across them. */
+  missingBuckets: number;
+}
+
+const allanPoint = z.object({ tau: z.number(), adev: z.number(), err: z.number(), terms: z.number() });
+
+export const stabilitySchema: z.ZodType<Stability> = z.object({
+  from: z.number(),
+  to: z.number(),
+  tau0: z.number().positive(),
+  rates: z.array(z.object({ channel: z.string(), role: z.string(), meanRate: z.number(), points: z.array(allanPoint.extend({ poissonLimit: z.number() })) })),
+  phase: z.object({ visibility: z.number(), points: z.array(allanPoint) }).nullable(),
+  missingBuckets: z.number(),
+});
