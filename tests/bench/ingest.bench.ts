@@ -223,7 +223,8 @@ async function fringewise(soakMs: number, profileDir: string | null) {
   // Realistic load and soak: each gateway sends a batch of 100 one-ms bins every 100 ms.
   const start = Math.floor(Date.now() / 1000) * 1000 - 24 * 3_600_000;
   const seqs = new Array<number>(GATEWAYS).fill(0);
-  const memory: { t: number; rssMb: number; heapMb: number }[] = [];
+  // RSS counts the clients' worker thread too; heap and Buffers (arrayBuffers) are the server thread's own.
+  const memory: { t: number; rssMb: number; heapMb: number; buffersMb: number }[] = [];
   const began = performance.now();
   const pending: Promise<void>[] = [];
   const timers = clients.map((c, i) =>
@@ -236,7 +237,7 @@ async function fringewise(soakMs: number, profileDir: string | null) {
   );
   const sampler = setInterval(() => {
     const m = process.memoryUsage();
-    memory.push({ t: round((performance.now() - began) / 1000, 0), rssMb: round(m.rss / 2 ** 20, 1), heapMb: round(m.heapUsed / 2 ** 20, 1) });
+    memory.push({ t: round((performance.now() - began) / 1000, 0), rssMb: round(m.rss / 2 ** 20, 1), heapMb: round(m.heapUsed / 2 ** 20, 1), buffersMb: round(m.arrayBuffers / 2 ** 20, 1) });
   }, 5_000);
   await profiled(profileDir, 'realistic', () => new Promise((r) => setTimeout(r, soakMs)));
   timers.forEach((stop) => stop());
