@@ -1,21 +1,54 @@
-// Every bench at a glance: online or not, both output rates, visibility, open alarms, the active
-// run and who started it. Figures are polled (every 2 s) rather than streamed: one socket per
-// bench for a summary card would cost more than it shows.
+// Every bench at a glance: online or not, both outputs over the last minutes, visibility and where
+// it came from, open alarms by severity, the active run and who started it. Everything is polled
+// (figures every 2 s, the sparkline's counts and the open alarms every 5 s) rather than streamed:
+// one socket per bench for a summary card would cost more than it shows.
 import { useEffect, useState } from 'react';
+import type { AlarmEventView, Severity } from '../../lib/alarm-messages.ts';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
-import { errorText, fetchFigures } from '../../lib/client/api.ts';
+import { errorText, fetchCounts, fetchFigures, fetchOpenAlarms, type CountsAnswer } from '../../lib/client/api.ts';
 import { formatDuration, formatRate, formatValueErr } from '../../lib/client/format.ts';
 import type { OverviewBench } from '../../lib/overview.ts';
+import { Sparkline } from './Sparkline.tsx';
 
 /** Poll period of the figures, ms (the server recomputes them about once a second). */
 const POLL_MS = 2000;
+/** Poll period of the sparkline's counts and the open alarms, ms: one sparkline bucket. */
+const SLOW_POLL_MS = 5000;
+/** The sparkline's span and bucket, ms: 120 points, served from the 1 s rollups. */
+const SPARK_SPAN_MS = 10 * 60_000;
+const SPARK_STEP_MS = 5000;
 /** Figures older than this are shown as stale, ms. */
 const STALE_MS = 10_000;
 
 type Live = { figures: BenchFigures | null; error: string | null; loaded: boolean };
+/** Counts and open alarms of a bench from the slower poll; null while not (yet) loaded. */
+type Slow = { counts: CountsAnswer | null; alarms: AlarmEventView[] | null };
+
+const SEVERITY_RANK: Record<Severity, number> = { info: 0, warning: 1, critical: 2 };
+const SEVERITY_TONE: Record<Severity, string> = { info: 'text-muted', warning: 'text-warn', critical: 'font-semibold text-bad' };
+
+/** Rates (counts/s) of one channel of a counts answer, null in buckets without bins. */
+function rates(c: CountsAnswer, channel: string | undefined): (number | null)[] {
+  const col = channel ? c.channels[channel] : undefined;
+  return col ? col.map((v) => (v == null ? null : (v * 1000) / c.step)) : [];
+}
+
+/** Open alarms as the card says them: count and the worst severity's colour. */
+function alarmSummary(b: OverviewBench, alarms: AlarmEventView[] | null): { text: string; tone: string; title: string | undefined } {
+  if (!alarms) {
+    // Until the first poll answers, the counts the page was rendered with.
+    const tone = b.criticalAlarms ? SEVERITY_TONE.critical : b.openAlarms ? SEVERITY_TONE.warning : 'text-muted';
+    return { text: b.openAlarms ? `${b.openAlarms} open alarm${b.openAlarms > 1 ? 's' : ''}` : 'no open alarms', tone, title: undefined };
+  }
+  if (alarms.length === 0) return { text: 'no open alarms', tone: 'text-muted', title: undefined };
+  const worst = alarms.reduce<Severity>((w, e) => (SEVERITY_RANK[e.severity] > SEVERITY_RANK[w] ? e.severity : w), 'info');
+  const n = alarms.length;
+  return { text: `${n} open alarm${n > 1 ? 's' : ''} · ${worst}`, tone: SEVERITY_TONE[worst], title: alarms.map((e) => e.message).join('\n') };
+}
 
 export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
   const [live, setLive] = useState<Record<string, Live>>({});
+  const [slow, setSlow] = useState<Record<string, Slow>>({});
   const [now, setNow] = useState(() => Date.now());
 
   useEffect(() => {
@@ -42,6 +75,27 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
     };
   }, [benches]);
 
+  useEffect(() => {
+    let stopped = false;
+    const poll = async () => {
+      const to = Date.now();
+      const results = await Promise.all(
+        benches.map(async (b): Promise<[string, Slow]> => {
+          // A failed sparkline or alarm read keeps the card's other figures; the figures poll reports the bench's errors.
+          const [counts, alarms] = await Promise.all([fetchCounts(b.id, to - SPARK_SPAN_MS, to, SPARK_STEP_MS).catch(() => null), fetchOpenAlarms(b.id).catch(() => null)]);
+          return [b.id, { counts, alarms }];
+        }),
+      );
+      if (!stopped) setSlow(Object.fromEntries(results));
+    };
+    void poll();
+    const t = setInterval(() => void poll(), SLOW_POLL_MS);
+    return () => {
+      stopped = true;
+      clearInterval(t);
+    };
+  }, [benches]);
+
   if (benches.length === 0) return <p className="text-muted">No benches yet. An admin adds them under Benches &amp; gateways.</p>;
 
   return (
@@ -53,44 +107,61 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
         const o = f?.channels.find((c) => c.role === 'out_b');
         const stale = f ? now - f.at > STALE_MS : false;
         const online = b.gatewaysOnline > 0;
+        const v = f?.visibility ?? null;
+        const sl = slow[b.id];
+        const alarm = alarmSummary(b, sl?.alarms ?? null);
         return (
           <li key={b.id} className="card flex flex-col gap-3" data-testid={`bench-card-${b.id}`}>
             <div className="flex items-start justify-between gap-2">
-              <div>
+              <div className="min-w-0">
                 <a href={`/benches/${b.id}`} className="text-lg font-semibold hover:underline">{b.name}</a>
-                <p className="figure text-xs text-muted">{b.wavelengthNm} nm</p>
+                <p className="truncate text-xs text-muted" title={b.description || undefined}>
+                  <span className="figure">{b.wavelengthNm} nm</span>
+                  {b.description && ` · ${b.description}`}
+                </p>
               </div>
               <span className={`shrink-0 whitespace-nowrap rounded-full border px-2 py-0.5 text-xs font-medium ${online ? 'border-good text-good' : 'border-bad text-bad'}`}>
                 {online ? 'online' : 'offline'}
                 <span className="figure"> {b.gatewaysOnline}/{b.gatewaysTotal}</span>
               </span>
             </div>
-            <dl className="grid grid-cols-3 gap-2">
-              <div>
-                <dt className="label">Out A</dt>
-                <dd className="figure text-lg text-ember">{formatRate(a?.rateRaw)}</dd>
+            <div>
+              <Sparkline
+                label={`Rates of both outputs over the last ${SPARK_SPAN_MS / 60_000} minutes`}
+                series={sl?.counts ? [{ className: 'stroke-ember', values: rates(sl.counts, a?.channel) }, { className: 'stroke-tide', values: rates(sl.counts, o?.channel) }] : []}
+              />
+              <p className="mt-0.5 flex justify-between text-[11px] text-muted">
+                <span>−{SPARK_SPAN_MS / 60_000} min</span>
+                <span>now</span>
+              </p>
+            </div>
+            <dl className="grid grid-cols-2 gap-x-2 gap-y-2">
+              <div className="min-w-0">
+                <dt className="label truncate">{a?.label ?? 'Out A'}</dt>
+                <dd className="figure whitespace-nowrap text-lg text-ember">{formatRate(a?.rateRaw)}</dd>
               </div>
-              <div>
-                <dt className="label">Out B</dt>
-                <dd className="figure text-lg text-tide">{formatRate(o?.rateRaw)}</dd>
+              <div className="min-w-0">
+                <dt className="label truncate">{o?.label ?? 'Out B'}</dt>
+                <dd className="figure whitespace-nowrap text-lg text-tide">{formatRate(o?.rateRaw)}</dd>
               </div>
-              <div>
-                <dt className="label">Visibility</dt>
-                <dd className="figure text-lg">{f?.visibility ? formatValueErr(f.visibility, 3).split(' ± ')[0] : '–'}</dd>
+              <div className="col-span-2">
+                <dt className="label">Visibility{v?.net ? ', net of darks' : ''}</dt>
+                <dd className="whitespace-nowrap" data-testid={`bench-visibility-${b.id}`}>
+                  <span className="figure text-lg">{v ? formatValueErr(v) : '–'}</span>
+                  <span className="ml-2 text-xs text-muted">{!v ? 'needs a sweep or drift' : v.source === 'sweep' ? 'sweep fit' : 'fringe envelope'}</span>
+                </dd>
               </div>
             </dl>
             {!l?.loaded && <p className="text-xs text-muted">Loading figures…</p>}
             {l?.error && <p className="text-xs text-bad">Figures unavailable: {l.error}</p>}
             {l?.loaded && !l.error && !f && <p className="text-xs text-muted">No counts yet.</p>}
             {stale && <p className="text-xs text-warn">Figures are {formatDuration(now - f!.at)} old.</p>}
-            <div className="mt-auto flex flex-wrap items-center justify-between gap-2 border-t border-line pt-2 text-xs">
-              <span className={b.criticalAlarms ? 'font-semibold text-bad' : b.openAlarms ? 'text-warn' : 'text-muted'}>
-                {b.openAlarms ? `${b.openAlarms} open alarm${b.openAlarms > 1 ? 's' : ''}` : 'no open alarms'}
-              </span>
-              <span className="text-muted">
+            <div className="mt-auto flex flex-wrap items-center justify-between gap-x-3 gap-y-1 border-t border-line pt-2 text-xs">
+              <a href={`/benches/${b.id}#alarms`} className={`hover:underline ${alarm.tone}`} title={alarm.title}>{alarm.text}</a>
+              <span className="min-w-0 truncate text-muted">
                 {b.activeRun ? (
                   <>
-                    <a className="text-ink hover:underline" href={`/runs/${b.activeRun.id}`}>{b.activeRun.title}</a> · {b.activeRun.startedBy?.name ?? 'someone'}
+                    <a className="text-ink hover:underline" href={`/runs/${b.activeRun.id}`}>{b.activeRun.title}</a> · {b.activeRun.startedBy?.name ?? 'someone'} · <span className="figure">{formatDuration(now - b.activeRun.startMs)}</span>
                   </>
                 ) : (
                   'no active run'
