@@ -122,6 +122,8 @@ export function FringeChart(props: Props) {
   }, [props.sweeps]);
 
   const lastFit = props.sweeps.at(-1);
+  // The calibration of the latest pass, labelled with its direction: up and down differ by the piezo's hysteresis.
+  const piezo = lastFit ? sweepFit(lastFit)?.piezoNmPerV : null;
   return (
     <section className="card" aria-labelledby="fringe-h">
       <div className="mb-2 flex flex-wrap items-center justify-between gap-2">
@@ -132,6 +134,11 @@ export function FringeChart(props: Props) {
             {lastFit && (
               <>
                 {' · '}last fit <span className="figure" data-testid="last-fit-visibility">V = {formatValueErr({ value: lastFit.visibility, err: lastFit.visibilityErr })}</span>
+                {piezo && (
+                  <>
+                    {' · '}piezo <span className="figure" data-testid="last-fit-piezo">{formatValueErr(piezo, 1)} nm/V</span> ({lastFit.direction})
+                  </>
+                )}
               </>
             )}
           </p>

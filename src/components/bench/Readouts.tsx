@@ -93,8 +93,13 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
               <dd className="figure text-right">{formatValueErr(c.mandelQ)}</dd>
             </div>
           ))}
-          <dt className="text-muted">g²(0), accidentals subtracted</dt>
-          <dd className="figure text-right">{f.g2 ? formatValueErr(f.g2) : props.hasCoincidences ? 'waiting' : 'no coincidences'}</dd>
+          {/* A heralded bench is judged by α: its g²(0) without the herald only says "waiting". */}
+          {(f.g2 || !f.alpha) && (
+            <>
+              <dt className="text-muted">g²(0), accidentals subtracted</dt>
+              <dd className="figure text-right">{f.g2 ? formatValueErr(f.g2) : props.hasCoincidences ? 'waiting' : 'no coincidences'}</dd>
+            </>
+          )}
           {f.g2 && (
             <>
               <dt className="text-muted">accidentals</dt>
@@ -104,12 +109,13 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
           {f.alpha && (
             <>
               <dt className="text-muted">heralded α</dt>
-              <dd className="figure text-right">{formatValueErr(f.alpha)}</dd>
+              <dd className="figure text-right" data-testid="alpha">{formatValueErr(f.alpha)}</dd>
+              <dd className="col-span-2 -mt-1 !whitespace-normal text-xs text-muted">α = 0 an ideal single photon, 1 classical light; between them, multi-photon emission or background.</dd>
             </>
           )}
         </dl>
       )}
-      <p className="mt-2 text-xs text-muted">Q from the counts per bin over the last {f ? (f.windowMs / 1000).toFixed(0) : '–'} s: 0 Poissonian, &lt; 0 sub-Poissonian. g²(0) = 1 coherent, 0 single photon. While the drive sweeps, Q and g²(0) measure the fringes, not the light.</p>
+      <p className="mt-2 text-xs text-muted">Q from the counts per bin over the last {f ? (f.windowMs / 1000).toFixed(0) : '–'} s: 0 Poissonian, &lt; 0 sub-Poissonian.{f?.alpha ? '' : ' g²(0) = 1 coherent, 0 single photon.'} While the drive sweeps, these figures measure the fringes, not the light.</p>
     </section>
   );
 }
