@@ -6,6 +6,7 @@ import type { Duplex } from 'node:stream';
 import path from 'node:path';
 import { pathToFileURL } from 'node:url';
 import send from 'send';
+import { listen } from '../lib/server/listen.ts';
 
 export type UpgradeHandler = (req: http.IncomingMessage, socket: Duplex, head: Buffer) => void;
 
@@ -59,12 +60,7 @@ export async function startWebServer(opts: {
     }
     onUpgrade(req, socket, head);
   });
-  await new Promise<void>((resolve, reject) => {
-    server.once('error', reject);
-    server.listen(opts.port, opts.host, () => resolve());
-  });
-  const addr = server.address();
-  const port = typeof addr === 'object' && addr ? addr.port : opts.port;
+  const port = await listen(server, opts.port, opts.host);
   return {
     server,
     port,

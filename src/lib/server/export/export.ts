@@ -10,6 +10,7 @@ import { getDb, getDbHandle } from '../db/index.ts';
 import { runs } from '../db/schema.ts';
 import { HttpError } from '../http/responses.ts';
 import { timeParam } from '../http/time-params.ts';
+import type { Slice } from '../ingest/coverage.ts';
 
 /** Batches per page and gateway: a page is at most ~100 × 10,000 bins × channels, a few MB. */
 const PAGE_ROWS = 100;
@@ -70,15 +71,8 @@ export async function planExport(benchId: string, q: ExportQuery): Promise<Expor
   return { meta, format: q.format };
 }
 
-interface BatchRow {
-  t0: number;
-  dt: number;
-  n: number;
-  keys: string[];
-  counts: number[];
-  x: number[] | null;
-  cc: number[] | null;
-}
+/** A stored batch as read back: the same shape the ingest writes. */
+type BatchRow = Slice;
 
 /** Pages one gateway's batches overlapping [from, to) in t0 order. */
 export async function* gatewayBatches(gatewayId: string, fromMs: number, toMs: number): AsyncGenerator<BatchRow> {

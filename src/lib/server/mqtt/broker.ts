@@ -13,6 +13,7 @@ import type { Ingest } from '../ingest/pipeline.ts';
 import { verifyGatewayToken } from '../provisioning.ts';
 import { gatewayMayPublish, gatewayMaySubscribe } from './topic-policy.ts';
 import type { MqttTransport } from './transport.ts';
+import { listen } from '../listen.ts';
 
 export interface EmbeddedBrokerOptions {
   host: string;
@@ -95,12 +96,7 @@ export async function startEmbeddedBroker(opts: EmbeddedBrokerOptions): Promise<
     socket.on('close', () => sockets.delete(socket));
     broker.handle(socket);
   });
-  await new Promise<void>((resolve, reject) => {
-    server.once('error', reject);
-    server.listen(opts.port, opts.host, () => resolve());
-  });
-  const addr = server.address();
-  const port = typeof addr === 'object' && addr ? addr.port : opts.port;
+  const port = await listen(server, opts.port, opts.host);
 
   return {
     mode: 'embedded',
