@@ -127,21 +127,22 @@ export function FringeChart(props: Props) {
   return (
     <section className="card" aria-labelledby="fringe-h">
       <div className="mb-2 flex flex-wrap items-center justify-between gap-2">
-        <div>
+        {/* The text wraps beside the controls rather than pushing them onto a row of their own. */}
+        <div className="min-w-0 flex-[1_1_16rem]">
           <h2 id="fringe-h" className="font-semibold">Fringes against the drive</h2>
           <p className="text-xs text-muted">
             <span className="figure">{clicks.toLocaleString()}</span> clicks in the kept {dir ? `${dir}-going ` : ''}passes
-            {lastFit && (
-              <>
-                {' · '}last fit <span className="figure" data-testid="last-fit-visibility">V = {formatValueErr({ value: lastFit.visibility, err: lastFit.visibilityErr })}</span>
-                {piezo && (
-                  <>
-                    {' · '}piezo <span className="figure" data-testid="last-fit-piezo">{formatValueErr(piezo, 1)} nm/V</span> ({lastFit.direction})
-                  </>
-                )}
-              </>
-            )}
           </p>
+          {lastFit && (
+            <p className="text-xs text-muted">
+              last fit <span className="figure" data-testid="last-fit-visibility">V = {formatValueErr({ value: lastFit.visibility, err: lastFit.visibilityErr })}</span>
+              {piezo && (
+                <>
+                  {' · '}piezo <span className="figure" data-testid="last-fit-piezo">{formatValueErr(piezo)} nm/V</span> ({lastFit.direction} pass)
+                </>
+              )}
+            </p>
+          )}
         </div>
         <div className="flex items-center gap-2">
           <label className="flex items-center gap-1.5 text-xs text-muted">

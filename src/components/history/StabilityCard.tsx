@@ -25,11 +25,9 @@ interface Curve {
   points: { tau: number; y: number; err?: number }[];
 }
 
-/** τ in s as a tick: "0.5", "2", "1 min", "2 h". */
+/** τ in s as a tick on the decade grid: "0.1", "1", "100", "1000", "10 k" (minutes would break the decades). */
 function tauTick(t: number): string {
-  if (t >= 3600) return `${Number((t / 3600).toPrecision(2))} h`;
-  if (t >= 60) return `${Number((t / 60).toPrecision(2))} min`;
-  return String(Number(t.toPrecision(2)));
+  return t >= 10_000 ? `${Number((t / 1000).toPrecision(3))} k` : String(Number(t.toPrecision(3)));
 }
 
 /** One log–log Allan chart: the curves on a shared τ axis (the union of their τ). */
@@ -60,7 +58,11 @@ function AllanChart(props: { curves: Curve[]; yLabel: string; yTick: (v: number)
       legend: { show: true, live: true },
       cursor: { drag: { x: false, y: false } },
       scales: { x: { time: false, distr: 3, log: 10 }, y: { distr: 3, log: 10 } },
-      axes: [axis(p, { label: 'averaging time τ (s)', values: (_u, t) => t.map(tauTick) }), axis(p, { size: 64, label: props.yLabel, values: (_u, t) => t.map(props.yTick) })],
+      // On log axes uPlot thins crowded labels by handing null ticks (despite its types): left blank.
+      axes: [
+        axis(p, { label: 'averaging time τ (s)', values: (_u, t) => t.map((v: number | null) => (v == null ? '' : tauTick(v))) }),
+        axis(p, { size: 64, label: props.yLabel, values: (_u, t) => t.map((v: number | null) => (v == null ? '' : props.yTick(v))) }),
+      ],
       series: [
         { label: 'τ', value: (_u: uPlot, v: number | null) => (v == null ? '–' : `${tauTick(v)} s`) },
         ...ref.current.map((c) => ({

@@ -37,10 +37,10 @@ function meanSd(xs: number[]): { value: number; err: number } | null {
   return { value: mean, err: sd };
 }
 
-/** Mean ± σ, or the mean alone when one value gives no scatter. */
-function meanText(v: { value: number; err: number } | null, decimals: number): string {
+/** Mean ± spread (to the spread's precision unless `decimals`), or the mean alone when one value gives no spread. */
+function meanText(v: { value: number; err: number } | null, decimals?: number): string {
   if (!v) return '–';
-  return Number.isFinite(v.err) ? formatValueErr(v, decimals) : v.value.toFixed(decimals);
+  return Number.isFinite(v.err) ? formatValueErr(v, decimals) : v.value.toFixed(decimals ?? 3);
 }
 
 function median(xs: number[]): number | null {
@@ -121,11 +121,11 @@ export function SweepHistory({ benchId, from, to }: Props) {
       series: [
         { label: 'time', value: timeLegendValue },
         { label: 'up pass ± 1σ', stroke: p.accent, width: 0, points: { show: true, size: 6, fill: p.accent, stroke: p.accent } },
-        // Hollow markers in the ember hue: apart from the up passes by shape as well as colour.
-        { label: 'down pass ± 1σ', stroke: p.ember, width: 0, points: { show: true, size: 7, width: 1.5, fill: p.panel, stroke: p.ember } },
+        // Hollow markers in the ink colour: apart from the up passes by shape as well as colour (ember and tide are the outputs').
+        { label: 'down pass ± 1σ', stroke: p.ink, width: 0, points: { show: true, size: 7, width: 1.5, fill: p.panel, stroke: p.ink } },
       ],
       hooks: {
-        draw: [errorBars(1, lo, hi, withAlpha(p.accent, 0.55)), errorBars(2, lo, hi, withAlpha(p.ember, 0.55))],
+        draw: [errorBars(1, lo, hi, withAlpha(p.accent, 0.55)), errorBars(2, lo, hi, withAlpha(p.ink, 0.45))],
         setCursor: [(u: uPlot) => setHover(u.cursor.idx ?? null)],
       },
     }),
@@ -185,9 +185,9 @@ export function SweepHistory({ benchId, from, to }: Props) {
               <tr>
                 <th scope="col">Passes</th>
                 <th scope="col" className="text-right">Sweeps</th>
-                <th scope="col" className="text-right">Mean V ± σ (scatter)</th>
-                <th scope="col" className="text-right">Median fit ±1σ</th>
-                <th scope="col" className="text-right">Piezo nm/V ± σ</th>
+                <th scope="col" className="text-right">Mean V ± spread</th>
+                <th scope="col" className="text-right">Median fit error</th>
+                <th scope="col" className="text-right">Piezo nm/V ± spread</th>
                 <th scope="col" className="text-right">Median fit p</th>
               </tr>
             </thead>
@@ -198,7 +198,7 @@ export function SweepHistory({ benchId, from, to }: Props) {
                   <td className="text-right">{r.n}</td>
                   <td className="text-right">{meanText(r.v, 4)}</td>
                   <td className="text-right">{formatNumber(r.medianErr, 4)}</td>
-                  <td className="text-right">{meanText(r.piezo, 1)}</td>
+                  <td className="text-right">{meanText(r.piezo)}</td>
                   <td className="text-right">{r.medianP !== null ? r.medianP.toPrecision(2) : '–'}</td>
                 </tr>
               ))}
