@@ -48,6 +48,14 @@ async function waitForLiveRate(page: Page, testId: string): Promise<void> {
   await page.waitForFunction((id) => /\d/.test(document.querySelector(`[data-testid="${id}"]`)?.textContent ?? ''), testId, { timeout: 30_000 });
 }
 
+/** The history's visibility and stability charts drew (a canvas each) and settled without an error or empty state. */
+async function expectHistoryCharts(page: Page): Promise<void> {
+  for (const id of ['history-sweeps', 'stability-rates-chart']) await page.locator(`[data-testid="${id}"] canvas`).first().waitFor({ timeout: 15_000 });
+  // The first test's passes on this bench are within the default hour, and so are its counts.
+  await page.getByRole('table', { name: 'Sweeps in the range by direction' }).waitFor({ timeout: 15_000 });
+  await expect.poll(() => page.locator('[data-testid="sweeps-state"], [data-testid="stability-state"]').count(), { timeout: 15_000 }).toBe(0);
+}
+
 describe('bench live view', () => {
   it('lets an operator sweep and shows the fit with a visibility within the truth ± 3σ', async () => {
     const page = operator.page;
@@ -120,6 +128,7 @@ describe('bench live view', () => {
     ] as const) {
       const res = await page.goto(app.url + path);
       expect(res?.status(), path).toBe(200);
+      if (name === 'history') await expectHistoryCharts(page);
       await page.waitForTimeout(2000);
       await screenshotBothThemes(page, name);
     }

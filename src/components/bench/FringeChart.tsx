@@ -135,10 +135,12 @@ export function FringeChart(props: Props) {
           </p>
           {lastFit && (
             <p className="text-xs text-muted">
-              last fit <span className="figure" data-testid="last-fit-visibility">V = {formatValueErr({ value: lastFit.visibility, err: lastFit.visibilityErr })}</span>
+              {/* Each figure kept whole, so a narrow card breaks the line between them. */}
+              <span className="whitespace-nowrap">last fit <span className="figure" data-testid="last-fit-visibility">V = {formatValueErr({ value: lastFit.visibility, err: lastFit.visibilityErr })}</span></span>
               {piezo && (
                 <>
-                  {' · '}piezo <span className="figure" data-testid="last-fit-piezo">{formatValueErr(piezo)} nm/V</span> ({lastFit.direction} pass)
+                  {' · '}
+                  <span className="whitespace-nowrap">piezo <span className="figure" data-testid="last-fit-piezo">{formatValueErr(piezo)} nm/V</span> ({lastFit.direction})</span>
                 </>
               )}
             </p>
