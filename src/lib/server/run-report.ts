@@ -12,6 +12,9 @@ export interface RunReport {
   run: RunView;
   bench: BenchViewData;
   sweeps: SweepView[];
+  /** Every k-th sweep is listed when the run holds more than the report shows. */
+  sweepsThinnedBy: number;
+  sweepCount: number;
   notes: NoteView[];
   corrections: ChannelCalibration[];
 }
@@ -23,5 +26,5 @@ export async function loadRunReport(id: number): Promise<RunReport | null> {
   if (!bench) return null;
   const end = run.endMs ?? Date.now();
   const [rows, notes, corrections] = await Promise.all([sweepsBetween(run.benchId, run.startMs, end), listNotes(id), benchCalibrations(run.benchId)]);
-  return { run, bench, sweeps: rows.map(sweepView), notes, corrections };
+  return { run, bench, sweeps: rows.rows.map(sweepView), sweepsThinnedBy: rows.thinnedBy, sweepCount: rows.total, notes, corrections };
 }

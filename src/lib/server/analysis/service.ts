@@ -69,7 +69,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
 
   async function loadRecentSweeps(benchId: string, s: BenchState) {
     const now = Date.now();
-    const rows = await sweepsBetween(benchId, now - 600_000, now).catch(() => []);
+    const { rows } = await sweepsBetween(benchId, now - 600_000, now).catch(() => ({ rows: [] }));
     for (const r of rows.slice(-8)) s.sweepPoints.push({ timeMs: (r.startMs + r.endMs) / 2, value: r.visibilityNet ?? r.visibility, err: r.visibilityErr });
   }
 

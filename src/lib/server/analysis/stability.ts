@@ -4,7 +4,7 @@ import { allanDeviation } from '../../analysis/allan.ts';
 import { phaseAtHold, unfoldPhase } from '../../analysis/phase.ts';
 import { queryCounts } from '../counts-query.ts';
 import type { RateStability, Stability } from '../../stability.ts';
-import { sweepsBetween } from './sweeps-store.ts';
+import { latestSweep } from './sweeps-store.ts';
 
 /** Reads the range at `stepMs` and computes the Allan deviations (τ = step·2^k). */
 export async function benchStability(benchId: string, from: number, to: number, stepMs: number): Promise<Stability> {
@@ -34,7 +34,7 @@ export async function benchStability(benchId: string, from: number, to: number, 
   let phase: Stability['phase'] = null;
   const a = series.get('out_a');
   const b = series.get('out_b');
-  const [fit] = (await sweepsBetween(benchId, to - 86_400_000, to)).slice(-1);
+  const fit = await latestSweep(benchId, to);
   if (a && b && a.length === b.length && fit) {
     const visibility = fit.visibilityNet ?? fit.visibility;
     const folded = a.map((ra, i) => phaseAtHold(ra * tau0, (b[i] as number) * tau0, { visibility, efficiencyRatio: 1 }).value).filter(Number.isFinite);

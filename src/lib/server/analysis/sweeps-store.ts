@@ -1,5 +1,5 @@
 // Fitted sweeps in the database: one row per pass (bench, start, direction), written once.
-import { and, asc, eq, gte, lte } from 'drizzle-orm';
+import { and, asc, desc, eq, gte, inArray, lte, sql } from 'drizzle-orm';
 import type { FringeFit } from '../../analysis/fringe-fit.ts';
 import type { Measured } from '../../analysis/measured.ts';
 import { piezoCalibration } from '../../analysis/piezo.ts';
@@ -107,13 +107,34 @@ function summary(row: typeof sweeps.$inferSelect): FittedSweepSummary {
   };
 }
 
-export async function sweepsBetween(benchId: string, fromMs: number, toMs: number, limit = 5_000) {
-  return await getDb()
-    .select()
+/** Most sweeps returned for one range by default: about one per pixel of a wide chart. */
+export const MAX_SWEEPS = 2_000;
+
+/**
+ * The sweeps overlapping [from, to], oldest first. A range holding more than `maxRows` is thinned
+ * evenly (every k-th pass, the last one always kept) so a day of fast sweeps stays a small answer
+ * spread over the whole range; `thinnedBy` says k and `total` how many there are.
+ */
+export async function sweepsBetween(benchId: string, fromMs: number, toMs: number, maxRows = MAX_SWEEPS) {
+  const db = getDb();
+  const inRange = and(eq(sweeps.benchId, benchId), gte(sweeps.endMs, fromMs), lte(sweeps.startMs, toMs));
+  const [{ n } = { n: 0 }] = await db.select({ n: sql<number>`count(*)::int` }).from(sweeps).where(inRange);
+  const k = Math.max(1, Math.ceil(n / maxRows));
+  if (k === 1) return { rows: await db.select().from(sweeps).where(inRange).orderBy(asc(sweeps.startMs)), thinnedBy: 1, total: n };
+  const numbered = db
+    .select({ id: sweeps.id, rn: sql<number>`row_number() over (order by ${sweeps.startMs})`.as('rn') })
     .from(sweeps)
-    .where(and(eq(sweeps.benchId, benchId), gte(sweeps.endMs, fromMs), lte(sweeps.startMs, toMs)))
-    .orderBy(asc(sweeps.startMs))
-    .limit(limit);
+    .where(inRange)
+    .as('numbered');
+  const picked = db.select({ id: numbered.id }).from(numbered).where(sql`(${numbered.rn} - 1) % ${k} = 0 or ${numbered.rn} = ${n}`);
+  const rows = await db.select().from(sweeps).where(inArray(sweeps.id, picked)).orderBy(asc(sweeps.startMs));
+  return { rows, thinnedBy: k, total: n };
+}
+
+/** The latest sweep that ended by `toMs`, or null. */
+export async function latestSweep(benchId: string, toMs: number) {
+  const [row] = await getDb().select().from(sweeps).where(and(eq(sweeps.benchId, benchId), lte(sweeps.endMs, toMs))).orderBy(desc(sweeps.endMs)).limit(1);
+  return row ?? null;
 }
 
 /** A stored sweep as the contract's `GET …/sweeps` gives it (and the run report shows it). */

@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { sweepView, sweepsBetween } from '../../../../../lib/server/analysis/sweeps-store.ts';
+import { MAX_SWEEPS, sweepView, sweepsBetween } from '../../../../../lib/server/analysis/sweeps-store.ts';
 import { getBench } from '../../../../../lib/server/benches.ts';
 import { endpoint } from '../../../../../lib/server/http/endpoint.ts';
 import { json, parseOr422, problem } from '../../../../../lib/server/http/responses.ts';
@@ -8,6 +8,8 @@ import { timeParam } from '../../../../../lib/server/http/time-params.ts';
 const query = z.object({
   from: timeParam.optional(),
   to: timeParam.optional(),
+  // Most sweeps in the answer; a longer range is thinned evenly (header X-Sweeps-Thinned-By).
+  max: z.coerce.number().int().min(1).max(20_000).default(MAX_SWEEPS),
 });
 
 const DAY_MS = 86_400_000;
@@ -19,6 +21,6 @@ export const GET = endpoint('observer', async ({ params, url }) => {
   const to = q.to ?? Date.now();
   const from = q.from ?? to - DAY_MS;
   if (from > to) return problem(422, 'from is after to');
-  const rows = await sweepsBetween(bench.id, from, to);
-  return json(rows.map(sweepView));
+  const { rows, thinnedBy } = await sweepsBetween(bench.id, from, to, q.max);
+  return json(rows.map(sweepView), 200, { 'x-sweeps-thinned-by': String(thinnedBy) });
 });
