@@ -28,6 +28,8 @@ interface BenchState {
   phaseHistory: { t: number; theta: number }[];
   figures: BenchFigures | null;
   lastBatchAt: number;
+  /** Batches queued for the sweep tracker, in arrival order. */
+  tracking: Promise<void>;
   fitting: Promise<void>;
 }
 
@@ -52,7 +54,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
   const state = (benchId: string): BenchState => {
     let s = states.get(benchId);
     if (!s) {
-      s = { tracker: new SweepTracker(), recent: new RecentBins(), settings: null, sweepPoints: [], sweepNet: false, phaseHistory: [], figures: null, lastBatchAt: 0, fitting: Promise.resolve() };
+      s = { tracker: new SweepTracker(), recent: new RecentBins(), settings: null, sweepPoints: [], sweepNet: false, phaseHistory: [], figures: null, lastBatchAt: 0, tracking: Promise.resolve(), fitting: Promise.resolve() };
       states.set(benchId, s);
       void loadRecentSweeps(benchId, s);
     }
@@ -134,19 +136,23 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     const s = state(benchId);
     s.recent.add(gatewayId, batch);
     s.lastBatchAt = Date.now();
-    void settingsFor(benchId, s).then((settings) => {
-      const outA = settings.channels.find((c) => c.role === 'out_a');
-      const outB = settings.channels.find((c) => c.role === 'out_b');
-      if (!outA || !outB || outA.gateway !== gatewayId || outB.gateway !== gatewayId || !batch.x) return;
-      const a = batch.ch[outA.key];
-      const b = batch.ch[outB.key];
-      if (!a || !b) return;
-      const passes = s.tracker.push(batch.t0, batch.dt, batch.x, a, b);
-      // Fits run one after another per bench, so sweeps are stored in order.
-      for (const pass of passes) {
-        s.fitting = s.fitting.then(() => fitAndStore(benchId, s, pass, settings)).catch((err: unknown) => console.warn('[fit]', benchId, err instanceof Error ? err.message : err));
-      }
-    }).catch((err: unknown) => console.warn('[analysis]', err instanceof Error ? err.message : err));
+    // Batches go through the tracker in arrival order: a settings reload must not let a later
+    // batch overtake an earlier one (the tracker would see a gap and drop the pass under way).
+    s.tracking = s.tracking
+      .then(() => settingsFor(benchId, s))
+      .then((settings) => {
+        const outA = settings.channels.find((c) => c.role === 'out_a');
+        const outB = settings.channels.find((c) => c.role === 'out_b');
+        if (!outA || !outB || outA.gateway !== gatewayId || outB.gateway !== gatewayId || !batch.x) return;
+        const a = batch.ch[outA.key];
+        const b = batch.ch[outB.key];
+        if (!a || !b) return;
+        // Fits run one after another per bench, so sweeps are stored in order.
+        for (const pass of s.tracker.push(batch.t0, batch.dt, batch.x, a, b)) {
+          s.fitting = s.fitting.then(() => fitAndStore(benchId, s, pass, settings)).catch((err: unknown) => console.warn('[fit]', benchId, err instanceof Error ? err.message : err));
+        }
+      })
+      .catch((err: unknown) => console.warn('[analysis]', err instanceof Error ? err.message : err));
   };
   serverEvents().on('batch-stored', onBatch);
 
