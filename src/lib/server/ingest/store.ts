@@ -11,6 +11,7 @@ import { batchSpan, planBatch, type Slice, type StoredSpan } from './coverage.ts
 import { withDbRetry } from './db-retry.ts';
 import { emptyDelta, noteReject, seqAdvance, type HealthDelta } from './health-delta.ts';
 import { rollupDeltas } from './rollup-math.ts';
+import { traceStage } from '../live/trace.ts';
 import { writeStatement, type StoredSlice } from './write-statement.ts';
 
 export type BatchOutcome = { kind: 'stored'; slices: Slice[] } | { kind: 'duplicate' } | { kind: 'rejected'; reason: string };
@@ -25,6 +26,11 @@ const MAX_ITEMS_PER_WRITE = 1_000;
 export interface StoredEvent {
   gatewayId: string;
   slices: Slice[];
+}
+
+/** `gateway/t0` of the count batches among `items` (benchmark trace). */
+function batchKeys(items: Item[]): string[] {
+  return items.flatMap((i) => (i.kind === 'batch' ? [`${i.gatewayId}/${i.batch.t0}`] : []));
 }
 
 export class BatchWriter {
@@ -60,6 +66,7 @@ export class BatchWriter {
 
   private enqueue(item: Item): void {
     this.queue.push(item);
+    traceStage('queued', () => batchKeys([item]));
     if (!this.writing) {
       this.writing = true;
       // One macrotask of grace gathers every packet parsed from the same socket reads.
@@ -94,6 +101,7 @@ export class BatchWriter {
   }
 
   private async write(items: Item[]): Promise<void> {
+    traceStage('write-start', () => batchKeys(items));
     const client = await getDbHandle().pool.connect();
     // A server shutdown mid-statement also emits 'error' on the client; unhandled, it would end the process.
     const onError = (err: Error) => console.warn('[ingest] database connection lost:', err.message);
@@ -101,6 +109,7 @@ export class BatchWriter {
     let broken = false;
     try {
       const result = await this.writeOnce(client, items);
+      traceStage('committed', () => batchKeys(items));
       this.afterCommit(items, result);
     } catch (err) {
       broken = true;

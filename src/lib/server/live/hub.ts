@@ -20,6 +20,7 @@ import { canReadBench } from './access.ts';
 import { coalesceCounts } from './coalesce.ts';
 import { Outbox, type Queued, type Sink } from './outbox.ts';
 import { countsSince } from './resume.ts';
+import { traceStage } from './trace.ts';
 
 /** Ping period; a socket that has not answered the previous ping by the next one is terminated (ms). */
 const HEARTBEAT_MS = 30_000;
@@ -89,8 +90,11 @@ export class LiveHub {
     for (const [benchId, messages] of pending) {
       const clients = this.benches.get(benchId);
       if (!clients?.size) continue;
+      const keys = () => messages.flatMap((m) => (m.type === 'counts' ? [`${m.gateway}/${m.t0}`] : []));
+      traceStage('frame-start', keys);
       const items = coalesceCounts(messages, (m) => m, (_a, _b, merged) => merged).map((m) => this.queued(m));
       for (const c of clients) c.outbox.pushFrame(items);
+      traceStage('frame-end', keys);
     }
   }
 
