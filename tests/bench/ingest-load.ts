@@ -1,5 +1,5 @@
 // The load side of the ingest benchmark, forked by ingest.bench.ts into its own process: the
-// gateways publish from this process's main thread and the 200 browsers receive in worker threads.
+// gateways publish from this process's main thread and the 200 browsers receive in a worker thread.
 // The server under test thus shares neither its event loop nor its process with its load, as in a
 // lab where gateways and browsers are other machines (the 2 cores stay shared: see DEVELOPERS.md).
 // The parent sends one command at a time over IPC; each gets one answer.
@@ -12,12 +12,11 @@ import { BINS, BURST_MS, DT_MS, GATEWAYS, WINDOW, every, payload, sample, type L
 const now = () => performance.timeOrigin + performance.now();
 
 /**
- * The WebSocket clients, as plain JS for an eval worker. A thread receives for 100 browsers
- * (20,000 messages/s), so it reads the gateway and t0 from the message head instead of parsing
+ * The WebSocket clients, as plain JS for an eval worker. One thread receives for all 200 browsers
+ * (40,000 messages/s), so it reads the gateway and t0 from the message head instead of parsing
  * ~3 KB of JSON each time; a message longer than one batch (merged by the server) is parsed whole,
  * and each batch in it counts. Per batch it keeps every client's arrival time.
  */
-const BROWSERS_PER_THREAD = 100;
 const WS_CLIENTS_WORKER = `
 const { parentPort, workerData } = require('node:worker_threads');
 const WebSocket = require(require.resolve('ws', { paths: [process.cwd()] }));
@@ -97,21 +96,11 @@ let gateways: { client: MqttClient; id: string }[] = [];
 
 async function realistic(cmd: Extract<LoadCommand, { cmd: 'realistic' }>): Promise<LoadReply> {
   gateways = await Promise.all(cmd.gateways.map(async (g) => ({ id: g.id, client: await connect(`mqtt://127.0.0.1:${cmd.mqttPort}`, { username: g.id, password: g.token }) })));
-  // One thread taking every frame for 200 clients in turn made the last ones wait ~5 ms per frame
-  // (and its GC pauses hit them all): real browsers each take one copy on their own machine.
-  const browsers = Array.from({ length: Math.ceil(cmd.wsClients / BROWSERS_PER_THREAD) }, (_, i) => {
-    const n = Math.min(BROWSERS_PER_THREAD, cmd.wsClients - i * BROWSERS_PER_THREAD);
-    return new Worker(WS_CLIENTS_WORKER, { eval: true, workerData: { url: cmd.wsUrl, token: cmd.token, n, bins: BINS } });
+  const browsers = new Worker(WS_CLIENTS_WORKER, { eval: true, workerData: { url: cmd.wsUrl, token: cmd.token, n: cmd.wsClients, bins: BINS } });
+  await new Promise<void>((resolve, reject) => {
+    browsers.once('message', () => resolve());
+    browsers.once('error', reject);
   });
-  await Promise.all(
-    browsers.map(
-      (w) =>
-        new Promise<void>((resolve, reject) => {
-          w.once('message', () => resolve());
-          w.once('error', reject);
-        }),
-    ),
-  );
   const published: { key: string; at: number; pubackMs: number }[] = [];
   const pending: Promise<void>[] = [];
   const seqs = new Array<number>(gateways.length).fill(0);
@@ -128,15 +117,13 @@ async function realistic(cmd: Extract<LoadCommand, { cmd: 'realistic' }>): Promi
   timers.forEach((stop) => stop());
   await Promise.all(pending);
   await new Promise((r) => setTimeout(r, 500));
-  const arrivals = new Map<string, number[]>();
-  for (const w of browsers) {
-    const part = await new Promise<[string, number[]][]>((resolve) => {
-      w.once('message', resolve);
-      w.postMessage('done');
-    });
-    for (const [key, times] of part) arrivals.set(key, (arrivals.get(key) ?? []).concat(times));
-    await w.terminate();
-  }
+  const arrivals = new Map(
+    await new Promise<[string, number[]][]>((resolve) => {
+      browsers.once('message', resolve);
+      browsers.postMessage('done');
+    }),
+  );
+  await browsers.terminate();
   const batches = published.map((p) => ({ ...p, lat: (arrivals.get(p.key) ?? []).map((t) => sample(t - p.at)) }));
   return { kind: 'realistic', batches, seqs };
 }
