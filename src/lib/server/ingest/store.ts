@@ -181,8 +181,8 @@ export class BatchWriter {
 
     const newChannels = this.newChannels(stored);
     const { text, values } = writeStatement(stored, rollupDeltas(stored), newChannels.map((c) => c.split('/') as [string, string]), health);
-    // Named, so each connection parses and plans this CTE statement once: unnamed, the planning
-    // took ~4 of the ~6 ms it spent in PostgreSQL per write at the realistic load (benchmark trace).
+    // Named, so each connection parses and plans this 5-CTE statement once: unnamed, its round trip
+    // at the realistic load was p50 5.9 ms against 2.1 ms named, with a 0.1 ms fsync (DEVELOPERS.md).
     await client.query({ name: 'ingest-write', text, values });
     return { outcomes, newChannels, seq };
   }
