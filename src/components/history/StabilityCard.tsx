@@ -1,10 +1,11 @@
 // How steady a bench was over the history range: the overlapping Allan deviation of each output's
 // rate beside its white counting-noise floor √(R/τ), and of the phase when the server can derive
 // it, on log–log axes where white noise is a straight τ^(−1/2) line and drift turns the curve up.
-import { useEffect, useMemo, useRef, useState } from 'react';
+import { useEffect, useMemo, useRef } from 'react';
 import type uPlot from 'uplot';
 import type { ViewChannel } from '../../lib/bench-view.ts';
-import { errorText, fetchStability } from '../../lib/client/api.ts';
+import { fetchStability } from '../../lib/client/api.ts';
+import { useFetched } from '../../lib/client/use-fetched.ts';
 import { withAlpha, type ChartPalette } from '../../lib/client/chart-theme.ts';
 import { formatRate, formatRateTick } from '../../lib/client/format.ts';
 import type { AllanPoint } from '../../lib/analysis/allan.ts';
@@ -94,28 +95,8 @@ function measured(points: AllanPoint[]): Curve['points'] {
 }
 
 export function StabilityCard({ benchId, channels, from, to }: { benchId: string; channels: ViewChannel[]; from: number; to: number }) {
-  const [answer, setAnswer] = useState<Stability | null>(null);
-  const [loading, setLoading] = useState(true);
-  const [error, setError] = useState<string | null>(null);
   const step = stabilityStep(to - from);
-
-  useEffect(() => {
-    const ctl = new AbortController();
-    setLoading(true);
-    setError(null);
-    fetchStability(benchId, from, to, step, ctl.signal).then(
-      (a) => {
-        setAnswer(a);
-        setLoading(false);
-      },
-      (err) => {
-        if (ctl.signal.aborted) return;
-        setError(errorText(err));
-        setLoading(false);
-      },
-    );
-    return () => ctl.abort();
-  }, [benchId, from, to, step]);
+  const { data: answer, loading, error } = useFetched<Stability>((signal) => fetchStability(benchId, from, to, step, signal), [benchId, from, to, step]);
 
   // The two outputs only: their floors are what the interferometer's counting noise is judged by.
   const outputs = useMemo(() => (answer?.rates ?? []).filter((r) => r.role === 'out_a' || r.role === 'out_b'), [answer]);

@@ -4,7 +4,8 @@
 // calibration.
 import { useEffect, useMemo, useRef, useState } from 'react';
 import type uPlot from 'uplot';
-import { errorText, fetchSweeps, sweepFit, type Sweep } from '../../lib/client/api.ts';
+import { fetchSweeps, sweepFit, type Sweep } from '../../lib/client/api.ts';
+import { useFetched } from '../../lib/client/use-fetched.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
 import { formatClock, formatNumber, formatValueErr } from '../../lib/client/format.ts';
 import { ChartState } from '../charts/ChartState.tsx';
@@ -76,10 +77,13 @@ function describe(s: Sweep): string {
   return parts.filter(Boolean).join(' · ');
 }
 
+/** One empty list for every render without data, so effects on `sweeps` do not rerun. */
+const NO_SWEEPS: Sweep[] = [];
+
 export function SweepHistory({ benchId, from, to }: Props) {
-  const [sweeps, setSweeps] = useState<Sweep[]>([]);
-  const [loading, setLoading] = useState(true);
-  const [error, setError] = useState<string | null>(null);
+  const fetched = useFetched<Sweep[]>((signal) => fetchSweeps(benchId, from, to, signal), [benchId, from, to]);
+  const sweeps = fetched.data ?? NO_SWEEPS;
+  const { loading, error } = fetched;
   const [hover, setHover] = useState<number | null>(null);
   const box = useRef<HTMLDivElement>(null);
   const ref = useRef({ sweeps, from, to });
@@ -133,24 +137,8 @@ export function SweepHistory({ benchId, from, to }: Props) {
     HEIGHT,
   );
 
-  useEffect(() => {
-    const ctl = new AbortController();
-    setLoading(true);
-    setError(null);
-    setHover(null);
-    fetchSweeps(benchId, from, to, ctl.signal).then(
-      (list) => {
-        setSweeps(list);
-        setLoading(false);
-      },
-      (err) => {
-        if (ctl.signal.aborted) return;
-        setError(errorText(err));
-        setLoading(false);
-      },
-    );
-    return () => ctl.abort();
-  }, [benchId, from, to]);
+  // A new range: the hovered sweep of the old one means nothing.
+  useEffect(() => setHover(null), [benchId, from, to]);
 
   useEffect(() => {
     plot.current?.setData(data());
