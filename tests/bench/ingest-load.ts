@@ -15,8 +15,11 @@ const now = () => performance.timeOrigin + performance.now();
  * The WebSocket clients, as plain JS for an eval worker. One thread receives for all 200 browsers
  * (40,000 messages/s), so it reads the gateway and t0 from the message head instead of parsing
  * ~3 KB of JSON each time; a message longer than one batch (merged by the server) is parsed whole,
- * and each batch in it counts. Per batch it keeps every client's arrival time.
+ * and each batch in it counts. Per batch it keeps the arrival times of the first `timed` clients.
  */
+/** Arrival times kept for the latency figures over a whole run. */
+const MAX_LATENCY_SAMPLES = 2_000_000;
+
 const WS_CLIENTS_WORKER = `
 const { parentPort, workerData } = require('node:worker_threads');
 const WebSocket = require(require.resolve('ws', { paths: [process.cwd()] }));
@@ -24,13 +27,15 @@ const arrivals = new Map();
 const now = () => performance.timeOrigin + performance.now();
 const HEAD = /^{"type":"counts","bench":"[^"]*","gateway":"([^"]*)","t0":(\\d+),"dt":(\\d+)/;
 let oneBatchBytes = Infinity;
-const arrived = (key, t) => {
+const arrived = (timed, key, t) => {
+  if (!timed) return;
   const list = arrivals.get(key);
   if (list) list.push(t);
   else arrivals.set(key, [t]);
 };
 let open = 0;
 for (let i = 0; i < workerData.n; i++) {
+  const timed = i < workerData.timed;
   const ws = new WebSocket(workerData.url, { headers: { authorization: 'Bearer ' + workerData.token } });
   ws.on('open', () => { ws._socket.setNoDelay(true); if (++open === workerData.n) parentPort.postMessage('ready'); });
   ws.on('message', (data) => {
@@ -39,11 +44,11 @@ for (let i = 0; i < workerData.n; i++) {
     if (!head) return;
     if (data.length < oneBatchBytes * 1.5) {
       oneBatchBytes = Math.min(oneBatchBytes, data.length);
-      return arrived(head[1] + '/' + head[2], t);
+      return arrived(timed, head[1] + '/' + head[2], t);
     }
     const m = JSON.parse(String(data));
     const n = Object.values(m.ch)[0].length;
-    for (let j = 0; j < n; j += workerData.bins) arrived(m.gateway + '/' + (m.t0 + j * m.dt), t);
+    for (let j = 0; j < n; j += workerData.bins) arrived(timed, m.gateway + '/' + (m.t0 + j * m.dt), t);
   });
 }
 parentPort.on('message', () => parentPort.postMessage([...arrivals]));
@@ -96,7 +101,11 @@ let gateways: { client: MqttClient; id: string }[] = [];
 
 async function realistic(cmd: Extract<LoadCommand, { cmd: 'realistic' }>): Promise<LoadReply> {
   gateways = await Promise.all(cmd.gateways.map(async (g) => ({ id: g.id, client: await connect(`mqtt://127.0.0.1:${cmd.mqttPort}`, { username: g.id, password: g.token }) })));
-  const browsers = new Worker(WS_CLIENTS_WORKER, { eval: true, workerData: { url: cmd.wsUrl, token: cmd.token, n: cmd.wsClients, bins: BINS } });
+  // Every client receives and parses alike, but only as many record arrival times as keep the
+  // samples near 2 million: a 10-minute soak would otherwise collect 24 million of them.
+  const expectedBatches = (gateways.length * cmd.ms) / 100;
+  const timed = Math.min(cmd.wsClients, Math.max(10, Math.floor(MAX_LATENCY_SAMPLES / expectedBatches)));
+  const browsers = new Worker(WS_CLIENTS_WORKER, { eval: true, workerData: { url: cmd.wsUrl, token: cmd.token, n: cmd.wsClients, bins: BINS, timed } });
   await new Promise<void>((resolve, reject) => {
     browsers.once('message', () => resolve());
     browsers.once('error', reject);
