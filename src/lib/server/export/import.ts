@@ -1,8 +1,7 @@
 // Import of a counts CSV into a new run: streamed from the request body (size-capped), parsed by
 // CountsCsvReader, and stored ALL-OR-NOTHING in one transaction under a pseudo-gateway
 // `imp-<runId>` of the bench (no token, so nothing can connect as it). Rows and rollups are written
-// the way ingest writes them; after COMMIT every stored batch is announced as 'batch-stored', so
-// the analysis that listens to ingest sees imported data too.
+// by ingest's own write statement; after COMMIT the run's sweeps are fitted like live ones.
 import { Readable } from 'node:stream';
 import { parse } from 'csv-parse';
 import type pg from 'pg';
@@ -14,6 +13,7 @@ import { drizzle } from 'drizzle-orm/node-postgres';
 import { HttpError } from '../http/responses.ts';
 import type { Slice } from '../ingest/coverage.ts';
 import { rollupDeltas } from '../ingest/rollup-math.ts';
+import { writeStatement } from '../ingest/write-statement.ts';
 import { runtime } from '../runtime.ts';
 import { MAX_IMPORT_BYTES, type ImportIssue, type ImportPreview, type ImportResult } from '../../import-shapes.ts';
 import { CountsCsvReader, type ChannelInfo } from './import-parser.ts';
@@ -21,7 +21,6 @@ import { CountsCsvReader, type ChannelInfo } from './import-parser.ts';
 export const IMPORT_GATEWAY_PREFIX = 'imp-';
 /** Batches buffered before a write inside the import's transaction. */
 const WRITE_EVERY = 20;
-const ROWS_PER_STATEMENT = 200;
 const PREVIEW_ROWS = 10;
 
 export const importOptionsSchema = z.object({
@@ -111,33 +110,12 @@ export async function previewImport(body: ReadableStream<Uint8Array>, maxBytes =
 }
 
 
+/** Rows and rollups through ingest's own write statement, so imported data is stored exactly as live data is. */
 async function insertSlices(client: pg.PoolClient, gatewayId: string, slices: Slice[], seq0: number): Promise<void> {
-  for (let at = 0; at < slices.length; at += ROWS_PER_STATEMENT) {
-    const params: unknown[] = [];
-    const values = slices.slice(at, at + ROWS_PER_STATEMENT).map((s, i) => {
-      const p = params.length;
-      params.push(gatewayId, s.t0, s.t0 + s.n * s.dt, s.dt, s.n, s.keys, s.counts, s.x, s.cc, 'import', seq0 + at + i);
-      return `($${p + 1}, $${p + 2}, $${p + 3}, $${p + 4}, $${p + 5}, $${p + 6}::text[], $${p + 7}::int4[], $${p + 8}::float8[], $${p + 9}::int4[], $${p + 10}, $${p + 11})`;
-    });
-    await client.query(`insert into count_batches (gateway_id, t0, t1, dt, n, keys, counts, x, cc, boot, seq) values ${values.join(', ')}`, params);
-  }
-  // Same deltas and the same upsert as ingest's store stage (ingest/store.ts), so imported rollups are indistinguishable.
-  const deltas = rollupDeltas(slices.map((slice) => ({ gatewayId, slice })));
-  for (let at = 0; at < deltas.length; at += ROWS_PER_STATEMENT) {
-    const params: unknown[] = [];
-    const values = deltas.slice(at, at + ROWS_PER_STATEMENT).map((d) => {
-      const p = params.length;
-      params.push(d.gatewayId, d.key, d.stepMs, d.blockT0, d.sums, d.bins);
-      return `($${p + 1}, $${p + 2}, $${p + 3}, $${p + 4}, $${p + 5}::int8[], $${p + 6}::int4[])`;
-    });
-    await client.query(
-      `insert into rollups as r (gateway_id, key, step_ms, block_t0, sums, bins) values ${values.join(', ')}
-       on conflict (gateway_id, key, step_ms, block_t0) do update set
-         sums = (select array_agg(a + b order by i) from unnest(r.sums, excluded.sums) with ordinality as t(a, b, i)),
-         bins = (select array_agg(a + b order by i) from unnest(r.bins, excluded.bins) with ordinality as t(a, b, i))`,
-      params,
-    );
-  }
+  const stored = slices.map((slice, i) => ({ gatewayId, slice, boot: 'import', seq: seq0 + i }));
+  // No new channels (the import adds them with their labels) and no gateway health to count.
+  const { text, values } = writeStatement(stored, rollupDeltas(stored), [], new Map());
+  await client.query(text, values);
 }
 
 async function insertChannels(client: pg.PoolClient, benchId: string, gatewayId: string, channels: ChannelInfo[]): Promise<void> {
