@@ -17,21 +17,24 @@ export interface ChannelSeries {
 
 export class RecentBins {
   private batches: HeldBatch[] = [];
+  private latest = 0;
 
   constructor(private readonly keepMs = 12_000) {}
 
   add(gatewayId: string, batch: CountBatch): void {
     const end = batch.t0 + (batch.ch[Object.keys(batch.ch)[0] ?? '']?.length ?? 0) * batch.dt;
     this.batches.push({ gatewayId, batch, end });
-    // Batches arrive in order per gateway; a late (replayed) one is kept too and ages out normally.
-    const horizon = this.latestEnd() - this.keepMs;
-    if (this.batches.length > 0 && (this.batches[0]?.end ?? 0) < horizon) this.batches = this.batches.filter((b) => b.end >= horizon);
+    if (end > this.latest) this.latest = end;
+    // Batches arrive in order per gateway, so the oldest sit at the front; a late (replayed) one
+    // further back ages out once it reaches the front.
+    const horizon = this.latest - this.keepMs;
+    let drop = 0;
+    while (drop < this.batches.length && (this.batches[drop]?.end ?? 0) < horizon) drop++;
+    if (drop > 0) this.batches.splice(0, drop);
   }
 
   latestEnd(): number {
-    let latest = 0;
-    for (const b of this.batches) if (b.end > latest) latest = b.end;
-    return latest;
+    return this.latest;
   }
 
   /** Bins of `gatewayId/key` ending in (to − windowMs, to], in time order. */
