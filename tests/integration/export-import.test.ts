@@ -3,6 +3,7 @@
 import { and, eq, like } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { getDb } from '../../src/lib/server/db/index.ts';
+import { packCounts, unpackCounts } from '../../src/lib/server/db/packed-counts.ts';
 import { channels, countBatches, gateways, rollups, runs } from '../../src/lib/server/db/schema.ts';
 import { importCounts } from '../../src/lib/server/export/import.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
@@ -26,9 +27,9 @@ const api = (token: string, path: string, init: RequestInit = {}) =>
 async function binsOf(gatewayId: string): Promise<Map<string, number>> {
   const rows = await getDb().select().from(countBatches).where(eq(countBatches.gatewayId, gatewayId));
   const out = new Map<string, number>();
-  for (const r of rows) r.keys.forEach((k, i) => r.counts.slice(i * r.n, (i + 1) * r.n).forEach((c, j) => out.set(`${k}@${r.t0 + j * r.dt}`, c)));
+  for (const r of rows) r.keys.forEach((k, i) => unpackCounts(r.counts).slice(i * r.n, (i + 1) * r.n).forEach((c, j) => out.set(`${k}@${r.t0 + j * r.dt}`, c)));
   for (const r of rows) r.x?.forEach((x, j) => out.set(`x@${r.t0 + j * r.dt}`, x));
-  for (const r of rows) r.cc?.forEach((c, j) => out.set(`cc@${r.t0 + j * r.dt}`, c));
+  for (const r of rows) (r.cc && unpackCounts(r.cc))?.forEach((c, j) => out.set(`cc@${r.t0 + j * r.dt}`, c));
   return out;
 }
 
@@ -54,9 +55,9 @@ beforeAll(async () => {
     dt: 10,
     n,
     keys,
-    counts: Array.from({ length: n * keys.length }, (_, i) => (i * 7919 + seed) % 1000),
+    counts: packCounts(Array.from({ length: n * keys.length }, (_, i) => (i * 7919 + seed) % 1000)),
     x: xcc ? Array.from({ length: n }, (_, i) => 0.1 * i + seed / 3) : null,
-    cc: xcc ? Array.from({ length: n }, (_, i) => i % 3) : null,
+    cc: xcc ? packCounts(Array.from({ length: n }, (_, i) => i % 3)) : null,
     boot: 'b',
     seq: seed,
   });

@@ -15,6 +15,7 @@ import type { Bins, Counter } from '../../gateway/counter.ts';
 import { findDemoBench } from '../../simulators/demo-benches.ts';
 import { countBatchSchema } from '../../src/lib/contract/wire.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
+import { unpackCounts } from '../../src/lib/server/db/packed-counts.ts';
 import { countBatches } from '../../src/lib/server/db/schema.ts';
 import { freshGateway, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 
@@ -53,7 +54,7 @@ async function stored(gatewayId: string) {
 /** Per-bin counts keyed `t:key`, from stored rows (channel-major arrays). */
 function binsOfRows(rows: Awaited<ReturnType<typeof stored>>, dt: number): Map<string, number> {
   const out = new Map<string, number>();
-  for (const r of rows) r.keys.forEach((k, i) => r.counts.slice(i * r.n, (i + 1) * r.n).forEach((c, j) => out.set(`${r.t0 + j * dt}:${k}`, c)));
+  for (const r of rows) r.keys.forEach((k, i) => unpackCounts(r.counts).slice(i * r.n, (i + 1) * r.n).forEach((c, j) => out.set(`${r.t0 + j * dt}:${k}`, c)));
   return out;
 }
 

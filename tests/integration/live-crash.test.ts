@@ -39,7 +39,7 @@ async function expectExactlyOnce(gatewayId: string, batches: number): Promise<vo
   const { pool } = getDbHandle();
   const { rows } = await pool.query<{ rows: number; bins: number; sum: number; distinct_t0: number }>(
     `select count(*)::int as rows, coalesce(sum(n), 0)::int as bins, count(distinct t0)::int as distinct_t0,
-            coalesce((select sum(v) from count_batches c, unnest(c.counts) v where c.gateway_id = $1), 0)::int as sum
+            coalesce((select sum(v) from count_batches c, unnest(unpack_counts(c.counts)) v where c.gateway_id = $1), 0)::int as sum
        from count_batches where gateway_id = $1`,
     [gatewayId],
   );

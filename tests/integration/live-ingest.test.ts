@@ -28,7 +28,7 @@ async function rawSum(gatewayId: string): Promise<{ rows: number; bins: number; 
     .select({
       rows: sql<number>`count(*)::int`,
       bins: sql<number>`coalesce(sum(n), 0)::int`,
-      sum: sql<number>`coalesce((select sum(v) from count_batches c2, unnest(c2.counts) v where c2.gateway_id = ${gatewayId}), 0)::int`,
+      sum: sql<number>`coalesce((select sum(v) from count_batches c2, unnest(unpack_counts(c2.counts)) v where c2.gateway_id = ${gatewayId}), 0)::int`,
     })
     .from(countBatches)
     .where(eq(countBatches.gatewayId, gatewayId));

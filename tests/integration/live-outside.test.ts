@@ -8,6 +8,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { topicFor } from '../../src/lib/contract/wire.ts';
 import type { CountsMessage } from '../../src/lib/live-messages.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
+import { unpackCounts } from '../../src/lib/server/db/packed-counts.ts';
 import { countBatches, gatewayHealth } from '../../src/lib/server/db/schema.ts';
 import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 import { startMosquitto } from '../helpers/mosquitto.ts';
@@ -96,7 +97,7 @@ describe('hostile payloads', () => {
     const msg = (await ws.next((m) => m.type === 'counts')) as CountsMessage;
     expect(msg).toEqual({ type: 'counts', bench: gw.benchId, gateway: gw.gatewayId, t0: BASE, dt: 10, ch: batch.ch, x: batch.x, cc: batch.cc });
     const [row] = await getDb().select().from(countBatches).where(eq(countBatches.gatewayId, gw.gatewayId));
-    expect(row).toMatchObject({ t0: BASE, t1: BASE + 30, n: 3, keys: ['a', 'b'], counts: [412, 398, 405, 9, 14, 11], boot: '3f9c2a', seq: 1042 });
+    expect({ ...row, counts: unpackCounts(row!.counts) }).toMatchObject({ t0: BASE, t1: BASE + 30, n: 3, keys: ['a', 'b'], counts: [412, 398, 405, 9, 14, 11], boot: '3f9c2a', seq: 1042 });
     // A wrong password is refused at CONNECT: mosquitto_pub exits non-zero.
     await expect(run('/usr/bin/mosquitto_pub', ['-h', '127.0.0.1', '-p', String(t.mqttPort), '-V', 'mqttv311', '-u', gw.gatewayId, '-P', 'fwg_wrong', '-q', '1', '-t', topicFor(gw.gatewayId, 'counts'), '-m', '{}'])).rejects.toThrow();
     ws.ws.close();

@@ -4,6 +4,7 @@ import { eq, inArray } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { closeDb, getDb } from '../../src/lib/server/db/index.ts';
 import { countBatches, rollups, runs } from '../../src/lib/server/db/schema.ts';
+import { packCounts } from '../../src/lib/server/db/packed-counts.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import { getRetention, runRetention, setRetention, storageUsage } from '../../src/lib/server/retention.ts';
 
@@ -14,7 +15,7 @@ const DAY = 86_400_000;
 const NOW = Math.floor(Date.now() / 60_000) * 60_000;
 
 /** A one-minute raw batch (60 bins of 1 s) starting at t0. */
-const raw = (t0: number) => ({ gatewayId: GW, t0, t1: t0 + 60_000, dt: 1000, n: 60, keys: ['a'], counts: Array<number>(60).fill(7), boot: 'b', seq: 0 });
+const raw = (t0: number) => ({ gatewayId: GW, t0, t1: t0 + 60_000, dt: 1000, n: 60, keys: ['a'], counts: packCounts(Array<number>(60).fill(7)), boot: 'b', seq: 0 });
 const block = (stepMs: number, blockT0: number) => ({ gatewayId: GW, key: 'a', stepMs, blockT0, sums: Array<number>(60).fill(1), bins: Array<number>(60).fill(1) });
 
 // Raw limit 10 days, 1 s rollups 20 days, 1 min rollups 40 days.

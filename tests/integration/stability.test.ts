@@ -4,6 +4,7 @@
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { mulberry32, poisson } from '../../simulators/random.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
+import { packCounts } from '../../src/lib/server/db/packed-counts.ts';
 import { channels, countBatches } from '../../src/lib/server/db/schema.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import type { RunningApp } from '../../src/server/app.ts';
@@ -26,7 +27,7 @@ beforeAll(async () => {
   const rows = [];
   for (let k = 0; k < 40; k++) {
     const counts = Array.from({ length: 100 }, () => poisson(rng, (RATE * DT) / 1000));
-    rows.push({ gatewayId: GW, t0: T0 + k * 100 * DT, t1: T0 + (k + 1) * 100 * DT, dt: DT, n: 100, keys: ['a'], counts, boot: 'b', seq: k });
+    rows.push({ gatewayId: GW, t0: T0 + k * 100 * DT, t1: T0 + (k + 1) * 100 * DT, dt: DT, n: 100, keys: ['a'], counts: packCounts(counts), boot: 'b', seq: k });
   }
   await getDb().insert(countBatches).values(rows);
 });

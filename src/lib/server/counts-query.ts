@@ -4,6 +4,7 @@
 // since the epoch, so two queries with the same step always agree; a bin counts in the bucket
 // holding its start (exact when the step is a multiple of the bin width, as the contract asks).
 import { getDbHandle } from './db/index.ts';
+import { unpackRow } from './db/packed-counts.ts';
 import { benchChannels, type BenchChannel } from './benches.ts';
 import { HttpError } from './http/responses.ts';
 import { CC_KEY } from './ingest/rollup-math.ts';
@@ -95,7 +96,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
     }
   } else if (gatewayIds.length) {
     // Stored spans of a gateway never overlap: the last row starting before t0 plus those starting inside.
-    const { rows } = await getDbHandle().pool.query<{ gateway_id: string; t0: number; dt: number; n: number; keys: string[]; counts: number[]; x: number[] | null; cc: number[] | null }>(
+    const { rows } = await getDbHandle().pool.query<{ gateway_id: string; t0: number; dt: number; n: number; keys: string[]; counts: Buffer; x: number[] | null; cc: Buffer | null }>(
       `select c.gateway_id, c.t0, c.dt, c.n, c.keys, c.counts, c.x, c.cc
          from unnest($1::text[]) as g(id)
          cross join lateral (
@@ -106,7 +107,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
         where c.t1 > $2`,
       [gatewayIds, t0, end],
     );
-    for (const r of rows) {
+    for (const r of rows.map(unpackRow)) {
       r.keys.forEach((key, k) => {
         const name = `${r.gateway_id}/${key}`;
         for (let j = 0; j < r.n; j++) {

@@ -3,6 +3,7 @@
 // and the clock offset between its bins and their arrival.
 import { eq } from 'drizzle-orm';
 import { getDb, getDbHandle } from './db/index.ts';
+import { unpackCounts } from './db/packed-counts.ts';
 import { gatewayHealth, gateways } from './db/schema.ts';
 
 /** Rates are over the bins of this last stretch of time (ms). */
@@ -45,17 +46,18 @@ export async function loadGatewayHealth(gatewayId: string, now = Date.now()): Pr
   if (!row) return null;
   const { g, h } = row;
   const status = (g.status ?? null) as GatewayHealthView['status'];
-  const { rows } = await getDbHandle().pool.query<{ n: number; dt: number; keys: string[]; counts: number[] }>(
+  const { rows } = await getDbHandle().pool.query<{ n: number; dt: number; keys: string[]; counts: Buffer }>(
     'select n, dt, keys, counts from count_batches where gateway_id = $1 and t0 >= $2 and t0 < $3',
     [gatewayId, now - RATE_WINDOW_MS, now],
   );
   let bins = 0;
   const sums: Record<string, { counts: number; ms: number }> = {};
   for (const r of rows) {
+    const counts = unpackCounts(r.counts);
     bins += r.n;
     r.keys.forEach((k, i) => {
       const s = (sums[k] ??= { counts: 0, ms: 0 });
-      for (let j = 0; j < r.n; j++) s.counts += r.counts[i * r.n + j]!;
+      for (let j = 0; j < r.n; j++) s.counts += counts[i * r.n + j]!;
       s.ms += r.n * r.dt;
     });
   }

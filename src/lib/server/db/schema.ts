@@ -5,6 +5,7 @@ import { sql } from 'drizzle-orm';
 import {
   bigint,
   boolean,
+  customType,
   doublePrecision,
   index,
   integer,
@@ -127,9 +128,12 @@ export const channels = pgTable(
   (t) => [primaryKey({ columns: [t.gatewayId, t.key] }), index('channels_bench_idx').on(t.benchId)],
 );
 
-// Raw bins: one row per accepted batch, channel arrays kept as int4[] (see DEVELOPERS.md for the
-// bytes-per-bin measurement behind this choice). `keys[i]` names the i-th slice of `counts`,
-// which is channel-major: counts[i*n + j] is channel i, bin j.
+/** Packed count arrays (db/packed-counts.ts), read and written as Buffers. */
+const packedCounts = customType<{ data: Buffer; driverData: Buffer }>({ dataType: () => 'bytea' });
+
+// Raw bins: one row per accepted batch, counts packed into bytea (see DEVELOPERS.md for the
+// bytes-per-bin and speed measurements behind this choice). `keys[i]` names the i-th slice of
+// `counts`, which is channel-major: counts[i*n + j] is channel i, bin j.
 export const countBatches = pgTable(
   'count_batches',
   {
@@ -139,9 +143,9 @@ export const countBatches = pgTable(
     dt: integer('dt').notNull(),
     n: integer('n').notNull(),
     keys: text('keys').array().notNull(),
-    counts: integer('counts').array().notNull(),
+    counts: packedCounts('counts').notNull(),
     x: doublePrecision('x').array(),
-    cc: integer('cc').array(),
+    cc: packedCounts('cc'),
     boot: text('boot').notNull(),
     seq: bigint('seq', { mode: 'number' }).notNull(),
     receivedAt: timestamp('received_at', { withTimezone: true }).notNull().defaultNow(),

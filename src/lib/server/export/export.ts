@@ -7,6 +7,7 @@ import { z } from 'zod';
 import { columnsOf, metadataLines, rowCells, rowLine, type CsvMeta, type CsvRow } from '../../counts-csv.ts';
 import { benchCalibrations, getBench } from '../benches.ts';
 import { getDb, getDbHandle } from '../db/index.ts';
+import { unpackRow } from '../db/packed-counts.ts';
 import { runs } from '../db/schema.ts';
 import { HttpError } from '../http/responses.ts';
 import { timeParam } from '../http/time-params.ts';
@@ -81,11 +82,11 @@ export async function* gatewayBatches(gatewayId: string, fromMs: number, toMs: n
   const first = await pool.query<{ t0: number | null }>('select max(t0) as t0 from count_batches where gateway_id = $1 and t0 <= $2', [gatewayId, fromMs]);
   let after = (first.rows[0]?.t0 ?? fromMs) - 1;
   for (;;) {
-    const { rows } = await pool.query<BatchRow>(
+    const { rows } = await pool.query<Omit<BatchRow, 'counts' | 'cc'> & { counts: Buffer; cc: Buffer | null }>(
       'select t0, dt, n, keys, counts, x, cc from count_batches where gateway_id = $1 and t0 > $2 and t0 < $3 order by t0 limit $4',
       [gatewayId, after, toMs, PAGE_ROWS],
     );
-    for (const r of rows) yield { ...r, t0: Number(r.t0) };
+    for (const r of rows) yield { ...unpackRow(r), t0: Number(r.t0) };
     if (rows.length < PAGE_ROWS) return;
     after = Number(rows[rows.length - 1]!.t0);
   }

@@ -4,9 +4,12 @@
 // round trip instead of eight (begin, rows, rollups, channels, health, last seen, commit): on this
 // shared 2-core machine a round trip to PostgreSQL takes 1–2 ms of scheduling, which made up most
 // of publish → browser latency. Every column travels as one array parameter through unnest, so the
-// statement has a fixed 30 parameters however many rows it holds. Pure.
+// statement has a fixed 33 parameters however many rows it holds; the count arrays of every row
+// travel packed in ONE binary bytea parameter that PostgreSQL only slices (no per-element parsing,
+// which at saturation was most of what the server and the database spent per bin). Pure.
 import type { Slice } from './coverage.ts';
 import type { HealthDelta } from './health-delta.ts';
+import { countWidth, packedLength, writePacked } from '../db/packed-counts.ts';
 import { keyArrayLiteral, numericArrayLiteral } from './pg-arrays.ts';
 import type { RollupDelta } from './rollup-math.ts';
 
@@ -20,27 +23,28 @@ export interface StoredSlice {
 const SQL = `
 with stored as (
   insert into count_batches (gateway_id, t0, t1, dt, n, keys, counts, x, cc, boot, seq)
-  select u.gw, u.t0, u.t1, u.dt, u.n, u.keys::text[], u.counts::int4[], u.x::float8[], u.cc::int4[], u.boot, u.seq
-    from unnest($1::text[], $2::int8[], $3::int8[], $4::int4[], $5::int4[], $6::text[], $7::text[], $8::text[], $9::text[], $10::text[], $11::int8[])
-      as u(gw, t0, t1, dt, n, keys, counts, x, cc, boot, seq)
+  select u.gw, u.t0, u.t1, u.dt, u.n, u.keys::text[], substring($7::bytea from u.c_at for u.c_len), u.x::float8[],
+         case when u.cc_len > 0 then substring($7::bytea from u.cc_at for u.cc_len) end, u.boot, u.seq
+    from unnest($1::text[], $2::int8[], $3::int8[], $4::int4[], $5::int4[], $6::text[], $8::int4[], $9::int4[], $10::text[], $11::int4[], $12::int4[], $13::text[], $14::int8[])
+      as u(gw, t0, t1, dt, n, keys, c_at, c_len, x, cc_at, cc_len, boot, seq)
   -- The coverage plan already excludes stored bins; ON CONFLICT stays as the last line of defence.
   on conflict do nothing
 ), rolled as (
   insert into rollups as r (gateway_id, key, step_ms, block_t0, sums, bins)
   select u.gw, u.key, u.step, u.block_t0, u.sums::int8[], u.bins::int4[]
-    from unnest($12::text[], $13::text[], $14::int4[], $15::int8[], $16::text[], $17::text[]) as u(gw, key, step, block_t0, sums, bins)
+    from unnest($15::text[], $16::text[], $17::int4[], $18::int8[], $19::text[], $20::text[]) as u(gw, key, step, block_t0, sums, bins)
   on conflict (gateway_id, key, step_ms, block_t0) do update set
     sums = (select array_agg(a + b order by i) from unnest(r.sums, excluded.sums) with ordinality as t(a, b, i)),
     bins = (select array_agg(a + b order by i) from unnest(r.bins, excluded.bins) with ordinality as t(a, b, i))
 ), channels_added as (
   -- Contract: a bench's channels are created when its gateway first reports them.
   insert into channels (gateway_id, key, bench_id)
-  select g.id, u.key, g.bench_id from unnest($18::text[], $19::text[]) as u(gw, key) join gateways g on g.id = u.gw
+  select g.id, u.key, g.bench_id from unnest($21::text[], $22::text[]) as u(gw, key) join gateways g on g.id = u.gw
   on conflict do nothing
 ), health as (
   insert into gateway_health as h (gateway_id, accepted, duplicates, rejected, refused, seq_gaps, last_rejects, last_boot, last_seq, clock_offset_ms)
   select u.gw, u.accepted, u.duplicates, u.rejected, u.refused, u.seq_gaps, u.rejects::jsonb, u.last_boot, u.last_seq, u.clock_offset_ms
-    from unnest($20::text[], $21::int8[], $22::int8[], $23::int8[], $24::int8[], $25::int8[], $26::text[], $27::text[], $28::int8[], $29::float8[])
+    from unnest($23::text[], $24::int8[], $25::int8[], $26::int8[], $27::int8[], $28::int8[], $29::text[], $30::text[], $31::int8[], $32::float8[])
       as u(gw, accepted, duplicates, rejected, refused, seq_gaps, rejects, last_boot, last_seq, clock_offset_ms)
     join gateways g on g.id = u.gw
   on conflict (gateway_id) do update set
@@ -55,13 +59,47 @@ with stored as (
     last_seq = coalesce(excluded.last_seq, h.last_seq),
     clock_offset_ms = coalesce(excluded.clock_offset_ms, h.clock_offset_ms)
 ), seen as (
-  update gateways set last_seen_at = now() where id = any($30::text[])
+  update gateways set last_seen_at = now() where id = any($33::text[])
 )
 select 1`;
 
-/** The statement and its 30 array parameters. Rollup deltas must be unique per key (one row may change once per statement). */
+/**
+ * Every row's counts (and coincidences) packed one after the other in one buffer, with each
+ * array's 1-based start and length in it (length 0: no coincidences).
+ */
+function packRows(stored: StoredSlice[]) {
+  const widths = stored.map((r) => [countWidth(r.slice.counts), r.slice.cc ? countWidth(r.slice.cc) : null] as const);
+  let size = 0;
+  stored.forEach((r, i) => {
+    const [cw, ccw] = widths[i]!;
+    size += packedLength(r.slice.counts.length, cw) + (r.slice.cc && ccw ? packedLength(r.slice.cc.length, ccw) : 0);
+  });
+  const blob = Buffer.allocUnsafe(size);
+  const at = { counts: [] as number[], countsLen: [] as number[], cc: [] as number[], ccLen: [] as number[] };
+  let offset = 0;
+  stored.forEach((r, i) => {
+    const [cw, ccw] = widths[i]!;
+    const next = writePacked(r.slice.counts, cw, blob, offset);
+    at.counts.push(offset + 1);
+    at.countsLen.push(next - offset);
+    offset = next;
+    if (r.slice.cc && ccw) {
+      const after = writePacked(r.slice.cc, ccw, blob, offset);
+      at.cc.push(offset + 1);
+      at.ccLen.push(after - offset);
+      offset = after;
+    } else {
+      at.cc.push(0);
+      at.ccLen.push(0);
+    }
+  });
+  return { blob, at };
+}
+
+/** The statement and its 33 parameters. Rollup deltas must be unique per key (one row may change once per statement). */
 export function writeStatement(stored: StoredSlice[], deltas: RollupDelta[], newChannels: [string, string][], health: Map<string, HealthDelta>): { text: string; values: unknown[] } {
   const hs = [...health];
+  const { blob, at } = packRows(stored);
   return {
     text: SQL,
     values: [
@@ -71,9 +109,12 @@ export function writeStatement(stored: StoredSlice[], deltas: RollupDelta[], new
       stored.map((r) => r.slice.dt),
       stored.map((r) => r.slice.n),
       stored.map((r) => keyArrayLiteral(r.slice.keys)),
-      stored.map((r) => numericArrayLiteral(r.slice.counts)),
+      blob,
+      at.counts,
+      at.countsLen,
       stored.map((r) => numericArrayLiteral(r.slice.x)),
-      stored.map((r) => numericArrayLiteral(r.slice.cc)),
+      at.cc,
+      at.ccLen,
       stored.map((r) => r.boot),
       stored.map((r) => r.seq),
       deltas.map((d) => d.gatewayId),

@@ -1,0 +1,26 @@
+import { describe, expect, it } from 'vitest';
+import { countWidth, packCounts, unpackCounts } from './packed-counts.ts';
+
+describe('packed counts', () => {
+  it.each([
+    [[0, 1, 255], 1],
+    [[256, 0, 65535], 2],
+    [[65536, 7, 2 ** 31 - 1], 4],
+  ])('%j packs at width %i and unpacks to the same counts', (values, width) => {
+    expect(countWidth(values)).toBe(width);
+    const packed = packCounts(values);
+    expect(packed.length).toBe(1 + values.length * width);
+    expect(packed[0]).toBe(width);
+    expect(unpackCounts(packed)).toEqual(values);
+  });
+
+  it('is big-endian, as int4send writes (migration 0004 builds width-4 arrays with it)', () => {
+    expect([...packCounts([0x01020304])]).toEqual([4, 1, 2, 3, 4]);
+    expect([...packCounts([0x0102])]).toEqual([2, 1, 2]);
+  });
+
+  it('refuses a malformed array instead of inventing counts', () => {
+    expect(() => unpackCounts(Buffer.from([3, 1, 2, 3]))).toThrow(/malformed/);
+    expect(() => unpackCounts(Buffer.from([2, 1, 2, 3]))).toThrow(/malformed/);
+  });
+});
