@@ -1,7 +1,8 @@
 // Rollup deltas for newly stored bins. Each level keeps sums in blocks of 60 (level 1 s: one row
 // per minute; level 1 min: one row per hour). A bin goes to the bucket holding its start: when the
 // asked step is a multiple of both the level and the bin width (the contract requires the latter),
-// the whole bin lies in the step that holds its start, so sums by start are exact. Pure.
+// the whole bin lies in the step that holds its start, so sums by start are exact. The 1 min sums
+// are built from the 1 s ones: the minute holding a bin's start holds its second's start too. Pure.
 import type { Slice } from './coverage.ts';
 
 export const ROLLUP_LEVELS_MS = [1_000, 60_000] as const;
@@ -18,39 +19,56 @@ export interface RollupDelta {
   bins: number[];
 }
 
+const [SECOND_MS, MINUTE_MS] = ROLLUP_LEVELS_MS;
+
 /** Adds the slices' bins into per-(gateway, key, level, block) deltas, merged across slices. */
 export function rollupDeltas(items: { gatewayId: string; slice: Slice }[]): RollupDelta[] {
-  const out = new Map<string, RollupDelta>();
-  const block = (gatewayId: string, key: string, stepMs: number, blockT0: number): RollupDelta => {
-    const id = `${gatewayId}\u0000${key}\u0000${stepMs}\u0000${blockT0}`;
-    let d = out.get(id);
+  // Blocks by series and level, then by block start: a block start is a 13-digit number, and
+  // formatting one into a string key for every lookup cost more than all the sums together.
+  const levels = new Map<string, Map<number, RollupDelta>>();
+  const levelOf = (gatewayId: string, key: string, stepMs: number) => {
+    const id = `${gatewayId}\u0000${key}\u0000${stepMs}`;
+    let m = levels.get(id);
+    if (!m) levels.set(id, (m = new Map()));
+    return m;
+  };
+  const add = (blocks: Map<number, RollupDelta>, gatewayId: string, key: string, stepMs: number, t: number, sum: number, bins: number) => {
+    const blockMs = stepMs * BLOCK_LEN;
+    const blockT0 = Math.floor(t / blockMs) * blockMs;
+    let d = blocks.get(blockT0);
     if (!d) {
       d = { gatewayId, key, stepMs, blockT0, sums: new Array<number>(BLOCK_LEN).fill(0), bins: new Array<number>(BLOCK_LEN).fill(0) };
-      out.set(id, d);
+      blocks.set(blockT0, d);
     }
-    return d;
+    const i = Math.floor((t - blockT0) / stepMs);
+    d.sums[i]! += sum;
+    d.bins[i]! += bins;
   };
-  // One pass per series and level; the map is consulted only when a bin crosses into a new block.
+  // One pass over the bins of a series, one lookup per second it touches (a batch of 100 bins of
+  // 1 ms touches one or two), and one more per second for the minute level.
   const addSeries = (gatewayId: string, key: string, t0: number, dt: number, values: ArrayLike<number>, offset: number, n: number) => {
-    for (const stepMs of ROLLUP_LEVELS_MS) {
-      const blockMs = stepMs * BLOCK_LEN;
-      let d: RollupDelta | null = null;
-      for (let j = 0; j < n; j++) {
-        const t = t0 + j * dt;
-        if (!d || t < d.blockT0 || t >= d.blockT0 + blockMs) d = block(gatewayId, key, stepMs, Math.floor(t / blockMs) * blockMs);
-        const i = Math.floor((t - d.blockT0) / stepMs);
-        d.sums[i]! += values[offset + j]!;
-        d.bins[i]! += 1;
-      }
+    const seconds = levelOf(gatewayId, key, SECOND_MS);
+    const minutes = levelOf(gatewayId, key, MINUTE_MS);
+    let j = 0;
+    while (j < n) {
+      const t = t0 + j * dt;
+      const second = Math.floor(t / SECOND_MS) * SECOND_MS;
+      // Bins j … end-1 start inside this second.
+      const end = Math.min(n, j + Math.ceil((second + SECOND_MS - t) / dt));
+      let sum = 0;
+      for (let i = offset + j; i < offset + end; i++) sum += values[i]!;
+      add(seconds, gatewayId, key, SECOND_MS, second, sum, end - j);
+      add(minutes, gatewayId, key, MINUTE_MS, second, sum, end - j);
+      j = end;
     }
   };
   for (const { gatewayId, slice } of items) {
     const { n, dt, t0 } = slice;
-    slice.keys.forEach((key, k) => addSeries(gatewayId, key, t0, dt, slice.counts, k * n, n));
+    for (let k = 0; k < slice.keys.length; k++) addSeries(gatewayId, slice.keys[k]!, t0, dt, slice.counts, k * n, n);
     if (slice.cc) addSeries(gatewayId, CC_KEY, t0, dt, slice.cc, 0, n);
   }
   // A stable order keeps row locks in one order across transactions.
-  return [...out.values()].sort((a, b) =>
+  return [...levels.values()].flatMap((m) => [...m.values()]).sort((a, b) =>
     a.gatewayId < b.gatewayId ? -1 : a.gatewayId > b.gatewayId ? 1 : a.key < b.key ? -1 : a.key > b.key ? 1 : a.stepMs - b.stepMs || a.blockT0 - b.blockT0,
   );
 }
