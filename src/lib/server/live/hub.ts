@@ -3,8 +3,8 @@
 // and terminates sockets that stop answering pings.
 //
 // Push in frames: what the fan-out emits for a bench waits at most FRAME_MS, is coalesced
-// (contiguous counts of a gateway merge), serialised ONCE to a Buffer and handed to every client of
-// the bench, which writes the whole frame with one socket write. With 200 browsers and 200 batches/s
+// (contiguous counts of a gateway merge), serialised and framed ONCE (ws-frame.ts) and handed to
+// every client of the bench, which writes the whole frame with one socket write. With 200 browsers and 200 batches/s
 // the per-message, per-client send was half the server's CPU and put it behind (DEVELOPERS.md,
 // "Ingest benchmark").
 import type http from 'node:http';
@@ -18,9 +18,10 @@ import type { SessionUser } from '../auth/lucia.ts';
 import type { Fanout } from '../ingest/fanout.ts';
 import { canReadBench } from './access.ts';
 import { coalesceCounts } from './coalesce.ts';
-import { Outbox, type Queued, type Sink } from './outbox.ts';
+import { Outbox, type PreparedFrame, type Queued, type Sink } from './outbox.ts';
 import { countsSince } from './resume.ts';
 import { traceStage } from './trace.ts';
+import { textFrames } from './ws-frame.ts';
 
 /** Ping period; a socket that has not answered the previous ping by the next one is terminated (ms). */
 const HEARTBEAT_MS = 30_000;
@@ -48,7 +49,7 @@ function refuse(socket: Duplex, status: number, reason: string, error: string): 
 }
 
 export class LiveHub {
-  private readonly wss = new WebSocketServer({ noServer: true, maxPayload: MAX_CLIENT_MESSAGE_BYTES });
+  private readonly wss = new WebSocketServer({ noServer: true, maxPayload: MAX_CLIENT_MESSAGE_BYTES, perMessageDeflate: false });
   private readonly benches = new Map<string, Set<LiveClient>>();
   private readonly heartbeat: NodeJS.Timeout;
   private readonly unsubscribe: () => void;
@@ -93,7 +94,8 @@ export class LiveHub {
       const keys = () => messages.flatMap((m) => (m.type === 'counts' ? [`${m.gateway}/${m.t0}`] : []));
       traceStage('frame-start', keys);
       const items = coalesceCounts(messages, (m) => m, (_a, _b, merged) => merged).map((m) => this.queued(m));
-      for (const c of clients) c.outbox.pushFrame(items);
+      const frame: PreparedFrame = { items, wire: textFrames(items.map((q) => q.data)) };
+      for (const c of clients) c.outbox.pushFrame(frame);
       traceStage('frame-end', keys);
     }
   }
@@ -133,6 +135,8 @@ export class LiveHub {
 
   private attach(ws: WebSocket, socket: Duplex, bench: string, user: SessionUser): void {
     // ws writes to the socket we handed it, so corking it gathers a frame's messages into one write.
+    // Prepared frames go to the socket directly: the server negotiates no extension (no compression),
+    // so ws's sender keeps no state between frames that a whole frame written beside it could break.
     const sink: Sink = {
       get bufferedAmount() {
         return ws.bufferedAmount;
@@ -140,6 +144,11 @@ export class LiveHub {
       send: (data) => ws.send(data, { binary: false }),
       cork: () => socket.cork(),
       uncork: () => socket.uncork(),
+      writeFramed: (wire) => {
+        if (ws.readyState !== ws.OPEN) return false;
+        socket.write(wire);
+        return true;
+      },
     };
     const client: LiveClient = { ws, bench, user, outbox: new Outbox(sink, bench), alive: true, resuming: false };
     const set = this.benches.get(bench) ?? new Set();
@@ -188,7 +197,7 @@ export class LiveHub {
   }
 
   /** Serialises once; the same Buffer goes to every client (ws would re-encode a string per send). */
-  private queued(msg: LiveMessage | FeatureMessage): Queued {
+  private queued(msg: LiveMessage | FeatureMessage): Queued & { data: Buffer } {
     const data = Buffer.from(JSON.stringify(msg));
     return { msg, data, bytes: data.length };
   }
