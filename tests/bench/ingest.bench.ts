@@ -9,7 +9,7 @@
 // The server under test (and the bare broker) run in this process; the gateways and browsers run
 // in a forked child (ingest-load.ts), as other machines would in a lab.
 // Run: `npm run bench:ingest [-- --soak 600] [-- --profile <dir>]` (soak in s, default 30; the
-// profile option writes one CPU profile of the server's thread per phase). Prints a JSON summary.
+// profile option writes a CPU and an allocation profile of the server's thread per phase). Prints a JSON summary.
 import { execFileSync, fork, type ChildProcess } from 'node:child_process';
 import diagnostics_channel from 'node:diagnostics_channel';
 import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
@@ -27,19 +27,24 @@ import { freshGateway, startTestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
 import { BINS, BURST_MS, DT_MS, GATEWAYS, KEYS, WS_CLIENTS, type LoadCommand, type LoadReply } from './ingest-common.ts';
 
-/** Records a CPU profile of this thread while `fn` runs, when a profile folder was asked for. */
+/** Records a CPU profile and a sampled allocation profile of this thread while `fn` runs, when a profile folder was asked for. */
 async function profiled<T>(dir: string | null, phase: string, fn: () => Promise<T>): Promise<T> {
   if (!dir) return fn();
   const session = new Session();
   session.connect();
   await session.post('Profiler.enable');
+  await session.post('HeapProfiler.enable');
   await session.post('Profiler.start');
+  // Every 64 KiB allocated, with objects already collected kept: what feeds the young-generation GC.
+  await session.post('HeapProfiler.startSampling', { samplingInterval: 65_536, includeObjectsCollectedByMajorGC: true, includeObjectsCollectedByMinorGC: true });
   try {
     return await fn();
   } finally {
     const { profile } = await session.post('Profiler.stop');
+    const { profile: heap } = await session.post('HeapProfiler.stopSampling');
     mkdirSync(dir, { recursive: true });
     writeFileSync(path.join(dir, `${phase}.cpuprofile`), JSON.stringify(profile));
+    writeFileSync(path.join(dir, `${phase}.heapprofile`), JSON.stringify(heap));
     session.disconnect();
   }
 }
