@@ -17,6 +17,7 @@ import { Session } from 'node:inspector/promises';
 import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
+import { monitorEventLoopDelay, PerformanceObserver } from 'node:perf_hooks';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { Aedes } from 'aedes';
 import { getDbHandle } from '../../src/lib/server/db/index.ts';
@@ -47,6 +48,18 @@ async function profiled<T>(dir: string | null, phase: string, fn: () => Promise<
     writeFileSync(path.join(dir, `${phase}.heapprofile`), JSON.stringify(heap));
     session.disconnect();
   }
+}
+
+/** `PerformanceEntry.detail.kind` of a GC entry (node:perf_hooks constants NODE_PERFORMANCE_GC_*). */
+const GC_KINDS: Record<number, string> = { 1: 'scavenge', 2: 'markSweepCompact', 4: 'incremental', 8: 'weakCallbacks' };
+
+function gcSummary(gcs: { kind: string; ms: number }[]) {
+  const out: Record<string, { count: number; p50Ms: number; maxMs: number; totalMs: number }> = {};
+  for (const kind of new Set(gcs.map((g) => g.kind))) {
+    const ms = gcs.filter((g) => g.kind === kind).map((g) => g.ms).sort((a, b) => a - b);
+    out[kind] = { count: ms.length, p50Ms: round(pct(ms, 0.5)), maxMs: round(ms[ms.length - 1]!), totalMs: round(ms.reduce((a, b) => a + b, 0), 0) };
+  }
+  return out;
 }
 
 function pct(sorted: number[], p: number): number {
@@ -190,6 +203,14 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null)
   };
   diagnostics_channel.subscribe(LIVE_TRACE_CHANNEL, onTrace);
   const began = performance.now();
+  // Pauses of the server's event loop during the realistic phase: GC by kind, and loop delay.
+  const gcs: { kind: string; ms: number }[] = [];
+  const gcObserver = new PerformanceObserver((list) => {
+    for (const e of list.getEntries()) gcs.push({ kind: GC_KINDS[((e as PerformanceEntry & { detail?: { kind?: number } }).detail)?.kind ?? 0] ?? 'other', ms: e.duration });
+  });
+  gcObserver.observe({ entryTypes: ['gc'] });
+  const loopDelay = monitorEventLoopDelay({ resolution: 1 });
+  loopDelay.enable();
   const sampler = setInterval(() => {
     const m = process.memoryUsage();
     memory.push({ t: round((performance.now() - began) / 1000, 0), rssMb: round(m.rss / 2 ** 20, 1), heapMb: round(m.heapUsed / 2 ** 20, 1), buffersMb: round(m.arrayBuffers / 2 ** 20, 1) });
@@ -207,6 +228,8 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null)
     }),
   );
   clearInterval(sampler);
+  gcObserver.disconnect();
+  loopDelay.disable();
   diagnostics_channel.unsubscribe(LIVE_TRACE_CHANNEL, onTrace);
   const publishedSpan = (real.batches.at(-1)!.at - real.batches[0]!.at) / 1000 + (BINS * DT_MS) / 1000;
   const lat = real.batches.flatMap((b) => b.lat).sort((a, b) => a - b);
@@ -224,6 +247,8 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null)
     pubackP50Ms: round(pct(puback, 0.5)),
     pubackP99Ms: round(pct(puback, 0.99)),
     breakdown: breakdown(real.batches, marks),
+    eventLoopDelayMs: { p50: round(loopDelay.percentile(50) / 1e6), p99: round(loopDelay.percentile(99) / 1e6), max: round(loopDelay.max / 1e6) },
+    gcPauses: gcSummary(gcs),
     memory,
   };
 
