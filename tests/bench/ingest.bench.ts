@@ -202,6 +202,9 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null)
     }
   };
   diagnostics_channel.subscribe(LIVE_TRACE_CHANNEL, onTrace);
+  const { pool: walPool } = getDbHandle();
+  const walAt = async () => (await walPool.query<{ lsn: string }>('select pg_current_wal_lsn()::text as lsn')).rows[0]!.lsn;
+  const walBefore = await walAt();
   const began = performance.now();
   // Pauses of the server's event loop during the realistic phase: GC by kind, and loop delay.
   const gcs: { kind: string; ms: number }[] = [];
@@ -238,6 +241,9 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null)
   const stored = async () =>
     (await pool.query<{ bins: number }>('select coalesce(sum(n * array_length(keys, 1)), 0)::float8 as bins from count_batches where gateway_id = any($1)', [gws.map((g) => g.gatewayId)])).rows[0]!.bins;
   const realisticBins = await stored();
+  // WAL written per stored batch: what each write costs PostgreSQL in bytes (rows, rollups, health, indexes).
+  const wal = await walPool.query<{ bytes: number }>('select pg_wal_lsn_diff($1::pg_lsn, $2::pg_lsn)::float8 as bytes', [await walAt(), walBefore]);
+  const walBytesPerBatch = round(wal.rows[0]!.bytes / real.batches.length, 0);
   const realistic = {
     binsPerS: round(realisticBins / publishedSpan, 0),
     wsP50Ms: round(pct(lat, 0.5)),
@@ -246,6 +252,7 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null)
     wsExpected: real.batches.length * WS_CLIENTS,
     pubackP50Ms: round(pct(puback, 0.5)),
     pubackP99Ms: round(pct(puback, 0.99)),
+    walBytesPerBatch,
     breakdown: breakdown(real.batches, marks),
     eventLoopDelayMs: { p50: round(loopDelay.percentile(50) / 1e6), p99: round(loopDelay.percentile(99) / 1e6), max: round(loopDelay.max / 1e6) },
     gcPauses: gcSummary(gcs),
