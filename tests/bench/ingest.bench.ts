@@ -8,7 +8,7 @@
 //  - stored bytes per bin, indexes included.
 // The server under test (and the bare broker) run in this process; the gateways and browsers run
 // in a forked child (ingest-load.ts), as other machines would in a lab.
-// Run: `npm run bench:ingest [-- --soak 600] [-- --profile <dir>]` (soak in s, default 30; the
+// Run: `npm run bench:ingest [-- --soak 600] [-- --profile <dir>] [-- --no-breakdown]` (soak in s, default 30; the
 // profile option writes a CPU and an allocation profile of the server's thread per phase). Prints a JSON summary.
 import { execFileSync, fork, type ChildProcess } from 'node:child_process';
 import diagnostics_channel from 'node:diagnostics_channel';
@@ -182,7 +182,7 @@ async function copyBaseline(bins: number): Promise<{ copyBinsPerS: number; copyB
   return { copyBinsPerS: round(lines.length / seconds, 0), copyBytesPerBin: round(rows[0]!.size / lines.length) };
 }
 
-async function fringewise(load: Load, soakMs: number, profileDir: string | null) {
+async function fringewise(load: Load, soakMs: number, profileDir: string | null, withBreakdown: boolean) {
   const t = await startTestLive();
   const first = await freshGateway();
   const gws = [first, ...(await Promise.all(Array.from({ length: GATEWAYS - 1 }, () => freshGateway(first.benchId))))];
@@ -201,7 +201,8 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null)
       marks.set(k, m);
     }
   };
-  diagnostics_channel.subscribe(LIVE_TRACE_CHANNEL, onTrace);
+  // The breakdown keeps a mark per batch in this (the server's) process; a soak that judges memory goes without.
+  if (withBreakdown) diagnostics_channel.subscribe(LIVE_TRACE_CHANNEL, onTrace);
   const { pool: walPool } = getDbHandle();
   const walAt = async () => (await walPool.query<{ lsn: string }>('select pg_current_wal_lsn()::text as lsn')).rows[0]!.lsn;
   const walBefore = await walAt();
@@ -233,7 +234,7 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null)
   clearInterval(sampler);
   gcObserver.disconnect();
   loopDelay.disable();
-  diagnostics_channel.unsubscribe(LIVE_TRACE_CHANNEL, onTrace);
+  if (withBreakdown) diagnostics_channel.unsubscribe(LIVE_TRACE_CHANNEL, onTrace);
   const publishedSpan = (real.batches.at(-1)!.at - real.batches[0]!.at) / 1000 + (BINS * DT_MS) / 1000;
   const lat = real.batches.flatMap((b) => b.lat).sort((a, b) => a - b);
   const puback = real.batches.map((b) => b.pubackMs).sort((a, b) => a - b);
@@ -253,7 +254,7 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null)
     pubackP50Ms: round(pct(puback, 0.5)),
     pubackP99Ms: round(pct(puback, 0.99)),
     walBytesPerBatch,
-    breakdown: breakdown(real.batches, marks),
+    breakdown: withBreakdown ? breakdown(real.batches, marks) : null,
     eventLoopDelayMs: { p50: round(loopDelay.percentile(50) / 1e6), p99: round(loopDelay.percentile(99) / 1e6), max: round(loopDelay.max / 1e6) },
     gcPauses: gcSummary(gcs),
     memory,
@@ -273,14 +274,14 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null)
   return { realistic, saturation, bytesPerBin: round(rows[0]!.size / rows[0]!.all), storedBins: totalBins };
 }
 
-export async function run(opts: { soakSeconds?: number; profileDir?: string | null } = {}) {
+export async function run(opts: { soakSeconds?: number; profileDir?: string | null; breakdown?: boolean } = {}) {
   const soakMs = (opts.soakSeconds ?? 30) * 1000;
   const ownDb = !process.env['DATABASE_URL'];
   if (ownDb) await startTestDb();
   const load = new Load();
   try {
     const bare = await bareBroker(load);
-    const fw = await fringewise(load, soakMs, opts.profileDir ?? null);
+    const fw = await fringewise(load, soakMs, opts.profileDir ?? null, opts.breakdown ?? true);
     const copy = await copyBaseline(Math.min(fw.storedBins, 2_000_000));
     const mem = fw.realistic.memory;
     const summary = {
@@ -314,6 +315,6 @@ if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) {
     const i = process.argv.indexOf(name);
     return i > 0 ? (process.argv[i + 1] ?? null) : null;
   };
-  await run({ soakSeconds: Number(arg('--soak') ?? 30), profileDir: arg('--profile') });
+  await run({ soakSeconds: Number(arg('--soak') ?? 30), profileDir: arg('--profile'), breakdown: !process.argv.includes('--no-breakdown') });
   process.exit(0);
 }
