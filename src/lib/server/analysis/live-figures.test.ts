@@ -1,0 +1,92 @@
+// Which recent bins feed which live figure, checked on steady synthetic counts where each figure
+// has a closed form from its published definition.
+import { describe, expect, it } from 'vitest';
+import type { ChannelSettings } from './live-figures.ts';
+import { computeFigures } from './live-figures.ts';
+import { RecentBins } from './recent-bins.ts';
+
+const GW = 'gw';
+const T0 = 1_796_000_000_000;
+const DT = 10; // ms
+const BINS = 100; // one batch = 1 s
+const SECONDS = 5;
+const A = 60; // counts per bin on output a
+const B = 20; // … on output b
+const CC_TOTAL = 120; // coincidences over the window
+
+function recent(): RecentBins {
+  const r = new RecentBins();
+  for (let s = 0; s < SECONDS; s++) {
+    // The first 120 bins hold one coincidence each: only the total matters for g2(0).
+    const cc = Array.from({ length: BINS }, (_, i) => (s * BINS + i < CC_TOTAL ? 1 : 0));
+    r.add(GW, { v: 1, boot: 'b', seq: s, t0: T0 + s * BINS * DT, dt: DT, ch: { a: new Array(BINS).fill(A), b: new Array(BINS).fill(B) }, cc });
+  }
+  return r;
+}
+
+const channels: ChannelSettings[] = [
+  { gateway: GW, key: 'a', label: 'A', role: 'out_a', darkRate: 100, darkRateErr: 10, deadTimeNs: 50, deadTimeModel: 'nonparalyzable', efficiency: 1 },
+  { gateway: GW, key: 'b', label: 'B', role: 'out_b', darkRate: null, darkRateErr: null, deadTimeNs: null, deadTimeModel: 'nonparalyzable', efficiency: 1 },
+];
+
+const end = T0 + SECONDS * BINS * DT;
+const input = (sweepPoints: { timeMs: number; value: number; err: number }[] = []) => ({
+  benchId: 'bench',
+  now: end,
+  windowMs: SECONDS * 1000,
+  channels,
+  coincidenceWindowNs: 1_000,
+  recent: recent(),
+  sweepPoints,
+  sweepNet: false,
+  phaseHistory: [],
+});
+
+describe('computeFigures', () => {
+  const { figures } = computeFigures(input());
+  const chA = figures.channels.find((c) => c.role === 'out_a')!;
+  const chB = figures.channels.find((c) => c.role === 'out_b')!;
+
+  it('gives raw and corrected rates per channel over the window', () => {
+    expect(chA.rateRaw).toBeCloseTo((A * 1000) / DT, 9);
+    expect(chB.rateRaw).toBeCloseTo((B * 1000) / DT, 9);
+    // Knoll, Radiation Detection and Measurement (4th ed., ch. 4), non-paralyzable: n = m/(1 − mτ),
+    // applied to the measured and to the dark rate before subtracting.
+    const tau = 50e-9;
+    const m = (A * 1000) / DT;
+    expect(chA.rateCorrected!.value).toBeCloseTo(m / (1 - m * tau) - 100 / (1 - 100 * tau), 6);
+    expect(chA.deadTimeLoss).toBeCloseTo(m * tau, 9);
+    expect(chB.rateCorrected!.value).toBeCloseTo((B * 1000) / DT, 9);
+  });
+
+  it('gives Mandel Q = −1 for counts without variance (Mandel, Opt. Lett. 4, 205 (1979): Q = (Var n − ⟨n⟩)/⟨n⟩)', () => {
+    expect(chA.mandelQ!.value).toBeCloseTo(-1, 9);
+  });
+
+  it('gives the contrast (N_a − N_b)/(N_a + N_b) over the last second', () => {
+    expect(figures.contrast).toBeCloseTo((A - B) / (A + B), 12);
+  });
+
+  it('gives g2(0) = N_c·T/(N_1·N_2·Δt) (references: Grangier, Roger, Aspect 1986)', () => {
+    const n1 = A * BINS * SECONDS;
+    const n2 = B * BINS * SECONDS;
+    const accidentals = (n1 * n2 * 1_000e-9) / SECONDS;
+    expect(figures.g2!.accidentals).toBeCloseTo(accidentals, 9);
+    expect(figures.g2!.value).toBeCloseTo(CC_TOTAL / accidentals, 9);
+    expect(figures.alpha).toBeNull();
+  });
+
+  it('prefers fresh sweep fits, ignores fits older than two minutes, and reads the phase at hold with them', () => {
+    // A phase that never moves shows no fringe envelope: without a fresh fit there is no visibility.
+    expect(figures.visibility).toBeNull();
+    const stale = computeFigures(input([{ timeMs: end - 200_000, value: 0.9, err: 0.01 }])).figures;
+    expect(stale.visibility).toBeNull();
+    const fresh = computeFigures(input([{ timeMs: end - 10_000, value: 0.9, err: 0.01 }])).figures;
+    expect(fresh.visibility).toMatchObject({ source: 'sweep', value: 0.9 });
+    // Two outputs ∝ 1 ± V cos θ (common practice): over the last second, dark counts taken off a,
+    // cos θ = (N_a − D_a − N_b)/(V (N_a − D_a + N_b)).
+    const [na, nb, darkA] = [A * BINS, B * BINS, 100];
+    expect(fresh.phase?.value).toBeCloseTo(Math.acos((na - darkA - nb) / (0.9 * (na - darkA + nb))), 6);
+    expect(fresh.phase?.driftRadPerS).toBeNull(); // fewer than 5 readings yet
+  });
+});
