@@ -57,7 +57,7 @@ beforeAll(async () => {
   operatorId = (await userWithToken('operator', 'alarm-op')).id;
   runtime().live = { publish: (_b, m) => void pushed.push(m as unknown as AlarmMessage), subscribe: () => () => undefined, clientCount: () => 0 };
   // Gather 150 ms, quiet 60 s: the test sees the first mail at once and no second one within its run.
-  engine = new AlarmEngine({ tickMs: 50, mail: { gatherMs: 150, quietMs: 60_000 } });
+  engine = new AlarmEngine({ tickMs: 50, mail: { gatherMs: 150, quietMs: 60_000 }, mailStateName: `alarm-mail-${tag}` });
   await engine.start();
 });
 
@@ -159,6 +159,21 @@ describe('alarm evaluation on ingest', () => {
     const mails = await mailTo(to, 2, 1000);
     expect(mails).toHaveLength(1);
     expect(mails[0]!.subject).toContain('Flappy');
+
+    // Changes after that mail wait for the end of the quiet period, and the wait outlasts a restart:
+    // the next engine (here with a 1 s quiet period) sends them as a digest.
+    emit(batch({ c: 5000 }));
+    emit(batch({ c: 500 }));
+    await engine.idle();
+    await engine.stop();
+    engine = new AlarmEngine({ tickMs: 50, mail: { gatherMs: 150, quietMs: 1_000 }, mailStateName: `alarm-mail-${tag}` });
+    await engine.start();
+    const after = await mailTo(to, 2, 5000);
+    expect(after).toHaveLength(2);
+    expect(after[0]!.subject).toMatch(/digest: \d+ alarm changes .* - Flappy/);
+    // The two mails account for all 42 changes (how many made the first depends on timing).
+    const changes = after.map((m) => Number(/(\d+) alarm changes/.exec(m.subject)?.[1] ?? 1));
+    expect(changes[0]! + changes[1]!).toBe(42);
   });
 
   it('closes the open alarms of a rule that is disabled', async () => {

@@ -9,13 +9,13 @@ import { and, eq, inArray, isNotNull, isNull } from 'drizzle-orm';
 import { alarmMessage, METRIC_INFO, type AlarmEventView, type AlarmMessage } from '../../alarm-messages.ts';
 import { benchChannels } from '../benches.ts';
 import { getDb } from '../db/index.ts';
-import { alarmRules, benches, gateways, type AlarmRule } from '../db/schema.ts';
+import { alarmRules, benches, gateways, settings, type AlarmRule } from '../db/schema.ts';
 import { serverEvents, type ServerEvents } from '../events.ts';
 import { sendMail } from '../mail/send.ts';
 import { runtime } from '../runtime.ts';
 import { AlarmStates, type Transition } from './evaluator.ts';
 import { insertRaised, markCleared, openEvents } from './event-store.ts';
-import { MailPolicy, type MailPolicyOptions, type OutgoingAlarmMail } from './mail-policy.ts';
+import { MailPolicy, mailPolicyStateSchema, type MailPolicyOptions, type OutgoingAlarmMail } from './mail-policy.ts';
 import { rejectSamples, RejectCounter, samplesFromBatch, silentSamples, type SubjectSample } from './metrics.ts';
 
 export interface AlarmEngineOptions {
@@ -28,6 +28,8 @@ export interface AlarmEngineOptions {
   staleMs?: number;
   /** How often bench names, gateways and channel roles are re-read, ms (rules reload at once on change). */
   refreshMs?: number;
+  /** The settings row that keeps the mail policy's state (tests that run engines side by side use their own). */
+  mailStateName?: string;
 }
 
 interface BenchContext {
@@ -41,6 +43,8 @@ export class AlarmEngine {
   private readonly now: () => number;
   private readonly staleMs: number;
   private readonly refreshMs: number;
+  /** Waiting digests and the last mail per rule are kept in this settings row. */
+  private readonly mailStateName: string;
   private readonly policy: MailPolicy;
   private readonly send: (mail: OutgoingAlarmMail) => Promise<void>;
   private byBench = new Map<string, AlarmRule[]>();
@@ -57,11 +61,13 @@ export class AlarmEngine {
     this.now = opts.now ?? Date.now;
     this.staleMs = opts.staleMs ?? 120_000;
     this.refreshMs = opts.refreshMs ?? 30_000;
+    this.mailStateName = opts.mailStateName ?? 'alarm-mail';
     this.policy = new MailPolicy(opts.mail);
     this.send = opts.send ?? sendMail;
   }
 
   async start(): Promise<void> {
+    await this.enqueue(() => this.loadMailState());
     await this.reload();
     const bus = serverEvents();
     const on = <E extends keyof ServerEvents>(name: E, fn: (...args: ServerEvents[E]) => void) => {
@@ -85,6 +91,8 @@ export class AlarmEngine {
     for (const off of this.unsubscribers.splice(0)) off();
     await this.idle();
     await this.sendDue();
+    // What still waits for its quiet period is sent by the next start.
+    await this.enqueue(() => this.saveMailState());
   }
 
   /** Resolves when every queued write has run. */
@@ -173,10 +181,13 @@ export class AlarmEngine {
       },
       this.now(),
     );
+    await this.saveMailState();
   }
 
   private async sendDue(): Promise<void> {
-    for (const mail of this.policy.due(this.now())) {
+    const due = this.policy.due(this.now());
+    if (due.length) void this.enqueue(() => this.saveMailState());
+    for (const mail of due) {
       try {
         await this.send(mail);
       } catch (err) {
@@ -184,6 +195,23 @@ export class AlarmEngine {
         console.warn('[alarms] mail not sent:', err instanceof Error ? err.message : err);
       }
     }
+  }
+
+  private async loadMailState(): Promise<void> {
+    const [row] = await getDb().select().from(settings).where(eq(settings.name, this.mailStateName));
+    if (!row) return;
+    const parsed = mailPolicyStateSchema.safeParse(row.value);
+    if (parsed.success) this.policy.restore(parsed.data);
+    else console.warn('[alarms] saved mail state unreadable, starting afresh:', parsed.error.issues[0]?.message);
+  }
+
+  /** Keeps the policy's state in the database, so a restart (or a crash) loses no digest. */
+  private async saveMailState(): Promise<void> {
+    const value = this.policy.state();
+    await getDb()
+      .insert(settings)
+      .values({ name: this.mailStateName, value })
+      .onConflictDoUpdate({ target: settings.name, set: { value, updatedAt: new Date() } });
   }
 
   private async load(): Promise<void> {

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { MailPolicy, type MailItem } from './mail-policy.ts';
+import { MailPolicy, mailPolicyStateSchema, type MailItem } from './mail-policy.ts';
 
 const base: MailItem = {
   ruleId: 1,
@@ -60,5 +60,27 @@ describe('alarm mail policy', () => {
     p.offer({ ...base, recipients: [] }, 0);
     expect(p.due(10_000)).toEqual([]);
     expect(p.pending()).toBe(false);
+  });
+
+  it('resumes from a saved state as if it had never stopped (a restart loses no digest)', () => {
+    const run = (restartAt: number | null) => {
+      let p = new MailPolicy({ quietMs: 600_000, gatherMs: 2_000 });
+      const sent: string[] = [];
+      for (let t = 0; t <= 900_000; t += 1_000) {
+        if (t === restartAt) {
+          // Through JSON and the schema, as the engine keeps it in the settings table.
+          const saved = mailPolicyStateSchema.parse(JSON.parse(JSON.stringify(p.state())));
+          p = new MailPolicy({ quietMs: 600_000, gatherMs: 2_000 });
+          p.restore(saved);
+        }
+        if (t % 30_000 === 0 && t <= 300_000) p.offer({ ...base, change: (t / 30_000) % 2 ? 'cleared' : 'raised', at: t }, t);
+        for (const m of p.due(t)) sent.push(`${t} ${m.subject}`);
+      }
+      return sent;
+    };
+    const uninterrupted = run(null);
+    expect(uninterrupted).toHaveLength(2); // the first change at once, the rest as one digest
+    expect(run(400_000)).toEqual(uninterrupted);
+    expect(run(1_000)).toEqual(uninterrupted);
   });
 });

@@ -4,7 +4,10 @@
 //   the period ends.
 // - Changes that arrive together (within `gatherMs`, 2 s by default) are sent as one mail per
 //   recipient list: a digest when several rules fire at once (a power cut trips them all).
-import { METRIC_INFO, SEVERITIES, type AlarmMetric, type Severity } from '../../alarm-messages.ts';
+// Its state (what waits, when each rule last mailed) round-trips through `state()`/`restore()`, so
+// the engine can keep it in the database and a restart loses no digest.
+import { z } from 'zod';
+import { ALARM_METRICS, METRIC_INFO, SEVERITIES, type AlarmMetric, type Severity } from '../../alarm-messages.ts';
 
 const SEVERITY_ORDER: readonly Severity[] = SEVERITIES;
 
@@ -24,6 +27,31 @@ export interface MailItem {
   at: number;
   recipients: readonly string[];
 }
+
+const mailItemSchema = z.object({
+  ruleId: z.number().int(),
+  ruleName: z.string(),
+  benchId: z.string(),
+  benchName: z.string(),
+  metric: z.enum(ALARM_METRICS),
+  subject: z.string(),
+  severity: z.enum(SEVERITIES),
+  change: z.enum(['raised', 'cleared']),
+  value: z.number().nullable(),
+  threshold: z.number(),
+  clearThreshold: z.number(),
+  at: z.number(),
+  recipients: z.array(z.string()).readonly(),
+});
+
+/** What a policy holds between calls, as plain JSON. */
+export const mailPolicyStateSchema = z.object({
+  lastSent: z.array(z.tuple([z.number().int(), z.number()])),
+  ready: z.array(mailItemSchema),
+  readyFrom: z.number(),
+  folded: z.array(z.tuple([z.number().int(), z.array(mailItemSchema)])),
+});
+export type MailPolicyState = z.infer<typeof mailPolicyStateSchema>;
 
 export interface OutgoingAlarmMail {
   to: string[];
@@ -100,6 +128,20 @@ export class MailPolicy {
   /** True while mail is waiting (the engine flushes it on shutdown). */
   pending(): boolean {
     return this.ready.length > 0 || this.folded.size > 0;
+  }
+
+  state(): MailPolicyState {
+    return { lastSent: [...this.lastSent], ready: [...this.ready], readyFrom: this.readyFrom, folded: [...this.folded] };
+  }
+
+  /** Takes over a saved state (at start, before any offer). */
+  restore(state: MailPolicyState): void {
+    this.lastSent.clear();
+    for (const [rule, at] of state.lastSent) this.lastSent.set(rule, at);
+    this.ready = [...state.ready];
+    this.readyFrom = state.readyFrom;
+    this.folded.clear();
+    for (const [rule, items] of state.folded) this.folded.set(rule, [...items]);
   }
 }
 
