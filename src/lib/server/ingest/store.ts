@@ -20,7 +20,7 @@ type Item =
   | { kind: 'batch'; gatewayId: string; batch: CountBatch; arrivedAt: number; resolve: (o: BatchOutcome) => void }
   | { kind: 'reject' | 'refused'; gatewayId: string; reason: string; at: number; resolve: () => void };
 
-/** Most batches in one write: bounds the statement to a few MB (1,000 × 400 counts ≈ 2 MB of text). */
+/** Most batches in one write: bounds the statement to about a MB (1,000 batches of 400 packed counts and their other columns). */
 const MAX_ITEMS_PER_WRITE = 1_000;
 
 export interface StoredEvent {
@@ -128,8 +128,8 @@ export class BatchWriter {
   }
 
   /**
-   * Reads the stored spans the batches touch, plans in memory, then writes everything in one
-   * statement. The read needs no transaction around it: this writer is the only one that stores
+   * Reads the stored spans touched by the batches behind their gateway's frontier, plans in
+   * memory, then writes everything in one statement. The read needs no transaction around it: this writer is the only one that stores
    * batches of its gateways (one server per database, gateways partitioned between writers), and
    * the primary key stops anything that slipped in between (an import) from being doubled.
    */
