@@ -42,6 +42,17 @@ describe('retention', () => {
     await expect(setRetention({ rawDays: 30, fineDays: 10, coarseDays: 40 }, null)).rejects.toThrow();
   });
 
+  it('estimates a large raw table from the 1 min sums instead of counting its rows', async () => {
+    const of = (u: Awaited<ReturnType<typeof storageUsage>>) => u.rows.find((r) => r.benchId === BENCH && r.level === 'raw')!;
+    const exact = of(await storageUsage());
+    const estimate = of(await storageUsage({ exactRawRows: -1 }));
+    expect(exact.estimated).toBe(false);
+    expect(estimate.estimated).toBe(true);
+    // Every raw bin of this bench has its 1 min sum, so the estimate meets the count.
+    expect(estimate.values).toBe(exact.values);
+    expect(estimate.oldestMs).toBe(exact.oldestMs);
+  });
+
   it('deletes exactly what is past each limit, and nothing of a kept run', async () => {
     await setRetention({ rawDays: 10, fineDays: 20, coarseDays: 40 }, null);
     expect(await getRetention()).toEqual({ rawDays: 10, fineDays: 20, coarseDays: 40 });

@@ -18,6 +18,7 @@ import { z } from 'zod';
 import { recordAudit } from './audit.ts';
 import { getDb, getDbHandle } from './db/index.ts';
 import { settings } from './db/schema.ts';
+import { CC_KEY } from './ingest/rollup-math.ts';
 import { runtime } from './runtime.ts';
 
 const DAY_MS = 86_400_000;
@@ -168,18 +169,54 @@ export interface StorageRow {
   /** The table's size split by each bench's share of values: an estimate, bytes. */
   approxBytes: number;
   oldestMs: number | null;
+  /** Rows and values estimated (a large raw table is not counted row by row). */
+  estimated: boolean;
 }
 
-/** Storage per bench and level, for the admin page. Scans the tables once each: seconds on big labs. */
-export async function storageUsage(): Promise<{ rows: StorageRow[]; tableBytes: Record<'count_batches' | 'rollups', number> }> {
+/** Above this many raw rows (PostgreSQL's own estimate) the admin page estimates instead of scanning. */
+export const EXACT_RAW_ROWS = 1_000_000;
+
+/**
+ * Raw storage per bench without reading every row: the oldest bin by one primary-key probe per
+ * gateway, the values from the 1 min sums' bin counts since the hour of that oldest bin (a few
+ * rows per channel and hour), the rows as the table's estimated row count shared out by values.
+ */
+async function estimatedRaw(tableRows: number) {
+  const { rows } = await getDbHandle().pool.query<{ bench_id: string | null; vals: number; oldest: number | null }>(
+    `with firsts as (
+       select g.id, g.bench_id, (select c.t0 from count_batches c where c.gateway_id = g.id order by c.t0 limit 1) as oldest
+         from gateways g
+     ), sums as (
+       select f.id, sum(b) as vals
+         from firsts f
+         join rollups r on r.gateway_id = f.id and r.step_ms = 60000 and r.key <> $1 and r.block_t0 >= f.oldest - f.oldest % 3600000
+         cross join lateral unnest(r.bins) b
+        group by f.id
+     )
+     select f.bench_id, min(f.oldest) as oldest, coalesce(sum(s.vals), 0)::int8 as vals
+       from firsts f left join sums s on s.id = f.id
+      where f.oldest is not null
+      group by f.bench_id`,
+    [CC_KEY],
+  );
+  const total = rows.reduce((a, r) => a + Number(r.vals), 0) || 1;
+  return rows.map((r) => ({ bench_id: r.bench_id, rows: Math.round((tableRows * Number(r.vals)) / total), vals: Number(r.vals), oldest: r.oldest }));
+}
+
+/** Storage per bench and level, for the admin page: exact up to EXACT_RAW_ROWS raw rows, estimated above (a scan would take minutes). */
+export async function storageUsage(opts: { exactRawRows?: number } = {}): Promise<{ rows: StorageRow[]; tableBytes: Record<'count_batches' | 'rollups', number> }> {
   const pool = getDbHandle().pool;
-  const sizes = await pool.query<{ raw: number; roll: number }>(
-    `select pg_total_relation_size('count_batches')::int8 as raw, pg_total_relation_size('rollups')::int8 as roll`,
+  const sizes = await pool.query<{ raw: number; roll: number; raw_rows: number }>(
+    `select pg_total_relation_size('count_batches')::int8 as raw, pg_total_relation_size('rollups')::int8 as roll,
+            greatest((select reltuples from pg_class where oid = 'count_batches'::regclass), 0)::int8 as raw_rows`,
   );
-  const raw = await pool.query<{ bench_id: string | null; rows: number; vals: number; oldest: number | null }>(
-    `select g.bench_id, count(*)::int8 as rows, coalesce(sum(c.n * cardinality(c.keys)), 0)::int8 as vals, min(c.t0) as oldest
-       from count_batches c left join gateways g on g.id = c.gateway_id group by g.bench_id`,
-  );
+  const estimated = Number(sizes.rows[0]?.raw_rows ?? 0) > (opts.exactRawRows ?? EXACT_RAW_ROWS);
+  const raw = estimated
+    ? { rows: await estimatedRaw(Number(sizes.rows[0]!.raw_rows)) }
+    : await pool.query<{ bench_id: string | null; rows: number; vals: number; oldest: number | null }>(
+        `select g.bench_id, count(*)::int8 as rows, coalesce(sum(c.n * cardinality(c.keys)), 0)::int8 as vals, min(c.t0) as oldest
+           from count_batches c left join gateways g on g.id = c.gateway_id group by g.bench_id`,
+      );
   const roll = await pool.query<{ bench_id: string | null; step_ms: number; rows: number; oldest: number | null }>(
     `select g.bench_id, r.step_ms, count(*)::int8 as rows, min(r.block_t0) as oldest
        from rollups r left join gateways g on g.id = r.gateway_id group by g.bench_id, r.step_ms`,
@@ -195,6 +232,7 @@ export async function storageUsage(): Promise<{ rows: StorageRow[]; tableBytes: 
       values: Number(r.vals),
       approxBytes: Math.round((tableBytes.count_batches * Number(r.vals)) / rawTotal),
       oldestMs: r.oldest === null ? null : Number(r.oldest),
+      estimated,
     })),
     ...roll.rows.map((r) => ({
       benchId: r.bench_id,
@@ -203,6 +241,7 @@ export async function storageUsage(): Promise<{ rows: StorageRow[]; tableBytes: 
       values: Number(r.rows) * 60,
       approxBytes: Math.round((tableBytes.rollups * Number(r.rows)) / rollTotal),
       oldestMs: r.oldest === null ? null : Number(r.oldest),
+      estimated: false,
     })),
   ];
   return { rows, tableBytes };
