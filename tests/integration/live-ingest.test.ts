@@ -1,6 +1,7 @@
 // The live path end to end in one process: gateway (mqtt.js) → embedded broker → PostgreSQL →
 // WebSocket. Exactly-once storage, late bins and rollups, broker policy, status and resume.
 import { eq, sql } from 'drizzle-orm';
+import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { topicFor } from '../../src/lib/contract/wire.ts';
 import type { CountsMessage } from '../../src/lib/live-messages.ts';
@@ -97,6 +98,39 @@ describe('exactly once', () => {
     const h = await health(gw.gatewayId);
     expect(h.accepted).toBe(4);
     expect(h.duplicates).toBe(1);
+    await client.endAsync();
+  });
+
+  it('a write whose reply is lost after COMMIT is retried without adding its rollups twice', async () => {
+    const gw = await freshGateway();
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    await publishBatch(client, gw.gatewayId, makeBatch(BASE, 100, 0));
+    // The next write statement commits, then its connection "drops" before the reply is read: the
+    // error a reset socket gives (no SQLSTATE), which the writer retries.
+    const query = pg.Client.prototype.query;
+    let armed = true;
+    pg.Client.prototype.query = function (this: pg.Client, ...args: unknown[]) {
+      const out = (query as (...a: unknown[]) => unknown).apply(this, args);
+      if (armed && (args[0] as { name?: string } | undefined)?.name === 'ingest-write') {
+        armed = false;
+        return (out as Promise<unknown>).then(() => {
+          throw new Error('Connection terminated unexpectedly');
+        });
+      }
+      return out;
+    } as typeof query;
+    try {
+      await publishBatch(client, gw.gatewayId, makeBatch(BASE + 1000, 100, 1));
+    } finally {
+      pg.Client.prototype.query = query;
+    }
+    expect(armed).toBe(false);
+    const raw = await rawSum(gw.gatewayId);
+    expect(raw.bins).toBe(200);
+    for (const step of [1_000, 60_000]) expect(await rollupTotal(gw.gatewayId, step)).toEqual({ sum: raw.sum, bins: 400 });
+    // The retry found its batch stored: a duplicate, not a second acceptance.
+    const h = await health(gw.gatewayId);
+    expect([h.accepted, h.duplicates]).toEqual([2, 1]);
     await client.endAsync();
   });
 

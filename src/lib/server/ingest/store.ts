@@ -41,7 +41,8 @@ export class BatchWriter {
   /**
    * Per gateway, the end of its latest stored bin. A batch starting at or after it cannot overlap
    * anything stored, so it skips the span read: in-order batches, nearly all of them, cost one
-   * statement instead of two round trips. Loaded with the seq state; moves only after a COMMIT.
+   * statement instead of two round trips. Loaded from the database with the seq state, advanced
+   * only after a COMMIT, forgotten when a write fails (it may have committed).
    */
   private frontier = new Map<string, number>();
   private knownChannels = new Set<string>();
@@ -119,6 +120,14 @@ export class BatchWriter {
       this.afterCommit(items, result);
     } catch (err) {
       broken = true;
+      // The statement may have committed with only its reply lost (a connection reset after COMMIT):
+      // forget what this writer believed of these gateways, so the retry reloads their seq state and
+      // frontier and reads the stored spans, finding its own batches stored instead of adding their
+      // rollups and counters again.
+      for (const item of items) {
+        this.seqState.delete(item.gatewayId);
+        this.frontier.delete(item.gatewayId);
+      }
       throw err;
     } finally {
       client.off('error', onError);
@@ -129,15 +138,15 @@ export class BatchWriter {
 
   /**
    * Reads the stored spans touched by the batches behind their gateway's frontier, plans in
-   * memory, then writes everything in one statement. The read needs no transaction around it: this writer is the only one that stores
-   * batches of its gateways (one server per database, gateways partitioned between writers), and
-   * the primary key stops anything that slipped in between (an import) from being doubled.
+   * memory, then writes everything in one statement. The read needs no transaction around it:
+   * this writer is the only one that stores batches of its gateways (one server per database;
+   * imports store under gateways of their own).
    */
   private async writeOnce(client: pg.PoolClient, items: Item[]) {
     const batches = items.filter((i): i is Extract<Item, { kind: 'batch' }> => i.kind === 'batch');
     const gatewayIds = [...new Set(items.map((i) => i.gatewayId))];
     const seq = await this.loadSeqState(client, gatewayIds);
-    const spans = await this.overlappingSpans(client, batches.filter((b) => b.batch.t0 < (this.frontier.get(b.gatewayId) ?? 0)));
+    const spans = await this.overlappingSpans(client, batches.filter((b) => b.batch.t0 < (this.frontier.get(b.gatewayId) ?? Infinity)));
     const frontier = new Map<string, number>();
 
     const health = new Map<string, HealthDelta>(gatewayIds.map((g) => [g, emptyDelta()]));
@@ -229,7 +238,7 @@ export class BatchWriter {
         this.frontier.set(r.gateway_id, r.t1 === null ? 0 : Number(r.t1));
       }
     }
-    // Work on copies: if the write fails, the cached state must stay as it was.
+    // Work on copies: the cache changes only after a COMMIT (and is dropped when a write fails).
     return new Map(gatewayIds.map((g) => [g, { ...this.seqState.get(g)! }]));
   }
 

@@ -3,10 +3,10 @@
 // counters and last-seen times. One statement is one atomic transaction, so the write costs one
 // round trip instead of eight (begin, rows, rollups, channels, health, last seen, commit): on this
 // shared 2-core machine a round trip to PostgreSQL takes 1–2 ms of scheduling, which made up most
-// of publish → browser latency. Every column travels as one array parameter through unnest, so the
-// statement has a fixed 33 parameters however many rows it holds; the count arrays of every row
-// travel packed in ONE binary bytea parameter that PostgreSQL only slices (no per-element parsing,
-// which at saturation was most of what the server and the database spent per bin). Pure.
+// of publish → browser latency. Every column travels as one array parameter through unnest, except
+// the count arrays: those of every row travel packed in ONE binary bytea parameter that PostgreSQL
+// only slices (no per-element parsing, which at saturation was most of what the server and the
+// database spent per bin). A fixed 33 parameters however many rows. Pure.
 import type { Slice } from './coverage.ts';
 import type { HealthDelta } from './health-delta.ts';
 import { countWidth, packedLength, writePacked } from '../db/packed-counts.ts';
