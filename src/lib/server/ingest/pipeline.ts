@@ -7,8 +7,7 @@ import { decodeInbound, type InboundKind } from './decode.ts';
 import { Fanout } from './fanout.ts';
 import { GatewayDirectory } from './gateway-directory.ts';
 import { storeStatus } from './status-store.ts';
-import type { StoredEvent } from './store.ts';
-import { WriterPool } from './writer-pool.ts';
+import { BatchWriter, type StoredEvent } from './store.ts';
 
 export function countsMessage(benchId: string, gatewayId: string, s: Slice): CountsMessage {
   const ch: Record<string, number[]> = {};
@@ -22,7 +21,9 @@ export function countsMessage(benchId: string, gatewayId: string, s: Slice): Cou
 export class Ingest {
   readonly fanout = new Fanout();
   readonly directory = new GatewayDirectory();
-  readonly writer = new WriterPool((e) => this.onStored(e));
+  // One writer: a second one (gateways split by hash) measured worse on 2 cores once in-order
+  // batches skipped the span read (DEVELOPERS.md, "Ingest benchmark").
+  readonly writer = new BatchWriter((e) => this.onStored(e));
 
   /**
    * Handles one message a gateway published on its own topic. Resolves when the message may be
