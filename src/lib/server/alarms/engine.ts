@@ -67,7 +67,9 @@ export class AlarmEngine {
   }
 
   async start(): Promise<void> {
-    await this.enqueue(() => this.loadMailState());
+    // Not through the queue, which only logs failures: starting with an empty policy would
+    // overwrite the saved digests at the first save.
+    await this.loadMailState();
     await this.reload();
     const bus = serverEvents();
     const on = <E extends keyof ServerEvents>(name: E, fn: (...args: ServerEvents[E]) => void) => {
@@ -186,7 +188,9 @@ export class AlarmEngine {
 
   private async sendDue(): Promise<void> {
     const due = this.policy.due(this.now());
-    if (due.length) void this.enqueue(() => this.saveMailState());
+    if (due.length === 0) return;
+    // Saved before sending: a crash in between loses these mails rather than sending them twice.
+    await this.enqueue(() => this.saveMailState());
     for (const mail of due) {
       try {
         await this.send(mail);

@@ -44,6 +44,24 @@ describe('alarm mail policy', () => {
     expect(sent[1]).toContain('digest');
   });
 
+  it('lists at most a hundred changes of one rule in a digest and counts the rest', () => {
+    const p = new MailPolicy({ quietMs: 600_000, gatherMs: 2_000 });
+    const mails: { subject: string; text: string }[] = [];
+    // Every second for 10 minutes: the first three (one gather window) at once, then 597 changes
+    // wait for the digest at the end of the quiet period.
+    let waiting = 0;
+    for (let t = 0; t <= 700_000; t += 1_000) {
+      if (t < 600_000) p.offer({ ...base, change: (t / 1_000) % 2 ? 'cleared' : 'raised', at: t }, t);
+      if (t === 599_000) waiting = JSON.stringify(p.state()).length;
+      mails.push(...p.due(t));
+    }
+    expect(mails).toHaveLength(2);
+    expect(mails[1]!.subject).toContain('597 alarm changes');
+    expect(mails[1]!.text).toContain('and 497 later changes, not listed');
+    expect(mails[1]!.text.split('\n').filter((l) => / (raised|cleared) /.test(l))).toHaveLength(100);
+    expect(waiting).toBeLessThan(60_000); // what waits stays bounded, however long the flapping
+  });
+
   it('sends one digest per recipient list when many rules fire together', () => {
     const p = new MailPolicy();
     for (let i = 1; i <= 5; i++) p.offer({ ...base, ruleId: i, ruleName: `Rule ${i}` }, 0);

@@ -49,7 +49,8 @@ export const mailPolicyStateSchema = z.object({
   lastSent: z.array(z.tuple([z.number().int(), z.number()])),
   ready: z.array(mailItemSchema),
   readyFrom: z.number(),
-  folded: z.array(z.tuple([z.number().int(), z.array(mailItemSchema)])),
+  /** Per rule: the changes kept for its digest, and how many more came after them. */
+  folded: z.array(z.tuple([z.number().int(), z.array(mailItemSchema), z.number().int().min(0)])),
 });
 export type MailPolicyState = z.infer<typeof mailPolicyStateSchema>;
 
@@ -68,6 +69,8 @@ export interface MailPolicyOptions {
 
 export const DEFAULT_QUIET_MS = 10 * 60_000;
 export const DEFAULT_GATHER_MS = 2_000;
+/** Changes of one rule listed in a digest; later ones are only counted (a signal flapping every second). */
+export const MAX_LISTED_PER_RULE = 100;
 
 export class MailPolicy {
   private readonly quietMs: number;
@@ -75,7 +78,7 @@ export class MailPolicy {
   private readonly lastSent = new Map<number, number>();
   private ready: MailItem[] = [];
   private readyFrom = 0;
-  private readonly folded = new Map<number, MailItem[]>();
+  private readonly folded = new Map<number, { items: MailItem[]; more: number }>();
 
   constructor(opts: MailPolicyOptions = {}) {
     this.quietMs = opts.quietMs ?? DEFAULT_QUIET_MS;
@@ -87,9 +90,10 @@ export class MailPolicy {
     const last = this.lastSent.get(item.ruleId);
     const quiet = last !== undefined && now - last < this.quietMs;
     if (quiet || this.ready.some((r) => r.ruleId === item.ruleId)) {
-      const list = this.folded.get(item.ruleId) ?? [];
-      list.push(item);
-      this.folded.set(item.ruleId, list);
+      const entry = this.folded.get(item.ruleId) ?? { items: [], more: 0 };
+      if (entry.items.length < MAX_LISTED_PER_RULE) entry.items.push(item);
+      else entry.more++;
+      this.folded.set(item.ruleId, entry);
       return;
     }
     if (this.ready.length === 0) this.readyFrom = now;
@@ -98,22 +102,22 @@ export class MailPolicy {
 
   /** Mails due at `now`; call it from a timer (every second is plenty). */
   due(now: number): OutgoingAlarmMail[] {
-    const items: { item: MailItem; folded: boolean }[] = [];
+    const items: { item: MailItem; folded: boolean; more: number }[] = [];
     if (this.ready.length > 0 && now - this.readyFrom >= this.gatherMs) {
-      for (const item of this.ready) items.push({ item, folded: false });
+      for (const item of this.ready) items.push({ item, folded: false, more: 0 });
       this.ready = [];
     }
-    for (const [ruleId, list] of this.folded) {
+    for (const [ruleId, entry] of this.folded) {
       const last = this.lastSent.get(ruleId);
       const inReady = this.ready.some((r) => r.ruleId === ruleId);
       if (!inReady && (last === undefined || now - last >= this.quietMs)) {
-        for (const item of list) items.push({ item, folded: true });
+        entry.items.forEach((item, i) => items.push({ item, folded: true, more: i === 0 ? entry.more : 0 }));
         this.folded.delete(ruleId);
       }
     }
     if (items.length === 0) return [];
     for (const { item } of items) this.lastSent.set(item.ruleId, now);
-    const groups = new Map<string, { item: MailItem; folded: boolean }[]>();
+    const groups = new Map<string, { item: MailItem; folded: boolean; more: number }[]>();
     for (const entry of items) {
       const key = [...entry.item.recipients].sort().join(',');
       groups.set(key, [...(groups.get(key) ?? []), entry]);
@@ -121,7 +125,8 @@ export class MailPolicy {
     return [...groups.entries()].map(([key, group]) => {
       const to = key.split(',');
       const only = group[0]!;
-      return group.length === 1 && !only.folded ? { to, ...formatSingle(only.item) } : { to, ...formatDigest(group.map((g) => g.item), this.quietMs) };
+      const more = group.reduce((n, g) => n + g.more, 0);
+      return group.length === 1 && !only.folded ? { to, ...formatSingle(only.item) } : { to, ...formatDigest(group.map((g) => g.item), this.quietMs, more) };
     });
   }
 
@@ -131,7 +136,7 @@ export class MailPolicy {
   }
 
   state(): MailPolicyState {
-    return { lastSent: [...this.lastSent], ready: [...this.ready], readyFrom: this.readyFrom, folded: [...this.folded] };
+    return { lastSent: [...this.lastSent], ready: [...this.ready], readyFrom: this.readyFrom, folded: [...this.folded].map(([rule, e]) => [rule, [...e.items], e.more]) };
   }
 
   /** Takes over a saved state (at start, before any offer). */
@@ -141,7 +146,7 @@ export class MailPolicy {
     this.ready = [...state.ready];
     this.readyFrom = state.readyFrom;
     this.folded.clear();
-    for (const [rule, items] of state.folded) this.folded.set(rule, [...items]);
+    for (const [rule, items, more] of state.folded) this.folded.set(rule, { items: [...items], more });
   }
 }
 
@@ -178,7 +183,8 @@ export function formatSingle(item: MailItem): { subject: string; text: string } 
   };
 }
 
-export function formatDigest(items: MailItem[], quietMs = DEFAULT_QUIET_MS): { subject: string; text: string } {
+/** `more`: changes after the listed ones, counted but not listed. */
+export function formatDigest(items: MailItem[], quietMs = DEFAULT_QUIET_MS, more = 0): { subject: string; text: string } {
   const sorted = [...items].sort((a, b) => a.at - b.at);
   const raised = sorted.filter((i) => i.change === 'raised').length;
   const benches = [...new Set(sorted.map((i) => i.benchName))].join(', ');
@@ -189,11 +195,12 @@ export function formatDigest(items: MailItem[], quietMs = DEFAULT_QUIET_MS): { s
     (i) => `${new Date(i.at).toISOString()}  ${i.change.padEnd(7)}  ${i.severity.padEnd(8)}  ${i.benchName} — ${i.ruleName}${about(i)}: ${fmtValue(i.metric, i.value)}`,
   );
   return {
-    subject: `[Fringewise] ${worst.toUpperCase()} digest: ${sorted.length} alarm changes (${raised} raised) - ${named} on ${benches}`,
+    subject: `[Fringewise] ${worst.toUpperCase()} digest: ${sorted.length + more} alarm changes (${raised}${more ? ' listed' : ''} raised) - ${named} on ${benches}`,
     text: [
-      `${sorted.length} alarm changes, oldest first. Changes of one rule within ${Math.round(quietMs / 60_000)} min of its last mail are gathered here rather than sent one by one.`,
+      `${sorted.length + more} alarm changes, oldest first. Changes of one rule within ${Math.round(quietMs / 60_000)} min of its last mail are gathered here rather than sent one by one.`,
       '',
       ...lines,
+      ...(more ? ['', `… and ${more} later changes, not listed here: every one is on the bench pages.`] : []),
       '',
       'Acknowledge them on the bench pages in Fringewise.',
     ].join('\n'),
