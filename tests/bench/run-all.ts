@@ -24,7 +24,9 @@ for (const name of BENCHES) {
   const start = lines.lastIndexOf('{');
   let summary: unknown = null;
   try {
-    summary = start >= 0 ? JSON.parse(lines.slice(start).join('\n')) : null;
+    // A benchmark may print a verdict line after its summary: stop at the summary's closing brace.
+    const end = lines.lastIndexOf('}');
+    summary = start >= 0 && end > start ? JSON.parse(lines.slice(start, end + 1).join('\n')) : null;
   } catch {
     summary = null;
   }
