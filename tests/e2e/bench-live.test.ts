@@ -131,6 +131,21 @@ describe('bench live view', () => {
       if (name === 'history') await expectHistoryCharts(page);
       await page.waitForTimeout(2000);
       await screenshotBothThemes(page, name);
+      if (name === 'history') {
+        // Times are typed as YYYY-MM-DD HH:MM (24 h), whatever the browser's locale; a wrong one is marked, not applied.
+        const from = page.getByLabel('From', { exact: true });
+        const shown = async () => (await page.getByTestId('history-range').textContent())?.split(' · ')[0];
+        const before = await shown();
+        const start = await from.inputValue();
+        await from.fill('2026-02-30 10:00');
+        await from.press('Enter');
+        await expect.poll(() => from.getAttribute('aria-invalid')).toBe('true');
+        expect(await shown()).toBe(before);
+        const earlier = start.replace(/ (\d{2}):/, (_m, h: string) => ` ${String(Math.max(0, Number(h) - 1)).padStart(2, '0')}:`);
+        await from.fill(earlier);
+        await from.press('Enter');
+        await expect.poll(shown).toContain(earlier);
+      }
     }
     expect(await page.getByRole('heading', { level: 1 }).count()).toBeGreaterThan(0);
   });

@@ -10,7 +10,7 @@ import { formatDateTime, formatRate, formatRateTick } from '../../lib/client/for
 import { axis, timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
 import { channelColour } from '../bench/RatesChart.tsx';
 import { ChartState } from '../charts/ChartState.tsx';
-import { pickStep, toLocalInput } from './history-range.ts';
+import { parseLocalInput, pickStep } from './history-range.ts';
 import { StabilityCard } from './StabilityCard.tsx';
 import { SweepHistory } from './SweepHistory.tsx';
 
@@ -123,8 +123,24 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
                 </button>
               ))}
             </div>
-            <label><span className="label">From</span><input className="field figure !py-1 text-xs" type="datetime-local" value={toLocalInput(range.from)} onChange={(e) => { const t = new Date(e.target.value).getTime(); if (Number.isFinite(t) && t < range.to) setRange({ ...range, from: t }); }} /></label>
-            <label><span className="label">To</span><input className="field figure !py-1 text-xs" type="datetime-local" value={toLocalInput(range.to)} onChange={(e) => { const t = new Date(e.target.value).getTime(); if (Number.isFinite(t) && t > range.from) setRange({ ...range, to: t }); }} /></label>
+            <TimeField
+              label="From"
+              value={range.from}
+              accept={(t) => {
+                if (t >= range.to) return false;
+                setRange({ ...range, from: t });
+                return true;
+              }}
+            />
+            <TimeField
+              label="To"
+              value={range.to}
+              accept={(t) => {
+                if (t <= range.from) return false;
+                setRange({ ...range, to: t });
+                return true;
+              }}
+            />
           </div>
         </div>
         <div ref={box} className="relative min-h-[360px]" role="img" aria-label="Count rates over the chosen time range; drag across the chart to zoom in">
@@ -145,5 +161,38 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
       <SweepHistory benchId={benchId} from={range.from} to={range.to} />
       <StabilityCard benchId={benchId} channels={channels} from={range.from} to={range.to} />
     </div>
+  );
+}
+
+/**
+ * A local time typed as `YYYY-MM-DD HH:MM` (24 h), applied on Enter or when the field is left;
+ * `accept` says whether the range takes it (From before To). A wrong entry is marked, not applied.
+ */
+function TimeField({ label, value, accept }: { label: string; value: number; accept: (ms: number) => boolean }) {
+  const [text, setText] = useState(formatDateTime(value));
+  const [bad, setBad] = useState(false);
+  useEffect(() => {
+    setText(formatDateTime(value));
+    setBad(false);
+  }, [value]);
+  const commit = () => {
+    const t = parseLocalInput(text);
+    setBad(t === null || !accept(t));
+  };
+  return (
+    <label>
+      <span className="label">{label}</span>
+      <input
+        className={`field figure !py-1 w-[9.5rem] text-xs ${bad ? '!border-bad' : ''}`}
+        value={text}
+        placeholder="YYYY-MM-DD HH:MM"
+        title={bad ? 'Not a local time, or From is not before To: YYYY-MM-DD HH:MM, 24 h' : 'Local time, YYYY-MM-DD HH:MM, 24 h'}
+        aria-invalid={bad}
+        spellCheck={false}
+        onChange={(e) => setText(e.target.value)}
+        onBlur={commit}
+        onKeyDown={(e) => e.key === 'Enter' && commit()}
+      />
+    </label>
   );
 }
