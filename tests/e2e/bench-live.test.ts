@@ -3,7 +3,9 @@
 // simulator's truth; an observer follows the same bench read-only, and a command forged from the
 // observer's session is refused; screenshots of every screen in both themes go to test-results/.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { readFile } from 'node:fs/promises';
 import type { Page } from 'playwright-core';
+import { formatDateTime } from '../../src/lib/client/format.ts';
 import type { RunningApp } from '../../src/server/app.ts';
 import { findDemoBench } from '../../simulators/demo-benches.ts';
 import { launchBrowser, screenshotBothThemes, signIn, type Browser } from '../helpers/browser.ts';
@@ -125,6 +127,7 @@ describe('bench live view', () => {
       ['runs', '/runs'],
       ['run-report', href!],
       ['gateway', `/benches/${BENCH}/gateways/${DEMO.gateway}`],
+      ['export-import', `/benches/${BENCH}/import`],
     ] as const) {
       const res = await page.goto(app.url + path);
       expect(res?.status(), path).toBe(200);
@@ -148,5 +151,21 @@ describe('bench live view', () => {
       }
     }
     expect(await page.getByRole('heading', { level: 1 }).count()).toBeGreaterThan(0);
+  });
+
+  it('exports a range typed in local time as the counts CSV, and says what is wrong with a bad range', async () => {
+    const page = operator.page;
+    await page.goto(`${app.url}/benches/${BENCH}/import`);
+    const from = page.getByLabel('From (your local time)');
+    await from.fill('yesterday');
+    await page.getByRole('button', { name: 'Download' }).click();
+    await expect.poll(() => page.getByRole('alert').textContent()).toContain('YYYY-MM-DD HH:MM');
+    // The last ten minutes, where the first test's sweeps are.
+    await from.fill(formatDateTime(Date.now() - 600_000));
+    await page.getByLabel('To', { exact: true }).fill(formatDateTime(Date.now() + 60_000));
+    const [download] = await Promise.all([page.waitForEvent('download'), page.getByRole('button', { name: 'Download' }).click()]);
+    const csv = await readFile((await download.path())!, 'utf8');
+    expect(csv.split('\n').find((l) => !l.startsWith('#'))).toMatch(/^t_ms,/);
+    expect(csv.split('\n').filter((l) => /^\d+,/.test(l)).length).toBeGreaterThan(100);
   });
 });

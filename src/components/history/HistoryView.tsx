@@ -6,11 +6,11 @@ import { useEffect, useRef, useState } from 'react';
 import type uPlot from 'uplot';
 import type { ViewChannel } from '../../lib/bench-view.ts';
 import { errorText, fetchCounts, type CountsAnswer } from '../../lib/client/api.ts';
-import { formatDateTime, formatRate, formatRateTick } from '../../lib/client/format.ts';
+import { formatDateTime, formatRate, formatRateTick, parseLocalInput } from '../../lib/client/format.ts';
 import { axis, timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
 import { channelColour } from '../bench/RatesChart.tsx';
 import { ChartState } from '../charts/ChartState.tsx';
-import { parseLocalInput, pickStep } from './history-range.ts';
+import { pickStep } from './history-range.ts';
 import { StabilityCard } from './StabilityCard.tsx';
 import { SweepHistory } from './SweepHistory.tsx';
 

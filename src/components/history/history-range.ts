@@ -8,21 +8,6 @@ export function pickStep(spanMs: number, pixels: number): number {
   return NICE_STEPS_MS.find((s) => s >= want) ?? NICE_STEPS_MS[NICE_STEPS_MS.length - 1]!;
 }
 
-/**
- * `YYYY-MM-DD HH:MM[:SS]` (a `T` also separates) in local time → ms; null unless it names a real
- * local time. The form formatDateTime shows: typed fields instead of datetime-local inputs, which
- * show the browser's locale (12-hour US dates, say) beside the app's 24 h times.
- */
-export function parseLocalInput(text: string): number | null {
-  const m = /^\s*(\d{4})-(\d{2})-(\d{2})[ T](\d{2}):(\d{2})(?::(\d{2}))?\s*$/.exec(text);
-  if (!m) return null;
-  const [y, mo, d, h, mi, s] = m.slice(1).map((x) => (x === undefined ? 0 : Number(x))) as [number, number, number, number, number, number];
-  const date = new Date(y, mo - 1, d, h, mi, s);
-  // Date rolls 30 February over to March and a clock-change gap to the next hour: refuse those.
-  const same = date.getFullYear() === y && date.getMonth() === mo - 1 && date.getDate() === d && date.getHours() === h && date.getMinutes() === mi && date.getSeconds() === s;
-  return same ? date.getTime() : null;
-}
-
 /** Points wanted in a stability series: enough for τ up to τ₀·2¹⁰ with many terms at short τ. */
 const STABILITY_POINTS = 2000;
 /** Above this span, ms, the series is read at whole seconds, which the 1 s rollups serve fast. */

@@ -77,6 +77,21 @@ export function formatDateTime(ms: number): string {
   return `${d.getFullYear()}-${p(d.getMonth() + 1)}-${p(d.getDate())} ${p(d.getHours())}:${p(d.getMinutes())}`;
 }
 
+/**
+ * `YYYY-MM-DD HH:MM[:SS]` (a `T` also separates) in local time → ms; null unless it names a real
+ * local time. The inverse of formatDateTime, for typed time fields: datetime-local inputs show the
+ * browser's locale (12-hour US dates, say) beside the app's 24 h times.
+ */
+export function parseLocalInput(text: string): number | null {
+  const m = /^\s*(\d{4})-(\d{2})-(\d{2})[ T](\d{2}):(\d{2})(?::(\d{2}))?\s*$/.exec(text);
+  if (!m) return null;
+  const [y, mo, d, h, mi, s] = m.slice(1).map((x) => (x === undefined ? 0 : Number(x))) as [number, number, number, number, number, number];
+  const date = new Date(y, mo - 1, d, h, mi, s);
+  // Date rolls 30 February over to March and a clock-change gap to the next hour: refuse those.
+  const same = date.getFullYear() === y && date.getMonth() === mo - 1 && date.getDate() === d && date.getHours() === h && date.getMinutes() === mi && date.getSeconds() === s;
+  return same ? date.getTime() : null;
+}
+
 /** A duration in ms as "3 h 12 min", "4 min 05 s" or "12 s". */
 export function formatDuration(ms: number): string {
   const s = Math.max(0, Math.round(ms / 1000));

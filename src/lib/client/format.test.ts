@@ -1,6 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { formatDateTime } from '../../lib/client/format.ts';
-import { parseLocalInput } from './history-range.ts';
+import { formatDateTime, parseLocalInput } from './format.ts';
 
 describe('local time fields', () => {
   it('shows a time as YYYY-MM-DD HH:MM, 24 h, and reads it back', () => {
