@@ -4,9 +4,9 @@
 //
 // Push in frames: what the fan-out emits for a bench waits at most FRAME_MS, is coalesced
 // (contiguous counts of a gateway merge), serialised and framed ONCE (ws-frame.ts) and handed to
-// every client of the bench, which writes the whole frame with one socket write. With 200 browsers and 200 batches/s
-// the per-message, per-client send was half the server's CPU and put it behind (DEVELOPERS.md,
-// "Ingest benchmark").
+// every client of the bench, which writes the whole frame with one socket write. With 200
+// browsers and 200 batches/s the per-message, per-client send was half the server's CPU and put
+// it behind (DEVELOPERS.md, "Ingest benchmark").
 import type http from 'node:http';
 import type { Socket } from 'node:net';
 import type { Duplex } from 'node:stream';
