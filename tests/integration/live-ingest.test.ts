@@ -101,6 +101,23 @@ describe('exactly once', () => {
     await client.endAsync();
   });
 
+  it('plans a burst in one write against the batches stored earlier in that write', async () => {
+    const gw = await freshGateway();
+    const value = (k: string, i: number) => (k === 'a' ? 500 + i : 3);
+    const chunk = (from: number, n: number, seq: number) => makeBatch(BASE + from * 10, n, seq, { value: (k, i) => value(k, from + i) });
+    // Submitted in one turn, so they share a write: in order, a re-chunked overlap, a gap filled late.
+    const outcomes = await Promise.all(
+      [chunk(0, 100, 0), chunk(100, 100, 1), chunk(50, 100, 2), chunk(300, 100, 3), chunk(150, 200, 4)].map((b) => t.live.ingest.writer.submit(gw.gatewayId, b)),
+    );
+    expect(outcomes.map((o) => o.kind)).toEqual(['stored', 'stored', 'duplicate', 'stored', 'stored']);
+    const raw = await rawSum(gw.gatewayId);
+    expect(raw.bins).toBe(400);
+    let expected = 0;
+    for (let i = 0; i < 400; i++) expected += value('a', i) + value('b', i);
+    expect(raw.sum).toBe(expected);
+    for (const step of [1_000, 60_000]) expect(await rollupTotal(gw.gatewayId, step)).toEqual({ sum: expected, bins: 800 });
+  });
+
   it('a write whose reply is lost after COMMIT is retried without adding its rollups twice', async () => {
     const gw = await freshGateway();
     const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);

@@ -147,6 +147,7 @@ export class BatchWriter {
     const gatewayIds = [...new Set(items.map((i) => i.gatewayId))];
     const seq = await this.loadSeqState(client, gatewayIds);
     const spans = await this.overlappingSpans(client, batches.filter((b) => b.batch.t0 < (this.frontier.get(b.gatewayId) ?? Infinity)));
+    // Per gateway, the end of the last bin this write stores: what the writer's frontier becomes after COMMIT.
     const frontier = new Map<string, number>();
 
     const health = new Map<string, HealthDelta>(gatewayIds.map((g) => [g, emptyDelta()]));
@@ -163,7 +164,10 @@ export class BatchWriter {
         noteReject(h, item.kind === 'refused' ? `refused: ${item.reason}` : item.reason, item.at);
         continue;
       }
-      const plan = planBatch(item.batch, [...(spans.get(item) ?? []), ...(writtenNow.get(item.gatewayId) ?? [])]);
+      // In order (nearly always) it starts past everything this write stores before it: no need to compare.
+      const behind = item.batch.t0 < (frontier.get(item.gatewayId) ?? -Infinity);
+      const before = spans.get(item) ?? [];
+      const plan = planBatch(item.batch, behind ? [...before, ...writtenNow.get(item.gatewayId)!] : before);
       outcomes.set(item, plan.kind === 'store' ? { kind: 'stored', slices: plan.slices } : plan);
       // The batch arrived, whatever becomes of it: its seq closes no gap and opens none.
       h.seqGaps += seqAdvance(seq.get(item.gatewayId)!, item.batch.boot, item.batch.seq);
