@@ -2,11 +2,12 @@
 // it came from, open alarms by severity, the active run and who started it. Everything is polled
 // (figures every 2 s, the sparkline's counts and the open alarms every 5 s) rather than streamed:
 // one socket per bench for a summary card would cost more than it shows.
-import { useEffect, useState } from 'react';
+import { useState } from 'react';
 import type { AlarmEventView, Severity } from '../../lib/alarm-messages.ts';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { errorText, fetchCounts, fetchFigures, fetchOpenAlarms, type CountsAnswer } from '../../lib/client/api.ts';
 import { formatDuration, formatRate, formatValueErr } from '../../lib/client/format.ts';
+import { usePolled } from '../../lib/client/use-polled.ts';
 import type { OverviewBench } from '../../lib/overview.ts';
 import { Sparkline } from './Sparkline.tsx';
 
@@ -47,13 +48,9 @@ function alarmSummary(b: OverviewBench, alarms: AlarmEventView[] | null): { text
 }
 
 export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
-  const [live, setLive] = useState<Record<string, Live>>({});
-  const [slow, setSlow] = useState<Record<string, Slow>>({});
-  const [now, setNow] = useState(() => Date.now());
-
-  useEffect(() => {
-    let stopped = false;
-    const poll = async () => {
+  // Figures every 2 s; the time of their answer is "now" for their age and the runs' durations.
+  const fast = usePolled(
+    async () => {
       const results = await Promise.all(
         benches.map(async (b): Promise<[string, Live]> => {
           try {
@@ -63,38 +60,30 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
           }
         }),
       );
-      if (stopped) return;
-      setLive(Object.fromEntries(results));
-      setNow(Date.now());
-    };
-    void poll();
-    const t = setInterval(() => void poll(), POLL_MS);
-    return () => {
-      stopped = true;
-      clearInterval(t);
-    };
-  }, [benches]);
-
-  useEffect(() => {
-    let stopped = false;
-    const poll = async () => {
-      const to = Date.now();
-      const results = await Promise.all(
-        benches.map(async (b): Promise<[string, Slow]> => {
-          // A failed sparkline or alarm read keeps the card's other figures; the figures poll reports the bench's errors.
-          const [counts, alarms] = await Promise.all([fetchCounts(b.id, to - SPARK_SPAN_MS, to, SPARK_STEP_MS).catch(() => null), fetchOpenAlarms(b.id).catch(() => null)]);
-          return [b.id, { counts, alarms }];
-        }),
-      );
-      if (!stopped) setSlow(Object.fromEntries(results));
-    };
-    void poll();
-    const t = setInterval(() => void poll(), SLOW_POLL_MS);
-    return () => {
-      stopped = true;
-      clearInterval(t);
-    };
-  }, [benches]);
+      return { live: Object.fromEntries(results) as Record<string, Live>, at: Date.now() };
+    },
+    POLL_MS,
+    [benches],
+  );
+  const slow =
+    usePolled(
+      async () => {
+        const to = Date.now();
+        const results = await Promise.all(
+          benches.map(async (b): Promise<[string, Slow]> => {
+            // A failed sparkline or alarm read keeps the card's other figures; the figures poll reports the bench's errors.
+            const [counts, alarms] = await Promise.all([fetchCounts(b.id, to - SPARK_SPAN_MS, to, SPARK_STEP_MS).catch(() => null), fetchOpenAlarms(b.id).catch(() => null)]);
+            return [b.id, { counts, alarms }];
+          }),
+        );
+        return Object.fromEntries(results) as Record<string, Slow>;
+      },
+      SLOW_POLL_MS,
+      [benches],
+    ) ?? {};
+  const live = fast?.live ?? {};
+  const [mountedAt] = useState(() => Date.now());
+  const now = fast?.at ?? mountedAt;
 
   if (benches.length === 0) return <p className="text-muted">No benches yet. An admin adds them under Benches &amp; gateways.</p>;
 
