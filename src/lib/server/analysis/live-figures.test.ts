@@ -64,10 +64,11 @@ describe('computeFigures', () => {
   });
 
   it('gives the contrast (N_a − N_b)/(N_a + N_b) over the last second', () => {
+    // Common practice: the normalised difference of the two outputs, the usual mid-fringe error signal.
     expect(figures.contrast).toBeCloseTo((A - B) / (A + B), 12);
   });
 
-  it('gives g2(0) = N_c·T/(N_1·N_2·Δt) (references: Grangier, Roger, Aspect 1986)', () => {
+  it('gives g2(0) = N_c·T/(N_1·N_2·Δt) (Grangier, Roger, Aspect, Europhys. Lett. 1, 173 (1986))', () => {
     const n1 = A * BINS * SECONDS;
     const n2 = B * BINS * SECONDS;
     const accidentals = (n1 * n2 * 1_000e-9) / SECONDS;

@@ -1,5 +1,6 @@
 // Rollup deltas against the definition, bin by bin: each bin's count goes to the bucket of each
-// level that holds its start (DEVELOPERS.md, "Rollups").
+// level that holds its start (DEVELOPERS.md, "Rollups"). Our own bookkeeping, not physics: the
+// reference is the plain per-bin loop the fast per-second sums replaced.
 import { describe, expect, it } from 'vitest';
 import type { Slice } from './coverage.ts';
 import { BLOCK_LEN, CC_KEY, ROLLUP_LEVELS_MS, rollupDeltas } from './rollup-math.ts';
