@@ -2,6 +2,7 @@
 // socket module. Pure: no I/O, safe to bundle into islands. The `counts` shape is fixed by the wire
 // contract; the other message types are ours.
 import { z } from 'zod';
+import { MAX_EPOCH_MS } from './contract/wire.ts';
 
 /** One stored batch (or several contiguous ones merged), as the contract's count message. */
 export interface CountsMessage {
@@ -77,7 +78,7 @@ export type LiveMessage = CountsMessage | StatusMessage | AckMessage | DroppedMe
 
 /** Messages a client may send. */
 export const clientMessageSchema = z.discriminatedUnion('type', [
-  z.object({ type: z.literal('resume'), since: z.number().int().min(0).max(Number.MAX_SAFE_INTEGER) }),
+  z.object({ type: z.literal('resume'), since: z.number().int().min(0).max(MAX_EPOCH_MS) }),
 ]);
 export type ClientMessage = z.infer<typeof clientMessageSchema>;
 

@@ -1,10 +1,11 @@
 // Runs and notes as the API returns them, and the request bodies it accepts. Pure (zod only), so
 // the islands share the exact shapes the server validates.
 import { z } from 'zod';
+import { recordIdSchema } from './record-id.ts';
 import { benchFiguresSchema, type BenchFigures } from './bench-figures-schema.ts';
 
 /** A run id in a URL path. */
-export const runIdSchema = z.coerce.number().int().positive().max(Number.MAX_SAFE_INTEGER);
+export const runIdSchema = recordIdSchema;
 
 export const startRunSchema = z.object({
   title: z.string().trim().min(1, 'a run needs a title').max(200, 'title: at most 200 characters'),

@@ -7,6 +7,11 @@ export const MAX_PAYLOAD_BYTES = 256 * 1024;
 export const MAX_BINS = 10_000;
 export const MAX_COUNT = 2 ** 31 - 1;
 export const DEFAULT_PREFIX = 'fringewise/v1';
+/**
+ * The last instant a JavaScript Date can hold, ms since the epoch (ECMAScript, "Time Values and
+ * Time Range": ±8.64e15). A bin time past it could be stored but not shown as a date.
+ */
+export const MAX_EPOCH_MS = 8.64e15;
 
 const CHANNEL_KEY = /^[a-z0-9_]{1,16}$/;
 
@@ -66,7 +71,7 @@ export const countBatchSchema = z
     v: z.literal(CONTRACT_VERSION),
     boot: z.string().min(1).max(32),
     seq: z.number().int().min(0).max(Number.MAX_SAFE_INTEGER),
-    t0: z.number().int().min(0).max(Number.MAX_SAFE_INTEGER),
+    t0: z.number().int().min(0).max(MAX_EPOCH_MS),
     dt: z.number().int().min(1).max(60_000),
     ch: channelsSchema,
     x: xSchema.optional(),
@@ -77,6 +82,7 @@ export const countBatchSchema = z
     if (b.x && b.x.length !== n) ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['x'], message: 'x length differs from the channels' });
     if (b.cc && b.cc.length !== n) ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['cc'], message: 'cc length differs from the channels' });
     if (b.t0 % b.dt !== 0) ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['t0'], message: 't0 is not a multiple of dt' });
+    if (b.t0 + n * b.dt > MAX_EPOCH_MS) ctx.addIssue({ code: z.ZodIssueCode.custom, path: ['t0'], message: 'the bins end past the last representable date' });
   });
 export type CountBatch = z.infer<typeof countBatchSchema>;
 

@@ -2,6 +2,7 @@
 // each gateway's count_batches are read in pages of PAGE_ROWS by keyset on the primary key
 // (gateway_id, t0), merged by time, and written as rows as soon as no later batch can add to them.
 // Memory holds a page per gateway plus one batch's bins, whatever the length of the range.
+import { recordIdSchema } from '../../record-id.ts';
 import { and, eq } from 'drizzle-orm';
 import { z } from 'zod';
 import { columnsOf, metadataLines, rowCells, rowLine, type CsvMeta, type CsvRow } from '../../counts-csv.ts';
@@ -24,7 +25,7 @@ export const exportQuerySchema = z
   .object({
     from: timeParam.optional(),
     to: timeParam.optional(),
-    run: z.coerce.number().int().positive().optional(),
+    run: recordIdSchema.optional(),
     format: z.enum(['csv', 'json']).default('csv'),
   })
   .refine((q) => q.run !== undefined || (q.from !== undefined && q.to !== undefined), { message: 'give from and to, or run' });

@@ -6,7 +6,7 @@
 // bin width dt; later rows are dt apart or a whole number of dt later (a gap); the first t_ms is
 // a multiple of dt (the contract's rule for t0). Every channel cell is an integer count in
 // 0…2^31−1, x a finite number, cc an integer ≥ 0. No empty cells.
-import { channelKeySchema, MAX_BINS, MAX_COUNT } from '../../contract/wire.ts';
+import { channelKeySchema, MAX_BINS, MAX_COUNT, MAX_EPOCH_MS } from '../../contract/wire.ts';
 import { parseChannelLine } from '../../counts-csv.ts';
 import type { ImportIssue } from '../../import-shapes.ts';
 import type { Slice } from '../ingest/coverage.ts';
@@ -112,6 +112,8 @@ export class CountsCsvReader {
     const cell = (i: number) => (fields[i] ?? '').trim();
     const t = Number(cell(0));
     if (!/^\d+$/.test(cell(0)) || !Number.isSafeInteger(t)) return this.issue(line, `t_ms "${cell(0).slice(0, 30)}" is not a whole number of ms`);
+    // Room for one bin of the contract's widest (60 s) after it: its end must still be a date.
+    if (t > MAX_EPOCH_MS - 60_000) return this.issue(line, `t_ms ${t} is past the last representable date`);
     const counts: number[] = [];
     for (const i of this.chanCols) {
       const s = cell(i);
@@ -140,7 +142,7 @@ export class CountsCsvReader {
       } else if (step % this.dt !== 0) {
         return this.issue(line, `t_ms ${t} is ${step} ms after the previous row, not a multiple of the bin width ${this.dt} ms`);
       }
-      if (step !== this.dt || this.cur!.x.length >= MAX_BINS) this.flush();
+      if (step !== this.dt || (this.cur?.x.length ?? 0) >= MAX_BINS) this.flush();
     } else {
       this.firstT = t;
     }

@@ -1,3 +1,4 @@
+import { recordIdSchema } from '../../../../../../../lib/record-id.ts';
 import { z } from 'zod';
 import { alarmMessage } from '../../../../../../../lib/alarm-messages.ts';
 import { benchIdSchema } from '../../../../../../../lib/contract/wire.ts';
@@ -11,7 +12,7 @@ const bodySchema = z.object({ comment: z.string().trim().min(1, 'say what was do
 /** An operator acknowledges an alarm with a comment; every client watching the bench sees it. */
 export const POST = endpoint('operator', async (ctx) => {
   const benchId = parseOr422(benchIdSchema, ctx.params['id']);
-  const eventId = parseOr422(z.coerce.number().int().positive(), ctx.params['eventId']);
+  const eventId = parseOr422(recordIdSchema, ctx.params['eventId']);
   const { comment } = await readJson(ctx.request, bodySchema);
   const view = await acknowledge(benchId, eventId, ctx.user.id, comment);
   publishAlarm(alarmMessage('acknowledged', view));

@@ -1,10 +1,10 @@
-import { z } from 'zod';
+import { recordIdSchema } from '../../../../../../../lib/record-id.ts';
 import { benchIdSchema } from '../../../../../../../lib/contract/wire.ts';
 import { deleteRule, ruleInputSchema, ruleView, updateRule } from '../../../../../../../lib/server/alarms/rules.ts';
 import { endpoint } from '../../../../../../../lib/server/http/endpoint.ts';
 import { json, parseOr422, readJson } from '../../../../../../../lib/server/http/responses.ts';
 
-const ruleIdSchema = z.coerce.number().int().positive();
+const ruleIdSchema = recordIdSchema;
 
 /** Replaces the rule (the full rule body, as for POST). */
 export const PUT = endpoint('admin', async (ctx) => {
