@@ -1,6 +1,7 @@
 import { defineMiddleware, sequence } from 'astro:middleware';
 import { authenticate } from './lib/server/auth/authenticate.ts';
 import { hasRole, type Role } from './lib/server/auth/roles.ts';
+import { originHost } from './lib/server/http/origin.ts';
 import { problem } from './lib/server/http/responses.ts';
 
 // Pages anyone may open; every other page needs a signed-in user (API routes check roles themselves).
@@ -22,7 +23,7 @@ const sameOriginForCookieMutations = defineMiddleware((ctx, next) => {
   if (ctx.locals.authMethod === 'session' && method !== 'GET' && method !== 'HEAD' && method !== 'OPTIONS') {
     const origin = ctx.request.headers.get('origin');
     const host = ctx.request.headers.get('host');
-    if (!origin || !host || new URL(origin).host !== host) return problem(403, 'cross-site request refused');
+    if (!origin || !host || originHost(origin) !== host) return problem(403, 'cross-site request refused');
   }
   return next();
 });

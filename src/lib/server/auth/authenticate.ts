@@ -1,7 +1,7 @@
 // The one auth check: used by the middleware for pages and API routes and by the WebSocket
 // upgrade, so every way in sees the same rules.
 import { userForApiToken } from './api-tokens.ts';
-import { SESSION_COOKIE, validateSession, type CookieSpec, type SessionUser } from './lucia.ts';
+import { SESSION_COOKIE, blankSessionCookie, validateSession, type CookieSpec, type SessionUser } from './lucia.ts';
 
 export interface AuthResult {
   user: SessionUser | null;
@@ -15,10 +15,19 @@ export function readCookie(header: string | null | undefined, name: string): str
   if (!header) return null;
   for (const part of header.split(';')) {
     const eq = part.indexOf('=');
-    if (eq > 0 && part.slice(0, eq).trim() === name) return decodeURIComponent(part.slice(eq + 1).trim());
+    if (eq > 0 && part.slice(0, eq).trim() === name) {
+      try {
+        return decodeURIComponent(part.slice(eq + 1).trim());
+      } catch {
+        return ''; // "%zz": present but unreadable, so treated as a stale cookie
+      }
+    }
   }
   return null;
 }
+
+/** Lucia's session ids are lowercase base32; anything else cannot be one and is not looked up. */
+const SESSION_ID = /^[a-z0-9]{1,100}$/;
 
 export async function authenticate(headers: Headers | Record<string, string | string[] | undefined>): Promise<AuthResult> {
   const get = (name: string): string | null => {
@@ -32,7 +41,9 @@ export async function authenticate(headers: Headers | Record<string, string | st
     return { user, sessionId: null, method: user ? 'token' : null, cookie: null };
   }
   const sessionId = readCookie(get('cookie'), SESSION_COOKIE);
-  if (!sessionId) return { user: null, sessionId: null, method: null, cookie: null };
+  if (sessionId === null) return { user: null, sessionId: null, method: null, cookie: null };
+  // A mangled cookie (hand-edited, another app's on the same host) is cleared, never a 500.
+  if (!SESSION_ID.test(sessionId)) return { user: null, sessionId: null, method: null, cookie: blankSessionCookie() };
   const res = await validateSession(sessionId);
   return { user: res.user, sessionId: res.sessionId, method: res.user ? 'session' : null, cookie: res.cookie };
 }

@@ -65,6 +65,11 @@ export async function validateSession(
   return { user: { id: user.id, email: user.email, name: user.name, role: user.role }, sessionId: session.id, cookie };
 }
 
+/** A cookie that clears the session cookie in the browser. */
+export function blankSessionCookie(): CookieSpec {
+  return lucia().createBlankSessionCookie();
+}
+
 export async function invalidateSession(sessionId: string): Promise<CookieSpec> {
   await lucia().invalidateSession(sessionId);
   return lucia().createBlankSessionCookie();

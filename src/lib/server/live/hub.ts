@@ -15,6 +15,7 @@ import { benchIdSchema } from '../../contract/wire.ts';
 import { clientMessageSchema, type FeatureMessage, type LiveMessage } from '../../live-messages.ts';
 import { authenticate } from '../auth/authenticate.ts';
 import type { SessionUser } from '../auth/lucia.ts';
+import { originHost } from '../http/origin.ts';
 import type { Fanout } from '../ingest/fanout.ts';
 import { canReadBench } from './access.ts';
 import { coalesceCounts } from './coalesce.ts';
@@ -126,7 +127,7 @@ export class LiveHub {
     // A cookie rides along with cross-site requests too: a cookie-authenticated socket must come from our own pages.
     if (auth.method === 'session') {
       const origin = req.headers.origin;
-      if (!origin || new URL(origin).host !== req.headers.host) return refuse(socket, 403, 'Forbidden', 'cross-site WebSocket refused');
+      if (!origin || originHost(origin) !== req.headers.host) return refuse(socket, 403, 'Forbidden', 'cross-site WebSocket refused');
     }
     if (!(await canReadBench(auth.user, bench.data))) return refuse(socket, 403, 'Forbidden', 'you may not watch this bench');
     const user = auth.user;
