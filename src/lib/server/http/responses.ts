@@ -26,31 +26,70 @@ function describe(error: z.ZodError): string {
 }
 
 const MAX_JSON_BODY = 1024 * 1024;
+/** Our forms hold a few short fields; a sign-in or admin form past this is not one of them. */
+const MAX_FORM_BODY = 64 * 1024;
+/** PostgreSQL's text and jsonb cannot hold U+0000; refused here as bad input instead of failing there. */
+const NUL_MESSAGE = 'text may not contain NUL characters';
+
+/** The body's bytes, refused with 413 past `max` (by its Content-Length, else while it streams): nothing larger is held in memory. */
+async function readCapped(request: Request, max: number): Promise<Uint8Array<ArrayBuffer>> {
+  const declared = Number(request.headers.get('content-length') ?? 0);
+  if (declared > max) throw new HttpError(413, 'request body too large');
+  if (!request.body) return new Uint8Array(0);
+  const chunks: Uint8Array[] = [];
+  let total = 0;
+  const reader = request.body.getReader();
+  for (;;) {
+    const { done, value } = await reader.read();
+    if (done) break;
+    total += value.byteLength;
+    if (total > max) {
+      await reader.cancel();
+      throw new HttpError(413, 'request body too large');
+    }
+    chunks.push(value);
+  }
+  return new Uint8Array(Buffer.concat(chunks));
+}
 
 /** Parses a JSON body against a schema; throws HttpError 400/413/422 with a clear reason. */
 export async function readJson<T>(request: Request, schema: z.ZodType<T, z.ZodTypeDef, unknown>): Promise<T> {
-  const text = await request.text();
-  if (text.length > MAX_JSON_BODY) throw new HttpError(413, 'request body too large');
+  const text = new TextDecoder().decode(await readCapped(request, MAX_JSON_BODY));
   let body: unknown;
+  let nul = false;
   try {
-    body = JSON.parse(text);
+    body = JSON.parse(text, (key, value: unknown) => {
+      if (key.includes('\0') || (typeof value === 'string' && value.includes('\0'))) nul = true;
+      return value;
+    });
   } catch {
     throw new HttpError(400, 'request body is not valid JSON');
   }
+  if (nul) throw new HttpError(422, NUL_MESSAGE);
   return parseOr422(schema, body);
 }
 
-/** Parses form fields against a schema (throws HttpError 422 with the reason). */
-export async function readForm<T>(request: Request, schema: z.ZodType<T, z.ZodTypeDef, unknown>): Promise<T> {
+/** A form's text fields; throws HttpError 400 (not a form), 413 (too large) or 422 (a NUL character). */
+export async function readFormFields(request: Request): Promise<Record<string, string>> {
+  const bytes = await readCapped(request, MAX_FORM_BODY);
   let form: FormData;
   try {
-    form = await request.formData();
+    form = await new Response(bytes, { headers: { 'content-type': request.headers.get('content-type') ?? '' } }).formData();
   } catch {
     throw new HttpError(400, 'request body is not a form');
   }
   const obj: Record<string, string> = {};
-  for (const [k, v] of form.entries()) if (typeof v === 'string') obj[k] = v;
-  return parseOr422(schema, obj);
+  for (const [k, v] of form.entries()) {
+    if (typeof v !== 'string') continue;
+    if (k.includes('\0') || v.includes('\0')) throw new HttpError(422, NUL_MESSAGE);
+    obj[k] = v;
+  }
+  return obj;
+}
+
+/** Parses form fields against a schema (throws HttpError 400/413/422 with the reason). */
+export async function readForm<T>(request: Request, schema: z.ZodType<T, z.ZodTypeDef, unknown>): Promise<T> {
+  return parseOr422(schema, await readFormFields(request));
 }
 
 export function parseOr422<T>(schema: z.ZodType<T, z.ZodTypeDef, unknown>, value: unknown): T {
