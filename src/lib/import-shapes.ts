@@ -1,5 +1,13 @@
 // What the import routes answer, shared by the server and the upload island. Pure.
 
+/**
+ * An imported run's rows are stored under the pseudo-gateway `imp-<runId>` of its bench: no token,
+ * so nothing connects as it. The prefix is reserved; such gateways drive nothing and get no default roles.
+ */
+export const IMPORT_GATEWAY_PREFIX = 'imp-';
+
+export const isImportGateway = (gatewayId: string): boolean => gatewayId.startsWith(IMPORT_GATEWAY_PREFIX);
+
 /** 50 MiB: about 2–3 million bins of a two-channel table, an afternoon at 10 ms bins. */
 export const MAX_IMPORT_BYTES = 50 * 1024 * 1024;
 

@@ -1,6 +1,7 @@
 // Benches and their channels: reads for pages and the API, and the channel-role defaults of the
 // contract (first two keys of the first gateway serve as out_a/out_b until an admin sets roles).
 import { asc, eq } from 'drizzle-orm';
+import { isImportGateway } from '../import-shapes.ts';
 import { getDb } from './db/index.ts';
 import type { ChannelCalibration, ChannelRole } from '../channel-calibration.ts';
 import { benches, channels, gateways, type Bench, type Channel } from './db/schema.ts';
@@ -47,7 +48,9 @@ export async function benchChannels(benchId: string): Promise<BenchChannel[]> {
   const db = getDb();
   const gws = await db.select({ id: gateways.id }).from(gateways).where(eq(gateways.benchId, benchId)).orderBy(asc(gateways.createdAt), asc(gateways.id));
   const rows = await db.select().from(channels).where(eq(channels.benchId, benchId));
-  return effectiveRoles(rows, gws.map((g) => g.id));
+  // Imported runs' pseudo-gateways last: the bench's first live gateway keeps the default roles.
+  const order = [...gws.filter((g) => !isImportGateway(g.id)), ...gws.filter((g) => isImportGateway(g.id))];
+  return effectiveRoles(rows, order.map((g) => g.id));
 }
 
 /** The bench's channels in role order with their corrections (dark rate, dead time, efficiency). */

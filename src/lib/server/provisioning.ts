@@ -3,6 +3,7 @@
 import { timingSafeEqual } from 'node:crypto';
 import { eq } from 'drizzle-orm';
 import { z } from 'zod';
+import { IMPORT_GATEWAY_PREFIX, isImportGateway } from '../import-shapes.ts';
 import { benchIdSchema, gatewayIdSchema } from '../contract/wire.ts';
 import { getDb } from './db/index.ts';
 import { benches, gatewayHealth, gateways, type Bench } from './db/schema.ts';
@@ -30,7 +31,7 @@ export async function createBench(input: BenchInput): Promise<Bench> {
 export class NotFoundError extends Error {}
 
 export async function createGateway(id: string, benchId: string): Promise<{ token: string }> {
-  gatewayIdSchema.parse(id);
+  gatewayIdSchema.refine((g) => !isImportGateway(g), `gateway ids starting with ${IMPORT_GATEWAY_PREFIX} are kept for imported runs`).parse(id);
   const db = getDb();
   const [bench] = await db.select({ id: benches.id }).from(benches).where(eq(benches.id, benchId)).limit(1);
   if (!bench) throw new NotFoundError(`bench ${benchId} does not exist`);

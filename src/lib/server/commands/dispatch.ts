@@ -4,6 +4,7 @@
 import { randomUUID } from 'node:crypto';
 import { asc, eq } from 'drizzle-orm';
 import type { Command, CommandBody } from '../../contract/wire.ts';
+import { isImportGateway } from '../../import-shapes.ts';
 import { recordAudit } from '../audit.ts';
 import { getBench } from '../benches.ts';
 import { getDb } from '../db/index.ts';
@@ -12,9 +13,13 @@ import { HttpError } from '../http/responses.ts';
 import { runtime } from '../runtime.ts';
 import { driveLimitViolation } from './drive-limits.ts';
 
-/** The bench's drive: the first gateway (oldest first) whose status announces a scan range, else its first gateway. */
+/**
+ * The bench's drive: the first gateway (oldest first) whose status announces a scan range, else its
+ * first gateway; never an imported run's pseudo-gateway, which no device stands behind.
+ */
 export async function driveGateway(benchId: string): Promise<string | null> {
-  const rows = await getDb().select({ id: gateways.id, status: gateways.status }).from(gateways).where(eq(gateways.benchId, benchId)).orderBy(asc(gateways.createdAt), asc(gateways.id));
+  const all = await getDb().select({ id: gateways.id, status: gateways.status }).from(gateways).where(eq(gateways.benchId, benchId)).orderBy(asc(gateways.createdAt), asc(gateways.id));
+  const rows = all.filter((r) => !isImportGateway(r.id));
   const withScan = rows.find((r) => typeof r.status === 'object' && r.status !== null && 'scan' in r.status);
   return (withScan ?? rows[0])?.id ?? null;
 }

@@ -3,7 +3,7 @@
 // `imp-<runId>` of the bench (no token, so nothing can connect as it). Rows and rollups are written
 // by ingest's own write statement; after COMMIT the run's sweeps are fitted like live ones.
 import { Readable } from 'node:stream';
-import { parse } from 'csv-parse';
+import { CsvError, parse } from 'csv-parse';
 import type pg from 'pg';
 import { z } from 'zod';
 import { recordAudit } from '../audit.ts';
@@ -15,16 +15,15 @@ import type { Slice } from '../ingest/coverage.ts';
 import { rollupDeltas } from '../ingest/rollup-math.ts';
 import { writeStatement } from '../ingest/write-statement.ts';
 import { runtime } from '../runtime.ts';
-import { MAX_IMPORT_BYTES, type ImportIssue, type ImportPreview, type ImportResult } from '../../import-shapes.ts';
+import { IMPORT_GATEWAY_PREFIX, MAX_IMPORT_BYTES, type ImportIssue, type ImportPreview, type ImportResult } from '../../import-shapes.ts';
 import { CountsCsvReader, type ChannelInfo } from './import-parser.ts';
 
-export const IMPORT_GATEWAY_PREFIX = 'imp-';
 /** Batches buffered before a write inside the import's transaction. */
 const WRITE_EVERY = 20;
 const PREVIEW_ROWS = 10;
 
 export const importOptionsSchema = z.object({
-  title: z.string().trim().min(1, 'give the run a title').max(200),
+  title: z.string().trim().min(1, 'give the run a title').max(200).refine((t) => !t.includes('\0'), 'title: text may not contain NUL characters'),
 });
 
 export class ImportError extends HttpError {
@@ -73,7 +72,9 @@ async function readAll(body: ReadableStream<Uint8Array>, reader: CountsCsvReader
       if (reader.full) break;
     }
   } catch (err) {
-    if (err instanceof HttpError) throw err;
+    // Only the CSV parser's own errors describe the file; a database error or a bug is not the
+    // uploader's to read (and its message may hold the database's internals): it stays a 500.
+    if (!(err instanceof CsvError)) throw err;
     const where = (err as { lines?: number }).lines ?? line + 1;
     throw new ImportError([...reader.issues, { line: where, message: `not readable as CSV: ${err instanceof Error ? err.message : String(err)}`.slice(0, 200) }]);
   } finally {
