@@ -66,7 +66,13 @@ export async function inviteUser(actor: SessionUser, input: z.input<typeof invit
     .returning();
   if (!row) throw new HttpError(409, `${data.email} already has an account`);
   await recordAudit({ actorId: actor.id, entity: 'user', entityId: row.id, action: 'invite', after: publicUser(row) });
-  await mailLink(row, 'invite', origin, actor);
+  try {
+    await mailLink(row, 'invite', origin, actor);
+  } catch (err) {
+    // The account stays (an invitation is a row plus a mail); the admin resends from the list.
+    const reason = err instanceof Error ? err.message : String(err);
+    throw new HttpError(502, `the account for ${row.email} was made, but the invitation e-mail did not go out (${reason.slice(0, 120)}); send the link again from the people list`);
+  }
   return row;
 }
 

@@ -50,6 +50,9 @@ export async function inspectOneTimeLink(token: string, now = new Date()): Promi
  * checks it, so two submissions racing cannot both succeed. Ends the user's other sessions.
  */
 export async function redeemOneTimeLink(token: string, password: string, now = new Date()): Promise<{ userId: string } | LinkState> {
+  // Checked before hashing: a made-up link must not cost the server an argon2 hash.
+  const before = await inspectOneTimeLink(token, now);
+  if (before.state !== 'valid') return before;
   const passwordHash = await hashPassword(passwordSchema.parse(password));
   const userId = await getDb().transaction(async (tx) => {
     const [link] = await tx
