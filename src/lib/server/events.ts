@@ -1,5 +1,6 @@
-// In-process fan-out between server stages: ingest announces what it stored, and the live hub,
-// the fitter and the alarm evaluator listen. On globalThis so both module copies share one bus.
+// In-process bus between server stages: ingest announces what it stored, and the fitter and the
+// alarm evaluator listen (the WebSocket hub has its own fan-out, ingest/fanout.ts). On globalThis
+// so both module copies share one bus.
 import { EventEmitter } from 'node:events';
 import type { CountBatch, GatewayStatus } from '../contract/wire.ts';
 

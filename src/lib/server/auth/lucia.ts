@@ -1,5 +1,5 @@
-// The only module that knows the session library; pages and endpoints go through `sessions.ts`'s
-// helpers, so Lucia (feature-frozen upstream) can be swapped without touching them.
+// The only module that knows the session library; pages and endpoints go through the helpers
+// below and `authenticate.ts`, so Lucia (feature-frozen upstream) can be swapped without touching them.
 import { DrizzlePostgreSQLAdapter } from '@lucia-auth/adapter-drizzle';
 import { Lucia, TimeSpan, type Cookie } from 'lucia';
 import { getDb } from '../db/index.ts';
