@@ -9,7 +9,8 @@ import { benchChannels } from '../../src/lib/server/benches.ts';
 import { driveGateway } from '../../src/lib/server/commands/dispatch.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import type { RunningApp } from '../../src/server/app.ts';
-import { startWebApp, userWithToken } from '../helpers/web-app.ts';
+import { HttpClient } from '../helpers/http-client.ts';
+import { resetSignInLimits, startWebApp, userWithToken } from '../helpers/web-app.ts';
 
 const tag = `${process.pid.toString(36)}${Date.now().toString(36)}`.slice(-8);
 const BENCH = `bad-${tag}`;
@@ -106,6 +107,16 @@ describe('cookies and origins', () => {
       const apiRes = await fetch(new URL(`/api/v1/benches`, app.url), { headers: { cookie: `fw_session=${value}` } });
       expect(apiRes.status, value).toBe(401);
     }
+  });
+
+  it('refuses a cookie-authenticated JSON post whose Origin is no URL with 403', async () => {
+    resetSignInLimits();
+    const u = await userWithToken('operator', 'bad-origin');
+    const c = new HttpClient(app.url);
+    expect((await c.signIn(u.email, u.password)).status).toBe(303);
+    // Browsers send `Origin: null` from sandboxed frames and file pages.
+    const res = await c.request(`/api/v1/benches/${BENCH}/runs`, { method: 'POST', headers: { origin: 'null', 'content-type': 'application/json' }, body: JSON.stringify({ title: 'x' }) });
+    expect(res.status).toBe(403);
   });
 });
 
