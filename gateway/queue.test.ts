@@ -111,6 +111,12 @@ describe('DiskQueue', () => {
     expect(kept[0]!.index).toBe(stats.cursor);
     expect(kept.at(-1)!.index).toBe(199);
     expect(kept.map((r) => r.index)).toEqual(Array.from({ length: 200 - stats.cursor }, (_, k) => stats.cursor + k));
+    // The bound holds on disk too: dropped segments' files are gone, not only forgotten.
+    const files = (await readdir(dir)).filter((f) => f.endsWith('.seg'));
+    expect(files).toHaveLength(stats.segments);
+    let onDisk = 0;
+    for (const f of files) onDisk += (await readFile(path.join(dir, f))).length;
+    expect(onDisk).toBe(stats.bytes);
     await q.close();
   });
 });

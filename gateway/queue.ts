@@ -213,8 +213,15 @@ export class DiskQueue {
       while (this.totalBytes() + bytes > this.opts.maxBytes && this.segments.length > 1) await this.dropOldest();
       const buf = Buffer.concat(batch.map((p) => p.line));
       let written = 0;
-      while (written < buf.length) written += (await this.fd.write(buf, written)).bytesWritten;
-      await this.fd.datasync();
+      try {
+        while (written < buf.length) written += (await this.fd.write(buf, written)).bytesWritten;
+        await this.fd.datasync();
+      } catch (err) {
+        // A short write (disk full) must not leave half a record for the next one to join onto:
+        // cut the file back to its last whole record, so line numbers keep matching record numbers.
+        if (written > 0) await this.fd.truncate(seg.bytes).catch(() => undefined);
+        throw err;
+      }
       seg.bytes += buf.length;
       for (const p of batch) p.resolve(this.end++);
     } catch (err) {
@@ -254,6 +261,7 @@ export class DiskQueue {
     }
     // The cursor moves past the segment on disk before the segment goes.
     await this.persistCursor();
+    await unlink(seg.file).catch(() => undefined);
     if (unacked > 0) this.reportLoss(unacked, `queue full (${this.opts.maxBytes} bytes): dropped the oldest segment`);
   }
 
