@@ -4,9 +4,10 @@ import { eq, sql } from 'drizzle-orm';
 import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { topicFor } from '../../src/lib/contract/wire.ts';
-import type { CountsMessage } from '../../src/lib/live-messages.ts';
+import type { CountsMessage, LiveMessage } from '../../src/lib/live-messages.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
 import { channels, countBatches, gatewayHealth, gateways, rollups } from '../../src/lib/server/db/schema.ts';
+import { BatchWriter } from '../../src/lib/server/ingest/store.ts';
 import { revokeGateway } from '../../src/lib/server/provisioning.ts';
 import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
@@ -75,6 +76,25 @@ describe('exactly once', () => {
     expect(chs.map((c) => c.key).sort()).toEqual(['a', 'b']);
     await client.endAsync();
     ws.ws.close();
+  });
+
+  it('hands every frame, in order, to more browsers than one turn of the hub serves', async () => {
+    const gw = await freshGateway();
+    // 120 sockets: the hub hands a frame to 50 clients per turn of the event loop.
+    const sockets = await Promise.all(Array.from({ length: 120 }, () => openLive(t.baseUrl, gw.benchId, observerToken)));
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    // Not awaited one by one: several frames are on their way at once.
+    await Promise.all([0, 1, 2, 3].map((i) => publishBatch(client, gw.gatewayId, makeBatch(BASE + 5_000_000 + i * 1000, 100, i))));
+    const bins = (ws: (typeof sockets)[number]) => ws.messages.flatMap((m) => (m.type === 'counts' ? [[m.t0, (m as CountsMessage).ch['a']!.length]] : []));
+    await until(() => sockets.every((ws) => bins(ws).reduce((n, [, len]) => n + len!, 0) === 400), 10_000, 'every socket to get 400 bins');
+    for (const ws of sockets) {
+      const got = bins(ws);
+      // Contiguous batches may arrive merged; what matters is all of them, in time order.
+      for (let i = 1; i < got.length; i++) expect(got[i]![0]!).toBe(got[i - 1]![0]! + got[i - 1]![1]! * 10);
+      expect(got[0]![0]).toBe(BASE + 5_000_000);
+      ws.ws.close();
+    }
+    await client.endAsync();
   });
 
   it('stores only the uncovered bins of a differently chunked re-send, and late bins with their rollups', async () => {
@@ -259,6 +279,41 @@ describe('status, commands and resume', () => {
     expect(got.reduce((n, m) => n + m.ch['a']!.length, 0)).toBe(300);
     ws.ws.send('{"type":"resume","since":-1}');
     expect(await ws.next((m) => m.type === 'error')).toMatchObject({ type: 'error' });
+    await client.endAsync();
+    ws.ws.close();
+  });
+
+  it('replays a gap of many pages once each, in time order, with live batches arriving meanwhile', async () => {
+    const g1 = await freshGateway();
+    const g2 = await freshGateway(g1.benchId);
+    const base = BASE - 3_600_000;
+    // 700 batches per gateway, both on the same starts (1 s each): 1,400 to replay, seven pages,
+    // more than a client's queue holds at once.
+    const writer = new BatchWriter(() => undefined);
+    for (let i = 0; i < 700; i += 100) {
+      await Promise.all(
+        [g1, g2].flatMap((g) => Array.from({ length: 100 }, (_, k) => writer.submit(g.gatewayId, makeBatch(base + (i + k) * 1000, 100, i + k)))),
+      );
+    }
+    const ws = await openLive(t.baseUrl, g1.benchId, observerToken);
+    const client = await connectGateway(t.mqttPort, g1.gatewayId, g1.token);
+    ws.ws.send(JSON.stringify({ type: 'resume', since: base }));
+    // Live batches of g1 while the replay runs: each must reach the client once, after the replay's.
+    for (let i = 700; i < 710; i++) await publishBatch(client, g1.gatewayId, makeBatch(base + i * 1000, 100, i));
+    const done = (await ws.next((m) => m.type === 'resumed', 30_000)) as Extract<LiveMessage, { type: 'resumed' }>;
+    expect(done.complete).toBe(true);
+    await until(() => ws.messages.filter((m) => m.type === 'counts' && m.gateway === g1.gatewayId).reduce((n, m) => n + (m as CountsMessage).ch['a']!.length, 0) >= 710 * 100, 10_000, 'the live batches after the replay');
+    expect(ws.messages.some((m) => m.type === 'dropped')).toBe(false);
+    for (const [g, batches] of [[g1, 710], [g2, 700]] as const) {
+      const mine = ws.messages.filter((m): m is CountsMessage => m.type === 'counts' && m.gateway === g.gatewayId);
+      // Every bin exactly once, contiguous and in order (merged messages allowed).
+      let next = base;
+      for (const m of mine) {
+        expect(m.t0).toBe(next);
+        next = m.t0 + m.ch['a']!.length * m.dt;
+      }
+      expect(next).toBe(base + batches * 1000);
+    }
     await client.endAsync();
     ws.ws.close();
   });

@@ -17,6 +17,11 @@ export type LiveListener = (m: LiveMessage | FeatureMessage) => void;
 /** Back-off between reconnection attempts, ms: doubles from the first to the last, with ±20 % jitter. */
 const FIRST_RETRY_MS = 500;
 const MAX_RETRY_MS = 15_000;
+/**
+ * A resume reaches back at most this far (ms): the live view shows the last 10 minutes, and a
+ * gateway silent for hours must not make every reconnect replay hours of the others' batches.
+ */
+const RESUME_WINDOW_MS = 10 * 60_000;
 
 function endOf(m: CountsMessage): number {
   return m.t0 + (Object.values(m.ch)[0]?.length ?? 0) * m.dt;
@@ -66,7 +71,7 @@ class LiveSocket {
       this.retryMs = FIRST_RETRY_MS;
       const wasOpen = this.state.everOpen;
       this.setState({ status: 'open', everOpen: true });
-      if (wasOpen && this.lastEnd.size) this.resume(Math.min(...this.lastEnd.values()), true);
+      if (wasOpen && this.lastEnd.size) this.resume(Math.max(Math.min(...this.lastEnd.values()), Date.now() - RESUME_WINDOW_MS), true);
     };
     ws.onmessage = (ev) => this.receive(ev.data);
     ws.onclose = () => {
@@ -80,9 +85,13 @@ class LiveSocket {
     };
   }
 
-  /** `skipKnown`: after a reconnect, bins up to each gateway's last end were seen; after a drop they were not. */
+  /**
+   * `skipKnown`: after a reconnect, bins up to each gateway's last end were seen; after a drop they
+   * were not. A drop during a reconnect's replay keeps that replay's filter: the server runs the
+   * second resume after the first.
+   */
   private resume(since: number, skipKnown: boolean): void {
-    this.replayKnown = skipKnown ? new Map(this.lastEnd) : null;
+    if (skipKnown) this.replayKnown = new Map(this.lastEnd);
     this.ws?.send(JSON.stringify({ type: 'resume', since }));
   }
 
@@ -103,7 +112,7 @@ class LiveSocket {
       this.replayKnown = null;
       if (!r.complete) this.resume(r.until, false);
     } else if (m.type === 'dropped') {
-      this.resume((m as Extract<LiveMessage, { type: 'dropped' }>).from, false);
+      this.resume(Math.max((m as Extract<LiveMessage, { type: 'dropped' }>).from, Date.now() - RESUME_WINDOW_MS), false);
     }
     for (const l of this.listeners) l(m);
   }

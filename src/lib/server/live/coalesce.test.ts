@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import type { CountsMessage, LiveMessage } from '../../live-messages.ts';
-import { coalesceCounts } from './coalesce.ts';
+import { coalesceCounts, countsAfter } from './coalesce.ts';
 
 const counts = (gateway: string, t0: number, n: number): CountsMessage => ({
   type: 'counts',
@@ -25,5 +25,15 @@ describe('coalesceCounts', () => {
     const status: LiveMessage = { type: 'status', bench: 'b', gateway: 'g1', state: 'online', at: 0 };
     expect(run([counts('g1', 0, 2), counts('g1', 30, 2)])).toHaveLength(2);
     expect(run([counts('g1', 0, 2), status, counts('g1', 20, 2)])).toHaveLength(3);
+  });
+});
+
+describe('countsAfter', () => {
+  it('keeps, trims or drops a message by where its bins start', () => {
+    const m = { ...counts('g1', 100, 4), x: [1, 2, 3, 4], cc: [5, 6, 7, 8] };
+    expect(countsAfter(m, 100)).toBe(m);
+    expect(countsAfter(m, 140)).toBeNull();
+    // A cut inside a bin keeps that bin out: it started before `from`, so the replay had it.
+    expect(countsAfter(m, 115)).toEqual({ ...m, t0: 120, ch: { a: [102, 103] }, x: [3, 4], cc: [7, 8] });
   });
 });

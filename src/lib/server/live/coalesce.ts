@@ -59,3 +59,20 @@ export function coalesceCounts<T>(items: T[], msgOf: (item: T) => Message, combi
   }
   return out;
 }
+
+/**
+ * The part of a count message whose bins start at or after `from` (ms): the message itself when all
+ * do, null when none do, else a copy holding the later bins only.
+ */
+export function countsAfter(m: CountsMessage, from: number): CountsMessage | null {
+  if (m.t0 >= from) return m;
+  const n = binsOf(m);
+  const skip = Math.ceil((from - m.t0) / m.dt);
+  if (skip >= n) return null;
+  const ch: Record<string, number[]> = {};
+  for (const [k, v] of Object.entries(m.ch)) ch[k] = v.slice(skip);
+  const out: CountsMessage = { ...m, t0: m.t0 + skip * m.dt, ch };
+  if (m.x) out.x = m.x.slice(skip);
+  if (m.cc) out.cc = m.cc.slice(skip);
+  return out;
+}

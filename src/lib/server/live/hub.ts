@@ -18,9 +18,9 @@ import type { SessionUser } from '../auth/lucia.ts';
 import { originHost } from '../http/origin.ts';
 import type { Fanout } from '../ingest/fanout.ts';
 import { canReadBench } from './access.ts';
-import { coalesceCounts } from './coalesce.ts';
-import { Outbox, type PreparedFrame, type Queued, type Sink } from './outbox.ts';
-import { countsSince } from './resume.ts';
+import { binsOf, coalesceCounts } from './coalesce.ts';
+import { HIGH_WATER_BYTES, Outbox, type PreparedFrame, type Queued, type Sink } from './outbox.ts';
+import { countsPage, type ResumeCursor } from './resume.ts';
 import { traceStage } from './trace.ts';
 import { textFrames } from './ws-frame.ts';
 
@@ -34,6 +34,16 @@ const MAX_CLIENT_MESSAGE_BYTES = 4 * 1024;
  * the 20 ms budget over the broker and caps socket writes at 100 a second per client.
  */
 export const FRAME_MS = 10;
+/**
+ * Clients handed a frame per turn of the event loop. A frame to 200 browsers is ~2.5 ms of socket
+ * writes (up to 7 under load); in slices, the PUBLISH packets and database replies that arrive
+ * meanwhile are handled between them instead of after all of them.
+ */
+const CLIENTS_PER_TURN = 50;
+/** Most batches one resume replays; past it the client gets `complete: false` and may go on from `until`. */
+export const RESUME_MAX_BATCHES = 20_000;
+/** How often a replay looks whether its last page has left (ms). */
+const DRAIN_POLL_MS = 20;
 
 interface LiveClient {
   ws: WebSocket;
@@ -42,6 +52,8 @@ interface LiveClient {
   outbox: Outbox;
   alive: boolean;
   resuming: boolean;
+  /** A resume asked while another replays: the earliest `since` asked, run right after it. */
+  nextResume: number | null;
 }
 
 function refuse(socket: Duplex, status: number, reason: string, error: string): void {
@@ -59,6 +71,9 @@ export class LiveHub {
   private frameTimer: NodeJS.Timeout | null = null;
   private frameImmediate: NodeJS.Immediate | null = null;
   private lastFrameAt = -Infinity;
+  /** Frames being handed out, oldest first, each to the clients it was made for. */
+  private sending: { frame: PreparedFrame; clients: LiveClient[]; next: number; keys: () => string[] }[] = [];
+  private sendImmediate: NodeJS.Immediate | null = null;
 
   constructor(fanout: Fanout) {
     this.unsubscribe = fanout.subscribe((benchId, message) => this.publish(benchId, message));
@@ -96,9 +111,28 @@ export class LiveHub {
       traceStage('frame-start', keys);
       const items = coalesceCounts(messages, (m) => m, (_a, _b, merged) => merged).map((m) => this.queued(m));
       const frame: PreparedFrame = { items, wire: textFrames(items.map((q) => q.data)) };
-      for (const c of clients) c.outbox.pushFrame(frame);
-      traceStage('frame-end', keys);
+      this.sending.push({ frame, clients: [...clients], next: 0, keys });
     }
+    if (!this.sendImmediate) this.sendSome();
+  }
+
+  /** Hands out up to CLIENTS_PER_TURN clients' worth of the waiting frames, in order; the rest next turn. */
+  private sendSome(): void {
+    this.sendImmediate = null;
+    let budget = CLIENTS_PER_TURN;
+    while (this.sending.length && budget > 0) {
+      const job = this.sending[0]!;
+      const end = Math.min(job.clients.length, job.next + budget);
+      // A client that left meanwhile has a closed outbox, which ignores the frame.
+      for (let i = job.next; i < end; i++) job.clients[i]!.outbox.pushFrame(job.frame);
+      budget -= end - job.next;
+      job.next = end;
+      if (job.next === job.clients.length) {
+        this.sending.shift();
+        traceStage('frame-end', job.keys);
+      }
+    }
+    if (this.sending.length) this.sendImmediate = setImmediate(() => this.sendSome());
   }
 
   clientCount(benchId?: string): number {
@@ -151,7 +185,7 @@ export class LiveHub {
         return true;
       },
     };
-    const client: LiveClient = { ws, bench, user, outbox: new Outbox(sink, bench), alive: true, resuming: false };
+    const client: LiveClient = { ws, bench, user, outbox: new Outbox(sink, bench), alive: true, resuming: false, nextResume: null };
     const set = this.benches.get(bench) ?? new Set();
     set.add(client);
     this.benches.set(bench, set);
@@ -177,24 +211,62 @@ export class LiveHub {
       client.outbox.push(this.queued({ type: 'error', error: 'unknown message; expected {"type":"resume","since":<ms>}' }));
       return;
     }
-    if (client.resuming) {
-      client.outbox.push(this.queued({ type: 'error', error: 'a resume is already running' }));
-      return;
-    }
+    // A resume asked while one replays (the client was told of a drop meanwhile) runs after it.
+    client.nextResume = Math.min(client.nextResume ?? Infinity, msg.data.since);
+    if (client.resuming) return;
     client.resuming = true;
+    // Live frames wait until the replay is through, then go out less what the replay carried, so
+    // the client sees each batch once and in time order.
+    client.outbox.hold();
+    const replayed = new Map<string, number>();
     try {
-      const since = msg.data.since;
-      const { messages, complete } = await countsSince(client.bench, since);
-      for (const m of messages) client.outbox.push(this.queued(m));
-      const last = messages[messages.length - 1];
-      const until = last ? last.t0 + (Object.values(last.ch)[0]?.length ?? 0) * last.dt : since;
-      client.outbox.push(this.queued({ type: 'resumed', bench: client.bench, since, until, batches: messages.length, complete }));
+      while (client.nextResume !== null) {
+        const since = client.nextResume;
+        client.nextResume = null;
+        await this.replay(client, since, replayed);
+      }
+    } finally {
+      client.resuming = false;
+      client.outbox.release(replayed);
+    }
+  }
+
+  /**
+   * Replays the batches whose bins end after `since`, a page at a time, each page once the last
+   * has left (so a long gap never overflows the client's queue), then `resumed`. `replayed`
+   * collects, per gateway, the end of the last bin replayed.
+   */
+  private async replay(client: LiveClient, since: number, replayed: Map<string, number>): Promise<void> {
+    let after: ResumeCursor | null = null;
+    let batches = 0;
+    let until = since;
+    try {
+      for (;;) {
+        const page = await countsPage(client.bench, since, after);
+        for (const m of page.messages) {
+          client.outbox.push(this.queued(m));
+          const end = m.t0 + binsOf(m) * m.dt;
+          replayed.set(m.gateway, Math.max(end, replayed.get(m.gateway) ?? -Infinity));
+          until = Math.max(until, end);
+        }
+        batches += page.messages.length;
+        after = page.next;
+        if (!after || batches >= RESUME_MAX_BATCHES) break;
+        if (!(await this.drained(client))) return;
+      }
+      client.outbox.push(this.queued({ type: 'resumed', bench: client.bench, since, until, batches, complete: after === null }));
     } catch (err) {
       console.warn('[live] resume failed:', err instanceof Error ? err.message : err);
       client.outbox.push(this.queued({ type: 'error', error: 'resume failed; try again' }));
-    } finally {
-      client.resuming = false;
     }
+  }
+
+  /** Resolves true once the client's queue is empty and its socket buffer low; false if it closed. */
+  private async drained(client: LiveClient): Promise<boolean> {
+    while (client.ws.readyState === client.ws.OPEN && (client.outbox.size > 0 || client.ws.bufferedAmount > HIGH_WATER_BYTES)) {
+      await new Promise((resolve) => setTimeout(resolve, DRAIN_POLL_MS));
+    }
+    return client.ws.readyState === client.ws.OPEN;
   }
 
   /** Serialises once; the same Buffer goes to every client (ws would re-encode a string per send). */
@@ -221,6 +293,8 @@ export class LiveHub {
     clearInterval(this.heartbeat);
     if (this.frameTimer) clearTimeout(this.frameTimer);
     if (this.frameImmediate) clearImmediate(this.frameImmediate);
+    if (this.sendImmediate) clearImmediate(this.sendImmediate);
+    this.sending = [];
     this.pending.clear();
     for (const set of this.benches.values()) for (const c of set) c.ws.terminate();
     this.benches.clear();

@@ -6,7 +6,7 @@
 // oldest count messages are dropped and the client is told with a `dropped` message, so a stalled
 // browser cannot grow the server's memory.
 import type { CountsMessage, FeatureMessage, LiveMessage } from '../../live-messages.ts';
-import { binsOf, coalesceCounts } from './coalesce.ts';
+import { binsOf, coalesceCounts, countsAfter } from './coalesce.ts';
 
 export interface Sink {
   readonly bufferedAmount: number;
@@ -47,6 +47,9 @@ export class Outbox {
   private retry: NodeJS.Timeout | null = null;
   private immediate: NodeJS.Immediate | null = null;
   private closed = false;
+  /** Live frames that arrive while a resume replays, kept for after it (null when not holding). */
+  private held: Queued[] | null = null;
+  private heldBytes = 0;
 
   constructor(
     private readonly sink: Sink,
@@ -65,12 +68,49 @@ export class Outbox {
   /** Sends a frame's messages in one write: as prepared when nothing waits, else through the queue. */
   pushFrame(frame: PreparedFrame): void {
     if (this.closed) return;
+    if (this.held) {
+      for (const q of frame.items) {
+        this.held.push(q);
+        this.heldBytes += q.bytes;
+      }
+      this.heldBytes = this.bound(this.held, this.heldBytes);
+      return;
+    }
     if (!this.queue.length && !this.dropped && !this.retry && this.sink.bufferedAmount <= HIGH_WATER_BYTES && this.sink.writeFramed(frame.wire)) return;
     if (this.enqueue(frame.items) && !this.retry) this.flush();
   }
 
+  /** From now on live frames wait (a resume is replaying what the client missed). */
+  hold(): void {
+    this.held ??= [];
+  }
+
+  /**
+   * Sends the held frames after the replay, less what the replay already carried: `replayedUntil`
+   * is, per gateway, the end of the last bin replayed. Stored batches of a gateway never overlap,
+   * so a held count message is either past that end, before it (dropped), or straddles it (trimmed).
+   */
+  release(replayedUntil: ReadonlyMap<string, number>): void {
+    const held = this.held ?? [];
+    this.held = null;
+    this.heldBytes = 0;
+    const rest: Queued[] = [];
+    for (const q of held) {
+      if (q.msg.type !== 'counts') {
+        rest.push(q);
+        continue;
+      }
+      const m = q.msg as CountsMessage;
+      const after = countsAfter(m, replayedUntil.get(m.gateway) ?? -Infinity);
+      if (after === m) rest.push(q);
+      else if (after) rest.push({ msg: after, data: null, bytes: Math.round((q.bytes * binsOf(after)) / binsOf(m)) });
+    }
+    if (rest.length && this.enqueue(rest) && !this.retry) this.flush();
+  }
+
   close(): void {
     this.closed = true;
+    this.held = null;
     this.queue = [];
     this.bytes = 0;
     if (this.retry) clearTimeout(this.retry);
@@ -88,16 +128,24 @@ export class Outbox {
       this.queue.push(item);
       this.bytes += item.bytes;
     }
-    this.enforceBounds();
+    this.bytes = this.bound(this.queue, this.bytes);
     return true;
   }
 
-  private enforceBounds(): void {
-    while (this.queue.length > MAX_QUEUED_MESSAGES || this.bytes > MAX_QUEUED_BYTES) {
-      let i = this.queue.findIndex((q) => q.msg.type === 'counts');
+  /**
+   * Keeps a list within MAX_QUEUED_MESSAGES and MAX_QUEUED_BYTES: first by merging contiguous count
+   * messages (a replay of many small batches fits again), then by dropping the oldest counts.
+   * Returns the list's bytes afterwards.
+   */
+  private bound(list: Queued[], bytes: number): number {
+    if (list.length <= MAX_QUEUED_MESSAGES && bytes <= MAX_QUEUED_BYTES) return bytes;
+    const merged = coalesceCounts(list, (q) => q.msg, (a, b, msg) => ({ msg, data: null, bytes: a.bytes + b.bytes }));
+    list.splice(0, list.length, ...merged);
+    while (list.length > MAX_QUEUED_MESSAGES || bytes > MAX_QUEUED_BYTES) {
+      let i = list.findIndex((q) => q.msg.type === 'counts');
       if (i < 0) i = 0;
-      const [gone] = this.queue.splice(i, 1);
-      this.bytes -= gone!.bytes;
+      const [gone] = list.splice(i, 1);
+      bytes -= gone!.bytes;
       if (gone!.msg.type === 'counts') {
         const m = gone!.msg as CountsMessage;
         const end = m.t0 + binsOf(m) * m.dt;
@@ -106,6 +154,7 @@ export class Outbox {
           : { messages: 1, from: m.t0, to: end };
       }
     }
+    return bytes;
   }
 
   private later(): void {

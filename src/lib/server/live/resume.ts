@@ -1,31 +1,65 @@
 // What a reconnecting client missed: stored batches of the bench's gateways whose bins end after
-// `since`, oldest first, capped so one resume cannot make a huge answer (the client asks again
-// from where the capped answer ended).
+// `since`, oldest first, one page at a time. Pages follow a (t0, gateway) cursor, so batches of
+// several gateways that start at the same time, or inside the last batch of a page, are neither
+// skipped nor sent twice.
 import type { CountsMessage } from '../../live-messages.ts';
 import { getDbHandle } from '../db/index.ts';
 import { unpackRow } from '../db/packed-counts.ts';
 import { countsMessage } from '../ingest/pipeline.ts';
 
-/** At most this many batches per resume (about 3 minutes of a 10-batches/s gateway). */
-export const RESUME_MAX_BATCHES = 2_000;
+/** Batches per page: well under a client's queue bound (outbox.ts), so a page is never dropped for size. */
+export const RESUME_PAGE = 200;
 
-export async function countsSince(benchId: string, since: number, limit = RESUME_MAX_BATCHES): Promise<{ messages: CountsMessage[]; complete: boolean }> {
-  const { rows } = await getDbHandle().pool.query<{
-    gateway_id: string; t0: number; dt: number; n: number; keys: string[]; counts: Buffer; x: number[] | null; cc: Buffer | null;
-  }>(
-    `select c.gateway_id, c.t0, c.dt, c.n, c.keys, c.counts, c.x, c.cc
-       from gateways g
-       cross join lateral (
-         (select * from count_batches c where c.gateway_id = g.id and c.t0 <= $2 order by c.t0 desc limit 1)
-         union all
-         (select * from count_batches c where c.gateway_id = g.id and c.t0 > $2 order by c.t0 limit $3)
-       ) c
-      where g.bench_id = $1 and c.t1 > $2
-      order by c.t0, c.gateway_id
-      limit $3 + 1`,
-    [benchId, since, limit],
-  );
-  const complete = rows.length <= limit;
-  const messages = rows.slice(0, limit).map(unpackRow).map((r) => countsMessage(benchId, r.gateway_id, { t0: r.t0, dt: r.dt, n: r.n, keys: r.keys, counts: r.counts, x: r.x, cc: r.cc }));
-  return { messages, complete };
+export interface ResumeCursor {
+  t0: number;
+  gateway: string;
+}
+
+type Row = { gateway_id: string; t0: number; dt: number; n: number; keys: string[]; counts: Buffer; x: number[] | null; cc: Buffer | null };
+
+/**
+ * One page of the batches whose bins end after `since`, in (t0, gateway) order: from the start when
+ * `after` is null, else strictly after that cursor. `next` is the cursor of the following page,
+ * null on the last one.
+ */
+export async function countsPage(
+  benchId: string,
+  since: number,
+  after: ResumeCursor | null,
+  limit = RESUME_PAGE,
+): Promise<{ messages: CountsMessage[]; next: ResumeCursor | null }> {
+  const pool = getDbHandle().pool;
+  // Per gateway: its batch straddling `since` and those starting after it (two probes of the
+  // primary key), or, past the first page, its batches after the cursor; then the first `limit` of all.
+  const { rows } = after
+    ? await pool.query<Row>(
+        `select c.gateway_id, c.t0, c.dt, c.n, c.keys, c.counts, c.x, c.cc
+           from gateways g
+           cross join lateral (
+             select * from count_batches c
+              where c.gateway_id = g.id and (c.t0 > $2 or (c.t0 = $2 and c.gateway_id > $3))
+              order by c.t0 limit $4
+           ) c
+          where g.bench_id = $1
+          order by c.t0, c.gateway_id
+          limit $4 + 1`,
+        [benchId, after.t0, after.gateway, limit],
+      )
+    : await pool.query<Row>(
+        `select c.gateway_id, c.t0, c.dt, c.n, c.keys, c.counts, c.x, c.cc
+           from gateways g
+           cross join lateral (
+             (select * from count_batches c where c.gateway_id = g.id and c.t0 <= $2 order by c.t0 desc limit 1)
+             union all
+             (select * from count_batches c where c.gateway_id = g.id and c.t0 > $2 order by c.t0 limit $3)
+           ) c
+          where g.bench_id = $1 and c.t1 > $2
+          order by c.t0, c.gateway_id
+          limit $3 + 1`,
+        [benchId, since, limit],
+      );
+  const page = rows.slice(0, limit);
+  const last = page.at(-1);
+  const messages = page.map(unpackRow).map((r) => countsMessage(benchId, r.gateway_id, { t0: r.t0, dt: r.dt, n: r.n, keys: r.keys, counts: r.counts, x: r.x, cc: r.cc }));
+  return { messages, next: rows.length > limit && last ? { t0: last.t0, gateway: last.gateway_id } : null };
 }
