@@ -34,12 +34,6 @@ const MAX_CLIENT_MESSAGE_BYTES = 4 * 1024;
  * the 20 ms budget over the broker and caps socket writes at 100 a second per client.
  */
 export const FRAME_MS = 10;
-/**
- * Clients handed a frame per turn of the event loop. A frame to 200 browsers is ~2.5 ms of socket
- * writes (up to 7 under load); in slices, the PUBLISH packets and database replies that arrive
- * meanwhile are handled between them instead of after all of them.
- */
-const CLIENTS_PER_TURN = 50;
 /** Most batches one resume replays; past it the client gets `complete: false` and may go on from `until`. */
 export const RESUME_MAX_BATCHES = 20_000;
 /** How often a replay looks whether its last page has left (ms). */
@@ -71,9 +65,6 @@ export class LiveHub {
   private frameTimer: NodeJS.Timeout | null = null;
   private frameImmediate: NodeJS.Immediate | null = null;
   private lastFrameAt = -Infinity;
-  /** Frames being handed out, oldest first, each to the clients it was made for. */
-  private sending: { frame: PreparedFrame; clients: LiveClient[]; next: number; keys: () => string[] }[] = [];
-  private sendImmediate: NodeJS.Immediate | null = null;
 
   constructor(fanout: Fanout) {
     this.unsubscribe = fanout.subscribe((benchId, message) => this.publish(benchId, message));
@@ -111,28 +102,12 @@ export class LiveHub {
       traceStage('frame-start', keys);
       const items = coalesceCounts(messages, (m) => m, (_a, _b, merged) => merged).map((m) => this.queued(m));
       const frame: PreparedFrame = { items, wire: textFrames(items.map((q) => q.data)) };
-      this.sending.push({ frame, clients: [...clients], next: 0, keys });
+      // All of a bench's clients in one go: handed out in slices of 50 per turn of the event loop,
+      // the ingest's stages got faster but the later browsers waited longer, and publish → browser
+      // did not improve (DEVELOPERS.md, "Ingest benchmark").
+      for (const c of clients) c.outbox.pushFrame(frame);
+      traceStage('frame-end', keys);
     }
-    if (!this.sendImmediate) this.sendSome();
-  }
-
-  /** Hands out up to CLIENTS_PER_TURN clients' worth of the waiting frames, in order; the rest next turn. */
-  private sendSome(): void {
-    this.sendImmediate = null;
-    let budget = CLIENTS_PER_TURN;
-    while (this.sending.length && budget > 0) {
-      const job = this.sending[0]!;
-      const end = Math.min(job.clients.length, job.next + budget);
-      // A client that left meanwhile has a closed outbox, which ignores the frame.
-      for (let i = job.next; i < end; i++) job.clients[i]!.outbox.pushFrame(job.frame);
-      budget -= end - job.next;
-      job.next = end;
-      if (job.next === job.clients.length) {
-        this.sending.shift();
-        traceStage('frame-end', job.keys);
-      }
-    }
-    if (this.sending.length) this.sendImmediate = setImmediate(() => this.sendSome());
   }
 
   clientCount(benchId?: string): number {
@@ -293,8 +268,6 @@ export class LiveHub {
     clearInterval(this.heartbeat);
     if (this.frameTimer) clearTimeout(this.frameTimer);
     if (this.frameImmediate) clearImmediate(this.frameImmediate);
-    if (this.sendImmediate) clearImmediate(this.sendImmediate);
-    this.sending = [];
     this.pending.clear();
     for (const set of this.benches.values()) for (const c of set) c.ws.terminate();
     this.benches.clear();
