@@ -69,15 +69,18 @@ export function axis(p: ChartPalette, extra: uPlot.Axis = {}): uPlot.Axis {
 
 // Time-axis labels on a 24-hour clock with day-month dates (uPlot's default is a 12-hour clock and
 // month/day/year, easy to misread in a lab log). Rows: [smallest tick step (s), tick label, then the
-// label added where the year, month, day, hour, minute or second changes, mode]; see uPlot's axes docs.
+// second line added at the first tick and where the year, month, day, hour, minute or second
+// changes, mode]; see uPlot's axes docs. Second lines stay as short as the tick labels ("1 Dec",
+// "23:51"): a long first one ("1 Dec 2026 23:50") ran into the next minute's on narrow charts.
+// The full date and time of any point is in the legend.
 const TIME_24H: (string | number | null)[][] = [
   [31_536_000, '{YYYY}', null, null, null, null, null, null, 1],
   [2_419_200, '{MMM}', '\n{YYYY}', null, null, null, null, null, 1],
   [86_400, '{D} {MMM}', '\n{YYYY}', null, null, null, null, null, 1],
-  [3_600, '{HH}:{mm}', '\n{D} {MMM} {YYYY}', null, '\n{D} {MMM}', null, null, null, 1],
-  [60, '{HH}:{mm}', '\n{D} {MMM} {YYYY}', null, '\n{D} {MMM}', null, null, null, 1],
-  [1, ':{ss}', '\n{D} {MMM} {YYYY} {HH}:{mm}', null, '\n{D} {MMM} {HH}:{mm}', null, '\n{HH}:{mm}', null, 1],
-  [0.001, ':{ss}.{fff}', '\n{D} {MMM} {YYYY} {HH}:{mm}', null, '\n{D} {MMM} {HH}:{mm}', null, '\n{HH}:{mm}', null, 1],
+  [3_600, '{HH}:{mm}', '\n{D} {MMM}', null, '\n{D} {MMM}', null, null, null, 1],
+  [60, '{HH}:{mm}', '\n{D} {MMM}', null, '\n{D} {MMM}', null, null, null, 1],
+  [1, ':{ss}', '\n{HH}:{mm}', null, '\n{HH}:{mm}', null, '\n{HH}:{mm}', null, 1],
+  [0.001, ':{ss}.{fff}', '\n{HH}:{mm}', null, '\n{HH}:{mm}', null, '\n{HH}:{mm}', null, 1],
 ];
 
 /** The x axis of a time chart (x in seconds since the epoch). */
