@@ -4,6 +4,7 @@ import { useEffect, useState, type FormEvent } from 'react';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { addNote, errorText, fetchNotes, startRun, stopRun } from '../../lib/client/api.ts';
 import { formatClock, formatDuration, formatSnapshot } from '../../lib/client/format.ts';
+import { useNow } from '../../lib/client/use-now.ts';
 import type { NoteView, RunView } from '../../lib/runs.ts';
 
 interface Props {
@@ -22,12 +23,7 @@ export function RunPanel({ benchId, initialRun, canOperate, figures }: Props) {
   const [withSnapshot, setWithSnapshot] = useState(true);
   const [busy, setBusy] = useState(false);
   const [error, setError] = useState<string | null>(null);
-  const [now, setNow] = useState(() => Date.now());
-
-  useEffect(() => {
-    const t = setInterval(() => setNow(Date.now()), 1000);
-    return () => clearInterval(t);
-  }, []);
+  const now = useNow(1000);
 
   useEffect(() => {
     if (!run) {
@@ -79,7 +75,7 @@ export function RunPanel({ benchId, initialRun, canOperate, figures }: Props) {
           <div>
             <a href={`/runs/${run.id}`} className="font-medium hover:underline" data-testid="active-run-title">{run.title}</a>
             <p className="text-xs text-muted">
-              started <span className="figure">{formatClock(run.startMs)}</span> by {run.startedBy?.name ?? 'someone'} · running <span className="figure">{formatDuration(now - run.startMs)}</span>
+              started <span className="figure">{formatClock(run.startMs)}</span> by {run.startedBy?.name ?? 'someone'} · running <span className="figure">{now === null ? '…' : formatDuration(now - run.startMs)}</span>
             </p>
           </div>
           {canOperate && (

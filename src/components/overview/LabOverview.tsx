@@ -2,11 +2,11 @@
 // it came from, open alarms by severity, the active run and who started it. Everything is polled
 // (figures every 2 s, the sparkline's counts and the open alarms every 5 s) rather than streamed:
 // one socket per bench for a summary card would cost more than it shows.
-import { useState } from 'react';
 import type { AlarmEventView, Severity } from '../../lib/alarm-messages.ts';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { errorText, fetchCounts, fetchFigures, fetchOpenAlarms, type CountsAnswer } from '../../lib/client/api.ts';
 import { formatDuration, formatRate, formatValueErr } from '../../lib/client/format.ts';
+import { useNow } from '../../lib/client/use-now.ts';
 import { usePolled } from '../../lib/client/use-polled.ts';
 import type { OverviewBench } from '../../lib/overview.ts';
 import { Sparkline } from './Sparkline.tsx';
@@ -82,7 +82,7 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
       [benches],
     ) ?? {};
   const live = fast?.live ?? {};
-  const [mountedAt] = useState(() => Date.now());
+  const mountedAt = useNow();
   const now = fast?.at ?? mountedAt;
 
   if (benches.length === 0) return <p className="text-muted">No benches yet. An admin adds them under Benches &amp; gateways.</p>;
@@ -94,7 +94,7 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
         const f = l?.figures ?? null;
         const a = f?.channels.find((c) => c.role === 'out_a');
         const o = f?.channels.find((c) => c.role === 'out_b');
-        const stale = f ? now - f.at > STALE_MS : false;
+        const stale = f && now !== null ? now - f.at > STALE_MS : false;
         const online = b.gatewaysOnline > 0;
         const v = f?.visibility ?? null;
         const sl = slow[b.id];
@@ -144,13 +144,13 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
             {!l?.loaded && <p className="text-xs text-muted">Loading figures…</p>}
             {l?.error && <p className="text-xs text-bad">Figures unavailable: {l.error}</p>}
             {l?.loaded && !l.error && !f && <p className="text-xs text-muted">No counts yet.</p>}
-            {stale && <p className="text-xs text-warn">Figures are {formatDuration(now - f!.at)} old.</p>}
+            {stale && <p className="text-xs text-warn">Figures are {formatDuration(now! - f!.at)} old.</p>}
             <div className="mt-auto flex flex-wrap items-center justify-between gap-x-3 gap-y-1 border-t border-line pt-2 text-xs">
               <a href={`/benches/${b.id}#alarms`} className={`hover:underline ${alarm.tone}`} title={alarm.title}>{alarm.text}</a>
               <span className="min-w-0 truncate text-muted">
                 {b.activeRun ? (
                   <>
-                    <a className="text-ink hover:underline" href={`/runs/${b.activeRun.id}`}>{b.activeRun.title}</a> · {b.activeRun.startedBy?.name ?? 'someone'} · <span className="figure">{formatDuration(now - b.activeRun.startMs)}</span>
+                    <a className="text-ink hover:underline" href={`/runs/${b.activeRun.id}`}>{b.activeRun.title}</a> · {b.activeRun.startedBy?.name ?? 'someone'} · <span className="figure">{now === null ? '…' : formatDuration(now - b.activeRun.startMs)}</span>
                   </>
                 ) : (
                   'no active run'
