@@ -22,6 +22,22 @@ export function channelColour(p: ChartPalette, role: ViewChannel['role'], i: num
   return [p.accent, p.muted][i % 2]!;
 }
 
+/**
+ * The y axes of a rates chart. A herald runs 5–10× above the gated outputs: on the outputs' axis it
+ * would flatten them, so it gets its own axis on the right (its series use `heraldScale`).
+ */
+export function rateAxes(p: ChartPalette, channels: Pick<ViewChannel, 'role'>[]): uPlot.Axis[] {
+  const ticks = (_u: uPlot, t: number[]) => t.map(formatRateTick);
+  const herald = channels.some((c) => c.role === 'herald');
+  return [
+    axis(p, { size: 64, label: 'counts/s', values: ticks }),
+    ...(herald ? [axis(p, { scale: 'herald', side: 1, size: 64, label: 'herald counts/s', grid: { show: false }, values: ticks })] : []),
+  ];
+}
+
+/** The scale a channel's series is drawn on (see rateAxes). */
+export const heraldScale = (c: Pick<ViewChannel, 'role'>): { scale?: string } => (c.role === 'herald' ? { scale: 'herald' } : {});
+
 export interface RatesHandle {
   invalidate(): void;
 }
@@ -40,8 +56,6 @@ export function RatesChart(props: { ring: RateRing; channels: ViewChannel[]; onR
     return [v.x, ...v.y];
   };
 
-  // A herald runs 5–10× above the gated outputs: on the outputs' axis it would flatten them, so
-  // it gets its own axis on the right.
   const hasHerald = channels.some((c) => c.role === 'herald');
   const yScale = (): uPlot.Scale => (log ? { distr: 3, log: 10 } : { range: (_u, _min, max) => [0, max > 0 ? max * 1.08 : 1] });
 
@@ -57,8 +71,7 @@ export function RatesChart(props: { ring: RateRing; channels: ViewChannel[]; onR
       },
       axes: [
         timeAxis(p),
-        axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map(formatRateTick) }),
-        ...(hasHerald ? [axis(p, { scale: 'herald', side: 1, size: 64, label: 'herald counts/s', grid: { show: false }, values: (_u, t) => t.map(formatRateTick) })] : []),
+        ...rateAxes(p, channels),
       ],
       series: [
         { label: 'time', value: timeLegendValue },
@@ -68,7 +81,7 @@ export function RatesChart(props: { ring: RateRing; channels: ViewChannel[]; onR
           width: 1.5,
           points: { show: false },
           value: (_u: uPlot, v: number | null) => formatRate(v),
-          ...(c.role === 'herald' ? { scale: 'herald' } : {}),
+          ...heraldScale(c),
         })),
       ],
     }),

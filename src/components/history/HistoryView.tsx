@@ -6,11 +6,11 @@ import { useEffect, useRef, useState } from 'react';
 import type uPlot from 'uplot';
 import type { ViewChannel } from '../../lib/bench-view.ts';
 import { errorText, fetchCounts, type CountsAnswer } from '../../lib/client/api.ts';
-import { formatDateTime, formatRate, formatRateTick, parseLocalInput } from '../../lib/client/format.ts';
-import { axis, timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
-import { channelColour } from '../bench/RatesChart.tsx';
+import { formatDateTime, formatRate, parseLocalInput } from '../../lib/client/format.ts';
+import { timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
+import { channelColour, heraldScale, rateAxes } from '../bench/RatesChart.tsx';
 import { ChartState } from '../charts/ChartState.tsx';
-import { pickStep } from './history-range.ts';
+import { bucketRates, pickStep, wholeBuckets } from './history-range.ts';
 import { StabilityCard } from './StabilityCard.tsx';
 import { SweepHistory } from './SweepHistory.tsx';
 
@@ -36,6 +36,8 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
   const box = useRef<HTMLDivElement>(null);
   const answerRef = useRef(answer);
   answerRef.current = answer;
+  /** When the shown answer arrived: its last bucket may still have been filling then. */
+  const fetchedAt = useRef(0);
   const rangeRef = useRef(range);
   rangeRef.current = range;
 
@@ -49,7 +51,7 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
     const x = new Float64Array(n);
     for (let i = 0; i < n; i++) x[i] = (a.t0 + (i + 0.5) * a.step) / 1000;
     // Rates, counts/s; buckets without bins stay null (a gap, not a zero).
-    const ys = channels.map((c) => (a.channels[c.id] ?? []).map((v) => (v == null ? null : (v * 1000) / a.step)));
+    const ys = channels.map((c) => bucketRates(a.channels[c.id] ?? [], a.t0, a.step, fetchedAt.current));
     return [x, ...ys];
   };
 
@@ -60,8 +62,11 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
       cursor: { drag: { x: true, y: false, setScale: false } },
       select: { show: true, left: 0, top: 0, width: 0, height: 0 },
       scales: { x: { time: true, range: () => [rangeRef.current.from / 1000, rangeRef.current.to / 1000] } },
-      axes: [timeAxis(p), axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map(formatRateTick) })],
-      series: [{ label: 'time', value: timeLegendValue }, ...channels.map((c, i) => ({ label: c.label, stroke: channelColour(p, c.role, i), width: 1.25, points: { show: false }, value: (_u: uPlot, v: number | null) => formatRate(v) }))],
+      axes: [timeAxis(p), ...rateAxes(p, channels)],
+      series: [
+        { label: 'time', value: timeLegendValue },
+        ...channels.map((c, i) => ({ label: c.label, stroke: channelColour(p, c.role, i), width: 1.25, points: { show: false }, value: (_u: uPlot, v: number | null) => formatRate(v), ...heraldScale(c) })),
+      ],
       hooks: {
         setSelect: [
           (u: uPlot) => {
@@ -83,8 +88,10 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
     setLoading(true);
     setError(null);
     const started = performance.now();
-    fetchCounts(benchId, range.from, range.to, step, ctl.signal).then(
+    const whole = wholeBuckets(range.from, range.to, step);
+    fetchCounts(benchId, whole.from, whole.to, step, ctl.signal).then(
       (a) => {
+        fetchedAt.current = Date.now();
         setAnswer(a);
         answerRef.current = a;
         plot.current?.setData(data());

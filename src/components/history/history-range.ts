@@ -18,3 +18,20 @@ export function stabilityStep(spanMs: number): number {
   const step = pickStep(spanMs, STABILITY_POINTS);
   return spanMs > ROLLUP_SPAN_MS ? Math.max(1_000, step) : step;
 }
+
+/**
+ * A request range widened to whole buckets: the counts API aligns buckets to multiples of the step,
+ * so a range starting or ending inside one would sum only part of its time into it and the curve
+ * would dip at both ends.
+ */
+export function wholeBuckets(from: number, to: number, step: number): { from: number; to: number } {
+  return { from: Math.floor(from / step) * step, to: Math.ceil(to / step) * step };
+}
+
+/**
+ * Rates (counts/s) of bucket sums starting at `t0`. A bucket still filling at `asOf` (its end in
+ * the future when the answer came) is left out (null) for the same reason; empty buckets stay null.
+ */
+export function bucketRates(sums: (number | null)[], t0: number, step: number, asOf: number): (number | null)[] {
+  return sums.map((v, i) => (v == null || t0 + (i + 1) * step > asOf ? null : (v * 1000) / step));
+}

@@ -3,10 +3,9 @@ import { useEffect, useRef, useState } from 'react';
 import type uPlot from 'uplot';
 import type { ViewChannel } from '../../lib/bench-view.ts';
 import { errorText, fetchCounts, type CountsAnswer } from '../../lib/client/api.ts';
-import { formatRateTick } from '../../lib/client/format.ts';
-import { axis, timeAxis, useUPlot } from '../charts/useUPlot.ts';
-import { channelColour } from '../bench/RatesChart.tsx';
-import { pickStep } from '../history/history-range.ts';
+import { timeAxis, useUPlot } from '../charts/useUPlot.ts';
+import { channelColour, heraldScale, rateAxes } from '../bench/RatesChart.tsx';
+import { bucketRates, pickStep, wholeBuckets } from '../history/history-range.ts';
 import { VisibilityTrend } from '../bench/VisibilityTrend.tsx';
 import type { Sweep } from '../../lib/client/api.ts';
 
@@ -20,13 +19,15 @@ export default function RunCharts(props: { benchId: string; from: number; to: nu
   const box = useRef<HTMLDivElement>(null);
   const ref = useRef(answer);
   ref.current = answer;
+  /** When the answer arrived: a running run's last bucket may still have been filling then. */
+  const fetchedAt = useRef(0);
 
   const data = (): uPlot.AlignedData => {
     const a = ref.current;
     if (!a) return [[], ...channels.map(() => [])];
     const n = Object.values(a.channels)[0]?.length ?? 0;
     const x = Array.from({ length: n }, (_, i) => (a.t0 + (i + 0.5) * a.step) / 1000);
-    return [x, ...channels.map((c) => (a.channels[c.id] ?? []).map((v) => (v == null ? null : (v * 1000) / a.step)))];
+    return [x, ...channels.map((c) => bucketRates(a.channels[c.id] ?? [], a.t0, a.step, fetchedAt.current))];
   };
 
   const plot = useUPlot(
@@ -34,8 +35,8 @@ export default function RunCharts(props: { benchId: string; from: number; to: nu
     (p) => ({
       legend: { show: true, live: false },
       scales: { x: { time: true } },
-      axes: [timeAxis(p), axis(p, { size: 64, label: 'counts/s', values: (_u, t) => t.map(formatRateTick) })],
-      series: [{ label: 'time' }, ...channels.map((c, i) => ({ label: c.label, stroke: channelColour(p, c.role, i), width: 1.25, points: { show: false } }))],
+      axes: [timeAxis(p), ...rateAxes(p, channels)],
+      series: [{ label: 'time' }, ...channels.map((c, i) => ({ label: c.label, stroke: channelColour(p, c.role, i), width: 1.25, points: { show: false }, ...heraldScale(c) }))],
     }),
     data,
     240,
@@ -43,8 +44,11 @@ export default function RunCharts(props: { benchId: string; from: number; to: nu
 
   useEffect(() => {
     const ctl = new AbortController();
-    fetchCounts(benchId, from, to, pickStep(to - from, POINTS), ctl.signal).then(
+    const step = pickStep(to - from, POINTS);
+    const whole = wholeBuckets(from, to, step);
+    fetchCounts(benchId, whole.from, whole.to, step, ctl.signal).then(
       (a) => {
+        fetchedAt.current = Date.now();
         ref.current = a;
         setAnswer(a);
         plot.current?.setData(data());
