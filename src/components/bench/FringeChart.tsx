@@ -97,8 +97,9 @@ export function FringeChart(props: Props) {
         { label: 'x (V)' },
         { label: props.labels.a, stroke: p.ember, width: 0, points: { show: true, size: 4, fill: p.ember, stroke: p.ember }, spanGaps: false },
         { label: props.labels.b, stroke: p.tide, width: 0, points: { show: true, size: 4, fill: p.tide, stroke: p.tide }, spanGaps: false },
-        { label: 'fit A', stroke: p.ink, width: 2, points: { show: false }, spanGaps: true },
-        { label: 'fit B', stroke: p.ink, width: 2, dash: [6, 4], points: { show: false }, spanGaps: true },
+        // Both fits in ink over their coloured points; the legend's swatches look alike, so the labels say which line is which.
+        { label: 'fit A (solid)', stroke: p.ink, width: 2, points: { show: false }, spanGaps: true },
+        { label: 'fit B (dashed)', stroke: p.ink, width: 2, dash: [6, 4], points: { show: false }, spanGaps: true },
         { label: 'previous fit A', stroke: withAlpha(p.ember, 0.45), width: 1.5, points: { show: false }, spanGaps: true },
         { label: 'previous fit B', stroke: withAlpha(p.tide, 0.45), width: 1.5, points: { show: false }, spanGaps: true },
       ],
@@ -159,7 +160,8 @@ export function FringeChart(props: Props) {
         </div>
       </div>
       <div ref={box} className="relative min-h-[300px]" role="img" aria-label="Counts of both outputs against the scan coordinate, with the fitted fringe model">
-        {clicks === 0 && <p className="pointer-events-none absolute left-1/2 top-[40%] z-10 -translate-x-1/2 -translate-y-1/2 rounded-md border border-line bg-panel px-3 py-1.5 text-center text-sm text-muted">No scan in progress. Fringes appear here while the drive sweeps.</p>}
+        {/* Over an empty plot only: the last fits stay drawn after a scan ends, and a note over them would hide them. */}
+        {clicks === 0 && !lastFit && <p className="pointer-events-none absolute left-1/2 top-[40%] z-10 -translate-x-1/2 -translate-y-1/2 rounded-md border border-line bg-panel px-3 py-1.5 text-center text-sm text-muted">No scan in progress. Fringes appear here while the drive sweeps.</p>}
       </div>
     </section>
   );

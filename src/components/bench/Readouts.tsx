@@ -1,7 +1,7 @@
 // Large readouts an operator reads from across the bench: both output rates (raw and corrected),
 // V ± σ, phase, contrast and the phase noise against the shot-noise limit.
 import type { BenchFigures, ChannelFigures } from '../../lib/bench-figures.ts';
-import { formatNumber, formatRateErr, formatValueErr, rateParts } from '../../lib/client/format.ts';
+import { formatNumber, formatRateErr, formatValueErr, PLUS_MINUS, rateParts } from '../../lib/client/format.ts';
 
 /** A number read from across the bench: the value large, its unit and uncertainty smaller beside it, never wrapping. */
 function Tile(props: { label: string; value: string; unit?: string | undefined; subs?: (string | null)[]; tone?: string; testId?: string }) {
@@ -27,7 +27,7 @@ function rateTile(c: ChannelFigures | undefined, label: string, tone: string, te
 
 /** Value and uncertainty rounded together, split for a tile. */
 function splitErr(v: { value: number; err: number }, decimals?: number): { value: string; err: string } {
-  const [value = '–', err = ''] = formatValueErr(v, decimals).split(' ± ');
+  const [value = '–', err = ''] = formatValueErr(v, decimals).split(PLUS_MINUS);
   return { value, err };
 }
 
@@ -64,7 +64,7 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
           label="Phase noise"
           value={sn ? sn.ratio.toFixed(2) : '–'}
           unit={sn ? '× shot noise' : undefined}
-          subs={sn ? [`${sn.dB >= 0 ? '+' : ''}${sn.dB.toFixed(1)} dB`, `limit ${(sn.limitRad * 1000).toFixed(2)} mrad`] : ['while holding only']}
+          subs={sn ? [`${(sn.measuredRad * 1000).toFixed(2)} mrad · ${sn.dB >= 0 ? '+' : ''}${sn.dB.toFixed(1)} dB`, `shot-noise limit ${(sn.limitRad * 1000).toFixed(2)} mrad`] : ['while holding only']}
         />
       </div>
       {warnings.length > 0 && (
@@ -102,7 +102,7 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
           )}
           {f.g2 && (
             <>
-              <dt className="text-muted">accidentals</dt>
+              <dt className="text-muted">accidental coincidences, last {Math.round(f.windowMs / 1000)} s</dt>
               <dd className="figure text-right">{f.g2.accidentals.toFixed(1)}</dd>
             </>
           )}

@@ -54,11 +54,14 @@ function decimalsFor(err: number): number {
   return Math.min(6, Math.max(0, 1 - Math.floor(Math.log10(err))));
 }
 
+/** Between a value and its uncertainty: no-break spaces, so a narrow column never puts "± 0.0008" on a line of its own. */
+export const PLUS_MINUS = '\u00a0±\u00a0';
+
 /** "0.9712 ± 0.0031"; "–" when absent. */
 export function formatValueErr(v: { value: number; err: number } | null | undefined, fixedDecimals?: number): string {
   if (!v || !Number.isFinite(v.value)) return DASH;
   const d = fixedDecimals ?? decimalsFor(v.err);
-  return `${v.value.toFixed(d)} ± ${Number.isFinite(v.err) ? v.err.toFixed(d) : '?'}`;
+  return `${v.value.toFixed(d)}${PLUS_MINUS}${Number.isFinite(v.err) ? v.err.toFixed(d) : '?'}`;
 }
 
 export function formatNumber(v: number | null | undefined, decimals: number): string {
