@@ -102,7 +102,7 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
           )}
           {f.g2 && (
             <>
-              <dt className="text-muted">accidental coincidences, last {Math.round(f.windowMs / 1000)} s</dt>
+              <dt className="text-muted">accidentals in {Math.round(f.windowMs / 1000)} s</dt>
               <dd className="figure text-right">{f.g2.accidentals.toFixed(1)}</dd>
             </>
           )}
