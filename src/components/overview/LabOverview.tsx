@@ -126,18 +126,19 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
             </div>
             <dl className="grid grid-cols-2 gap-x-2 gap-y-2">
               <div className="min-w-0">
-                <dt className="label truncate">{a?.label ?? 'Out A'}</dt>
+                <dt className="label truncate" title={a?.label ?? 'Out A'}>{a?.label ?? 'Out A'}</dt>
                 <dd className="figure whitespace-nowrap text-lg text-ember">{formatRate(a?.rateRaw)}</dd>
               </div>
               <div className="min-w-0">
-                <dt className="label truncate">{o?.label ?? 'Out B'}</dt>
+                <dt className="label truncate" title={o?.label ?? 'Out B'}>{o?.label ?? 'Out B'}</dt>
                 <dd className="figure whitespace-nowrap text-lg text-tide">{formatRate(o?.rateRaw)}</dd>
               </div>
               <div className="col-span-2">
                 <dt className="label">Visibility{v?.net ? ', net of darks' : ''}</dt>
-                <dd className="whitespace-nowrap" data-testid={`bench-visibility-${b.id}`}>
+                {/* The figure stays whole (no-break spaces); its source note wraps under it on a narrow card. */}
+                <dd className="flex flex-wrap items-baseline gap-x-2" data-testid={`bench-visibility-${b.id}`}>
                   <span className="figure text-lg">{v ? formatValueErr(v) : '–'}</span>
-                  <span className="ml-2 text-xs text-muted">{!v ? 'needs a sweep or drift' : v.source === 'sweep' ? 'sweep fit' : 'fringe envelope'}</span>
+                  <span className="text-xs text-muted">{!v ? 'needs a sweep or drift' : v.source === 'sweep' ? 'sweep fit' : 'fringe envelope'}</span>
                 </dd>
               </div>
             </dl>
@@ -147,7 +148,7 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
             {stale && <p className="text-xs text-warn">Figures are {formatDuration(now! - f!.at)} old.</p>}
             <div className="mt-auto flex flex-wrap items-center justify-between gap-x-3 gap-y-1 border-t border-line pt-2 text-xs">
               <a href={`/benches/${b.id}#alarms`} className={`hover:underline ${alarm.tone}`} title={alarm.title}>{alarm.text}</a>
-              <span className="min-w-0 truncate text-muted">
+              <span className="min-w-0 text-muted">
                 {b.activeRun ? (
                   <>
                     <a className="text-ink hover:underline" href={`/runs/${b.activeRun.id}`}>{b.activeRun.title}</a> · {b.activeRun.startedBy?.name ?? 'someone'} · <span className="figure">{now === null ? '…' : formatDuration(now - b.activeRun.startMs)}</span>
