@@ -9,6 +9,7 @@ import { formatDuration, formatRate, formatValueErr } from '../../lib/client/for
 import { useNow } from '../../lib/client/use-now.ts';
 import { usePolled } from '../../lib/client/use-polled.ts';
 import type { OverviewBench } from '../../lib/overview.ts';
+import { bucketRates, wholeBuckets } from '../history/history-range.ts';
 import { Sparkline } from './Sparkline.tsx';
 
 /** Poll period of the figures, ms (the server recomputes them about once a second). */
@@ -23,15 +24,17 @@ const STALE_MS = 10_000;
 
 type Live = { figures: BenchFigures | null; error: string | null; loaded: boolean };
 /** Counts and open alarms of a bench from the slower poll; null while not (yet) loaded. */
-type Slow = { counts: CountsAnswer | null; alarms: AlarmEventView[] | null };
+/** `asOf`: when the counts came, for leaving out the bucket still filling then. */
+type Slow = { counts: CountsAnswer | null; alarms: AlarmEventView[] | null; asOf: number };
 
 const SEVERITY_RANK: Record<Severity, number> = { info: 0, warning: 1, critical: 2 };
 const SEVERITY_TONE: Record<Severity, string> = { info: 'text-muted', warning: 'text-warn', critical: 'font-semibold text-bad' };
 
 /** Rates (counts/s) of one channel of a counts answer, null in buckets without bins. */
-function rates(c: CountsAnswer, channel: string | undefined): (number | null)[] {
+/** counts/s of a channel's buckets; partial ones at either end left out, as on the history chart. */
+function rates(c: CountsAnswer, channel: string | undefined, asOf: number): (number | null)[] {
   const col = channel ? c.channels[channel] : undefined;
-  return col ? col.map((v) => (v == null ? null : (v * 1000) / c.step)) : [];
+  return col ? bucketRates(col, c.t0, c.step, asOf) : [];
 }
 
 /** Open alarms as the card says them: count and the worst severity's colour. */
@@ -68,12 +71,13 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
   const slow =
     usePolled(
       async () => {
-        const to = Date.now();
+        const now = Date.now();
+        const { from, to } = wholeBuckets(now - SPARK_SPAN_MS, now, SPARK_STEP_MS);
         const results = await Promise.all(
           benches.map(async (b): Promise<[string, Slow]> => {
             // A failed sparkline or alarm read keeps the card's other figures; the figures poll reports the bench's errors.
-            const [counts, alarms] = await Promise.all([fetchCounts(b.id, to - SPARK_SPAN_MS, to, SPARK_STEP_MS).catch(() => null), fetchOpenAlarms(b.id).catch(() => null)]);
-            return [b.id, { counts, alarms }];
+            const [counts, alarms] = await Promise.all([fetchCounts(b.id, from, to, SPARK_STEP_MS).catch(() => null), fetchOpenAlarms(b.id).catch(() => null)]);
+            return [b.id, { counts, alarms, asOf: Date.now() }];
           }),
         );
         return Object.fromEntries(results) as Record<string, Slow>;
@@ -117,7 +121,7 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
             <div>
               <Sparkline
                 label={`Rates of both outputs over the last ${SPARK_SPAN_MS / 60_000} minutes`}
-                series={sl?.counts ? [{ className: 'stroke-ember', values: rates(sl.counts, a?.channel) }, { className: 'stroke-tide', values: rates(sl.counts, o?.channel) }] : []}
+                series={sl?.counts ? [{ className: 'stroke-ember', values: rates(sl.counts, a?.channel, sl.asOf) }, { className: 'stroke-tide', values: rates(sl.counts, o?.channel, sl.asOf) }] : []}
               />
               <p className="mt-0.5 flex justify-between text-[11px] text-muted">
                 <span>−{SPARK_SPAN_MS / 60_000} min</span>
