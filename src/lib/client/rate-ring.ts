@@ -1,13 +1,14 @@
 // Live count rates as a ring of fixed-width time buckets per channel, in typed arrays allocated
 // once: messages add into buckets, redraws copy the visible span into reused output arrays.
-// 100 ms buckets × 6000 = the longest window (10 min) at a resolution the eye can follow.
+// 100 ms buckets × 6000 = the longest window (10 min) at a resolution the eye can follow. A bin
+// is shared out over the buckets it overlaps by the time it spends in each, so bins of any width
+// (40 ms, 1 s, a 1 s backfill) land in the same buckets and nothing has to start over.
 
 export const BUCKET_MS = 100;
 export const CAPACITY = 6000;
 
 export class RateRing {
-  /** Bucket width, ms: BUCKET_MS, or the bin width when bins are wider. */
-  bucketMs = BUCKET_MS;
+  readonly bucketMs = BUCKET_MS;
   readonly keys: string[];
   private readonly sums: Float64Array[];
   /** Milliseconds of bins that landed in each bucket (a partly filled bucket is not a dim one). */
@@ -27,46 +28,37 @@ export class RateRing {
     this.slotIndex = new Float64Array(CAPACITY).fill(-1);
   }
 
-  clear(): void {
-    this.slotIndex.fill(-1);
-    this.newest = -1;
-  }
-
-  /** Bins wider than a bucket widen the buckets (and start over: old buckets have another width). */
-  private ensureWidth(dt: number): void {
-    const want = Math.max(BUCKET_MS, dt);
-    if (want !== this.bucketMs) {
-      this.bucketMs = want;
-      this.clear();
-    }
-  }
-
   /**
    * Adds bins [t0 + i·dt, t0 + (i+1)·dt) of the channels present in `ch` (others left as they are).
    * `t0`, `dt` in ms; counts per bin. With `fillOnly`, buckets that already hold data are left
    * alone (a backfill arriving after live messages must not count them twice).
    */
   add(t0: number, dt: number, ch: Record<string, ArrayLike<number>>, fillOnly = false): void {
-    this.ensureWidth(dt);
     const cols = this.keys.map((k) => ch[k]);
     const n = cols.find((c) => c)?.length ?? 0;
+    const w = this.bucketMs;
     for (let i = 0; i < n; i++) {
-      const idx = Math.floor((t0 + i * dt) / this.bucketMs);
-      // Older than the ring holds: nothing to show it in.
-      if (this.newest >= 0 && idx <= this.newest - CAPACITY) continue;
-      const slot = idx % CAPACITY;
-      if (fillOnly && this.slotIndex[slot] === idx) continue;
-      if (this.slotIndex[slot] !== idx) {
-        this.slotIndex[slot] = idx;
-        this.covered[slot] = 0;
-        for (const s of this.sums) s[slot] = 0;
+      const start = t0 + i * dt;
+      const end = start + dt;
+      for (let idx = Math.floor(start / w); idx * w < end; idx++) {
+        // Older than the ring holds: nothing to show it in.
+        if (this.newest >= 0 && idx <= this.newest - CAPACITY) continue;
+        const slot = idx % CAPACITY;
+        if (fillOnly && this.slotIndex[slot] === idx) continue;
+        if (this.slotIndex[slot] !== idx) {
+          this.slotIndex[slot] = idx;
+          this.covered[slot] = 0;
+          for (const s of this.sums) s[slot] = 0;
+        }
+        const overlap = Math.min(end, (idx + 1) * w) - Math.max(start, idx * w);
+        this.covered[slot]! += overlap;
+        const share = overlap / dt;
+        for (let c = 0; c < cols.length; c++) {
+          const col = cols[c];
+          if (col) this.sums[c]![slot]! += col[i]! * share;
+        }
+        if (idx > this.newest) this.newest = idx;
       }
-      this.covered[slot]! += dt;
-      for (let c = 0; c < cols.length; c++) {
-        const col = cols[c];
-        if (col) this.sums[c]![slot]! += col[i]!;
-      }
-      if (idx > this.newest) this.newest = idx;
     }
   }
 

@@ -1,0 +1,35 @@
+import { describe, expect, it } from 'vitest';
+import { RateRing } from './rate-ring.ts';
+
+const rates = (ring: RateRing, from = 0) => {
+  const v = ring.view(from);
+  return { x: [...v.x], a: [...v.y[0]!].map((r) => Math.round(r * 1e6) / 1e6) };
+};
+
+// Rate = counts / time covered, per bucket (common practice for binned counting).
+describe('RateRing', () => {
+  it('sums 1 ms bins into 100 ms buckets as counts/s', () => {
+    const ring = new RateRing(['a']);
+    ring.add(0, 1, { a: Array.from({ length: 200 }, () => 2) });
+    expect(rates(ring)).toEqual({ x: [0, 0.1], a: [2000, 2000] });
+  });
+
+  it('shares a bin that straddles buckets by the time it spends in each', () => {
+    const ring = new RateRing(['a']);
+    // 40 ms bins of 4 counts (100 /s): [80, 120) is half in each bucket.
+    ring.add(0, 40, { a: [4, 4, 4, 4, 4] });
+    expect(rates(ring)).toEqual({ x: [0, 0.1], a: [100, 100] });
+  });
+
+  it('keeps earlier buckets when wider bins arrive, and a wide backfill fills only empty buckets', () => {
+    const ring = new RateRing(['a']);
+    ring.add(1_000, 1, { a: Array.from({ length: 100 }, () => 1) }); // 1000 /s in [1.0, 1.1) s
+    ring.add(2_000, 1_000, { a: [500] }); // one 1 s bin: 500 /s over [2, 3) s
+    ring.add(1_000, 1_000, { a: [300] }, true); // backfill of [1, 2) s: fills all but the live bucket
+    const r = rates(ring);
+    expect(r.x).toHaveLength(20);
+    expect(r.a[0]).toBe(1000);
+    expect(r.a.slice(1, 10)).toEqual(Array(9).fill(300));
+    expect(r.a.slice(10)).toEqual(Array(10).fill(500));
+  });
+});
