@@ -30,6 +30,9 @@ export function VisibilityTrend(props: Props) {
   const ref = useRef(props);
   ref.current = props;
 
+  const hasEnvelope = props.envelope.length > 0;
+  const hasLimit = props.limit !== null;
+
   const data = (): uPlot.AlignedData => {
     const { sweeps, envelope, limit } = ref.current;
     // Sweeps and envelope points on one sorted time axis, nulls where a series has no value.
@@ -60,12 +63,14 @@ export function VisibilityTrend(props: Props) {
         // The band's edges: drawn as the shaded band only, so kept out of the legend ('hidden!' beats uPlot's unlayered legend CSS).
         { label: '−1σ', class: 'hidden!', stroke: 'transparent', points: { show: false }, spanGaps: true },
         { label: '+1σ', class: 'hidden!', stroke: 'transparent', points: { show: false }, spanGaps: true },
-        { label: 'running', stroke: p.muted, width: 1, dash: [3, 3], points: { show: false }, spanGaps: true },
-        { label: 'alarm limit', stroke: p.bad, width: 1.5, dash: [8, 4], points: { show: false }, spanGaps: true },
+        // In the legend only when drawn: an entry for a line that is not there reads as a missing line.
+        { label: 'fringe envelope', ...(hasEnvelope ? {} : { class: 'hidden!' }), stroke: p.muted, width: 1, dash: [3, 3], points: { show: false }, spanGaps: true },
+        { label: 'alarm limit', ...(hasLimit ? {} : { class: 'hidden!' }), stroke: p.bad, width: 1.5, dash: [8, 4], points: { show: false }, spanGaps: true },
       ],
     }),
     data,
     200,
+    `${hasEnvelope}/${hasLimit}`,
   );
 
   useEffect(() => {
