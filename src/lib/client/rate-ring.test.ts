@@ -33,3 +33,13 @@ describe('RateRing', () => {
     expect(r.a.slice(10)).toEqual(Array(10).fill(500));
   });
 });
+
+describe('RateRing and the clock', () => {
+  it('does not draw bins from far in the future, which would push every true bin out', () => {
+    const ring = new RateRing(['a']);
+    const now = Date.now();
+    ring.add(now + 3_600_000, 1_000, { a: [5] });
+    ring.add(now - 1_000, 1, { a: [1] });
+    expect(ring.newestMs()).toBe(Math.floor((now - 1_000) / 100) * 100);
+  });
+});

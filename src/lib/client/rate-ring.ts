@@ -6,6 +6,11 @@
 
 export const BUCKET_MS = 100;
 export const CAPACITY = 6000;
+/**
+ * Bins starting later than this past the browser's clock are not drawn (ms): one from a gateway
+ * whose clock is far ahead would make every true bin look older than the ring holds.
+ */
+const FUTURE_SLACK_MS = 60_000;
 
 export class RateRing {
   readonly bucketMs = BUCKET_MS;
@@ -37,8 +42,10 @@ export class RateRing {
     const cols = this.keys.map((k) => ch[k]);
     const n = cols.find((c) => c)?.length ?? 0;
     const w = this.bucketMs;
+    const horizon = Date.now() + FUTURE_SLACK_MS;
     for (let i = 0; i < n; i++) {
       const start = t0 + i * dt;
+      if (start > horizon) break;
       const end = start + dt;
       for (let idx = Math.floor(start / w); idx * w < end; idx++) {
         // Older than the ring holds: nothing to show it in.

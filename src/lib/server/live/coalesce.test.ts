@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import type { CountsMessage, LiveMessage } from '../../live-messages.ts';
-import { coalesceCounts, countsAfter } from './coalesce.ts';
+import { coalesceCounts, countsOutside } from './coalesce.ts';
 
 const counts = (gateway: string, t0: number, n: number): CountsMessage => ({
   type: 'counts',
@@ -28,12 +28,16 @@ describe('coalesceCounts', () => {
   });
 });
 
-describe('countsAfter', () => {
-  it('keeps, trims or drops a message by where its bins start', () => {
-    const m = { ...counts('g1', 100, 4), x: [1, 2, 3, 4], cc: [5, 6, 7, 8] };
-    expect(countsAfter(m, 100)).toBe(m);
-    expect(countsAfter(m, 140)).toBeNull();
-    // A cut inside a bin keeps that bin out: it started before `from`, so the replay had it.
-    expect(countsAfter(m, 115)).toEqual({ ...m, t0: 120, ch: { a: [102, 103] }, x: [3, 4], cc: [7, 8] });
+describe('countsOutside', () => {
+  it('keeps a message clear of the spans, drops one inside them, and cuts one across them', () => {
+    const m = { ...counts('g1', 100, 6), x: [1, 2, 3, 4, 5, 6], cc: [7, 8, 9, 10, 11, 12] };
+    expect(countsOutside(m, [])).toEqual([m]);
+    expect(countsOutside(m, [[0, 100], [160, 200]])[0]).toBe(m);
+    expect(countsOutside(m, [[50, 200]])).toEqual([]);
+    // Bins at 100…150 (10 ms each); 120 and 130 were taken: two runs are left.
+    expect(countsOutside(m, [[0, 50], [120, 140]])).toEqual([
+      { ...m, t0: 100, ch: { a: [100, 101] }, x: [1, 2], cc: [7, 8] },
+      { ...m, t0: 140, ch: { a: [104, 105] }, x: [5, 6], cc: [11, 12] },
+    ]);
   });
 });

@@ -60,19 +60,44 @@ export function coalesceCounts<T>(items: T[], msgOf: (item: T) => Message, combi
   return out;
 }
 
-/**
- * The part of a count message whose bins start at or after `from` (ms): the message itself when all
- * do, null when none do, else a copy holding the later bins only.
- */
-export function countsAfter(m: CountsMessage, from: number): CountsMessage | null {
-  if (m.t0 >= from) return m;
-  const n = binsOf(m);
-  const skip = Math.ceil((from - m.t0) / m.dt);
-  if (skip >= n) return null;
+/** Bins [a, b) of a count message, as a message of their own. */
+function binsBetween(m: CountsMessage, a: number, b: number): CountsMessage {
   const ch: Record<string, number[]> = {};
-  for (const [k, v] of Object.entries(m.ch)) ch[k] = v.slice(skip);
-  const out: CountsMessage = { ...m, t0: m.t0 + skip * m.dt, ch };
-  if (m.x) out.x = m.x.slice(skip);
-  if (m.cc) out.cc = m.cc.slice(skip);
+  for (const [k, v] of Object.entries(m.ch)) ch[k] = v.slice(a, b);
+  const out: CountsMessage = { ...m, t0: m.t0 + a * m.dt, ch };
+  if (m.x) out.x = m.x.slice(a, b);
+  if (m.cc) out.cc = m.cc.slice(a, b);
+  return out;
+}
+
+/**
+ * The parts of a count message whose bins start outside `taken` (sorted, non-overlapping [t0, t1)
+ * spans, ms): the message itself when none is taken, else one message per run of bins left.
+ */
+export function countsOutside(m: CountsMessage, taken: readonly (readonly [number, number])[]): CountsMessage[] {
+  const n = binsOf(m);
+  // First span that ends after the message starts (binary search: a replay can hold thousands).
+  let lo = 0;
+  let hi = taken.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if (taken[mid]![1] <= m.t0) lo = mid + 1;
+    else hi = mid;
+  }
+  const out: CountsMessage[] = [];
+  let k = lo;
+  let run = -1;
+  for (let j = 0; j < n; j++) {
+    const t = m.t0 + j * m.dt;
+    while (k < taken.length && taken[k]![1] <= t) k++;
+    const inside = k < taken.length && taken[k]![0] <= t;
+    if (!inside && run < 0) run = j;
+    if (inside && run >= 0) {
+      out.push(binsBetween(m, run, j));
+      run = -1;
+    }
+  }
+  if (run === 0) return [m];
+  if (run > 0) out.push(binsBetween(m, run, n));
   return out;
 }

@@ -19,7 +19,7 @@ import { originHost } from '../http/origin.ts';
 import type { Fanout } from '../ingest/fanout.ts';
 import { canReadBench } from './access.ts';
 import { binsOf, coalesceCounts } from './coalesce.ts';
-import { HIGH_WATER_BYTES, Outbox, type PreparedFrame, type Queued, type Sink } from './outbox.ts';
+import { HIGH_WATER_BYTES, MAX_QUEUED_BYTES, Outbox, type PreparedFrame, type Queued, type Sink } from './outbox.ts';
 import { countsPage, type ResumeCursor } from './resume.ts';
 import { traceStage } from './trace.ts';
 import { textFrames } from './ws-frame.ts';
@@ -36,6 +36,8 @@ const MAX_CLIENT_MESSAGE_BYTES = 4 * 1024;
 export const FRAME_MS = 10;
 /** Most batches one resume replays; past it the client gets `complete: false` and may go on from `until`. */
 export const RESUME_MAX_BATCHES = 20_000;
+/** Bytes of one replay page at most: half a client's queue bound, so a page never overflows it. */
+const RESUME_PAGE_BYTES = MAX_QUEUED_BYTES / 2;
 /** How often a replay looks whether its last page has left (ms). */
 const DRAIN_POLL_MS = 20;
 
@@ -193,7 +195,7 @@ export class LiveHub {
     // Live frames wait until the replay is through, then go out less what the replay carried, so
     // the client sees each batch once and in time order.
     client.outbox.hold();
-    const replayed = new Map<string, number>();
+    const replayed = new Map<string, [number, number][]>();
     try {
       while (client.nextResume !== null) {
         const since = client.nextResume;
@@ -202,34 +204,55 @@ export class LiveHub {
       }
     } finally {
       client.resuming = false;
+      // A queued second resume may have gone back before the first: spans in time order.
+      for (const spans of replayed.values()) spans.sort((a, b) => a[0] - b[0]);
       client.outbox.release(replayed);
     }
   }
 
   /**
-   * Replays the batches whose bins end after `since`, a page at a time, each page once the last
-   * has left (so a long gap never overflows the client's queue), then `resumed`. `replayed`
-   * collects, per gateway, the end of the last bin replayed.
+   * Replays the batches whose bins end after `since`, a page at a time (at most RESUME_PAGE
+   * batches and RESUME_PAGE_BYTES), each page once the last has left, so a long gap never
+   * overflows the client's queue; then `resumed`. `replayed` collects, per gateway, the [t0, t1)
+   * spans sent. Capped, `until` is where the next batch starts, so a resume from it misses nothing.
    */
-  private async replay(client: LiveClient, since: number, replayed: Map<string, number>): Promise<void> {
+  private async replay(client: LiveClient, since: number, replayed: Map<string, [number, number][]>): Promise<void> {
     let after: ResumeCursor | null = null;
     let batches = 0;
     let until = since;
+    let complete = true;
     try {
       for (;;) {
         const page = await countsPage(client.bench, since, after);
-        for (const m of page.messages) {
-          client.outbox.push(this.queued(m));
-          const end = m.t0 + binsOf(m) * m.dt;
-          replayed.set(m.gateway, Math.max(end, replayed.get(m.gateway) ?? -Infinity));
-          until = Math.max(until, end);
-        }
-        batches += page.messages.length;
+        let bytes = 0;
         after = page.next;
-        if (!after || batches >= RESUME_MAX_BATCHES) break;
+        for (const [i, m] of page.messages.entries()) {
+          const q = this.queued(m);
+          if (i > 0 && bytes + q.bytes > RESUME_PAGE_BYTES) {
+            const last = page.messages[i - 1]!;
+            after = { t0: last.t0, gateway: last.gateway };
+            break;
+          }
+          bytes += q.bytes;
+          client.outbox.push(q);
+          const end = m.t0 + binsOf(m) * m.dt;
+          const spans = replayed.get(m.gateway) ?? [];
+          const prev = spans.at(-1);
+          if (prev && prev[1] === m.t0) prev[1] = end;
+          else spans.push([m.t0, end]);
+          replayed.set(m.gateway, spans);
+          until = Math.max(until, end);
+          batches++;
+        }
+        if (!after) break;
+        if (batches >= RESUME_MAX_BATCHES) {
+          complete = false;
+          until = after.t0;
+          break;
+        }
         if (!(await this.drained(client))) return;
       }
-      client.outbox.push(this.queued({ type: 'resumed', bench: client.bench, since, until, batches, complete: after === null }));
+      client.outbox.push(this.queued({ type: 'resumed', bench: client.bench, since, until, batches, complete }));
     } catch (err) {
       console.warn('[live] resume failed:', err instanceof Error ? err.message : err);
       client.outbox.push(this.queued({ type: 'error', error: 'resume failed; try again' }));

@@ -6,7 +6,7 @@
 // oldest count messages are dropped and the client is told with a `dropped` message, so a stalled
 // browser cannot grow the server's memory.
 import type { CountsMessage, FeatureMessage, LiveMessage } from '../../live-messages.ts';
-import { binsOf, coalesceCounts, countsAfter } from './coalesce.ts';
+import { binsOf, coalesceCounts, countsOutside } from './coalesce.ts';
 
 export interface Sink {
   readonly bufferedAmount: number;
@@ -86,11 +86,12 @@ export class Outbox {
   }
 
   /**
-   * Sends the held frames after the replay, less what the replay already carried: `replayedUntil`
-   * is, per gateway, the end of the last bin replayed. Stored batches of a gateway never overlap,
-   * so a held count message is either past that end, before it (dropped), or straddles it (trimmed).
+   * Sends the held frames after the replay, less what the replay already carried: `replayed` holds,
+   * per gateway, the sorted [t0, t1) spans of the batches it sent. A held message loses the bins
+   * inside them (it may be several batches merged) and keeps the rest, even bins older than the
+   * replay's last one (a batch committed behind the replay's cursor).
    */
-  release(replayedUntil: ReadonlyMap<string, number>): void {
+  release(replayed: ReadonlyMap<string, readonly (readonly [number, number])[]>): void {
     const held = this.held ?? [];
     this.held = null;
     this.heldBytes = 0;
@@ -101,9 +102,9 @@ export class Outbox {
         continue;
       }
       const m = q.msg as CountsMessage;
-      const after = countsAfter(m, replayedUntil.get(m.gateway) ?? -Infinity);
-      if (after === m) rest.push(q);
-      else if (after) rest.push({ msg: after, data: null, bytes: Math.round((q.bytes * binsOf(after)) / binsOf(m)) });
+      const parts = countsOutside(m, replayed.get(m.gateway) ?? []);
+      if (parts[0] === m) rest.push(q);
+      else for (const part of parts) rest.push({ msg: part, data: null, bytes: Math.round((q.bytes * binsOf(part)) / binsOf(m)) });
     }
     if (rest.length && this.enqueue(rest) && !this.retry) this.flush();
   }
