@@ -73,11 +73,11 @@ export function formatClock(ms: number): string {
   return new Date(ms).toLocaleTimeString(undefined, { hour: '2-digit', minute: '2-digit', second: '2-digit', hour12: false });
 }
 
-/** Local date and time, e.g. "2026-05-01 14:03". */
-export function formatDateTime(ms: number): string {
+/** Local date and time, e.g. "2026-05-01 14:03" (with seconds: "2026-05-01 14:03:27"). */
+export function formatDateTime(ms: number, withSeconds = false): string {
   const d = new Date(ms);
   const p = (n: number) => String(n).padStart(2, '0');
-  return `${d.getFullYear()}-${p(d.getMonth() + 1)}-${p(d.getDate())} ${p(d.getHours())}:${p(d.getMinutes())}`;
+  return `${d.getFullYear()}-${p(d.getMonth() + 1)}-${p(d.getDate())} ${p(d.getHours())}:${p(d.getMinutes())}${withSeconds ? `:${p(d.getSeconds())}` : ''}`;
 }
 
 /**
