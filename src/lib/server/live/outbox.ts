@@ -1,10 +1,11 @@
 // One client's outgoing queue. The hub hands it each frame's messages, already serialised and
 // framed once for all clients; a fast client with nothing waiting gets the prepared bytes in ONE
 // socket write, since on loopback the write call, not the bytes, is the cost (~12 µs each, half
-// the server's CPU with 200 browsers before). A slow client (its socket buffer filling) waits, and what piles up meanwhile is
-// coalesced (contiguous count messages of a gateway merge into one) and bounded: past the bound the
-// oldest count messages are dropped and the client is told with a `dropped` message, so a stalled
-// browser cannot grow the server's memory.
+// the server's CPU with 200 browsers before). A slow client (its socket buffer filling) waits, and
+// what piles up meanwhile is coalesced (contiguous count messages of a gateway merge into one) and
+// bounded: past the bound the oldest count messages are dropped and the client is told with a
+// `dropped` message, so a stalled browser cannot grow the server's memory. While a resume replays,
+// live frames are held (bounded the same way) and sent after it, less what it carried.
 import type { CountsMessage, FeatureMessage, LiveMessage } from '../../live-messages.ts';
 import { binsOf, coalesceCounts, countsOutside } from './coalesce.ts';
 
