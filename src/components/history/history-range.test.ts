@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { bucketRates, pickStep, wholeBuckets } from './history-range.ts';
 
+// Rate = counts in a bucket / the bucket's time, over whole buckets only (common practice for binned counting).
 describe('history buckets', () => {
   it('widens a range to whole buckets of the step', () => {
     expect(wholeBuckets(61_500, 179_000, 60_000)).toEqual({ from: 60_000, to: 180_000 });
