@@ -51,7 +51,7 @@ export interface DroppedMessage {
   to: number;
 }
 
-/** Ends the replay that answers a `resume`; `complete: false` means the replay hit its cap. */
+/** Ends the replay that answers a `resume`; `complete: false`: it began later than asked (it reaches back 24 h at most). */
 export interface ResumedMessage {
   type: 'resumed';
   bench: string;

@@ -348,7 +348,7 @@ describe('status, commands and resume', () => {
       await client.query('begin');
       // Small tables would be scanned anyway; with scans priced out, the plan shows whether t0 is an index bound.
       await client.query('set local enable_seqscan = off');
-      const { rows } = await client.query<{ 'QUERY PLAN': string }>(`explain ${NEXT_PAGE_SQL}`, [gw.benchId, BASE, gw.gatewayId, 200, 'imp-']);
+      const { rows } = await client.query<{ 'QUERY PLAN': string }>(`explain ${NEXT_PAGE_SQL}`, [gw.benchId, BASE, gw.gatewayId, 200, 'imp-', BASE]);
       const plan = rows.map((r) => r['QUERY PLAN']).join('\n');
       expect(plan).toMatch(/Index Cond: \(\(gateway_id = g\.id\) AND \(t0 >= CASE/);
       await client.query('rollback');

@@ -108,9 +108,7 @@ class LiveSocket {
       if (this.replayKnown && end <= (this.replayKnown.get(c.gateway) ?? -Infinity)) return;
       this.lastEnd.set(c.gateway, Math.max(end, this.lastEnd.get(c.gateway) ?? 0));
     } else if (m.type === 'resumed') {
-      const r = m as Extract<LiveMessage, { type: 'resumed' }>;
       this.replayKnown = null;
-      if (!r.complete) this.resume(r.until, false);
     } else if (m.type === 'dropped') {
       this.resume(Math.max((m as Extract<LiveMessage, { type: 'dropped' }>).from, Date.now() - RESUME_WINDOW_MS), false);
     }

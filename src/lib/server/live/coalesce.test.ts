@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import type { CountsMessage, LiveMessage } from '../../live-messages.ts';
-import { coalesceCounts, countsOutside } from './coalesce.ts';
+import { coalesceCounts, countsOutside, joinSpans } from './coalesce.ts';
 
 const counts = (gateway: string, t0: number, n: number): CountsMessage => ({
   type: 'counts',
@@ -39,5 +39,14 @@ describe('countsOutside', () => {
       { ...m, t0: 100, ch: { a: [100, 101] }, x: [1, 2], cc: [7, 8] },
       { ...m, t0: 140, ch: { a: [104, 105] }, x: [5, 6], cc: [11, 12] },
     ]);
+  });
+});
+
+describe('joinSpans', () => {
+  it('sorts spans and joins the ones that overlap or touch', () => {
+    expect(joinSpans([[1000, 5000], [500, 6000], [6000, 7000], [8000, 9000]])).toEqual([[500, 7000], [8000, 9000]]);
+    // Joined, a bin inside the wider span counts as sent (apart, the search stepped past it).
+    const m = counts('g1', 5500, 1);
+    expect(countsOutside(m, joinSpans([[500, 6000], [1000, 5000]]))).toEqual([]);
   });
 });

@@ -18,7 +18,7 @@ import type { SessionUser } from '../auth/lucia.ts';
 import { originHost } from '../http/origin.ts';
 import type { Fanout } from '../ingest/fanout.ts';
 import { canReadBench } from './access.ts';
-import { binsOf, coalesceCounts } from './coalesce.ts';
+import { binsOf, coalesceCounts, joinSpans } from './coalesce.ts';
 import { HIGH_WATER_BYTES, MAX_QUEUED_BYTES, Outbox, type PreparedFrame, type Queued, type Sink } from './outbox.ts';
 import { countsPage, type ResumeCursor } from './resume.ts';
 import { traceStage } from './trace.ts';
@@ -34,8 +34,12 @@ const MAX_CLIENT_MESSAGE_BYTES = 4 * 1024;
  * the 20 ms budget over the broker and caps socket writes at 100 a second per client.
  */
 export const FRAME_MS = 10;
-/** Most batches one resume replays; past it the client gets `complete: false` and may go on from `until`. */
-export const RESUME_MAX_BATCHES = 20_000;
+/**
+ * How far back a resume reaches (ms). Pages are paced by the client's socket, so the bound is on
+ * the database work a client can ask for; an older `since` starts here and the answer says
+ * `complete: false` (the history view reads further back).
+ */
+export const RESUME_MAX_AGE_MS = 24 * 3_600_000;
 /** Bytes of one replay page at most: half a client's queue bound, so a page never overflows it. */
 const RESUME_PAGE_BYTES = MAX_QUEUED_BYTES / 2;
 /** How often a replay looks whether its last page has left (ms). */
@@ -204,23 +208,24 @@ export class LiveHub {
       }
     } finally {
       client.resuming = false;
-      // A queued second resume may have gone back before the first: spans in time order.
-      for (const spans of replayed.values()) spans.sort((a, b) => a[0] - b[0]);
+      // A queued second resume may have gone back before the first: spans in time order, and
+      // overlapping ones joined (countsOutside wants them apart).
+      for (const [gw, spans] of replayed) replayed.set(gw, joinSpans(spans));
       client.outbox.release(replayed);
     }
   }
 
   /**
-   * Replays the batches whose bins end after `since`, a page at a time (at most RESUME_PAGE
-   * batches and RESUME_PAGE_BYTES), each page once the last has left, so a long gap never
-   * overflows the client's queue; then `resumed`. `replayed` collects, per gateway, the [t0, t1)
-   * spans sent. Capped, `until` is where the next batch starts, so a resume from it misses nothing.
+   * Replays the batches whose bins end after `since` (at most RESUME_MAX_AGE_MS back), a page at a
+   * time (at most RESUME_PAGE batches and RESUME_PAGE_BYTES), each page once the last has left, so
+   * a long gap never overflows the client's queue; then `resumed`. `replayed` collects, per
+   * gateway, the [t0, t1) spans sent.
    */
-  private async replay(client: LiveClient, since: number, replayed: Map<string, [number, number][]>): Promise<void> {
+  private async replay(client: LiveClient, asked: number, replayed: Map<string, [number, number][]>): Promise<void> {
+    const since = Math.max(asked, Date.now() - RESUME_MAX_AGE_MS);
     let after: ResumeCursor | null = null;
     let batches = 0;
     let until = since;
-    let complete = true;
     try {
       for (;;) {
         const page = await countsPage(client.bench, since, after);
@@ -245,14 +250,10 @@ export class LiveHub {
           batches++;
         }
         if (!after) break;
-        if (batches >= RESUME_MAX_BATCHES) {
-          complete = false;
-          until = after.t0;
-          break;
-        }
         if (!(await this.drained(client))) return;
       }
-      client.outbox.push(this.queued({ type: 'resumed', bench: client.bench, since, until, batches, complete }));
+      const complete = since === asked;
+      client.outbox.push(this.queued({ type: 'resumed', bench: client.bench, since: asked, until, batches, complete }));
     } catch (err) {
       console.warn('[live] resume failed:', err instanceof Error ? err.message : err);
       client.outbox.push(this.queued({ type: 'error', error: 'resume failed; try again' }));

@@ -16,12 +16,16 @@ export interface ResumeCursor {
   gateway: string;
 }
 
-/** A page after the cursor ($2 t0, $3 gateway) of bench $1, $4 rows, pseudo-gateway prefix $5. */
+/**
+ * A page after the cursor ($2 t0, $3 gateway) of bench $1: $4 rows, pseudo-gateway prefix $5,
+ * bins ending after $6 (the first page's batches straddling `since` sort before the others' older
+ * ones, so a page cut among them must not bring those back).
+ */
 export const NEXT_PAGE_SQL = `select c.gateway_id, c.t0, c.dt, c.n, c.keys, c.counts, c.x, c.cc
            from gateways g
            cross join lateral (
              select * from count_batches c
-              where c.gateway_id = g.id and c.t0 >= case when g.id > $3 then $2::int8 else $2::int8 + 1 end
+              where c.gateway_id = g.id and c.t0 >= case when g.id > $3 then $2::int8 else $2::int8 + 1 end and c.t1 > $6
               order by c.t0 limit $4
            ) c
           where g.bench_id = $1 and not starts_with(g.id, $5)
@@ -49,7 +53,7 @@ export async function countsPage(
   const { rows } = after
     ? await pool.query<Row>(
         NEXT_PAGE_SQL,
-        [benchId, after.t0, after.gateway, limit, IMPORT_GATEWAY_PREFIX],
+        [benchId, after.t0, after.gateway, limit, IMPORT_GATEWAY_PREFIX, since],
       )
     : await pool.query<Row>(
         `select c.gateway_id, c.t0, c.dt, c.n, c.keys, c.counts, c.x, c.cc
