@@ -1,5 +1,6 @@
 // Upload of a counts CSV recorded offline: preview first (nothing stored), then import into a new run.
 import { useState } from 'react';
+import { formatDateTime } from '../lib/client/format.ts';
 import { MAX_IMPORT_BYTES, type ImportPreview as Preview, type ImportResult as Imported } from '../lib/import-shapes.ts';
 
 
@@ -10,7 +11,8 @@ async function post<T>(url: string, file: File): Promise<T> {
   return body as T;
 }
 
-const iso = (ms: number | null) => (ms === null ? '—' : new Date(ms).toISOString().replace('T', ' ').slice(0, 23) + ' UTC');
+/** A bin time of the file in the reader's local time, as every other time in the app. */
+const when = (ms: number | null) => (ms === null ? '—' : formatDateTime(ms, true));
 
 export default function ImportUpload({ benchId }: { benchId: string }) {
   const [file, setFile] = useState<File | null>(null);
@@ -100,7 +102,7 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
       {preview && preview.issues.length === 0 && (
         <section aria-label="Preview" className="rounded-md border border-line p-3">
           <p className="text-sm">
-            <span className="figure">{preview.rows.toLocaleString('en')}</span> bins of <span className="figure">{preview.dtMs} ms</span>, {iso(preview.fromMs)} to {iso(preview.toMs)};
+            <span className="figure">{preview.rows.toLocaleString('en')}</span> bins of <span className="figure">{preview.dtMs} ms</span>, {when(preview.fromMs)} to {when(preview.toMs)};
             channels {preview.channels.map((c) => c.key).join(', ')}
             {preview.hasX ? ', scan x' : ''}
             {preview.hasCc ? ', coincidences' : ''}.
@@ -143,7 +145,7 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
 
       {done && (
         <p role="status" className="rounded-md border border-good px-3 py-2 text-sm text-good">
-          Imported <span className="figure">{done.bins.toLocaleString('en')}</span> bins into run {done.runId} ({iso(done.fromMs)} to {iso(done.toMs)}).
+          Imported <span className="figure">{done.bins.toLocaleString('en')}</span> bins into run {done.runId} ({when(done.fromMs)} to {when(done.toMs)}).
         </p>
       )}
     </div>
