@@ -77,7 +77,7 @@ export function SweepControl({ bench, lastSweep, onSweepStarted }: Props) {
           <label><span className="label">To (V)</span><input className="field figure" type="number" step="any" min={range.min} max={range.max} required value={to} onChange={(e) => setTo(e.target.value)} /></label>
           <label><span className="label">Step (V)</span><input className="field figure" type="number" step="any" min="0" max={d.maxStep} required value={step} onChange={(e) => setStep(e.target.value)} /></label>
           <label><span className="label">Dwell (ms)</span><input className="field figure" type="number" step="1" min={d.minDwellMs} max="60000" required value={dwell} onChange={(e) => setDwell(e.target.value)} /></label>
-          <label><span className="label">Passes</span><input className="field figure" type="number" step="1" min="1" max="10000" required value={passes} onChange={(e) => setPasses(e.target.value)} /></label>
+          <label title="One pass runs the drive from one end to the other; passes alternate in direction, and each is fitted on its own"><span className="label">Passes</span><input className="field figure" type="number" step="1" min="1" max="10000" required value={passes} onChange={(e) => setPasses(e.target.value)} /></label>
         </div>
         <div className="rounded-md border border-warn/60 bg-sunken p-3 text-xs leading-relaxed" role="note" aria-label="Laser safety">
           <p className="font-semibold text-warn">Before you scan</p>
