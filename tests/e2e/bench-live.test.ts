@@ -63,12 +63,12 @@ describe('bench live view', () => {
     const page = operator.page;
     await page.goto(`${app.url}/benches/${BENCH}`);
     await waitForLiveRate(page, 'rate-a');
-    // Four passes over four fringes (a fringe every ≈ 10 V): 400 steps of 10 ms, ≈ 16 s.
+    // Four sweeps, each up and down over four fringes (a fringe every ≈ 10 V): 8 × 400 steps of 10 ms, ≈ 32 s.
     await page.getByLabel('From (V)', { exact: true }).fill('5');
     await page.getByLabel('To (V)', { exact: true }).fill('45');
     await page.getByLabel('Step (V)', { exact: true }).fill('0.1');
     await page.getByLabel('Dwell (ms)', { exact: true }).fill('10');
-    await page.getByLabel('Passes', { exact: true }).fill('4');
+    await page.getByLabel('Sweeps', { exact: true }).fill('4');
     expect(await page.getByRole('note', { name: 'Laser safety' }).textContent()).toContain('safety officer');
     await page.getByRole('button', { name: 'Start sweep' }).click();
     await expect.poll(() => page.getByTestId('drive-message').textContent()).toContain('sent');

@@ -1,4 +1,4 @@
-// Drive control for operators: a sweep (from/to/step/dwell/passes), hold at a point, hold at
+// Drive control for operators: a sweep (from/to/step/dwell/sweeps), hold at a point, hold at
 // mid-fringe from the latest fit, stop. The admin's drive limits are shown here and enforced by the
 // server; the laser safety caution sits where the scan is started.
 import { useState, type FormEvent } from 'react';
@@ -34,7 +34,7 @@ export function SweepControl({ bench, lastSweep, onSweepStarted }: Props) {
   const [to, setTo] = useState(String(range.min + (range.max - range.min) / 2));
   const [step, setStep] = useState(String(Math.min(d.maxStep, 0.05)));
   const [dwell, setDwell] = useState(String(Math.max(d.minDwellMs, 20)));
-  const [passes, setPasses] = useState('4');
+  const [sweeps, setSweeps] = useState('4');
   const [holdX, setHoldX] = useState(String((range.min + range.max) / 2));
   const [busy, setBusy] = useState(false);
   const [message, setMessage] = useState<{ ok: boolean; text: string } | null>(null);
@@ -55,12 +55,13 @@ export function SweepControl({ bench, lastSweep, onSweepStarted }: Props) {
 
   const startSweep = (e: FormEvent) => {
     e.preventDefault();
-    void send({ op: 'sweep', from: Number(from), to: Number(to), step: Number(step), dwell: Number(dwell), sweeps: Number(passes) }, 'Sweep');
+    void send({ op: 'sweep', from: Number(from), to: Number(to), step: Number(step), dwell: Number(dwell), sweeps: Number(sweeps) }, 'Sweep');
   };
 
   const fit = lastSweep ? sweepFit(lastSweep) : null;
   const mid = fit ? midFringeX(fit, Math.min(Number(from), Number(to)), Math.max(Number(from), Number(to)), (Number(from) + Number(to)) / 2) : null;
-  const estSeconds = (Math.abs(Number(to) - Number(from)) / Math.max(Number(step), 1e-9)) * Number(dwell) * Number(passes) / 1000;
+  // Each sweep goes there and back: twice the steps between From and To.
+  const estSeconds = (2 * Math.abs(Number(to) - Number(from)) / Math.max(Number(step), 1e-9)) * Number(dwell) * Number(sweeps) / 1000;
 
   return (
     <section className="card" aria-labelledby="drive-h">
@@ -77,7 +78,7 @@ export function SweepControl({ bench, lastSweep, onSweepStarted }: Props) {
           <label><span className="label">To (V)</span><input className="field figure" type="number" step="any" min={range.min} max={range.max} required value={to} onChange={(e) => setTo(e.target.value)} /></label>
           <label><span className="label">Step (V)</span><input className="field figure" type="number" step="any" min="0" max={d.maxStep} required value={step} onChange={(e) => setStep(e.target.value)} /></label>
           <label><span className="label">Dwell (ms)</span><input className="field figure" type="number" step="1" min={d.minDwellMs} max="60000" required value={dwell} onChange={(e) => setDwell(e.target.value)} /></label>
-          <label title="One pass runs the drive from one end to the other; passes alternate in direction, and each is fitted on its own"><span className="label">Passes</span><input className="field figure" type="number" step="1" min="1" max="10000" required value={passes} onChange={(e) => setPasses(e.target.value)} /></label>
+          <label title="One sweep runs the drive from From to To and back (the contract's up-and-down pass); each direction is fitted on its own"><span className="label">Sweeps</span><input className="field figure" type="number" step="1" min="1" max="10000" required value={sweeps} onChange={(e) => setSweeps(e.target.value)} /></label>
         </div>
         <div className="rounded-md border border-warn/60 bg-sunken p-3 text-xs leading-relaxed" role="note" aria-label="Laser safety">
           <p className="font-semibold text-warn">Before you scan</p>
