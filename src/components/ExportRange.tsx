@@ -22,7 +22,7 @@ export default function ExportRange({ exportUrl }: { exportUrl: string }) {
 
   return (
     <form onSubmit={download} noValidate>
-      <div className="grid items-end gap-3 sm:grid-cols-[1fr_1fr_auto_auto]">
+      <div className="grid items-end gap-3 sm:grid-cols-2 xl:grid-cols-[1fr_1fr_auto_auto]">
         <div>
           <label className="label" htmlFor="exp-from">From (your local time)</label>
           <input className="field figure" id="exp-from" value={from} placeholder="YYYY-MM-DD HH:MM" spellCheck={false} aria-invalid={!!error && parseLocalInput(from) === null} onChange={(e) => setFrom(e.target.value)} />

@@ -43,7 +43,7 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
   return (
     <div className="flex flex-col gap-4">
       <form
-        className="grid items-end gap-3 sm:grid-cols-[2fr_2fr_auto]"
+        className="grid items-end gap-3 sm:grid-cols-2 xl:grid-cols-[2fr_2fr_auto]"
         onSubmit={(e) => {
           e.preventDefault();
           if (!file) return;
