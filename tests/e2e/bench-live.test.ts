@@ -5,7 +5,6 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { readFile } from 'node:fs/promises';
 import type { Page } from 'playwright-core';
-import { formatDateTime } from '../../src/lib/client/format.ts';
 import type { RunningApp } from '../../src/server/app.ts';
 import { findDemoBench } from '../../simulators/demo-benches.ts';
 import { launchBrowser, screenshotBothThemes, signIn, type Browser } from '../helpers/browser.ts';
@@ -24,7 +23,8 @@ let observer: Browser;
 
 beforeAll(async () => {
   app = await startWebApp({ simulate: true });
-  operator = await launchBrowser({ width: 1440, height: 1000 });
+  // A zone other than the machine's (UTC here), so times shown in local time are seen to be.
+  operator = await launchBrowser({ width: 1440, height: 1000, timezoneId: 'America/Chicago' });
   // The observer follows on a tablet at the bench.
   observer = await launchBrowser({ width: 1024, height: 768 });
   await signIn(operator.page, app.url, 'operator@lab.example', 'demo-operator-pass');
@@ -132,6 +132,12 @@ describe('bench live view', () => {
       const res = await page.goto(app.url + path);
       expect(res?.status(), path).toBe(200);
       if (name === 'history') await expectHistoryCharts(page);
+      if (name === 'run-report') {
+        // The server writes UTC; the reader sees local time (America/Chicago is UTC−6 in winter, and the run is in December).
+        const t = page.locator('time[data-local]').first();
+        const iso = (await t.getAttribute('datetime'))!;
+        await expect.poll(() => t.textContent()).toBe(new Date(Date.parse(iso) - 6 * 3_600_000).toISOString().slice(0, 19).replace('T', ' '));
+      }
       await page.waitForTimeout(2000);
       await screenshotBothThemes(page, name);
       if (name === 'history') {
@@ -160,9 +166,16 @@ describe('bench live view', () => {
     await from.fill('yesterday');
     await page.getByRole('button', { name: 'Download' }).click();
     await expect.poll(() => page.getByRole('alert').textContent()).toContain('YYYY-MM-DD HH:MM');
-    // The last ten minutes, where the first test's sweeps are.
-    await from.fill(formatDateTime(Date.now() - 600_000));
-    await page.getByLabel('To', { exact: true }).fill(formatDateTime(Date.now() + 60_000));
+    // The last ten minutes, where the first test's sweeps are, as the browser's clock on the wall
+    // shows them (its zone is not this process's).
+    const wall = (ms: number) =>
+      page.evaluate((t) => {
+        const d = new Date(t);
+        const p = (n: number) => String(n).padStart(2, '0');
+        return `${d.getFullYear()}-${p(d.getMonth() + 1)}-${p(d.getDate())} ${p(d.getHours())}:${p(d.getMinutes())}`;
+      }, ms);
+    await from.fill(await wall(Date.now() - 600_000));
+    await page.getByLabel('To', { exact: true }).fill(await wall(Date.now() + 60_000));
     const [download] = await Promise.all([page.waitForEvent('download'), page.getByRole('button', { name: 'Download' }).click()]);
     const csv = await readFile((await download.path())!, 'utf8');
     expect(csv.split('\n').find((l) => !l.startsWith('#'))).toMatch(/^t_ms,/);

@@ -14,6 +14,8 @@ export interface BrowserOptions {
   height?: number;
   /** Script run in every page before its own (e.g. setting localStorage flags). */
   init?: string;
+  /** IANA time zone the pages see (the machine's when unset). */
+  timezoneId?: string;
 }
 
 export interface Browser {
@@ -28,6 +30,7 @@ export async function launchBrowser(opts: BrowserOptions = {}): Promise<Browser>
   const context = await chromium.launchPersistentContext(profile, {
     executablePath: CHROMIUM,
     viewport: { width: opts.width ?? 1280, height: opts.height ?? 820 },
+    ...(opts.timezoneId && { timezoneId: opts.timezoneId }),
     args: [
       '--headless',
       '--no-sandbox',
