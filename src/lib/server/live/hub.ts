@@ -39,7 +39,7 @@ export const FRAME_MS = 10;
  * the database work a client can ask for; an older `since` starts here and the answer says
  * `complete: false` (the history view reads further back).
  */
-export const RESUME_MAX_AGE_MS = 24 * 3_600_000;
+const RESUME_MAX_AGE_MS = 24 * 3_600_000;
 /** Bytes of one replay page at most: half a client's queue bound, so a page never overflows it. */
 const RESUME_PAGE_BYTES = MAX_QUEUED_BYTES / 2;
 /** How often a replay looks whether its last page has left (ms). */
@@ -241,6 +241,7 @@ export class LiveHub {
           bytes += q.bytes;
           client.outbox.push(q);
           const end = m.t0 + binsOf(m) * m.dt;
+          // Contiguous batches extend one span, so a long replay keeps a few spans per gateway, not one per batch.
           const spans = replayed.get(m.gateway) ?? [];
           const prev = spans.at(-1);
           if (prev && prev[1] === m.t0) prev[1] = end;

@@ -9,7 +9,7 @@ import { unpackRow } from '../db/packed-counts.ts';
 import { countsMessage } from '../ingest/pipeline.ts';
 
 /** Batches per page at most; the hub also cuts a page by bytes (hub.ts). */
-export const RESUME_PAGE = 200;
+const RESUME_PAGE = 200;
 
 export interface ResumeCursor {
   t0: number;
