@@ -22,16 +22,17 @@ export function channelColour(p: ChartPalette, role: ViewChannel['role'], i: num
   return [p.accent, p.muted][i % 2]!;
 }
 
+const hasHerald = (channels: Pick<ViewChannel, 'role'>[]) => channels.some((c) => c.role === 'herald');
+
 /**
  * The y axes of a rates chart. A herald runs 5–10× above the gated outputs: on the outputs' axis it
  * would flatten them, so it gets its own axis on the right (its series use `heraldScale`).
  */
 export function rateAxes(p: ChartPalette, channels: Pick<ViewChannel, 'role'>[]): uPlot.Axis[] {
   const ticks = (_u: uPlot, t: number[]) => t.map(formatRateTick);
-  const herald = channels.some((c) => c.role === 'herald');
   return [
     axis(p, { size: 64, label: 'counts/s', values: ticks }),
-    ...(herald ? [axis(p, { scale: 'herald', side: 1, size: 64, label: 'herald counts/s', grid: { show: false }, values: ticks })] : []),
+    ...(hasHerald(channels) ? [axis(p, { scale: 'herald', side: 1, size: 64, label: 'herald counts/s', grid: { show: false }, values: ticks })] : []),
   ];
 }
 
@@ -56,7 +57,6 @@ export function RatesChart(props: { ring: RateRing; channels: ViewChannel[]; onR
     return [v.x, ...v.y];
   };
 
-  const hasHerald = channels.some((c) => c.role === 'herald');
   const yScale = (): uPlot.Scale => (log ? { distr: 3, log: 10 } : { range: (_u, _min, max) => [0, max > 0 ? max * 1.08 : 1] });
 
   const plot = useUPlot(
@@ -67,7 +67,7 @@ export function RatesChart(props: { ring: RateRing; channels: ViewChannel[]; onR
       scales: {
         x: { time: true, range: () => { const now = Date.now() / 1000; return [now - settings.current.windowS, now]; } },
         y: yScale(),
-        ...(hasHerald ? { herald: yScale() } : {}),
+        ...(hasHerald(channels) ? { herald: yScale() } : {}),
       },
       axes: [
         timeAxis(p),
