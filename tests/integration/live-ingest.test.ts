@@ -111,6 +111,8 @@ describe('exactly once', () => {
     await publishBatch(client, gw.gatewayId, chunk(0, 100, 4)); // late: ten seconds earlier
     const raw = await rawSum(gw.gatewayId);
     expect(raw.bins).toBe(400);
+    // The first two continue each other and share a row; the late-filled gap stays its own row.
+    expect(raw.rows).toBe(3);
     let expected = 0;
     for (const from of [0, 1000]) for (let i = from; i < from + (from ? 300 : 100); i++) expected += value('a', i) + value('b', i);
     expect(raw.sum).toBe(expected);
@@ -322,10 +324,10 @@ describe('status, commands and resume', () => {
     const gw = await freshGateway();
     const base = BASE - 7_200_000;
     // 300 batches of 1,000 bins × 4 channels (~24 kB each as JSON): 200 of them would overflow a
-    // client's 2 MiB queue, so pages are cut by bytes too.
+    // client's 2 MiB queue, so pages are cut by bytes too. A bin apart, so each stays its own row.
     const writer = new BatchWriter(() => undefined);
     const keys = ['a', 'b', 'c', 'd'];
-    await Promise.all(Array.from({ length: 300 }, (_, i) => writer.submit(gw.gatewayId, makeBatch(base + i * 10_000, 1000, i, { keys, value: (_k, j) => 1000 + j }))));
+    await Promise.all(Array.from({ length: 300 }, (_, i) => writer.submit(gw.gatewayId, makeBatch(base + i * 10_010, 1000, i, { keys, value: (_k, j) => 1000 + j }))));
     // An imported run's pseudo-gateway on the same bench: history, not part of a live replay.
     const imported = `imp-${gw.gatewayId.slice(-30)}`;
     await getDb().insert(gateways).values({ id: imported, benchId: gw.benchId });

@@ -6,11 +6,14 @@
 // of publish → browser latency. Every column travels as one array parameter through unnest, except
 // the count arrays: those of every row travel packed in ONE binary bytea parameter that PostgreSQL
 // only slices (no per-element parsing, which at saturation was most of what the server and the
-// database spent per bin). A fixed 33 parameters however many rows. Pure.
+// database spent per bin). A gateway's contiguous slices of one write go as one row (row-merge.ts).
+// The per-row and per-block columns travel as array literals built here (pg-arrays.ts). A fixed
+// 33 parameters however many rows. Pure.
 import type { Slice } from './coverage.ts';
 import type { HealthDelta } from './health-delta.ts';
 import { countWidth, packedLength, writePacked } from '../db/packed-counts.ts';
-import { keyArrayLiteral, numericArrayLiteral } from './pg-arrays.ts';
+import { keyArrayLiteral, numericArrayLiteral, textArrayLiteral } from './pg-arrays.ts';
+import { mergeContiguous } from './row-merge.ts';
 import type { RollupDelta } from './rollup-math.ts';
 
 export interface StoredSlice {
@@ -99,30 +102,32 @@ function packRows(stored: StoredSlice[]) {
 /** The statement and its 33 parameters. Rollup deltas must be unique per key (one row may change once per statement). */
 export function writeStatement(stored: StoredSlice[], deltas: RollupDelta[], newChannels: [string, string][], health: Map<string, HealthDelta>): { text: string; values: unknown[] } {
   const hs = [...health];
-  const { blob, at } = packRows(stored);
+  const rows = mergeContiguous(stored);
+  const { blob, at } = packRows(rows);
+  const numbers = (pick: (r: StoredSlice) => number) => numericArrayLiteral(rows.map(pick));
   return {
     text: SQL,
     values: [
-      stored.map((r) => r.gatewayId),
-      stored.map((r) => r.slice.t0),
-      stored.map((r) => r.slice.t0 + r.slice.n * r.slice.dt),
-      stored.map((r) => r.slice.dt),
-      stored.map((r) => r.slice.n),
-      stored.map((r) => keyArrayLiteral(r.slice.keys)),
+      textArrayLiteral(rows.map((r) => r.gatewayId)),
+      numbers((r) => r.slice.t0),
+      numbers((r) => r.slice.t0 + r.slice.n * r.slice.dt),
+      numbers((r) => r.slice.dt),
+      numbers((r) => r.slice.n),
+      textArrayLiteral(rows.map((r) => keyArrayLiteral(r.slice.keys))),
       blob,
-      at.counts,
-      at.countsLen,
-      stored.map((r) => numericArrayLiteral(r.slice.x)),
-      at.cc,
-      at.ccLen,
-      stored.map((r) => r.boot),
-      stored.map((r) => r.seq),
-      deltas.map((d) => d.gatewayId),
-      deltas.map((d) => d.key),
-      deltas.map((d) => d.stepMs),
-      deltas.map((d) => d.blockT0),
-      deltas.map((d) => numericArrayLiteral(d.sums)),
-      deltas.map((d) => numericArrayLiteral(d.bins)),
+      numericArrayLiteral(at.counts),
+      numericArrayLiteral(at.countsLen),
+      textArrayLiteral(rows.map((r) => numericArrayLiteral(r.slice.x))),
+      numericArrayLiteral(at.cc),
+      numericArrayLiteral(at.ccLen),
+      textArrayLiteral(rows.map((r) => r.boot)),
+      numbers((r) => r.seq),
+      textArrayLiteral(deltas.map((d) => d.gatewayId)),
+      textArrayLiteral(deltas.map((d) => d.key)),
+      numericArrayLiteral(deltas.map((d) => d.stepMs)),
+      numericArrayLiteral(deltas.map((d) => d.blockT0)),
+      textArrayLiteral(deltas.map((d) => numericArrayLiteral(d.sums))),
+      textArrayLiteral(deltas.map((d) => numericArrayLiteral(d.bins))),
       newChannels.map((c) => c[0]),
       newChannels.map((c) => c[1]),
       hs.map(([g]) => g),

@@ -1,0 +1,66 @@
+// Joining a write's contiguous slices into rows, against the definition: every bin of every channel
+// keeps its time and count (our own bookkeeping, common practice: a merge must be lossless), and
+// slices that do not line up stay apart.
+import { describe, expect, it } from 'vitest';
+import type { Slice } from './coverage.ts';
+import { mergeContiguous } from './row-merge.ts';
+import type { StoredSlice } from './write-statement.ts';
+
+function slice(gatewayId: string, t0: number, n: number, opts: { dt?: number; keys?: string[]; x?: boolean; cc?: boolean; seq?: number } = {}): StoredSlice {
+  const dt = opts.dt ?? 1;
+  const keys = opts.keys ?? ['a', 'b'];
+  const counts = keys.flatMap((_, k) => Array.from({ length: n }, (_, j) => (t0 + j * dt) * 10 + k));
+  const s: Slice = { t0, dt, n, keys, counts, x: opts.x ? Array.from({ length: n }, (_, j) => t0 + j * dt + 0.5) : null, cc: opts.cc ? Array.from({ length: n }, (_, j) => t0 + j * dt) : null };
+  return { gatewayId, slice: s, boot: 'b1', seq: opts.seq ?? t0 };
+}
+
+/** Every (gateway, key, time) → count, x and cc of the rows, read bin by bin. */
+function bins(rows: StoredSlice[]) {
+  const out = new Map<string, number | null>();
+  for (const { gatewayId, slice: s } of rows) {
+    for (let j = 0; j < s.n; j++) {
+      const t = s.t0 + j * s.dt;
+      s.keys.forEach((k, i) => out.set(`${gatewayId}/${k}/${t}`, s.counts[i * s.n + j]!));
+      out.set(`${gatewayId}/x/${t}`, s.x?.[j] ?? null);
+      out.set(`${gatewayId}/cc/${t}`, s.cc?.[j] ?? null);
+    }
+  }
+  return out;
+}
+
+describe('mergeContiguous', () => {
+  it('joins a gateway’s contiguous slices, interleaved with another gateway’s, into one row each, bins unchanged', () => {
+    const input = [slice('g1', 0, 3, { x: true, cc: true }), slice('g2', 100, 2), slice('g1', 3, 2, { x: true, cc: true }), slice('g2', 102, 4), slice('g1', 5, 1, { x: true, cc: true })];
+    const rows = mergeContiguous(input);
+    expect(rows.map((r) => [r.gatewayId, r.slice.t0, r.slice.n, r.seq])).toEqual([
+      ['g1', 0, 6, 0],
+      ['g2', 100, 6, 100],
+    ]);
+    expect(bins(rows)).toEqual(bins(input));
+  });
+
+  it('keeps apart what does not line up: a gap, another bin width, other channels, x or cc on one side only', () => {
+    const cases: StoredSlice[][] = [
+      [slice('g', 0, 2), slice('g', 3, 2)],
+      [slice('g', 0, 2, { dt: 2 }), slice('g', 4, 2, { dt: 1 })],
+      [slice('g', 0, 2), slice('g', 2, 2, { keys: ['a', 'c'] })],
+      [slice('g', 0, 2), slice('g', 2, 2, { x: true })],
+      [slice('g', 0, 2, { cc: true }), slice('g', 2, 2)],
+      // Earlier than the row's end (a late bin of another span) is not a continuation either.
+      [slice('g', 10, 2), slice('g', 0, 2)],
+    ];
+    for (const input of cases) {
+      const rows = mergeContiguous(input);
+      expect(rows).toHaveLength(2);
+      expect(bins(rows)).toEqual(bins(input));
+    }
+  });
+
+  it('starts a new row where the bins would pass the bound', () => {
+    const rows = mergeContiguous([slice('g', 0, 4), slice('g', 4, 4), slice('g', 8, 4)], 8);
+    expect(rows.map((r) => [r.slice.t0, r.slice.n])).toEqual([
+      [0, 8],
+      [8, 4],
+    ]);
+  });
+});
