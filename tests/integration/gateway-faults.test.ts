@@ -13,10 +13,10 @@ import { Gateway } from '../../gateway/gateway.ts';
 import { SimCounter } from '../../gateway/drivers/sim.ts';
 import type { Bins, Counter } from '../../gateway/counter.ts';
 import { findDemoBench } from '../../simulators/demo-benches.ts';
-import { countBatchSchema } from '../../src/lib/contract/wire.ts';
+import { countBatchSchema, type CountBatch } from '../../src/lib/contract/wire.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
 import { unpackCounts } from '../../src/lib/server/db/packed-counts.ts';
-import { countBatches } from '../../src/lib/server/db/schema.ts';
+import { countBatches, gatewayHealth } from '../../src/lib/server/db/schema.ts';
 import { freshGateway, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 
 let dir: string;
@@ -58,14 +58,24 @@ function binsOfRows(rows: Awaited<ReturnType<typeof stored>>, dt: number): Map<s
   return out;
 }
 
-function binsOfBatches(batches: Bins[]): Map<string, number> {
+function binsOfBatches(batches: Pick<Bins, 't0' | 'dt' | 'ch'>[]): Map<string, number> {
   const out = new Map<string, number>();
   for (const b of batches) for (const [k, counts] of Object.entries(b.ch)) counts.forEach((c, j) => out.set(`${b.t0 + j * b.dt}:${k}`, c));
   return out;
 }
 
-function contiguous(seqs: number[]): boolean {
-  return seqs.every((s, i) => s === i);
+/**
+ * Seqs rise with time from 0. A row holds a run of contiguous batches of one write (rows merge
+ * them), named by its first seq, so rows skip the seqs inside them; that none went missing or came
+ * out of order is the health page's seq gap count.
+ */
+function inOrderFromZero(seqs: number[]): boolean {
+  return seqs[0] === 0 && seqs.every((s, i) => i === 0 || s > seqs[i - 1]!);
+}
+
+async function seqGaps(gatewayId: string): Promise<number> {
+  const [h] = await getDb().select({ gaps: gatewayHealth.seqGaps }).from(gatewayHealth).where(eq(gatewayHealth.gatewayId, gatewayId));
+  return Number(h?.gaps ?? 0);
 }
 
 describe('gateway store and forward', () => {
@@ -115,7 +125,8 @@ describe('gateway store and forward', () => {
     const rows = await stored(gatewayId);
     expect(binsOfRows(rows, 10)).toEqual(want);
     expect(rows.every((r) => r.boot === gw.boot)).toBe(true);
-    expect(contiguous(rows.map((r) => r.seq))).toBe(true);
+    expect(inOrderFromZero(rows.map((r) => r.seq))).toBe(true);
+    expect(await seqGaps(gatewayId)).toBe(0);
     expect(produced.length).toBeGreaterThan((recoveredMs / 100) * 0.8);
   });
 
@@ -143,23 +154,23 @@ describe('gateway store and forward', () => {
     await new Promise((r) => a.once('exit', r));
 
     // What the killed gateway had durably queued: the batches it owed the server.
-    const queued = new Map<string, number>();
+    const queued: CountBatch[] = [];
     for (const f of (await readdir(queueDir)).filter((n) => n.endsWith('.seg'))) {
-      for (const line of (await readFile(path.join(queueDir, f), 'utf8')).split('\n').filter(Boolean)) {
-        const b = countBatchSchema.parse(JSON.parse(line.slice(9)));
-        queued.set(b.boot, Math.max(queued.get(b.boot) ?? -1, b.seq));
-      }
+      for (const line of (await readFile(path.join(queueDir, f), 'utf8')).split('\n').filter(Boolean)) queued.push(countBatchSchema.parse(JSON.parse(line.slice(9))));
     }
-    expect(queued.size).toBe(1);
-    const [[bootA, lastSeqA]] = [...queued] as [[string, number]];
-    expect(lastSeqA).toBeGreaterThan(30);
+    expect(new Set(queued.map((q) => q.boot)).size).toBe(1);
+    const lastA = queued.reduce((p, q) => (q.seq > p.seq ? q : p));
+    const bootA = lastA.boot;
+    expect(lastA.seq).toBeGreaterThan(30);
+    const endOfA = lastA.t0 + Object.values(lastA.ch)[0]!.length * lastA.dt;
 
     await live(port);
     const b = run();
     await until(
       async () => {
         const rows = await stored(gatewayId);
-        return rows.some((r) => r.boot === bootA && r.seq === lastSeqA) && rows.filter((r) => r.boot !== bootA).length >= 10;
+        const binsB = rows.filter((r) => r.boot !== bootA).reduce((n, r) => n + r.n, 0);
+        return rows.some((r) => r.boot === bootA && r.t0 + r.n * 10 >= endOfA) && binsB >= 100;
       },
       30_000,
       'the restarted gateway to deliver the old queue and new batches',
@@ -168,12 +179,15 @@ describe('gateway store and forward', () => {
     expect(await new Promise((r) => b.once('exit', r))).toBe(0);
 
     const rows = await stored(gatewayId);
-    const seqsA = rows.filter((r) => r.boot === bootA).map((r) => r.seq);
     const restOfRows = rows.filter((r) => r.boot !== bootA);
-    // Boot A: every batch up to the last one it stored, none missing; boot B likewise from 0.
-    expect(seqsA).toEqual(Array.from({ length: lastSeqA + 1 }, (_, i) => i));
+    // Boot A: every batch it had queued is stored with its counts, in order and none missing (no
+    // seq gap); boot B likewise from 0.
+    const storedBins = binsOfRows(rows, 10);
+    for (const [bin, count] of binsOfBatches(queued)) expect(storedBins.get(bin)).toBe(count);
+    expect(inOrderFromZero(rows.filter((r) => r.boot === bootA).map((r) => r.seq))).toBe(true);
+    expect(await seqGaps(gatewayId)).toBe(0);
     expect(new Set(restOfRows.map((r) => r.boot)).size).toBe(1);
-    expect(contiguous(restOfRows.map((r) => r.seq))).toBe(true);
+    expect(inOrderFromZero(restOfRows.map((r) => r.seq))).toBe(true);
     // In time, boot B starts after boot A ends: no bin time used twice.
     const endA = Math.max(...rows.filter((r) => r.boot === bootA).map((r) => r.t0 + r.n * 10));
     expect(Math.min(...restOfRows.map((r) => r.t0))).toBeGreaterThanOrEqual(endA);
