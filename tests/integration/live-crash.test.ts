@@ -37,15 +37,18 @@ function stream(client: MqttClient, gatewayId: string, everyMs: number) {
 
 async function expectExactlyOnce(gatewayId: string, batches: number): Promise<void> {
   const { pool } = getDbHandle();
-  const { rows } = await pool.query<{ rows: number; bins: number; sum: number; distinct_t0: number }>(
-    `select count(*)::int as rows, coalesce(sum(n), 0)::int as bins, count(distinct t0)::int as distinct_t0,
+  // Rows join contiguous batches of one write, so exactly once is per bin: as many distinct bin
+  // times as bins stored, and every batch's bins and counts there.
+  const { rows } = await pool.query<{ bins: number; distinct_bins: number; sum: number }>(
+    `select coalesce(sum(n), 0)::int as bins,
+            (select count(distinct c.t0 + i * c.dt)::int from count_batches c, generate_series(0, c.n - 1) i where c.gateway_id = $1) as distinct_bins,
             coalesce((select sum(v) from count_batches c, unnest(unpack_counts(c.counts)) v where c.gateway_id = $1), 0)::int as sum
        from count_batches where gateway_id = $1`,
     [gatewayId],
   );
   let expected = 0;
   for (let i = 0; i < BINS; i++) expected += value('a', i) + value('b', i);
-  expect(rows[0]).toEqual({ rows: batches, bins: batches * BINS, distinct_t0: batches, sum: batches * expected });
+  expect(rows[0]).toEqual({ bins: batches * BINS, distinct_bins: batches * BINS, sum: batches * expected });
   const { rows: r } = await pool.query<{ sum: number; bins: number }>(
     `select coalesce(sum(v), 0)::int as sum, (select coalesce(sum(b), 0)::int from rollups r2, unnest(r2.bins) b where r2.gateway_id = $1 and r2.step_ms = 1000) as bins
        from rollups r, unnest(r.sums) v where r.gateway_id = $1 and r.step_ms = 1000`,

@@ -17,20 +17,18 @@ export function countWidth(values: ArrayLike<number>): CountWidth {
 
 export const packedLength = (count: number, width: CountWidth) => 1 + count * width;
 
-/** Writes `values` packed at `out[at]`; returns the offset after them. */
-export function writePacked(values: ArrayLike<number>, width: CountWidth, out: Uint8Array, at: number): number {
-  out[at++] = width;
-  const n = values.length;
+/** Writes `values[from..to)` at `out[at]` without the width byte; returns the offset after them. */
+function writeRange(values: ArrayLike<number>, from: number, to: number, width: CountWidth, out: Uint8Array, at: number): number {
   if (width === 1) {
-    for (let i = 0; i < n; i++) out[at++] = values[i]!;
+    for (let i = from; i < to; i++) out[at++] = values[i]!;
   } else if (width === 2) {
-    for (let i = 0; i < n; i++) {
+    for (let i = from; i < to; i++) {
       const v = values[i]!;
       out[at++] = v >>> 8;
       out[at++] = v & 0xff;
     }
   } else {
-    for (let i = 0; i < n; i++) {
+    for (let i = from; i < to; i++) {
       const v = values[i]!;
       out[at++] = v >>> 24;
       out[at++] = (v >>> 16) & 0xff;
@@ -38,6 +36,26 @@ export function writePacked(values: ArrayLike<number>, width: CountWidth, out: U
       out[at++] = v & 0xff;
     }
   }
+  return at;
+}
+
+/** Writes `values` packed at `out[at]`; returns the offset after them. */
+export function writePacked(values: ArrayLike<number>, width: CountWidth, out: Uint8Array, at: number): number {
+  out[at] = width;
+  return writeRange(values, 0, values.length, width, out, at + 1);
+}
+
+/** A stretch `values[from..to)` of a longer array. */
+export interface Run {
+  values: ArrayLike<number>;
+  from: number;
+  to: number;
+}
+
+/** Writes several runs, one after the other, packed as ONE array at `out[at]`; returns the offset after it. */
+export function writePackedRuns(runs: readonly Run[], width: CountWidth, out: Uint8Array, at: number): number {
+  out[at++] = width;
+  for (const r of runs) at = writeRange(r.values, r.from, r.to, width, out, at);
   return at;
 }
 

@@ -3,7 +3,7 @@
 // slices that do not line up stay apart.
 import { describe, expect, it } from 'vitest';
 import type { Slice } from './coverage.ts';
-import { mergeContiguous } from './row-merge.ts';
+import { mergeContiguous, type Row } from './row-merge.ts';
 import type { StoredSlice } from './write-statement.ts';
 
 function slice(gatewayId: string, t0: number, n: number, opts: { dt?: number; keys?: string[]; x?: boolean; cc?: boolean; seq?: number } = {}): StoredSlice {
@@ -14,10 +14,10 @@ function slice(gatewayId: string, t0: number, n: number, opts: { dt?: number; ke
   return { gatewayId, slice: s, boot: 'b1', seq: opts.seq ?? t0 };
 }
 
-/** Every (gateway, key, time) → count, x and cc of the rows, read bin by bin. */
-function bins(rows: StoredSlice[]) {
+/** Every (gateway, key, time) → count, x and cc of the slices, read bin by bin. */
+function bins(slices: { gatewayId: string; slice: Slice }[]) {
   const out = new Map<string, number | null>();
-  for (const { gatewayId, slice: s } of rows) {
+  for (const { gatewayId, slice: s } of slices) {
     for (let j = 0; j < s.n; j++) {
       const t = s.t0 + j * s.dt;
       s.keys.forEach((k, i) => out.set(`${gatewayId}/${k}/${t}`, s.counts[i * s.n + j]!));
@@ -28,15 +28,34 @@ function bins(rows: StoredSlice[]) {
   return out;
 }
 
+/** The same of rows: counts from their parts, and x and cc from the row's own (joined) arrays. */
+function rowBins(rows: Row[]) {
+  const out = new Map<string, number | null>();
+  for (const r of rows) {
+    let at = 0;
+    for (const p of r.parts) {
+      for (let j = 0; j < p.n; j++) {
+        const t = r.t0 + (at + j) * r.dt;
+        r.keys.forEach((k, i) => out.set(`${r.gatewayId}/${k}/${t}`, p.counts[i * p.n + j]!));
+        out.set(`${r.gatewayId}/x/${t}`, r.x?.[at + j] ?? null);
+        out.set(`${r.gatewayId}/cc/${t}`, r.cc?.[at + j] ?? null);
+      }
+      at += p.n;
+    }
+    expect(at).toBe(r.n);
+  }
+  return out;
+}
+
 describe('mergeContiguous', () => {
   it('joins a gateway’s contiguous slices, interleaved with another gateway’s, into one row each, bins unchanged', () => {
     const input = [slice('g1', 0, 3, { x: true, cc: true }), slice('g2', 100, 2), slice('g1', 3, 2, { x: true, cc: true }), slice('g2', 102, 4), slice('g1', 5, 1, { x: true, cc: true })];
     const rows = mergeContiguous(input);
-    expect(rows.map((r) => [r.gatewayId, r.slice.t0, r.slice.n, r.seq])).toEqual([
+    expect(rows.map((r) => [r.gatewayId, r.t0, r.n, r.seq])).toEqual([
       ['g1', 0, 6, 0],
       ['g2', 100, 6, 100],
     ]);
-    expect(bins(rows)).toEqual(bins(input));
+    expect(rowBins(rows)).toEqual(bins(input));
   });
 
   it('keeps apart what does not line up: a gap, another bin width, other channels, x or cc on one side only', () => {
@@ -52,13 +71,13 @@ describe('mergeContiguous', () => {
     for (const input of cases) {
       const rows = mergeContiguous(input);
       expect(rows).toHaveLength(2);
-      expect(bins(rows)).toEqual(bins(input));
+      expect(rowBins(rows)).toEqual(bins(input));
     }
   });
 
   it('starts a new row where the bins would pass the bound', () => {
     const rows = mergeContiguous([slice('g', 0, 4), slice('g', 4, 4), slice('g', 8, 4)], 8);
-    expect(rows.map((r) => [r.slice.t0, r.slice.n])).toEqual([
+    expect(rows.map((r) => [r.t0, r.n])).toEqual([
       [0, 8],
       [8, 4],
     ]);

@@ -3,60 +3,57 @@
 // broker puts dozens of a gateway's batches in one write; as one row each, PostgreSQL spent most of
 // its time on per-row work (tuple, primary-key entry, WAL record) and the server on per-row
 // parameters (DEVELOPERS.md, "Ingest benchmark"). A row never exceeds the contract's bins per batch,
-// so every reader's bound on a row still holds. Live frames and outcomes are per batch and do not
-// see this. Pure.
+// so every reader's bound on a row still holds. The counts stay in their slices (the write packs
+// them from there: copying them into one array first cost as much as packing them). Live frames and
+// outcomes are per batch and do not see this. Pure.
 import { MAX_BINS } from '../../contract/wire.ts';
 import type { Slice } from './coverage.ts';
 import type { StoredSlice } from './write-statement.ts';
 
-function continues(row: StoredSlice[], next: StoredSlice, maxBins: number): boolean {
-  const first = row[0]!.slice;
-  const last = row[row.length - 1]!.slice;
-  const s = next.slice;
-  let bins = s.n;
-  for (const r of row) bins += r.slice.n;
-  return (
-    s.t0 === last.t0 + last.n * last.dt &&
-    s.dt === first.dt &&
-    s.keys.length === first.keys.length &&
-    s.keys.every((k, i) => k === first.keys[i]) &&
-    (s.x === null) === (first.x === null) &&
-    (s.cc === null) === (first.cc === null) &&
-    bins <= maxBins
-  );
+export interface Row {
+  gatewayId: string;
+  /** Boot and seq of the row's first batch: where the row began. */
+  boot: string;
+  seq: number;
+  t0: number;
+  dt: number;
+  /** Bins of the row, all parts together. */
+  n: number;
+  keys: string[];
+  /** The slices in time order; the row's counts of channel k are each part's counts of k in turn. */
+  parts: Slice[];
+  x: number[] | null;
+  cc: number[] | null;
 }
 
-/** One slice holding the parts' bins in order, counts channel-major as in every slice. */
-function joined(parts: StoredSlice[]): StoredSlice {
-  if (parts.length === 1) return parts[0]!;
-  const first = parts[0]!.slice;
-  const n = parts.reduce((sum, p) => sum + p.slice.n, 0);
-  const counts = new Array<number>(first.keys.length * n);
-  let at = 0;
-  for (const { slice } of parts) {
-    for (let k = 0; k < first.keys.length; k++) {
-      for (let j = 0; j < slice.n; j++) counts[k * n + at + j] = slice.counts[k * slice.n + j]!;
-    }
-    at += slice.n;
-  }
-  const concat = (pick: (s: Slice) => number[] | null) => (pick(first) ? parts.flatMap((p) => pick(p.slice)!) : null);
-  // The row keeps the boot and seq of its first batch: they say where the row began.
-  return { ...parts[0]!, slice: { t0: first.t0, dt: first.dt, n, keys: first.keys, counts, x: concat((s) => s.x), cc: concat((s) => s.cc) } };
+function continues(row: Row, next: Slice, maxBins: number): boolean {
+  const last = row.parts[row.parts.length - 1]!;
+  if (next.t0 !== last.t0 + last.n * last.dt || next.dt !== row.dt || row.n + next.n > maxBins) return false;
+  if ((next.x === null) !== (row.x === null) || (next.cc === null) !== (row.cc === null)) return false;
+  if (next.keys.length !== row.keys.length) return false;
+  for (let i = 0; i < next.keys.length; i++) if (next.keys[i] !== row.keys[i]) return false;
+  return true;
 }
 
 /** Joins contiguous slices of each gateway, in the order their first slice came. */
-export function mergeContiguous(stored: StoredSlice[], maxBins = MAX_BINS): StoredSlice[] {
-  const rows: StoredSlice[][] = [];
-  const open = new Map<string, StoredSlice[]>();
-  for (const s of stored) {
-    const row = open.get(s.gatewayId);
-    if (row && continues(row, s, maxBins)) {
-      row.push(s);
+export function mergeContiguous(stored: StoredSlice[], maxBins = MAX_BINS): Row[] {
+  const rows: Row[] = [];
+  const open = new Map<string, Row>();
+  for (const { gatewayId, boot, seq, slice } of stored) {
+    const row = open.get(gatewayId);
+    if (row && continues(row, slice, maxBins)) {
+      row.parts.push(slice);
+      row.n += slice.n;
       continue;
     }
-    const fresh = [s];
+    const fresh: Row = { gatewayId, boot, seq, t0: slice.t0, dt: slice.dt, n: slice.n, keys: slice.keys, parts: [slice], x: slice.x, cc: slice.cc };
     rows.push(fresh);
-    open.set(s.gatewayId, fresh);
+    open.set(gatewayId, fresh);
   }
-  return rows.map(joined);
+  for (const r of rows) {
+    if (r.parts.length === 1) continue;
+    if (r.x) r.x = r.parts.flatMap((p) => p.x!);
+    if (r.cc) r.cc = r.parts.flatMap((p) => p.cc!);
+  }
+  return rows;
 }

@@ -11,9 +11,9 @@
 // 33 parameters however many rows. Pure.
 import type { Slice } from './coverage.ts';
 import type { HealthDelta } from './health-delta.ts';
-import { countWidth, packedLength, writePacked } from '../db/packed-counts.ts';
+import { countWidth, packedLength, writePacked, writePackedRuns, type CountWidth, type Run } from '../db/packed-counts.ts';
 import { keyArrayLiteral, numericArrayLiteral, textArrayLiteral } from './pg-arrays.ts';
-import { mergeContiguous } from './row-merge.ts';
+import { mergeContiguous, type Row } from './row-merge.ts';
 import type { RollupDelta } from './rollup-math.ts';
 
 export interface StoredSlice {
@@ -68,26 +68,33 @@ select 1`;
 
 /**
  * Every row's counts (and coincidences) packed one after the other in one buffer, with each
- * array's 1-based start and length in it (length 0: no coincidences).
+ * array's 1-based start and length in it (length 0: no coincidences). A row's counts are packed
+ * straight from its parts, channel by channel.
  */
-function packRows(stored: StoredSlice[]) {
-  const widths = stored.map((r) => [countWidth(r.slice.counts), r.slice.cc ? countWidth(r.slice.cc) : null] as const);
+function packRows(rows: Row[]) {
+  const packs = rows.map((r) => {
+    let width = countWidth(r.parts[0]!.counts);
+    for (let i = 1; i < r.parts.length; i++) width = Math.max(width, countWidth(r.parts[i]!.counts)) as CountWidth;
+    const runs: Run[] = [];
+    for (let k = 0; k < r.keys.length; k++) for (const p of r.parts) runs.push({ values: p.counts, from: k * p.n, to: (k + 1) * p.n });
+    return { width, runs, ccWidth: r.cc ? countWidth(r.cc) : null };
+  });
   let size = 0;
-  stored.forEach((r, i) => {
-    const [cw, ccw] = widths[i]!;
-    size += packedLength(r.slice.counts.length, cw) + (r.slice.cc && ccw ? packedLength(r.slice.cc.length, ccw) : 0);
+  rows.forEach((r, i) => {
+    const { width, ccWidth } = packs[i]!;
+    size += packedLength(r.keys.length * r.n, width) + (r.cc && ccWidth ? packedLength(r.cc.length, ccWidth) : 0);
   });
   const blob = Buffer.allocUnsafe(size);
   const at = { counts: [] as number[], countsLen: [] as number[], cc: [] as number[], ccLen: [] as number[] };
   let offset = 0;
-  stored.forEach((r, i) => {
-    const [cw, ccw] = widths[i]!;
-    const next = writePacked(r.slice.counts, cw, blob, offset);
+  rows.forEach((r, i) => {
+    const { width, runs, ccWidth } = packs[i]!;
+    const next = writePackedRuns(runs, width, blob, offset);
     at.counts.push(offset + 1);
     at.countsLen.push(next - offset);
     offset = next;
-    if (r.slice.cc && ccw) {
-      const after = writePacked(r.slice.cc, ccw, blob, offset);
+    if (r.cc && ccWidth) {
+      const after = writePacked(r.cc, ccWidth, blob, offset);
       at.cc.push(offset + 1);
       at.ccLen.push(after - offset);
       offset = after;
@@ -104,20 +111,20 @@ export function writeStatement(stored: StoredSlice[], deltas: RollupDelta[], new
   const hs = [...health];
   const rows = mergeContiguous(stored);
   const { blob, at } = packRows(rows);
-  const numbers = (pick: (r: StoredSlice) => number) => numericArrayLiteral(rows.map(pick));
+  const numbers = (pick: (r: Row) => number) => numericArrayLiteral(rows.map(pick));
   return {
     text: SQL,
     values: [
       textArrayLiteral(rows.map((r) => r.gatewayId)),
-      numbers((r) => r.slice.t0),
-      numbers((r) => r.slice.t0 + r.slice.n * r.slice.dt),
-      numbers((r) => r.slice.dt),
-      numbers((r) => r.slice.n),
-      textArrayLiteral(rows.map((r) => keyArrayLiteral(r.slice.keys))),
+      numbers((r) => r.t0),
+      numbers((r) => r.t0 + r.n * r.dt),
+      numbers((r) => r.dt),
+      numbers((r) => r.n),
+      textArrayLiteral(rows.map((r) => keyArrayLiteral(r.keys))),
       blob,
       numericArrayLiteral(at.counts),
       numericArrayLiteral(at.countsLen),
-      textArrayLiteral(rows.map((r) => numericArrayLiteral(r.slice.x))),
+      textArrayLiteral(rows.map((r) => numericArrayLiteral(r.x))),
       numericArrayLiteral(at.cc),
       numericArrayLiteral(at.ccLen),
       textArrayLiteral(rows.map((r) => r.boot)),
