@@ -101,7 +101,7 @@ export function SweepControl({ bench, lastSweep, onSweepStarted }: Props) {
           type="button"
           className="btn"
           disabled={busy || mid === null}
-          title={mid === null ? 'Needs a fitted sweep covering this range' : undefined}
+          title={mid === null ? 'Needs a fitted sweep over part of this range: a fit is not followed beyond the span it covered' : undefined}
           onClick={() => mid !== null && void send({ op: 'hold', x: Number(mid.toFixed(4)) }, `Hold at mid-fringe ${mid.toFixed(3)} V`)}
         >
           Hold at mid-fringe{mid !== null && <span className="figure text-xs text-muted">{mid.toFixed(3)} V</span>}

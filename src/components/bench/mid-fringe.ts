@@ -1,12 +1,18 @@
 // Where to hold for the steepest slope: the scan coordinate nearest `near` with cos θ(x) = 0, from
-// a fit's phase model θ = 2π(x + q·x²)/P + φ, searched within [lo, hi]. Null when none lies there.
+// a fit's phase model θ = 2π(x + q·x²)/P + φ, searched within [lo, hi] AND the span the fit's pass
+// covered: outside it the model is an extrapolation (the quadratic term alone moves a fringe), so
+// the piezo would be sent to a guess. Null when no zero lies there or the fit does not say its span.
 import { fringePhase } from '../../lib/analysis/fringe-model.ts';
 import type { SweepFit } from '../../lib/client/api.ts';
 
 /** Grid for bracketing zero crossings: far finer than a fringe for any sane sweep. */
 const GRID = 2000;
 
-export function midFringeX(fit: SweepFit, lo: number, hi: number, near: number): number | null {
+export function midFringeX(fit: SweepFit, from: number, to: number, near: number): number | null {
+  if (fit.xMin === undefined || fit.xMax === undefined) return null;
+  const lo = Math.max(from, fit.xMin);
+  const hi = Math.min(to, fit.xMax);
+  if (!(hi > lo)) return null;
   const p = { period: fit.period, phase: fit.phase, quadratic: fit.quadratic };
   const f = (x: number) => Math.cos(fringePhase(x, p));
   let best: number | null = null;

@@ -48,7 +48,9 @@ export async function checkSignIn(emailRaw: string, password: string, address: s
   const user = await findUserByEmail(email);
   const valid = await verifyPassword(user?.passwordHash ?? (await dummyPasswordHash()), password);
   if (!user || !user.passwordHash || !valid || !user.active) return { ok: false, reason: 'invalid' };
+  // Only failures count: a successful sign-in takes back its attempt at the address too.
   limiters.account.reset(email);
+  limiters.address.refund(address);
   return { ok: true, user };
 }
 

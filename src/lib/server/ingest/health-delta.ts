@@ -29,18 +29,33 @@ export function noteReject(d: HealthDelta, reason: string, at: number): void {
   if (d.rejects.length > MAX_REJECT_NOTES) d.rejects.length = MAX_REJECT_NOTES;
 }
 
+/** Seqs remembered as missing per gateway; a longer gap counts in full but only its first ones can be taken back. */
+export const MAX_MISSING_TRACKED = 10_000;
+
+export interface SeqState {
+  boot: string | null;
+  seq: number | null;
+  /** Seqs skipped within this boot and not seen since (in memory: a restart forgets them). */
+  missing?: Set<number>;
+}
+
 /**
- * Advances the sequence state with one batch and returns the number of missing batches it reveals.
- * A new boot restarts the count; a seq at or below the last one (a re-send) reveals nothing.
+ * Advances the sequence state with one batch and returns the change in missing batches it reveals:
+ * a jump adds the seqs skipped; a late batch that fills one of them takes it back (a replay after
+ * an outage or a re-send can overtake live batches, and that is no loss). A new boot restarts the
+ * count; a seq seen before (a re-send) changes nothing.
  */
-export function seqAdvance(state: { boot: string | null; seq: number | null }, boot: string, seq: number): number {
+export function seqAdvance(state: SeqState, boot: string, seq: number): number {
   if (state.boot !== boot || state.seq === null) {
     state.boot = boot;
     state.seq = seq;
+    state.missing = new Set();
     return 0;
   }
-  if (seq <= state.seq) return 0;
+  if (seq <= state.seq) return state.missing?.delete(seq) ? -1 : 0;
   const gap = seq - state.seq - 1;
+  state.missing ??= new Set();
+  for (let s = state.seq + 1; s < seq && state.missing.size < MAX_MISSING_TRACKED; s++) state.missing.add(s);
   state.seq = seq;
   return gap;
 }

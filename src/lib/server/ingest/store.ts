@@ -9,7 +9,7 @@ import type { CountBatch } from '../../contract/wire.ts';
 import { getDbHandle } from '../db/index.ts';
 import { batchSpan, planBatch, type Slice, type StoredSpan } from './coverage.ts';
 import { withDbRetry } from './db-retry.ts';
-import { emptyDelta, noteReject, seqAdvance, type HealthDelta } from './health-delta.ts';
+import { emptyDelta, noteReject, seqAdvance, type HealthDelta, type SeqState } from './health-delta.ts';
 import { rollupDeltas } from './rollup-math.ts';
 import { traceStage } from '../live/trace.ts';
 import { writeStatement, type StoredSlice } from './write-statement.ts';
@@ -37,7 +37,7 @@ export class BatchWriter {
   private queue: Item[] = [];
   private writing = false;
   /** Last boot/seq per gateway, loaded from gateway_health on first sight; only this writer changes them. */
-  private seqState = new Map<string, { boot: string | null; seq: number | null }>();
+  private seqState = new Map<string, SeqState>();
   /**
    * Per gateway, the end of its latest stored bin. A batch starting at or after it cannot overlap
    * anything stored, so it skips the span read: in-order batches, nearly all of them, cost one
@@ -243,7 +243,10 @@ export class BatchWriter {
       }
     }
     // Work on copies: the cache changes only after a COMMIT (and is dropped when a write fails).
-    return new Map(gatewayIds.map((g) => [g, { ...this.seqState.get(g)! }]));
+    return new Map(gatewayIds.map((g) => {
+      const s = this.seqState.get(g)!;
+      return [g, { ...s, missing: new Set(s.missing) }];
+    }));
   }
 
   /**
