@@ -8,9 +8,10 @@ function Tile(props: { label: string; value: string; unit?: string | undefined; 
   return (
     <div className="card min-w-0 !p-3">
       <p className="label truncate" title={props.label}>{props.label}</p>
-      <p className="figure whitespace-nowrap leading-tight" data-testid={props.testId}>
-        <span className={`text-2xl font-medium md:text-3xl ${props.tone ?? ''}`}>{props.value}</span>
-        {props.unit && <span className="ml-1 text-sm text-muted">{props.unit}</span>}
+      {/* Value and unit each stay whole; a long unit moves under the value on a narrow tile instead of running off it. */}
+      <p className="figure flex flex-wrap items-baseline gap-x-1 leading-tight" data-testid={props.testId}>
+        <span className={`whitespace-nowrap text-2xl font-medium md:text-3xl ${props.tone ?? ''}`}>{props.value}</span>
+        {props.unit && <span className="whitespace-nowrap text-sm text-muted">{props.unit}</span>}
       </p>
       {props.subs?.map((s, i) => s && <p key={i} className="figure mt-0.5 truncate text-xs text-muted" title={s}>{s}</p>)}
     </div>
@@ -97,7 +98,10 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
           {(f.g2 || !f.alpha) && (
             <>
               <dt className="text-muted">g²(0), accidentals subtracted</dt>
-              <dd className="figure text-right">{f.g2 ? formatValueErr(f.g2) : props.hasCoincidences ? 'waiting' : 'no coincidences'}</dd>
+              {/* An uncertainty of 1 or more cannot tell a single-photon source (g² ≈ 0) from a classical one (g² ≥ 1): too few counts to say anything yet. */}
+              <dd className="figure text-right" title={f.g2 ? formatValueErr(f.g2) : undefined}>
+                {f.g2 ? (f.g2.err >= 1 ? 'too few coincidences' : formatValueErr(f.g2)) : props.hasCoincidences ? 'waiting' : 'no coincidences'}
+              </dd>
             </>
           )}
           {f.g2 && (
