@@ -6,6 +6,8 @@ import { getDb } from '../../src/lib/server/db/index.ts';
 import { packCounts, unpackCounts } from '../../src/lib/server/db/packed-counts.ts';
 import { channels, countBatches, gateways, rollups, runs } from '../../src/lib/server/db/schema.ts';
 import { importCounts } from '../../src/lib/server/export/import.ts';
+import { loadBenchView } from '../../src/lib/server/bench-view.ts';
+import { loadOverview } from '../../src/lib/server/overview.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import type { RunningApp } from '../../src/server/app.ts';
 import { startWebApp, userWithToken } from '../helpers/web-app.ts';
@@ -113,6 +115,29 @@ describe('export and import', () => {
     expect(json.columns).toEqual(['t_ms', `${GW1}/a`, `${GW1}/b`, `${GW2}/h`, 'x', 'cc']);
     expect(json.rows).toHaveLength(300 + 300 + 100); // GW2's bins all fall on GW1's rows
     expect(json.rows.map((row) => row[0])).toEqual([...json.rows.map((row) => row[0]!)].sort((a, b) => a - b));
+  });
+
+  it('refuses an import over times the bench already holds, live or imported, and stores nothing', async () => {
+    // The first test imported this span into DST; SRC holds it live.
+    const partial = await (await api(obs, `/api/v1/benches/${SRC}/export?from=${T + 1000}&to=${T + 3000}`)).text();
+    const before = (await getDb().select().from(runs)).length;
+    for (const bench of [DST, SRC]) {
+      const res = await api(op, `/api/v1/benches/${bench}/import?title=Again`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: partial });
+      expect(res.status).toBe(409);
+      expect(((await res.json()) as { error: string }).error).toMatch(/already holds data in that time .*another bench/);
+    }
+    expect((await getDb().select().from(runs)).length).toBe(before);
+    expect(await getDb().select().from(gateways).where(and(like(gateways.id, 'imp-%'), eq(gateways.benchId, SRC)))).toHaveLength(0);
+  });
+
+  it('keeps an imported run out of the live bench: no gateway to be online, no live channels; history and reports still read it', async () => {
+    const live = await loadBenchView(DST, { imports: 'exclude' });
+    const past = await loadBenchView(DST, { imports: 'include' });
+    expect(live!.gateways).toEqual([]);
+    expect(live!.channels).toEqual([]);
+    expect(past!.gateways).toEqual([]);
+    expect(past!.channels.map((c) => c.key)).toEqual(['a', 'b', 'h']);
+    expect((await loadOverview()).find((b) => b.id === DST)).toMatchObject({ gatewaysOnline: 0, gatewaysTotal: 0 });
   });
 
   it('refuses a corrupt file with line numbers and stores nothing', async () => {

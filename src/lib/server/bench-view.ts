@@ -6,11 +6,18 @@ import { getDb } from './db/index.ts';
 import { alarmRules, channels, gateways } from './db/schema.ts';
 import { activeRuns } from './runs.ts';
 import { statusSchema } from '../contract/wire.ts';
+import { isImportGateway } from '../import-shapes.ts';
 
 /** Only the scan range of a stored status; the rest of it is the health page's business. */
 const storedScanSchema = statusSchema.pick({ scan: true });
 
-export async function loadBenchView(benchId: string): Promise<BenchViewData | null> {
+/**
+ * The bench as its pages show it. Imported runs are stored under pseudo-gateways of the bench:
+ * they are never listed as gateways (no device, no health), and their channels are left out where
+ * `imports` is 'exclude' (the live page: a recording is not a live output) and kept for pages that
+ * read the past (history, run reports).
+ */
+export async function loadBenchView(benchId: string, opts: { imports: 'include' | 'exclude' }): Promise<BenchViewData | null> {
   const bench = await getBench(benchId);
   if (!bench) return null;
   const db = getDb();
@@ -24,7 +31,7 @@ export async function loadBenchView(benchId: string): Promise<BenchViewData | nu
       .where(and(eq(alarmRules.benchId, benchId), eq(alarmRules.metric, 'visibility_low'), eq(alarmRules.enabled, true))),
     activeRuns(),
   ]);
-  const chans: ViewChannel[] = roles.map((c) => {
+  const chans: ViewChannel[] = roles.filter((c) => opts.imports === 'include' || !isImportGateway(c.gateway)).map((c) => {
     const cal = calib.find((r) => r.gatewayId === c.gateway && r.key === c.key);
     return {
       id: `${c.gateway}/${c.key}`,
@@ -46,7 +53,7 @@ export async function loadBenchView(benchId: string): Promise<BenchViewData | nu
     outA: byRole('out_a'),
     outB: byRole('out_b'),
     herald: byRole('herald'),
-    gateways: gws.map((g) => {
+    gateways: gws.filter((g) => !isImportGateway(g.id)).map((g) => {
       const state = (g.status as { state?: unknown } | null)?.state;
       const scan = storedScanSchema.safeParse(g.status ?? {});
       return { id: g.id, online: state === 'online' && !g.revokedAt, lastSeenMs: g.lastSeenAt ? g.lastSeenAt.getTime() : null, scan: scan.success ? (scan.data.scan ?? null) : null };

@@ -6,6 +6,7 @@ import { listBenches } from './benches.ts';
 import { getDb } from './db/index.ts';
 import { alarmEvents, gateways } from './db/schema.ts';
 import { activeRuns } from './runs.ts';
+import { isImportGateway } from '../import-shapes.ts';
 
 export async function loadOverview(): Promise<OverviewBench[]> {
   const db = getDb();
@@ -20,7 +21,8 @@ export async function loadOverview(): Promise<OverviewBench[]> {
     activeRuns(),
   ]);
   return benchRows.map((b) => {
-    const mine = gws.filter((g) => g.benchId === b.id);
+    // Imported runs' pseudo-gateways are recordings, not devices that can be online.
+    const mine = gws.filter((g) => g.benchId === b.id && !isImportGateway(g.id));
     const open = alarms.filter((a) => a.benchId === b.id);
     return {
       id: b.id,

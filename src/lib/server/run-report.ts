@@ -22,7 +22,7 @@ export interface RunReport {
 export async function loadRunReport(id: number): Promise<RunReport | null> {
   const run = await getRun(id);
   if (!run) return null;
-  const bench = await loadBenchView(run.benchId);
+  const bench = await loadBenchView(run.benchId, { imports: 'include' });
   if (!bench) return null;
   const end = run.endMs ?? Date.now();
   const [rows, notes, corrections] = await Promise.all([sweepsBetween(run.benchId, run.startMs, end), listNotes(id), benchCalibrations(run.benchId)]);

@@ -130,6 +130,31 @@ async function insertChannels(client: pg.PoolClient, benchId: string, gatewayId:
   }
 }
 
+/**
+ * A bench's time holds one recording. An import over times the bench already has data for (its
+ * live gateways' or an earlier import's) would put two series under the same outputs: the counts
+ * API would mix their scan positions and coincidences, and its fits would stand beside the live
+ * ones. Such a file belongs to another bench. Per gateway, the last row starting before the end is
+ * the only one that can reach into the span (rows of a gateway never overlap).
+ */
+async function refuseOverlap(client: pg.PoolClient, benchId: string, ownGateway: string, fromMs: number, toMs: number): Promise<void> {
+  const { rows } = await client.query<{ gateway_id: string; t0: number; t1: number }>(
+    `select g.id as gateway_id, c.t0, c.t1
+       from gateways g
+       cross join lateral (select t0, t1 from count_batches c where c.gateway_id = g.id and c.t0 < $3 order by c.t0 desc limit 1) c
+      where g.bench_id = $1 and g.id <> $2 and c.t1 > $4
+      limit 1`,
+    [benchId, ownGateway, toMs, fromMs],
+  );
+  const hit = rows[0];
+  if (!hit) return;
+  const iso = (ms: number) => new Date(ms).toISOString();
+  throw new HttpError(
+    409,
+    `the file covers ${iso(fromMs)} to ${iso(toMs)}, and this bench already holds data in that time (${hit.gateway_id}, up to ${iso(Math.min(Number(hit.t1), toMs))}); import it into another bench`,
+  );
+}
+
 /** Stores the file as a new run, or nothing at all (422 with line-numbered issues, 413 past the size limit). */
 export async function importCounts(benchId: string, body: ReadableStream<Uint8Array>, opts: { title: string; userId: string | null; maxBytes?: number }): Promise<ImportResult> {
   if (!(await getBench(benchId))) throw new HttpError(404, 'no such bench');
@@ -163,6 +188,7 @@ export async function importCounts(benchId: string, body: ReadableStream<Uint8Ar
     await write();
     const fromMs = reader.firstT!;
     const toMs = reader.lastT! + reader.dt!;
+    await refuseOverlap(client, benchId, gatewayId, fromMs, toMs);
     await client.query('update runs set start_ms = $2, end_ms = $3 where id = $1', [runId, fromMs, toMs]);
     await insertChannels(client, benchId, gatewayId, reader.channels);
     result = { runId, gatewayId, bins, batches, fromMs, toMs, channels: reader.channels.map((c) => `${gatewayId}/${c.key}`) };
