@@ -3,9 +3,9 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { topicFor } from '../../src/lib/contract/wire.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
-import { benches } from '../../src/lib/server/db/schema.ts';
+import { auditLog, benches } from '../../src/lib/server/db/schema.ts';
 import { buildIfStale } from '../../src/server/build.ts';
-import { eq } from 'drizzle-orm';
+import { and, eq } from 'drizzle-orm';
 import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, type TestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
 
@@ -101,6 +101,10 @@ describe('POST /api/v1/benches/{id}/commands', () => {
     const { id } = (await res.json()) as { id: string };
     const cmd = await got;
     expect(cmd).toEqual({ v: 1, id, op: 'sweep', from: 0, to: 40, step: 0.05, dwell: 20, sweeps: 4 });
+    // The audit entry leads with what was commanded (the id is the entry's own; jsonb keeps shorter keys first).
+    const [audit] = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, 'command'), eq(auditLog.entityId, id)));
+    expect(Object.keys(audit!.after as object)[0]).toBe('op');
+    expect(audit!.after).toMatchObject({ op: 'sweep', from: 0, to: 40, bench: gw.benchId, gateway: gw.gatewayId });
     await client.publishAsync(topicFor(gw.gatewayId, 'ack'), JSON.stringify({ v: 1, id, ok: false, error: 'out of scan range' }), { qos: 1 });
     expect(await ws.next((m) => m.type === 'ack')).toEqual({ type: 'ack', bench: gw.benchId, gateway: gw.gatewayId, id, ok: false, error: 'out of scan range' });
     await client.endAsync();

@@ -34,6 +34,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
   const { bench, viewer } = props;
   const channelIds = useMemo(() => bench.channels.map((c) => c.id), [bench]);
   const ring = useMemo(() => new RateRing(channelIds), [channelIds]);
+  const corrections = useMemo(() => new Set(bench.channels.filter((c) => c.darkRate !== null || c.deadTimeNs !== null).map((c) => c.id)), [bench.channels]);
   const cells = useMemo(() => new FringeCells(bench.drive.min, bench.drive.max), [bench]);
   const rates = useRef<RatesHandle | null>(null);
   const fringe = useRef<FringeHandle | null>(null);
@@ -157,7 +158,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
     <div className="space-y-4">
       <LiveBanner state={live} />
       <AlarmBanner events={alarms} />
-      <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} />
+      <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} corrections={corrections} />
       <div className="grid gap-4 xl:grid-cols-2">
         <RatesChart ring={ring} channels={bench.channels} onReady={(h) => (rates.current = h)} hasData={hasCounts} error={hasCounts ? null : countsError} />
         <FringeChart

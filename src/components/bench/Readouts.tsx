@@ -18,10 +18,17 @@ function Tile(props: { label: string; value: string; unit?: string | undefined; 
   );
 }
 
-function rateTile(c: ChannelFigures | undefined, label: string, tone: string, testId: string) {
+function rateTile(c: ChannelFigures | undefined, label: string, tone: string, testId: string, corrections: Set<string>) {
   const r = rateParts(c?.rateRaw);
-  // The corrected rate on the raw rate's scale, so the unit above serves both.
-  const corrected = c?.rateCorrected ? `corr. ${formatRateErr(c.rateCorrected, c.rateRaw)}` : c ? 'uncorrected (see warning)' : 'waiting for counts';
+  // The corrected rate on the raw rate's scale, so the unit above serves both. With no dark rate
+  // or dead time set it would only repeat the raw rate: say so instead.
+  const corrected = !c
+    ? 'waiting for counts'
+    : !corrections.has(c.channel)
+      ? 'no dark rate or dead time set'
+      : c.rateCorrected
+        ? `corr. ${formatRateErr(c.rateCorrected, c.rateRaw)}`
+        : 'uncorrected (see warning)';
   const loss = c?.deadTimeLoss != null ? `dead-time loss ${(c.deadTimeLoss * 100).toFixed(1)} %` : null;
   return <Tile label={label} value={r.value} unit={r.unit} subs={[corrected, loss]} tone={tone} testId={testId} />;
 }
@@ -32,7 +39,8 @@ function splitErr(v: { value: number; err: number }, decimals?: number): { value
   return { value, err };
 }
 
-export function Readouts(props: { figures: BenchFigures | null; loading: boolean; error: string | null }) {
+/** `corrections`: ids ("gateway/key") of the channels with a dark rate or a dead time set. */
+export function Readouts(props: { figures: BenchFigures | null; loading: boolean; error: string | null; corrections: Set<string> }) {
   const f = props.figures;
   const a = f?.channels.find((c) => c.role === 'out_a');
   const b = f?.channels.find((c) => c.role === 'out_b');
@@ -46,8 +54,8 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
     <section aria-label="Live figures" aria-busy={props.loading}>
       {props.error && <p className="mb-2 text-sm text-bad" role="alert">Figures unavailable: {props.error}</p>}
       <div className="grid grid-cols-2 gap-3 sm:grid-cols-3 xl:grid-cols-6">
-        {rateTile(a, a?.label ?? 'Output A', 'text-ember', 'rate-a')}
-        {rateTile(b, b?.label ?? 'Output B', 'text-tide', 'rate-b')}
+        {rateTile(a, a?.label ?? 'Output A', 'text-ember', 'rate-a', props.corrections)}
+        {rateTile(b, b?.label ?? 'Output B', 'text-tide', 'rate-b', props.corrections)}
         <Tile
           label={`Visibility${v?.net ? ', net of darks' : ''}`}
           value={vs?.value ?? '–'}

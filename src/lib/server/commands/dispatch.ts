@@ -35,6 +35,7 @@ export async function dispatchCommand(benchId: string, body: CommandBody, actorI
   if (!sender) throw new HttpError(503, 'the live path is not running');
   const command: Command = { ...body, v: 1, id: randomUUID() };
   await sender.publish(gateway, command);
-  await recordAudit({ actorId, entity: 'command', entityId: command.id, action: 'send', after: { bench: benchId, gateway, command } });
+  // The operation and its figures, not the envelope: the id is the entry's own, and leading with it hid what was commanded.
+  await recordAudit({ actorId, entity: 'command', entityId: command.id, action: 'send', after: { ...body, bench: benchId, gateway } });
   return { id: command.id, gateway };
 }
