@@ -7,7 +7,8 @@ import { FrameGate } from '../../lib/client/frame-gate.ts';
 import type { FringeCells } from '../../lib/client/fringe-cells.ts';
 import { sweepFit, type Sweep } from '../../lib/client/api.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
-import { formatRateTick, formatValueErr } from '../../lib/client/format.ts';
+import { formatDuration, formatRateTick, formatValueErr } from '../../lib/client/format.ts';
+import { useNow } from '../../lib/client/use-now.ts';
 import { axis, useUPlot } from '../charts/useUPlot.ts';
 import { CURVE_POINTS, fitRates } from './fringe-curve.ts';
 
@@ -44,18 +45,23 @@ export function FringeChart(props: Props) {
 
   const data = (): uPlot.AlignedData => {
     const v = cells.view();
-    const direction = v.direction;
-    const fits = sweepsRef.current.filter((s) => !direction || s.direction === direction).slice(-2);
+    // One direction only (up and down differ by the piezo's hysteresis): the passes' own, or else the latest fit's.
+    const direction = v.direction ?? sweepsRef.current.at(-1)?.direction;
+    const fits = sweepsRef.current.filter((s) => s.direction === direction).slice(-2);
     const last = fits.at(-1);
     const prev = fits.length > 1 ? fits[0] : undefined;
     const c = curve.current;
-    const lo = v.x.length ? v.x[0]! : cells.xMin;
-    const hi = v.x.length ? v.x[v.x.length - 1]! : cells.xMax;
     const lf = last ? sweepFit(last) : null;
     const pf = prev ? sweepFit(prev) : null;
+    // Over the kept passes, or with none over the fits' own spans.
+    const spans = [lf, pf].filter((f) => f?.xMin !== undefined && f.xMax !== undefined) as { xMin: number; xMax: number }[];
+    const lo = v.x.length ? v.x[0]! : spans.length ? Math.min(...spans.map((f) => f.xMin)) : cells.xMin;
+    const hi = v.x.length ? v.x[v.x.length - 1]! : spans.length ? Math.max(...spans.map((f) => f.xMax)) : cells.xMax;
     for (let i = 0; i < CURVE_POINTS; i++) c.x[i] = lo + ((hi - lo) * i) / (CURVE_POINTS - 1);
     if (lf) fitRates(lf, c.x, c.a, c.b);
     if (pf) fitRates(pf, c.x, c.pa, c.pb);
+    // A fit is a model of the span its pass covered: beyond it the curve would be a guess drawn as fact.
+    const inside = (f: typeof lf, x: number) => !f || f.xMin === undefined || f.xMax === undefined || (x >= f.xMin && x <= f.xMax);
     // Merge the two sorted x sets.
     const n = v.x.length + (lf || pf ? CURVE_POINTS : 0);
     const m = merged.current;
@@ -75,10 +81,12 @@ export function FringeChart(props: Props) {
       } else {
         m.x[k] = c.x[j]!;
         cols[0]![k] = cols[1]![k] = null;
-        cols[2]![k] = lf ? c.a[j]! : null;
-        cols[3]![k] = lf ? c.b[j]! : null;
-        cols[4]![k] = pf ? c.pa[j]! : null;
-        cols[5]![k] = pf ? c.pb[j]! : null;
+        const lin = lf && inside(lf, c.x[j]!);
+        const pin = pf && inside(pf, c.x[j]!);
+        cols[2]![k] = lin ? c.a[j]! : null;
+        cols[3]![k] = lin ? c.b[j]! : null;
+        cols[4]![k] = pin ? c.pa[j]! : null;
+        cols[5]![k] = pin ? c.pb[j]! : null;
         j++;
       }
     }
@@ -123,6 +131,7 @@ export function FringeChart(props: Props) {
   }, [props.sweeps]);
 
   const lastFit = props.sweeps.at(-1);
+  const now = useNow(5_000);
   // The calibration of the latest pass, labelled with its direction: up and down differ by the piezo's hysteresis.
   const piezo = lastFit ? sweepFit(lastFit)?.piezoNmPerV : null;
   return (
@@ -138,6 +147,8 @@ export function FringeChart(props: Props) {
             <p className="text-xs text-muted">
               {/* Each figure kept whole, so a narrow card breaks the line between them. */}
               <span className="whitespace-nowrap">last fit <span className="figure" data-testid="last-fit-visibility">V = {formatValueErr({ value: lastFit.visibility, err: lastFit.visibilityErr })}</span></span>
+              {/* Its age: an old fit over an idle bench must not pass for the fringes of now. */}
+              {now !== null && <span className="whitespace-nowrap"> · <span className="figure">{formatDuration(now - lastFit.end)}</span> ago</span>}
               {piezo && (
                 <>
                   {' · '}

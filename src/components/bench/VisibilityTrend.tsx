@@ -23,6 +23,19 @@ interface Props {
   error: string | null;
   /** Said when there is nothing to draw (the live view and a run report mean different spans). */
   emptyText?: string;
+  /**
+   * The time axis, ms: a run report's own span; null's end is now (the live view), so an old
+   * visibility is seen to be old. Without it the axis fits the points.
+   */
+  span?: { from: number | null; to: number | null };
+}
+
+/** The x range in s: the asked span where given (its open end now), else the points, at least MIN_SPAN_S wide. */
+function xRange(span: Props['span'], dataMin: number | null, dataMax: number | null): [number, number] {
+  const nowS = Date.now() / 1000;
+  const to = span ? (span.to === null ? nowS : span.to / 1000) : (dataMax ?? nowS);
+  const from = span?.from != null ? span.from / 1000 : (dataMin ?? to);
+  return to - from < MIN_SPAN_S ? [to - MIN_SPAN_S, to + 5] : [from, to];
 }
 
 export function VisibilityTrend(props: Props) {
@@ -54,7 +67,7 @@ export function VisibilityTrend(props: Props) {
       legend: { show: true, live: false },
       cursor: { drag: { x: false, y: false } },
       // Without points uPlot hands an empty span (null or 0): show the useful 0.8–1 rather than 0–0.01.
-      scales: { x: { time: true, range: (_u, min, max) => (min == null || max == null || max - min < MIN_SPAN_S ? [(max ?? Date.now() / 1000) - MIN_SPAN_S, (max ?? Date.now() / 1000) + 5] : [min, max]) }, y: { range: (_u, min, max) => (min == null || max == null || !(max > 0) ? [0.8, 1] : [Math.max(0, Math.min(min, ref.current.limit ?? 1) - 0.02), Math.min(1.0, max + 0.01)]) } },
+      scales: { x: { time: true, range: (_u, dataMin, dataMax) => xRange(ref.current.span, dataMin, dataMax) }, y: { range: (_u, min, max) => (min == null || max == null || !(max > 0) ? [0.8, 1] : [Math.max(0, Math.min(min, ref.current.limit ?? 1) - 0.02), Math.min(1.0, max + 0.01)]) } },
       axes: [timeAxis(p), axis(p, { size: 56, label: 'visibility' })],
       bands: [{ series: [3, 2], fill: withAlpha(p.accent, 0.18) }],
       series: [
