@@ -72,6 +72,8 @@ describe('bench live view', () => {
     expect(await page.getByRole('note', { name: 'Laser safety' }).textContent()).toContain('safety officer');
     await page.getByRole('button', { name: 'Start sweep' }).click();
     await expect.poll(() => page.getByTestId('drive-message').textContent()).toContain('sent');
+    // What the piezo does is read off the positions in the counts: moving while the sweep runs.
+    await expect.poll(() => page.getByTestId('drive-state').textContent(), { timeout: 10_000 }).toMatch(/moving (up|down) at \d+\.\d{3} V/);
     await page.getByTestId('last-fit-visibility').waitFor({ timeout: 90_000 });
     const v = await shownVisibility(page);
     expect(v.err).toBeGreaterThan(0);
@@ -88,6 +90,8 @@ describe('bench live view', () => {
     await page.goto(`${app.url}/benches/${BENCH}`);
     await waitForLiveRate(page, 'rate-a');
     await waitForLiveRate(page, 'rate-b');
+    // The observer sees what the drive does too.
+    await expect.poll(() => page.getByTestId('drive-state').textContent(), { timeout: 10_000 }).toMatch(/Piezo (holding at|moving (up|down) at) \d+\.\d{3} V/);
     for (const name of ['Start sweep', 'Stop drive', 'Hold', 'Start run', 'Add note']) {
       expect(await page.getByRole('button', { name, exact: true }).count(), name).toBe(0);
     }

@@ -8,6 +8,7 @@ import type { BenchViewData, ViewerData } from '../../lib/bench-view.ts';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { benchFiguresSchema } from '../../lib/bench-figures-schema.ts';
 import { ApiError, errorText, fetchCounts, fetchFigures, fetchSweeps, sweepSchema, type Sweep } from '../../lib/client/api.ts';
+import { DriveTracker, sameDriveText, type DriveState } from '../../lib/client/drive-state.ts';
 import { FringeCells } from '../../lib/client/fringe-cells.ts';
 import { RateRing } from '../../lib/client/rate-ring.ts';
 import type { CountsMessage } from '../../lib/live-messages.ts';
@@ -15,6 +16,7 @@ import { FringeChart, type FringeHandle } from './FringeChart.tsx';
 import { RatesChart, type RatesHandle } from './RatesChart.tsx';
 import { PhotonStats, Readouts } from './Readouts.tsx';
 import { RunPanel } from './RunPanel.tsx';
+import { DriveStateLine } from './DriveStateLine.tsx';
 import { SweepControl } from './SweepControl.tsx';
 import { VisibilityTrend, type EnvelopePoint } from './VisibilityTrend.tsx';
 import { LiveBanner } from './LiveBanner.tsx';
@@ -51,12 +53,23 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
   const [hasCc, setHasCc] = useState(false);
   const [alarms, setAlarms] = useState<AlarmEventView[]>(props.alarms);
   const seenCounts = useRef(false);
+  const drive = useMemo(() => new DriveTracker(), []);
+  const [driveState, setDriveState] = useState<DriveState>({ kind: 'unknown' });
+  // Twice a second is enough for a person to follow, and keeps the page from re-rendering per message.
+  useEffect(() => {
+    const t = setInterval(() => {
+      const next = drive.state(Date.now());
+      setDriveState((prev) => (sameDriveText(prev, next) ? prev : next));
+    }, 500);
+    return () => clearInterval(t);
+  }, [drive]);
 
   const onCounts = useCallback(
     (m: CountsMessage) => {
       const ch: Record<string, number[]> = {};
       for (const [k, v] of Object.entries(m.ch)) ch[`${m.gateway}/${k}`] = v;
       ring.add(m.t0, m.dt, ch);
+      if (m.x) drive.add(m.t0, m.dt, m.x);
       if (m.x && bench.outA && bench.outB) {
         const a = ch[bench.outA];
         const b = ch[bench.outB];
@@ -70,7 +83,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
         setHasCounts(true);
       }
     },
-    [ring, cells, bench, hasCc],
+    [ring, cells, bench, hasCc, drive],
   );
 
   const onMessage = useCallback(
@@ -184,6 +197,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
         {viewer.canOperate ? (
           <SweepControl
             bench={bench}
+            driveState={driveState}
             lastSweep={lastSweep}
             onSweepStarted={() => {
               cells.clear();
@@ -193,6 +207,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
         ) : (
           <section className="card text-sm text-muted" aria-label="Drive">
             <h2 className="mb-1 font-semibold text-ink">Drive</h2>
+            <div className="mb-2 text-ink"><DriveStateLine state={driveState} /></div>
             <p>You are following this bench read-only ({viewer.role}). Operators drive scans and runs.</p>
             <p className="figure mt-1 text-xs">limits {bench.drive.min}–{bench.drive.max} V · step ≤ {bench.drive.maxStep} V · dwell ≥ {bench.drive.minDwellMs} ms</p>
           </section>
