@@ -21,11 +21,11 @@ function Tile(props: { label: string; value: string; unit?: string | undefined; 
 function rateTile(c: ChannelFigures | undefined, label: string, tone: string, testId: string, corrections: Set<string>) {
   const r = rateParts(c?.rateRaw);
   // The corrected rate on the raw rate's scale, so the unit above serves both. With no dark rate
-  // or dead time set it would only repeat the raw rate: say so instead.
+  // or dead time set it would only repeat the raw rate: say so instead (short: the tile truncates).
   const corrected = !c
     ? 'waiting for counts'
     : !corrections.has(c.channel)
-      ? 'no dark rate or dead time set'
+      ? 'no corrections set'
       : c.rateCorrected
         ? `corr. ${formatRateErr(c.rateCorrected, c.rateRaw)}`
         : 'uncorrected (see warning)';
