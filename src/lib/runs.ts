@@ -29,6 +29,8 @@ export interface RunView {
   endMs: number | null;
   startedBy: { id: string; name: string } | null;
   noteCount: number;
+  /** Spared by retention: its bins and sums stay however old. */
+  keep: boolean;
 }
 
 export interface NoteView {
@@ -48,7 +50,10 @@ export const runViewSchema: z.ZodType<RunView> = z.object({
   endMs: z.number().nullable(),
   startedBy: z.object({ id: z.string(), name: z.string() }).nullable(),
   noteCount: z.number(),
+  keep: z.boolean(),
 });
+
+export const keepRunSchema = z.object({ keep: z.boolean() }).strict();
 
 export const noteViewSchema: z.ZodType<NoteView> = z.object({
   id: z.number(),

@@ -48,4 +48,22 @@ describe('runs API', () => {
     const list = (await (await call(obs, '/api/v1/benches/mz-633/runs')).json()) as { id: number; noteCount: number }[];
     expect(list.find((r) => r.id === run.id)?.noteCount).toBe(1);
   });
+
+  it('lets operators keep a run from retention and release it, and shows the run page for both roles', async () => {
+    const started = (await (await call(op, '/api/v1/benches/mz-810/runs', { title: 'Calibration to keep' })).json()) as { id: number; keep: boolean };
+    expect(started.keep).toBe(false);
+    expect((await call(obs, `/api/v1/runs/${started.id}/keep`, { keep: true })).status).toBe(403);
+    expect((await call(op, `/api/v1/runs/${started.id}/keep`, { keep: 'yes' })).status).toBe(422);
+    expect((await call(op, '/api/v1/runs/999999999/keep', { keep: true })).status).toBe(404);
+    const kept = await call(op, `/api/v1/runs/${started.id}/keep`, { keep: true });
+    expect(kept.status).toBe(200);
+    expect(((await kept.json()) as { keep: boolean }).keep).toBe(true);
+    const list = (await (await call(obs, '/api/v1/benches/mz-810/runs')).json()) as { id: number; keep: boolean }[];
+    expect(list.find((r) => r.id === started.id)?.keep).toBe(true);
+    const page = await call(obs, `/runs/${started.id}`);
+    expect(page.status).toBe(200);
+    expect(await page.text()).toContain('retention never trims this run');
+    expect(((await (await call(op, `/api/v1/runs/${started.id}/keep`, { keep: false })).json()) as { keep: boolean }).keep).toBe(false);
+    await call(op, `/api/v1/runs/${started.id}/stop`, {});
+  });
 });

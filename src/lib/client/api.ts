@@ -143,6 +143,10 @@ export function stopRun(id: number): Promise<RunView> {
   return call(`/api/v1/runs/${id}/stop`, runViewSchema, { method: 'POST' });
 }
 
+export function setRunKeep(id: number, keep: boolean): Promise<RunView> {
+  return call(`/api/v1/runs/${id}/keep`, runViewSchema, { method: 'POST', body: JSON.stringify({ keep }) });
+}
+
 export function fetchNotes(runId: number, signal?: AbortSignal): Promise<NoteView[]> {
   return call(`/api/v1/runs/${runId}/notes`, z.array(noteViewSchema), undefined, signal);
 }

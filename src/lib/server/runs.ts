@@ -4,6 +4,7 @@ import { and, asc, count, desc, eq, inArray, isNull } from 'drizzle-orm';
 import { getDb } from './db/index.ts';
 import { benches, notes, runs, users } from './db/schema.ts';
 import { HttpError } from './http/responses.ts';
+import { recordAudit } from './audit.ts';
 import type { AddNoteBody, NoteView, RunView, StartRunBody } from '../runs.ts';
 import { benchFiguresSchema } from '../bench-figures-schema.ts';
 
@@ -19,12 +20,13 @@ const runColumns = {
   title: runs.title,
   startMs: runs.startMs,
   endMs: runs.endMs,
+  keep: runs.keep,
   userId: users.id,
   userName: users.name,
   userEmail: users.email,
 };
 
-type RunRow = { id: number; benchId: string; title: string; startMs: number; endMs: number | null; userId: string | null; userName: string | null; userEmail: string | null };
+type RunRow = { id: number; benchId: string; title: string; startMs: number; endMs: number | null; keep: boolean; userId: string | null; userName: string | null; userEmail: string | null };
 
 async function noteCounts(runIds: number[]): Promise<Map<number, number>> {
   if (runIds.length === 0) return new Map();
@@ -42,6 +44,7 @@ async function toViews(rows: RunRow[]): Promise<RunView[]> {
     endMs: r.endMs,
     startedBy: person(r.userId, r.userName, r.userEmail),
     noteCount: counts.get(r.id) ?? 0,
+    keep: r.keep,
   }));
 }
 
@@ -100,6 +103,15 @@ export async function stopRun(id: number, now = Date.now()): Promise<RunView> {
     if (!run) throw new HttpError(404, `no run ${id}`);
     throw new HttpError(409, 'this run has already stopped');
   }
+  return (await getRun(id))!;
+}
+
+/** Marks a run to be spared by retention, or no longer; recorded in the audit trail. */
+export async function setRunKeep(id: number, keep: boolean, userId: string): Promise<RunView> {
+  const before = await getRun(id);
+  if (!before) throw new HttpError(404, `no run ${id}`);
+  await getDb().update(runs).set({ keep }).where(eq(runs.id, id));
+  await recordAudit({ actorId: userId, entity: 'run', entityId: String(id), action: keep ? 'keep' : 'unkeep', before: { keep: before.keep }, after: { keep } });
   return (await getRun(id))!;
 }
 
