@@ -4,7 +4,7 @@
 import { and, desc, eq, sql } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { getDb } from '../../src/lib/server/db/index.ts';
-import { auditLog, benches, caughtMail, channels, users } from '../../src/lib/server/db/schema.ts';
+import { auditLog, benches, caughtMail, channels, gateways, users } from '../../src/lib/server/db/schema.ts';
 import { createOneTimeLink } from '../../src/lib/server/one-time-links.ts';
 import { verifyGatewayToken } from '../../src/lib/server/provisioning.ts';
 import type { RunningApp } from '../../src/server/app.ts';
@@ -214,6 +214,22 @@ describe('benches and gateways', () => {
     await admin.postForm(`/admin/benches/${id}`, { intent: 'gateway-revoke', gatewayId: gw });
     expect(await verifyGatewayToken(gw, second!)).toBeNull();
     expect((await audits('gateway', gw)).map((r) => r.action)).toEqual(['provision', 'rotate_token', 'revoke']);
+  });
+
+  it('shows the reach the drive reports, warns when the limits go beyond it, and links each gateway to its health', async () => {
+    const gw = `tgw3-${process.pid}`;
+    await admin.postForm(`/admin/benches/${id}`, { intent: 'gateway-add', gatewayId: gw });
+    // The gateways before it were revoked or are this one: it is the one commands go to once it reports its scan range.
+    await getDb().delete(gateways).where(and(eq(gateways.benchId, id), sql`${gateways.id} <> ${gw}`));
+    await getDb().update(gateways).set({ status: { v: 1, state: 'online', scan: { min: 0, max: 100, unit: 'V' } } }).where(eq(gateways.id, gw));
+    const inside = await admin.get(`/admin/benches/${id}`);
+    // The limits of the test before (0–60 V) lie inside it.
+    expect(inside.text).toContain('data-testid="drive-reach">0–100 V');
+    expect(inside.text).not.toContain('limits-beyond-reach');
+    expect(inside.text).toContain(`href="/benches/${id}/gateways/${gw}"`);
+    const beyond = await admin.postForm(`/admin/benches/${id}`, { intent: 'limits', driveMin: '0', driveMax: '120', driveMaxStep: '0.5', driveMinDwellMs: '5' });
+    expect(beyond.status).toBe(200);
+    expect(beyond.text).toContain('limits-beyond-reach');
   });
 
   it('labels a channel, sets its role and corrections', async () => {

@@ -3,7 +3,8 @@
 // gateway also drops its live MQTT session (provisioning.ts asks the broker to).
 import { and, asc, eq } from 'drizzle-orm';
 import { z } from 'zod';
-import { benchIdSchema, channelKeySchema, gatewayIdSchema } from '../contract/wire.ts';
+import { benchIdSchema, channelKeySchema, gatewayIdSchema, statusSchema } from '../contract/wire.ts';
+import { isImportGateway } from '../import-shapes.ts';
 import { getDb } from './db/index.ts';
 import { benches, channels, gateways, type Bench, type Channel, type Gateway } from './db/schema.ts';
 import { recordAudit } from './audit.ts';
@@ -87,20 +88,26 @@ export async function updateDriveLimits(actor: SessionUser, id: string, input: u
 
 export interface BenchAdminView {
   bench: Bench;
-  gateways: Pick<Gateway, 'id' | 'revokedAt' | 'lastSeenAt' | 'createdAt'>[];
+  gateways: Pick<Gateway, 'id' | 'revokedAt' | 'lastSeenAt' | 'createdAt' | 'status'>[];
   channels: Channel[];
+  /** What the gateway commands go to (the bench's first live one) says its drive reaches; null when it has not said. */
+  reach: { gatewayId: string; min: number; max: number; unit: string } | null;
 }
 
 export async function benchAdminView(id: string): Promise<BenchAdminView> {
   const db = getDb();
   const bench = await loadBench(id);
   const gws = await db
-    .select({ id: gateways.id, revokedAt: gateways.revokedAt, lastSeenAt: gateways.lastSeenAt, createdAt: gateways.createdAt })
+    .select({ id: gateways.id, revokedAt: gateways.revokedAt, lastSeenAt: gateways.lastSeenAt, createdAt: gateways.createdAt, status: gateways.status })
     .from(gateways)
     .where(eq(gateways.benchId, id))
     .orderBy(asc(gateways.createdAt), asc(gateways.id));
   const chans = await db.select().from(channels).where(eq(channels.benchId, id)).orderBy(asc(channels.gatewayId), asc(channels.key));
-  return { bench, gateways: gws, channels: chans };
+  // The same gateway dispatch.ts sends commands to: the first that is not an imported run.
+  const driver = gws.find((g) => !isImportGateway(g.id));
+  const scan = driver ? statusSchema.pick({ scan: true }).safeParse(driver.status ?? {}) : null;
+  const reach = driver && scan?.success && scan.data.scan ? { gatewayId: driver.id, ...scan.data.scan } : null;
+  return { bench, gateways: gws, channels: chans, reach };
 }
 
 export async function updateChannel(actor: SessionUser, benchId: string, input: unknown): Promise<Channel> {
