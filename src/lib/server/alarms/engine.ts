@@ -7,6 +7,7 @@
 // which keeps the batch → alarm latency to one INSERT.
 import { and, eq, inArray, isNotNull, isNull } from 'drizzle-orm';
 import { alarmMessage, METRIC_INFO, type AlarmEventView, type AlarmMessage } from '../../alarm-messages.ts';
+import { formatRate } from '../../client/format.ts';
 import { benchChannels } from '../benches.ts';
 import { getDb } from '../db/index.ts';
 import { alarmRules, benches, gateways, settings, type AlarmRule } from '../db/schema.ts';
@@ -266,9 +267,10 @@ function fmt(v: number): string {
 
 function describe(rule: AlarmRule, subject: string, value: number): string {
   const info = METRIC_INFO[rule.metric];
-  const unit = info.unit ? ` ${info.unit}` : '';
   const where = subject ? `${subject}: ` : '';
-  return `${where}${info.label.toLowerCase()} — ${fmt(value)}${unit}, limit ${fmt(rule.threshold)}${unit}`;
+  // Rates read as everywhere else in the app (c/s, kc/s, Mc/s); other figures with their unit.
+  const show = (v: number) => (info.unit === 'counts/s' ? formatRate(v) : `${fmt(v)}${info.unit ? ` ${info.unit}` : ''}`);
+  return `${where}${info.label.toLowerCase()} — ${show(value)}, limit ${show(rule.threshold)}`;
 }
 
 /** Pushes to the bench's WebSocket clients when the live hub runs in this process. */
