@@ -7,7 +7,7 @@ import type uPlot from 'uplot';
 import { fetchSweeps, sweepFit, type Sweep } from '../../lib/client/api.ts';
 import { useFetched } from '../../lib/client/use-fetched.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
-import { formatClock, formatNumber, formatValueErr } from '../../lib/client/format.ts';
+import { formatClock, formatNumber, formatValueErr, PLUS_MINUS } from '../../lib/client/format.ts';
 import { ChartState } from '../charts/ChartState.tsx';
 import { errorBars } from '../charts/error-bars.ts';
 import { axis, timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
@@ -41,7 +41,10 @@ function meanSd(xs: number[]): { value: number; err: number } | null {
 /** Mean ± spread (to the spread's precision unless `decimals`), or the mean alone when one value gives no spread. */
 function meanText(v: { value: number; err: number } | null, decimals?: number): string {
   if (!v) return '–';
-  return Number.isFinite(v.err) ? formatValueErr(v, decimals) : v.value.toFixed(decimals ?? 3);
+  if (!Number.isFinite(v.err)) return v.value.toFixed(decimals ?? 3);
+  // A spread that rounds to nothing at the fixed precision says "below the last digit", not "exactly 0".
+  if (decimals !== undefined && v.err < 0.5 * 10 ** -decimals) return `${v.value.toFixed(decimals)}${PLUS_MINUS}<${(10 ** -decimals).toFixed(decimals)}`;
+  return formatValueErr(v, decimals);
 }
 
 function median(xs: number[]): number | null {
