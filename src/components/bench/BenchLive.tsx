@@ -29,6 +29,8 @@ const TREND_MS = 30 * 60_000;
 const RATES_BACKFILL_MS = 10 * 60_000;
 /** Step of the backfill, ms: the ring's bucket width. */
 const BACKFILL_STEP_MS = 100;
+/** How far back from page open a backfilled bucket may still have been filling (ms). */
+const BACKFILL_SETTLE_MS = 2_000;
 /** Most envelope points kept (one per figures message ≈ 1/s over the trend span). */
 const MAX_ENVELOPE = 1800;
 
@@ -129,7 +131,9 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
           if (col[i] == null) continue;
           const one: Record<string, number[]> = {};
           for (const k of Object.keys(ch)) one[k] = [ch[k]![i]!];
-          ring.add(c.t0 + i * c.step, c.step, one, true);
+          // Buckets ending in the last seconds may still have been filling (a gateway's batch covers
+          // up to a second and takes a moment to store): live bins replace them when they come.
+          ring.add(c.t0 + i * c.step, c.step, one, true, c.t0 + (i + 1) * c.step > now - BACKFILL_SETTLE_MS);
         }
         if (col.some((v) => v != null)) setHasCounts(true);
         rates.current?.invalidate();

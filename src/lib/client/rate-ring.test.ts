@@ -32,6 +32,19 @@ describe('RateRing', () => {
     expect(r.a.slice(1, 10)).toEqual(Array(9).fill(300));
     expect(r.a.slice(10)).toEqual(Array(10).fill(500));
   });
+
+  it('lets live bins replace a backfill bucket read while it was still filling, instead of showing a dip', () => {
+    const ring = new RateRing(['a']);
+    // Read at page open: [1.0, 1.1) s complete (100 counts), [1.1, 1.2) s only half there (50 of 100).
+    ring.add(1_000, 100, { a: [100] }, true, false);
+    ring.add(1_100, 100, { a: [50] }, true, true);
+    expect(rates(ring).a).toEqual([1000, 500]);
+    // The live bins of the second half of that bucket arrive: the bucket is now what live says.
+    ring.add(1_150, 10, { a: [10, 10, 10, 10, 10] });
+    expect(rates(ring).a).toEqual([1000, 1000]);
+    ring.add(1_100, 10, { a: [10, 10, 10, 10, 10] });
+    expect(rates(ring).a).toEqual([1000, 1000]);
+  });
 });
 
 describe('RateRing and the clock', () => {

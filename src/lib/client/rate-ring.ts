@@ -20,6 +20,8 @@ export class RateRing {
   private readonly covered: Float64Array;
   /** Bucket index (t / bucketMs) held in each slot; −1 when empty. */
   private readonly slotIndex: Float64Array;
+  /** 1 where a backfill's bucket may still have been filling when it was read: live bins replace it. */
+  private readonly provisional: Uint8Array;
   private newest = -1;
   /** Output arrays reused by every `view` call: seconds since the epoch, then rates in counts/s. */
   private readonly outX = new Float64Array(CAPACITY);
@@ -31,14 +33,18 @@ export class RateRing {
     this.outY = keys.map(() => new Float64Array(CAPACITY));
     this.covered = new Float64Array(CAPACITY);
     this.slotIndex = new Float64Array(CAPACITY).fill(-1);
+    this.provisional = new Uint8Array(CAPACITY);
   }
 
   /**
    * Adds bins [t0 + i·dt, t0 + (i+1)·dt) of the channels present in `ch` (others left as they are).
-   * `t0`, `dt` in ms; counts per bin. With `fillOnly`, buckets that already hold data are left
-   * alone (a backfill arriving after live messages must not count them twice).
+   * `t0`, `dt` in ms; counts per bin. With `fillOnly` (a backfill), buckets that already hold data
+   * are left alone: a backfill arriving after live messages must not count them twice. With
+   * `provisional` too, the buckets it fills may have been read while their bins were still
+   * arriving: the first live bins for such a bucket replace it, or its partial sum spread over the
+   * whole bucket would show as a dip.
    */
-  add(t0: number, dt: number, ch: Record<string, ArrayLike<number>>, fillOnly = false): void {
+  add(t0: number, dt: number, ch: Record<string, ArrayLike<number>>, fillOnly = false, provisional = false): void {
     const cols = this.keys.map((k) => ch[k]);
     const n = cols.find((c) => c)?.length ?? 0;
     const w = this.bucketMs;
@@ -52,10 +58,11 @@ export class RateRing {
         if (this.newest >= 0 && idx <= this.newest - CAPACITY) continue;
         const slot = idx % CAPACITY;
         if (fillOnly && this.slotIndex[slot] === idx) continue;
-        if (this.slotIndex[slot] !== idx) {
+        if (this.slotIndex[slot] !== idx || (!fillOnly && this.provisional[slot])) {
           this.slotIndex[slot] = idx;
           this.covered[slot] = 0;
           for (const s of this.sums) s[slot] = 0;
+          this.provisional[slot] = fillOnly && provisional ? 1 : 0;
         }
         const overlap = Math.min(end, (idx + 1) * w) - Math.max(start, idx * w);
         this.covered[slot]! += overlap;
