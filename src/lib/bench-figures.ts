@@ -39,5 +39,6 @@ export interface BenchFigures {
   /** Heralded anticorrelation parameter α. */
   alpha: ValueErr | null;
   /** Measured phase noise per bin beside the shot-noise limit. */
-  shotNoise: { measuredRad: number; limitRad: number; ratio: number; dB: number } | null;
+  /** Phase noise per bin of `binMs` against the shot-noise limit for the photons of such a bin (older snapshots lack `binMs`). */
+  shotNoise: { measuredRad: number; limitRad: number; ratio: number; dB: number; binMs?: number | undefined } | null;
 }

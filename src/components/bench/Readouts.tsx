@@ -73,7 +73,7 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
           label="Phase noise"
           value={sn ? sn.ratio.toFixed(2) : '–'}
           unit={sn ? '× shot noise' : undefined}
-          subs={sn ? [`${(sn.measuredRad * 1000).toFixed(2)} mrad · ${sn.dB >= 0 ? '+' : ''}${sn.dB.toFixed(1)} dB`, `shot-noise limit ${(sn.limitRad * 1000).toFixed(2)} mrad`] : ['while holding only']}
+          subs={sn ? [`${(sn.measuredRad * 1000).toFixed(2)} mrad${sn.binMs ? ` per ${sn.binMs} ms bin` : ''} · ${sn.dB >= 0 ? '+' : ''}${sn.dB.toFixed(1)} dB`, `shot-noise limit ${(sn.limitRad * 1000).toFixed(2)} mrad`] : ['while holding only']}
         />
       </div>
       {warnings.length > 0 && (

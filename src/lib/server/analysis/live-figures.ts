@@ -122,7 +122,7 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
         const photonsPerBin = (na + nb) / bins;
         if (eps.every(Number.isFinite) && photonsPerBin > 0) {
           const s = phaseSensitivity(phaseNoise(eps), photonsPerBin, v);
-          shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, dB: s.dB };
+          shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, dB: s.dB, binMs: la.dtMs };
         }
       }
     }
