@@ -35,7 +35,13 @@ function xRange(span: Props['span'], dataMin: number | null, dataMax: number | n
   const nowS = Date.now() / 1000;
   const to = span ? (span.to === null ? nowS : span.to / 1000) : (dataMax ?? nowS);
   const from = span?.from != null ? span.from / 1000 : (dataMin ?? to);
-  return to - from < MIN_SPAN_S ? [to - MIN_SPAN_S, to + 5] : [from, to];
+  if (to - from >= MIN_SPAN_S) return [from, to];
+  // Too short to read: widen it, around its middle when both ends are fixed (a short run), else back from now.
+  if (span && span.from !== null && span.to !== null) {
+    const mid = (from + to) / 2;
+    return [mid - MIN_SPAN_S / 2, mid + MIN_SPAN_S / 2];
+  }
+  return [to - MIN_SPAN_S, to + 5];
 }
 
 export function VisibilityTrend(props: Props) {
