@@ -73,8 +73,8 @@ export async function planExport(benchId: string, q: ExportQuery): Promise<Expor
   return { meta, format: q.format };
 }
 
-/** A stored batch as read back: the same shape the ingest writes. */
-type BatchRow = Slice;
+/** A stored row as read back, its counts channel-major: counts[k·n + j] is channel keys[k], bin j. */
+type BatchRow = Omit<Slice, 'channels'> & { counts: number[] };
 
 /** Pages one gateway's batches overlapping [from, to) in t0 order. */
 export async function* gatewayBatches(gatewayId: string, fromMs: number, toMs: number): AsyncGenerator<BatchRow> {

@@ -162,9 +162,7 @@ export class CountsCsvReader {
     const n = c.x.length;
     // Keys sorted, as the ingest stores them, so imported and live rows have the same shape.
     const order = this.channels.map((ch, k) => ({ key: ch.key, k })).sort((a, b) => (a.key < b.key ? -1 : 1));
-    const counts: number[] = [];
-    for (const { k } of order) counts.push(...c.counts[k]!);
-    this.onBatch({ t0: c.t0, dt: this.dt, n, keys: order.map((o) => o.key), counts, x: this.hasX ? c.x : null, cc: this.hasCc ? c.cc : null });
+    this.onBatch({ t0: c.t0, dt: this.dt, n, keys: order.map((o) => o.key), channels: order.map(({ k }) => c.counts[k]!), x: this.hasX ? c.x : null, cc: this.hasCc ? c.cc : null });
   }
 
   /** Call once after the last record. */

@@ -11,7 +11,7 @@ import { BatchWriter, type StoredEvent } from './store.ts';
 
 export function countsMessage(benchId: string, gatewayId: string, s: Slice): CountsMessage {
   const ch: Record<string, number[]> = {};
-  s.keys.forEach((k, i) => (ch[k] = s.counts.slice(i * s.n, (i + 1) * s.n)));
+  s.keys.forEach((k, i) => (ch[k] = s.channels[i]!));
   const msg: CountsMessage = { type: 'counts', bench: benchId, gateway: gatewayId, t0: s.t0, dt: s.dt, ch };
   if (s.x) msg.x = s.x;
   if (s.cc) msg.cc = s.cc;

@@ -18,7 +18,7 @@ function byDefinition(items: { gatewayId: string; slice: Slice }[]) {
   };
   for (const { gatewayId, slice: s } of items) {
     for (let j = 0; j < s.n; j++) {
-      s.keys.forEach((k, i) => put(gatewayId, k, s.t0 + j * s.dt, s.counts[i * s.n + j]!));
+      s.keys.forEach((k, i) => put(gatewayId, k, s.t0 + j * s.dt, s.channels[i]![j]!));
       if (s.cc) put(gatewayId, CC_KEY, s.t0 + j * s.dt, s.cc[j]!);
     }
   }
@@ -40,7 +40,7 @@ const slice = (t0: number, dt: number, n: number, keys: string[], cc = false): S
   dt,
   n,
   keys,
-  counts: Array.from({ length: n * keys.length }, (_, i) => (i * 37) % 101),
+  channels: keys.map((_, k) => Array.from({ length: n }, (_, j) => ((k * n + j) * 37) % 101)),
   x: null,
   cc: cc ? Array.from({ length: n }, (_, i) => i % 4) : null,
 });

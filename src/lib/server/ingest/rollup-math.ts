@@ -64,7 +64,7 @@ export function rollupDeltas(items: { gatewayId: string; slice: Slice }[]): Roll
   };
   for (const { gatewayId, slice } of items) {
     const { n, dt, t0 } = slice;
-    for (let k = 0; k < slice.keys.length; k++) addSeries(gatewayId, slice.keys[k]!, t0, dt, slice.counts, k * n, n);
+    for (let k = 0; k < slice.keys.length; k++) addSeries(gatewayId, slice.keys[k]!, t0, dt, slice.channels[k]!, 0, n);
     if (slice.cc) addSeries(gatewayId, CC_KEY, t0, dt, slice.cc, 0, n);
   }
   // A stable order keeps row locks in one order across transactions.

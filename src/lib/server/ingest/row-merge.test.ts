@@ -9,8 +9,8 @@ import type { StoredSlice } from './write-statement.ts';
 function slice(gatewayId: string, t0: number, n: number, opts: { dt?: number; keys?: string[]; x?: boolean; cc?: boolean; seq?: number } = {}): StoredSlice {
   const dt = opts.dt ?? 1;
   const keys = opts.keys ?? ['a', 'b'];
-  const counts = keys.flatMap((_, k) => Array.from({ length: n }, (_, j) => (t0 + j * dt) * 10 + k));
-  const s: Slice = { t0, dt, n, keys, counts, x: opts.x ? Array.from({ length: n }, (_, j) => t0 + j * dt + 0.5) : null, cc: opts.cc ? Array.from({ length: n }, (_, j) => t0 + j * dt) : null };
+  const channels = keys.map((_, k) => Array.from({ length: n }, (_, j) => (t0 + j * dt) * 10 + k));
+  const s: Slice = { t0, dt, n, keys, channels, x: opts.x ? Array.from({ length: n }, (_, j) => t0 + j * dt + 0.5) : null, cc: opts.cc ? Array.from({ length: n }, (_, j) => t0 + j * dt) : null };
   return { gatewayId, slice: s, boot: 'b1', seq: opts.seq ?? t0 };
 }
 
@@ -20,7 +20,7 @@ function bins(slices: { gatewayId: string; slice: Slice }[]) {
   for (const { gatewayId, slice: s } of slices) {
     for (let j = 0; j < s.n; j++) {
       const t = s.t0 + j * s.dt;
-      s.keys.forEach((k, i) => out.set(`${gatewayId}/${k}/${t}`, s.counts[i * s.n + j]!));
+      s.keys.forEach((k, i) => out.set(`${gatewayId}/${k}/${t}`, s.channels[i]![j]!));
       out.set(`${gatewayId}/x/${t}`, s.x?.[j] ?? null);
       out.set(`${gatewayId}/cc/${t}`, s.cc?.[j] ?? null);
     }
@@ -36,7 +36,7 @@ function rowBins(rows: Row[]) {
     for (const p of r.parts) {
       for (let j = 0; j < p.n; j++) {
         const t = r.t0 + (at + j) * r.dt;
-        r.keys.forEach((k, i) => out.set(`${r.gatewayId}/${k}/${t}`, p.counts[i * p.n + j]!));
+        r.keys.forEach((k, i) => out.set(`${r.gatewayId}/${k}/${t}`, p.channels[i]![j]!));
         out.set(`${r.gatewayId}/x/${t}`, r.x?.[at + j] ?? null);
         out.set(`${r.gatewayId}/cc/${t}`, r.cc?.[at + j] ?? null);
       }

@@ -73,10 +73,10 @@ select 1`;
  */
 function packRows(rows: Row[]) {
   const packs = rows.map((r) => {
-    let width = countWidth(r.parts[0]!.counts);
-    for (let i = 1; i < r.parts.length; i++) width = Math.max(width, countWidth(r.parts[i]!.counts)) as CountWidth;
+    let width: CountWidth = 1;
+    for (const p of r.parts) for (const c of p.channels) width = Math.max(width, countWidth(c)) as CountWidth;
     const runs: Run[] = [];
-    for (let k = 0; k < r.keys.length; k++) for (const p of r.parts) runs.push({ values: p.counts, from: k * p.n, to: (k + 1) * p.n });
+    for (let k = 0; k < r.keys.length; k++) for (const p of r.parts) runs.push({ values: p.channels[k]!, from: 0, to: p.n });
     return { width, runs, ccWidth: r.cc ? countWidth(r.cc) : null };
   });
   let size = 0;

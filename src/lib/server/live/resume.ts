@@ -70,6 +70,6 @@ export async function countsPage(
       );
   const page = rows.slice(0, limit);
   const last = page.at(-1);
-  const messages = page.map(unpackRow).map((r) => countsMessage(benchId, r.gateway_id, { t0: r.t0, dt: r.dt, n: r.n, keys: r.keys, counts: r.counts, x: r.x, cc: r.cc }));
+  const messages = page.map(unpackRow).map((r) => countsMessage(benchId, r.gateway_id, { t0: r.t0, dt: r.dt, n: r.n, keys: r.keys, channels: r.keys.map((_, i) => r.counts.slice(i * r.n, (i + 1) * r.n)), x: r.x, cc: r.cc }));
   return { messages, next: rows.length > limit && last ? { t0: last.t0, gateway: last.gateway_id } : null };
 }
