@@ -65,9 +65,10 @@ function binsOfBatches(batches: Pick<Bins, 't0' | 'dt' | 'ch'>[]): Map<string, n
 }
 
 /**
- * Seqs rise with time from 0. A row holds a run of contiguous batches of one write (rows merge
- * them), named by its first seq, so rows skip the seqs inside them; that none went missing or came
- * out of order is the health page's seq gap count.
+ * Seqs rise with time from 0: replay kept the order. A row holds a run of contiguous batches of one
+ * write (rows merge them), named by its first seq, so rows skip the seqs inside them; that none is
+ * missing is the health page's seq gap count (a late batch takes its gap back, so it says nothing
+ * of order).
  */
 function inOrderFromZero(seqs: number[]): boolean {
   return seqs[0] === 0 && seqs.every((s, i) => i === 0 || s > seqs[i - 1]!);

@@ -5,6 +5,7 @@ import type uPlot from 'uplot';
 import type { Sweep } from '../../lib/client/api.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
 import { axis, timeAxis, useUPlot } from '../charts/useUPlot.ts';
+import { useNow } from '../../lib/client/use-now.ts';
 
 /** Narrowest time span drawn, s: two sweeps seconds apart would otherwise get millisecond ticks. */
 const MIN_SPAN_S = 120;
@@ -92,9 +93,11 @@ export function VisibilityTrend(props: Props) {
     `${hasEnvelope}/${hasLimit}`,
   );
 
+  // An axis that ends now moves with the clock, not only when a fit arrives (an idle bench).
+  const tick = useNow(props.span?.to === null ? 5_000 : undefined);
   useEffect(() => {
     plot.current?.setData(data());
-  }, [props.sweeps, props.envelope, props.limit]);
+  }, [props.sweeps, props.envelope, props.limit, tick]);
 
   const empty = props.sweeps.length === 0 && props.envelope.length === 0;
   return (

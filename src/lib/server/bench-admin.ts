@@ -4,7 +4,7 @@
 import { and, asc, eq } from 'drizzle-orm';
 import { z } from 'zod';
 import { benchIdSchema, channelKeySchema, gatewayIdSchema, statusSchema } from '../contract/wire.ts';
-import { isImportGateway } from '../import-shapes.ts';
+import { pickDriveGateway } from './commands/dispatch.ts';
 import { getDb } from './db/index.ts';
 import { benches, channels, gateways, type Bench, type Channel, type Gateway } from './db/schema.ts';
 import { recordAudit } from './audit.ts';
@@ -103,8 +103,8 @@ export async function benchAdminView(id: string): Promise<BenchAdminView> {
     .where(eq(gateways.benchId, id))
     .orderBy(asc(gateways.createdAt), asc(gateways.id));
   const chans = await db.select().from(channels).where(eq(channels.benchId, id)).orderBy(asc(channels.gatewayId), asc(channels.key));
-  // The same gateway dispatch.ts sends commands to: the first that is not an imported run.
-  const driver = gws.find((g) => !isImportGateway(g.id));
+  // The gateway commands go to (dispatch.ts), so the reach shown is the one that refuses them.
+  const driver = pickDriveGateway(gws);
   const scan = driver ? statusSchema.pick({ scan: true }).safeParse(driver.status ?? {}) : null;
   const reach = driver && scan?.success && scan.data.scan ? { gatewayId: driver.id, ...scan.data.scan } : null;
   return { bench, gateways: gws, channels: chans, reach };

@@ -36,6 +36,19 @@ export interface GatewayHealthView {
   };
 }
 
+/**
+ * Batches in rows in time order. A row may join a gateway's contiguous batches of one write, named
+ * by its first seq: within a boot the next row's seq says how many it held; the last row counts one.
+ */
+function batchesIn(rows: { boot: string; seq: number }[]): number {
+  let batches = 0;
+  rows.forEach((r, i) => {
+    const next = rows[i + 1];
+    batches += next && next.boot === r.boot && next.seq > r.seq ? next.seq - r.seq : 1;
+  });
+  return batches;
+}
+
 export async function loadGatewayHealth(gatewayId: string, now = Date.now()): Promise<GatewayHealthView | null> {
   const [row] = await getDb()
     .select({ g: gateways, h: gatewayHealth })
@@ -46,8 +59,8 @@ export async function loadGatewayHealth(gatewayId: string, now = Date.now()): Pr
   if (!row) return null;
   const { g, h } = row;
   const status = (g.status ?? null) as GatewayHealthView['status'];
-  const { rows } = await getDbHandle().pool.query<{ n: number; dt: number; keys: string[]; counts: Buffer }>(
-    'select n, dt, keys, counts from count_batches where gateway_id = $1 and t0 >= $2 and t0 < $3',
+  const { rows } = await getDbHandle().pool.query<{ n: number; dt: number; keys: string[]; counts: Buffer; boot: string; seq: number }>(
+    'select n, dt, keys, counts, boot, seq from count_batches where gateway_id = $1 and t0 >= $2 and t0 < $3 order by t0',
     [gatewayId, now - RATE_WINDOW_MS, now],
   );
   let bins = 0;
@@ -81,7 +94,7 @@ export async function loadGatewayHealth(gatewayId: string, now = Date.now()): Pr
     clockOffsetMs: h?.clockOffsetMs ?? null,
     rates: {
       windowMs: RATE_WINDOW_MS,
-      batchesPerMinute: (rows.length * 60_000) / RATE_WINDOW_MS,
+      batchesPerMinute: (batchesIn(rows) * 60_000) / RATE_WINDOW_MS,
       binsPerSecond: (bins * 1000) / RATE_WINDOW_MS,
       countsPerSecond,
     },

@@ -19,9 +19,14 @@ import { driveLimitViolation } from './drive-limits.ts';
  */
 export async function driveGateway(benchId: string): Promise<string | null> {
   const all = await getDb().select({ id: gateways.id, status: gateways.status }).from(gateways).where(eq(gateways.benchId, benchId)).orderBy(asc(gateways.createdAt), asc(gateways.id));
-  const rows = all.filter((r) => !isImportGateway(r.id));
+  return pickDriveGateway(all)?.id ?? null;
+}
+
+/** The rule of `driveGateway` over a bench's gateways, oldest first (the admin page shows its reach). */
+export function pickDriveGateway<G extends { id: string; status: unknown }>(oldestFirst: G[]): G | null {
+  const rows = oldestFirst.filter((r) => !isImportGateway(r.id));
   const withScan = rows.find((r) => typeof r.status === 'object' && r.status !== null && 'scan' in r.status);
-  return (withScan ?? rows[0])?.id ?? null;
+  return withScan ?? rows[0] ?? null;
 }
 
 export async function dispatchCommand(benchId: string, body: CommandBody, actorId: string): Promise<{ id: string; gateway: string }> {

@@ -138,6 +138,8 @@ async function insertChannels(client: pg.PoolClient, benchId: string, gatewayId:
  * the only one that can reach into the span (rows of a gateway never overlap).
  */
 async function refuseOverlap(client: pg.PoolClient, benchId: string, ownGateway: string, fromMs: number, toMs: number): Promise<void> {
+  // Two imports into one bench at once would each miss the other's uncommitted rows: one at a time.
+  await client.query('select pg_advisory_xact_lock(hashtext($1))', [`import:${benchId}`]);
   const { rows } = await client.query<{ gateway_id: string; t0: number; t1: number }>(
     `select g.id as gateway_id, c.t0, c.t1
        from gateways g

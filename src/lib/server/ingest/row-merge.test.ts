@@ -75,6 +75,15 @@ describe('mergeContiguous', () => {
     }
   });
 
+  it('never joins across a reboot, and bounds a row by its counts on wide benches', () => {
+    const rebooted = { ...slice('g', 2, 2), boot: 'b2' };
+    expect(mergeContiguous([slice('g', 0, 2), rebooted])).toHaveLength(2);
+    // 32 channels: 24,000 counts are 750 bins a row, so two batches of 500 stay apart.
+    const keys = Array.from({ length: 32 }, (_, i) => `c${i}`);
+    expect(mergeContiguous([slice('g', 0, 500, { keys }), slice('g', 500, 500, { keys })])).toHaveLength(2);
+    expect(mergeContiguous([slice('g', 0, 300, { keys }), slice('g', 300, 300, { keys })])).toHaveLength(1);
+  });
+
   it('starts a new row where the bins would pass the bound', () => {
     const rows = mergeContiguous([slice('g', 0, 4), slice('g', 4, 4), slice('g', 8, 4)], 8);
     expect(rows.map((r) => [r.t0, r.n])).toEqual([

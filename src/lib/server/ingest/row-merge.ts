@@ -2,8 +2,10 @@
 // optional arrays, the next starting where the last ended) become one `count_batches` row. A busy
 // broker puts dozens of a gateway's batches in one write; as one row each, PostgreSQL spent most of
 // its time on per-row work (tuple, primary-key entry, WAL record) and the server on per-row
-// parameters (DEVELOPERS.md, "Ingest benchmark"). A row never exceeds the contract's bins per batch,
-// so every reader's bound on a row still holds. The counts stay in their slices (the write packs
+// parameters (DEVELOPERS.md, "Ingest benchmark"). A row holds at most the contract's bins per batch
+// and MAX_ROW_COUNTS counts in all (bins × channels), so one row as a live message (a resume replays
+// rows) stays within a batch's 256 KiB and well inside a client's queue. It never spans a reboot:
+// its boot and seq are those of its first batch. The counts stay in their slices (the write packs
 // them from there: copying them into one array first cost as much as packing them). Live frames and
 // outcomes are per batch and do not see this. Pure.
 import { MAX_BINS } from '../../contract/wire.ts';
@@ -26,9 +28,13 @@ export interface Row {
   cc: number[] | null;
 }
 
-function continues(row: Row, next: Slice, maxBins: number): boolean {
+/** Most counts in one row, bins × channels: ~10 bytes each as JSON, so a row's message stays under 256 KiB. */
+export const MAX_ROW_COUNTS = 24_000;
+
+function continues(row: Row, next: Slice, boot: string, maxBins: number): boolean {
   const last = row.parts[row.parts.length - 1]!;
-  if (next.t0 !== last.t0 + last.n * last.dt || next.dt !== row.dt || row.n + next.n > maxBins) return false;
+  if (next.t0 !== last.t0 + last.n * last.dt || next.dt !== row.dt || boot !== row.boot) return false;
+  if (row.n + next.n > Math.min(maxBins, Math.floor(MAX_ROW_COUNTS / row.keys.length))) return false;
   if ((next.x === null) !== (row.x === null) || (next.cc === null) !== (row.cc === null)) return false;
   if (next.keys.length !== row.keys.length) return false;
   for (let i = 0; i < next.keys.length; i++) if (next.keys[i] !== row.keys[i]) return false;
@@ -41,7 +47,7 @@ export function mergeContiguous(stored: StoredSlice[], maxBins = MAX_BINS): Row[
   const open = new Map<string, Row>();
   for (const { gatewayId, boot, seq, slice } of stored) {
     const row = open.get(gatewayId);
-    if (row && continues(row, slice, maxBins)) {
+    if (row && continues(row, slice, boot, maxBins)) {
       row.parts.push(slice);
       row.n += slice.n;
       continue;

@@ -243,10 +243,9 @@ export class BatchWriter {
       }
     }
     // Work on copies: the cache changes only after a COMMIT (and is dropped when a write fails).
-    return new Map(gatewayIds.map((g) => {
-      const s = this.seqState.get(g)!;
-      return [g, { ...s, missing: new Set(s.missing) }];
-    }));
+    // The missing set is shared, not copied (it can hold thousands): a failed write drops the whole
+    // cached state of its gateways, so what it changed in the set goes with it.
+    return new Map(gatewayIds.map((g) => [g, { ...this.seqState.get(g)! }]));
   }
 
   /**
