@@ -47,6 +47,21 @@ describe('RateRing', () => {
   });
 });
 
+describe('RateRing with channels from several gateways', () => {
+  it('gives each channel its own rate when two gateways fill the same bucket, and holds a slower one', () => {
+    const ring = new RateRing(['g1/a', 'g2/h']);
+    // g1 sends 10 ms bins of 10 counts (1000 /s); g2 one 100 ms bin of 50 counts (500 /s), same bucket.
+    ring.add(1_000, 10, { 'g1/a': Array(10).fill(10) });
+    ring.add(1_000, 100, { 'g2/h': [50] });
+    // The next bucket has g1's bins only: g2's batch for it has not come yet.
+    ring.add(1_100, 10, { 'g1/a': Array(10).fill(20) });
+    const v = ring.view(0);
+    expect([...v.x]).toEqual([1, 1.1]);
+    expect([...v.y[0]!]).toEqual([1000, 2000]);
+    expect([...v.y[1]!]).toEqual([500, 500]);
+  });
+});
+
 describe('RateRing and the clock', () => {
   it('does not draw bins from far in the future, which would push every true bin out', () => {
     const ring = new RateRing(['a']);

@@ -16,12 +16,16 @@ export class RateRing {
   readonly bucketMs = BUCKET_MS;
   readonly keys: string[];
   private readonly sums: Float64Array[];
-  /** Milliseconds of bins that landed in each bucket (a partly filled bucket is not a dim one). */
-  private readonly covered: Float64Array;
+  /**
+   * Per channel, milliseconds of bins that landed in each bucket (a partly filled bucket is not a
+   * dim one). Per channel because a bench's channels may come from several gateways, each filling
+   * the bucket with its own bins.
+   */
+  private readonly covered: Float64Array[];
   /** Bucket index (t / bucketMs) held in each slot; −1 when empty. */
   private readonly slotIndex: Float64Array;
-  /** 1 where a backfill's bucket may still have been filling when it was read: live bins replace it. */
-  private readonly provisional: Uint8Array;
+  /** Per channel, 1 where a backfill's bucket may still have been filling when read: live bins replace it. */
+  private readonly provisional: Uint8Array[];
   private newest = -1;
   /** Output arrays reused by every `view` call: seconds since the epoch, then rates in counts/s. */
   private readonly outX = new Float64Array(CAPACITY);
@@ -31,18 +35,18 @@ export class RateRing {
     this.keys = keys;
     this.sums = keys.map(() => new Float64Array(CAPACITY));
     this.outY = keys.map(() => new Float64Array(CAPACITY));
-    this.covered = new Float64Array(CAPACITY);
+    this.covered = keys.map(() => new Float64Array(CAPACITY));
     this.slotIndex = new Float64Array(CAPACITY).fill(-1);
-    this.provisional = new Uint8Array(CAPACITY);
+    this.provisional = keys.map(() => new Uint8Array(CAPACITY));
   }
 
   /**
    * Adds bins [t0 + i·dt, t0 + (i+1)·dt) of the channels present in `ch` (others left as they are).
-   * `t0`, `dt` in ms; counts per bin. With `fillOnly` (a backfill), buckets that already hold data
-   * are left alone: a backfill arriving after live messages must not count them twice. With
-   * `provisional` too, the buckets it fills may have been read while their bins were still
-   * arriving: the first live bins for such a bucket replace it, or its partial sum spread over the
-   * whole bucket would show as a dip.
+   * `t0`, `dt` in ms; counts per bin. With `fillOnly` (a backfill, bins at least a bucket wide),
+   * a channel's bucket that already holds its data is left alone: a backfill arriving after live
+   * messages must not count them twice. With `provisional` too, the buckets it fills may have been
+   * read while their bins were still arriving: the channel's first live bins for such a bucket
+   * replace it, or its partial sum spread over the whole bucket would show as a dip.
    */
   add(t0: number, dt: number, ch: Record<string, ArrayLike<number>>, fillOnly = false, provisional = false): void {
     const cols = this.keys.map((k) => ch[k]);
@@ -57,19 +61,28 @@ export class RateRing {
         // Older than the ring holds: nothing to show it in.
         if (this.newest >= 0 && idx <= this.newest - CAPACITY) continue;
         const slot = idx % CAPACITY;
-        if (fillOnly && this.slotIndex[slot] === idx) continue;
-        if (this.slotIndex[slot] !== idx || (!fillOnly && this.provisional[slot])) {
+        if (this.slotIndex[slot] !== idx) {
           this.slotIndex[slot] = idx;
-          this.covered[slot] = 0;
-          for (const s of this.sums) s[slot] = 0;
-          this.provisional[slot] = fillOnly && provisional ? 1 : 0;
+          for (let c = 0; c < cols.length; c++) {
+            this.sums[c]![slot] = 0;
+            this.covered[c]![slot] = 0;
+            this.provisional[c]![slot] = 0;
+          }
         }
         const overlap = Math.min(end, (idx + 1) * w) - Math.max(start, idx * w);
-        this.covered[slot]! += overlap;
         const share = overlap / dt;
         for (let c = 0; c < cols.length; c++) {
           const col = cols[c];
-          if (col) this.sums[c]![slot]! += col[i]! * share;
+          if (!col) continue;
+          if (fillOnly && this.covered[c]![slot]! > 0) continue;
+          if (!fillOnly && this.provisional[c]![slot]) {
+            this.sums[c]![slot] = 0;
+            this.covered[c]![slot] = 0;
+            this.provisional[c]![slot] = 0;
+          }
+          this.covered[c]![slot]! += overlap;
+          this.sums[c]![slot]! += col[i]! * share;
+          if (fillOnly && provisional) this.provisional[c]![slot] = 1;
         }
         if (idx > this.newest) this.newest = idx;
       }
@@ -91,11 +104,13 @@ export class RateRing {
       const first = Math.max(Math.floor(fromMs / this.bucketMs), this.newest - CAPACITY + 1);
       for (let idx = first; idx <= this.newest; idx++) {
         const slot = idx % CAPACITY;
-        const cov = this.covered[slot]!;
-        if (this.slotIndex[slot] !== idx || cov <= 0) continue;
+        if (this.slotIndex[slot] !== idx || !this.covered.some((cov) => cov[slot]! > 0)) continue;
         this.outX[len] = (idx * this.bucketMs) / 1000;
         for (let c = 0; c < this.keys.length; c++) {
-          const r = (this.sums[c]![slot]! * 1000) / cov;
+          const cov = this.covered[c]![slot]!;
+          // A channel whose gateway has not reached this bucket yet (its batches come slower than
+          // another's) keeps its last rate rather than drop to zero.
+          const r = cov > 0 ? (this.sums[c]![slot]! * 1000) / cov : len > 0 ? this.outY[c]![len - 1]! : floor;
           this.outY[c]![len] = r < floor ? floor : r;
         }
         len++;
