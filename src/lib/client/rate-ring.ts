@@ -89,6 +89,12 @@ export class RateRing {
     }
   }
 
+  /** Whether any channel has bins in the slot (a plain loop: this runs per bucket on every redraw). */
+  private holdsData(slot: number): boolean {
+    for (const cov of this.covered) if (cov[slot]! > 0) return true;
+    return false;
+  }
+
   /** Newest bucket's start, ms; null when empty. */
   newestMs(): number | null {
     return this.newest < 0 ? null : this.newest * this.bucketMs;
@@ -104,7 +110,7 @@ export class RateRing {
       const first = Math.max(Math.floor(fromMs / this.bucketMs), this.newest - CAPACITY + 1);
       for (let idx = first; idx <= this.newest; idx++) {
         const slot = idx % CAPACITY;
-        if (this.slotIndex[slot] !== idx || !this.covered.some((cov) => cov[slot]! > 0)) continue;
+        if (this.slotIndex[slot] !== idx || !this.holdsData(slot)) continue;
         this.outX[len] = (idx * this.bucketMs) / 1000;
         for (let c = 0; c < this.keys.length; c++) {
           const cov = this.covered[c]![slot]!;
