@@ -130,7 +130,9 @@ export function FringeChart(props: Props) {
     plot.current?.setData(data());
   }, [props.sweeps]);
 
-  const lastFit = props.sweeps.at(-1);
+  // The fit the curves show: the newest of the kept passes' direction (or the newest of all).
+  const shownDir = dir ?? props.sweeps.at(-1)?.direction;
+  const lastFit = props.sweeps.findLast((s) => s.direction === shownDir);
   const now = useNow(5_000);
   // The calibration of the latest pass, labelled with its direction: up and down differ by the piezo's hysteresis.
   const piezo = lastFit ? sweepFit(lastFit)?.piezoNmPerV : null;
