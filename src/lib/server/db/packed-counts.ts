@@ -17,18 +17,19 @@ export function countWidth(values: ArrayLike<number>): CountWidth {
 
 export const packedLength = (count: number, width: CountWidth) => 1 + count * width;
 
-/** Writes `values[from..to)` at `out[at]` without the width byte; returns the offset after them. */
-function writeRange(values: ArrayLike<number>, from: number, to: number, width: CountWidth, out: Uint8Array, at: number): number {
+/** Writes `values` at `out[at]` without the width byte; returns the offset after them. */
+function writeValues(values: ArrayLike<number>, width: CountWidth, out: Uint8Array, at: number): number {
+  const n = values.length;
   if (width === 1) {
-    for (let i = from; i < to; i++) out[at++] = values[i]!;
+    for (let i = 0; i < n; i++) out[at++] = values[i]!;
   } else if (width === 2) {
-    for (let i = from; i < to; i++) {
+    for (let i = 0; i < n; i++) {
       const v = values[i]!;
       out[at++] = v >>> 8;
       out[at++] = v & 0xff;
     }
   } else {
-    for (let i = from; i < to; i++) {
+    for (let i = 0; i < n; i++) {
       const v = values[i]!;
       out[at++] = v >>> 24;
       out[at++] = (v >>> 16) & 0xff;
@@ -42,20 +43,13 @@ function writeRange(values: ArrayLike<number>, from: number, to: number, width: 
 /** Writes `values` packed at `out[at]`; returns the offset after them. */
 export function writePacked(values: ArrayLike<number>, width: CountWidth, out: Uint8Array, at: number): number {
   out[at] = width;
-  return writeRange(values, 0, values.length, width, out, at + 1);
+  return writeValues(values, width, out, at + 1);
 }
 
-/** A stretch `values[from..to)` of a longer array. */
-export interface Run {
-  values: ArrayLike<number>;
-  from: number;
-  to: number;
-}
-
-/** Writes several runs, one after the other, packed as ONE array at `out[at]`; returns the offset after it. */
-export function writePackedRuns(runs: readonly Run[], width: CountWidth, out: Uint8Array, at: number): number {
+/** Writes several arrays, one after the other, packed as ONE array at `out[at]`; returns the offset after it. */
+export function writePackedAll(arrays: readonly ArrayLike<number>[], width: CountWidth, out: Uint8Array, at: number): number {
   out[at++] = width;
-  for (const r of runs) at = writeRange(r.values, r.from, r.to, width, out, at);
+  for (const values of arrays) at = writeValues(values, width, out, at);
   return at;
 }
 

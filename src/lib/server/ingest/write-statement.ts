@@ -11,7 +11,7 @@
 // 33 parameters however many rows. Pure.
 import type { Slice } from './coverage.ts';
 import type { HealthDelta } from './health-delta.ts';
-import { countWidth, packedLength, writePacked, writePackedRuns, type CountWidth, type Run } from '../db/packed-counts.ts';
+import { countWidth, packedLength, writePacked, writePackedAll, type CountWidth } from '../db/packed-counts.ts';
 import { keyArrayLiteral, numericArrayLiteral, textArrayLiteral } from './pg-arrays.ts';
 import { mergeContiguous, type Row } from './row-merge.ts';
 import type { RollupDelta } from './rollup-math.ts';
@@ -75,9 +75,9 @@ function packRows(rows: Row[]) {
   const packs = rows.map((r) => {
     let width: CountWidth = 1;
     for (const p of r.parts) for (const c of p.channels) width = Math.max(width, countWidth(c)) as CountWidth;
-    const runs: Run[] = [];
-    for (let k = 0; k < r.keys.length; k++) for (const p of r.parts) runs.push({ values: p.channels[k]!, from: 0, to: p.n });
-    return { width, runs, ccWidth: r.cc ? countWidth(r.cc) : null };
+    // Channel-major: channel k of every part in turn, then channel k + 1.
+    const arrays = r.keys.flatMap((_, k) => r.parts.map((p) => p.channels[k]!));
+    return { width, arrays, ccWidth: r.cc ? countWidth(r.cc) : null };
   });
   let size = 0;
   rows.forEach((r, i) => {
@@ -88,8 +88,8 @@ function packRows(rows: Row[]) {
   const at = { counts: [] as number[], countsLen: [] as number[], cc: [] as number[], ccLen: [] as number[] };
   let offset = 0;
   rows.forEach((r, i) => {
-    const { width, runs, ccWidth } = packs[i]!;
-    const next = writePackedRuns(runs, width, blob, offset);
+    const { width, arrays, ccWidth } = packs[i]!;
+    const next = writePackedAll(arrays, width, blob, offset);
     at.counts.push(offset + 1);
     at.countsLen.push(next - offset);
     offset = next;
