@@ -8,7 +8,7 @@ import type { BenchViewData, ViewerData } from '../../lib/bench-view.ts';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { benchFiguresSchema } from '../../lib/bench-figures-schema.ts';
 import { ApiError, errorText, fetchCounts, fetchFigures, fetchSweeps, sweepSchema, type Sweep } from '../../lib/client/api.ts';
-import { DriveTracker, sameDriveText, type DriveState } from '../../lib/client/drive-state.ts';
+import { DriveTracker } from '../../lib/client/drive-state.ts';
 import { FringeCells } from '../../lib/client/fringe-cells.ts';
 import { RateRing } from '../../lib/client/rate-ring.ts';
 import type { CountsMessage } from '../../lib/live-messages.ts';
@@ -56,15 +56,6 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
   const [alarms, setAlarms] = useState<AlarmEventView[]>(props.alarms);
   const seenCounts = useRef(false);
   const drive = useMemo(() => new DriveTracker(), []);
-  const [driveState, setDriveState] = useState<DriveState>({ kind: 'unknown' });
-  // Twice a second is enough for a person to follow, and keeps the page from re-rendering per message.
-  useEffect(() => {
-    const t = setInterval(() => {
-      const next = drive.state(Date.now());
-      setDriveState((prev) => (sameDriveText(prev, next) ? prev : next));
-    }, 500);
-    return () => clearInterval(t);
-  }, [drive]);
 
   const onCounts = useCallback(
     (m: CountsMessage) => {
@@ -201,7 +192,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
         {viewer.canOperate ? (
           <SweepControl
             bench={bench}
-            driveState={driveState}
+            drive={drive}
             lastSweep={lastSweep}
             onSweepStarted={() => {
               cells.clear();
@@ -211,7 +202,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
         ) : (
           <section className="card text-sm text-muted" aria-label="Drive">
             <h2 className="mb-1 font-semibold text-ink">Drive</h2>
-            <div className="mb-2 text-ink"><DriveStateLine state={driveState} /></div>
+            <div className="mb-2 text-ink"><DriveStateLine tracker={drive} /></div>
             <p>You are following this bench read-only ({viewer.role}). Operators drive scans and runs.</p>
             <p className="figure mt-1 text-xs">limits {bench.drive.min}–{bench.drive.max} V · step ≤ {bench.drive.maxStep} V · dwell ≥ {bench.drive.minDwellMs} ms</p>
           </section>

@@ -7,11 +7,11 @@ import { errorText, sendCommand, sweepFit, type Sweep } from '../../lib/client/a
 import type { CommandBody } from '../../lib/contract/wire.ts';
 import { midFringeX } from './mid-fringe.ts';
 import { DriveStateLine } from './DriveStateLine.tsx';
-import type { DriveState } from '../../lib/client/drive-state.ts';
+import type { DriveTracker } from '../../lib/client/drive-state.ts';
 
 interface Props {
   /** What the piezo is doing now, from the positions in the counts. */
-  driveState: DriveState;
+  drive: DriveTracker;
   bench: BenchViewData;
   lastSweep: Sweep | null;
   /** Called after a sweep was accepted, so the fringe view starts afresh. */
@@ -31,7 +31,7 @@ export function reachable(bench: BenchViewData): { min: number; max: number; gat
   return min < max ? { min, max, gateway: scan } : { min: bench.drive.min, max: bench.drive.max, gateway: scan };
 }
 
-export function SweepControl({ bench, lastSweep, onSweepStarted, driveState }: Props) {
+export function SweepControl({ bench, lastSweep, onSweepStarted, drive }: Props) {
   const d = bench.drive;
   const range = reachable(bench);
   const [from, setFrom] = useState(String(range.min));
@@ -76,7 +76,7 @@ export function SweepControl({ bench, lastSweep, onSweepStarted, driveState }: P
           {range.gateway && <><br />drive reaches {range.gateway.min}–{range.gateway.max} V</>}
         </p>
       </div>
-      <div className="mb-3"><DriveStateLine state={driveState} /></div>
+      <div className="mb-3"><DriveStateLine tracker={drive} /></div>
       <form onSubmit={startSweep} className="space-y-3">
         <div className="grid grid-cols-2 gap-2 sm:grid-cols-5">
           <label><span className="label">From (V)</span><input className="field figure" type="number" step="any" min={range.min} max={range.max} required value={from} onChange={(e) => setFrom(e.target.value)} /></label>

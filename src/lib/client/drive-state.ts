@@ -57,12 +57,3 @@ export class DriveTracker {
     return { kind: 'moving', x: newest.x, at: newest.t, way, lo, hi };
   }
 }
-
-/** True when both states read the same on screen (positions to the mV, ranges to 10 mV). */
-export function sameDriveText(a: DriveState, b: DriveState): boolean {
-  if (a.kind !== b.kind) return false;
-  if (a.kind === 'unknown' || b.kind === 'unknown') return true;
-  if (a.x.toFixed(3) !== b.x.toFixed(3)) return false;
-  if (a.kind === 'moving' && b.kind === 'moving') return a.way === b.way && a.lo.toFixed(2) === b.lo.toFixed(2) && a.hi.toFixed(2) === b.hi.toFixed(2);
-  return true;
-}
