@@ -29,6 +29,15 @@ interface Props {
   onClear: () => void;
 }
 
+/**
+ * Fits of one direction only (up and down differ by the piezo's hysteresis), oldest first: the
+ * kept passes' direction, or with no passes the newest fit's.
+ */
+function fitsShown(sweeps: Sweep[], direction: string | null): Sweep[] {
+  const d = direction ?? sweeps.at(-1)?.direction;
+  return sweeps.filter((s) => s.direction === d);
+}
+
 export function FringeChart(props: Props) {
   const { cells } = props;
   const box = useRef<HTMLDivElement>(null);
@@ -45,9 +54,7 @@ export function FringeChart(props: Props) {
 
   const data = (): uPlot.AlignedData => {
     const v = cells.view();
-    // One direction only (up and down differ by the piezo's hysteresis): the passes' own, or else the latest fit's.
-    const direction = v.direction ?? sweepsRef.current.at(-1)?.direction;
-    const fits = sweepsRef.current.filter((s) => s.direction === direction).slice(-2);
+    const fits = fitsShown(sweepsRef.current, v.direction).slice(-2);
     const last = fits.at(-1);
     const prev = fits.length > 1 ? fits[0] : undefined;
     const c = curve.current;
@@ -130,9 +137,8 @@ export function FringeChart(props: Props) {
     plot.current?.setData(data());
   }, [props.sweeps]);
 
-  // The fit the curves show: the newest of the kept passes' direction (or the newest of all).
-  const shownDir = dir ?? props.sweeps.at(-1)?.direction;
-  const lastFit = props.sweeps.findLast((s) => s.direction === shownDir);
+  // The fit the curves show.
+  const lastFit = fitsShown(props.sweeps, dir).at(-1);
   const now = useNow(5_000);
   // The calibration of the latest pass, labelled with its direction: up and down differ by the piezo's hysteresis.
   const piezo = lastFit ? sweepFit(lastFit)?.piezoNmPerV : null;
