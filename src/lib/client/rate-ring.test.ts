@@ -47,6 +47,7 @@ describe('RateRing', () => {
   });
 });
 
+// Each channel's rate over the time its own bins cover (common practice, as above).
 describe('RateRing with channels from several gateways', () => {
   it('gives each channel its own rate when two gateways fill the same bucket, and holds a slower one', () => {
     const ring = new RateRing(['g1/a', 'g2/h']);

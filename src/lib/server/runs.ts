@@ -108,10 +108,13 @@ export async function stopRun(id: number, now = Date.now()): Promise<RunView> {
 
 /** Marks a run to be spared by retention, or no longer; recorded in the audit trail. */
 export async function setRunKeep(id: number, keep: boolean, userId: string): Promise<RunView> {
-  const before = await getRun(id);
-  if (!before) throw new HttpError(404, `no run ${id}`);
-  await getDb().update(runs).set({ keep }).where(eq(runs.id, id));
-  await recordAudit({ actorId: userId, entity: 'run', entityId: String(id), action: keep ? 'keep' : 'unkeep', before: { keep: before.keep }, after: { keep } });
+  // The change and its audit row commit together, as every audited change does.
+  await getDb().transaction(async (tx) => {
+    const [before] = await tx.select({ keep: runs.keep }).from(runs).where(eq(runs.id, id)).for('update');
+    if (!before) throw new HttpError(404, `no run ${id}`);
+    await tx.update(runs).set({ keep }).where(eq(runs.id, id));
+    await recordAudit({ actorId: userId, entity: 'run', entityId: String(id), action: keep ? 'keep' : 'unkeep', before, after: { keep } }, tx);
+  });
   return (await getRun(id))!;
 }
 
