@@ -150,12 +150,15 @@ interface PayloadSchema<T> {
   safeParse(data: unknown): { success: true; data: T } | { success: false; error: { issues: readonly { path: readonly PropertyKey[]; message: string }[] } };
 }
 
+/** Fatal on malformed UTF-8; with `stream` off, each decode starts afresh, so one serves every call. */
+const utf8 = new TextDecoder('utf-8', { fatal: true });
+
 /** Decodes an MQTT payload: size, UTF-8, JSON object, then the schema. Never throws. */
 export function decodePayload<T>(payload: Uint8Array, schema: PayloadSchema<T>): Decoded<T> {
   if (payload.byteLength > MAX_PAYLOAD_BYTES) return { ok: false, reason: `payload ${payload.byteLength} bytes exceeds 256 KiB` };
   let text: string;
   try {
-    text = new TextDecoder('utf-8', { fatal: true }).decode(payload);
+    text = utf8.decode(payload);
   } catch {
     return { ok: false, reason: 'payload is not valid UTF-8' };
   }
