@@ -50,7 +50,7 @@ export type LoadCommand =
 export type LoadReply =
   | { kind: 'ready' }
   | { kind: 'error'; message: string }
-  | { kind: 'bare'; acked: number; lat: number[] }
+  | { kind: 'bare'; acked: number; carried: number; lat: number[] }
   /** Per batch: publish time (high-resolution wall clock, ms), publish → PUBACK, and publish → each browser. */
   | { kind: 'realistic'; batches: { key: string; at: number; pubackMs: number; lat: number[] }[]; seqs: number[] }
   | { kind: 'saturate'; acked: number };

@@ -81,13 +81,27 @@ async function connect(url: string, opts: mqtt.IClientOptions): Promise<MqttClie
   return c;
 }
 
-/** Bare aedes: QoS 1 rate at saturation, then publisher → broker → one subscriber at the realistic rate. */
+/**
+ * Bare aedes at saturation twice: publish → PUBACK with nobody subscribed (messages acknowledged
+ * and dropped), then carried to one QoS 1 subscriber, as the server consumes them (the subscriber
+ * counts arrivals and sends its PUBACKs); then publisher → broker → subscriber latency at the
+ * realistic rate.
+ */
 async function bare(url: string): Promise<LoadReply> {
   const pubs = await Promise.all(Array.from({ length: GATEWAYS }, (_, i) => connect(url, { clientId: `p${i}` })));
   const same = payload(0, 0);
-  const acked = await saturate(pubs.map((client, i) => ({ client, topic: `bench/${i}/counts` })), BURST_MS, () => same);
+  const topics = pubs.map((client, i) => ({ client, topic: `bench/${i}/counts` }));
+  const acked = await saturate(topics, BURST_MS, () => same);
   const sub = await connect(url, { clientId: 'sub' });
   await sub.subscribeAsync('bench/+/counts', { qos: 1 });
+  let carried = 0;
+  const counting = () => carried++;
+  sub.on('message', counting);
+  await saturate(topics, BURST_MS, () => same);
+  // What reached the subscriber within the burst, not the backlog drained after it.
+  const carriedInBurst = carried;
+  await new Promise((r) => setTimeout(r, 1_000));
+  sub.off('message', counting);
   const lat: number[] = [];
   sub.on('message', (_t, p) => lat.push(now() - Number(JSON.parse(String(p)).sent)));
   const timers = pubs.map((p, i) => every(i, () => void p.publishAsync(`bench/${i}/counts`, payload(0, 0).slice(0, -1) + `,"sent":${now()}}`, { qos: 1 })));
@@ -95,7 +109,7 @@ async function bare(url: string): Promise<LoadReply> {
   timers.forEach((stop) => stop());
   await new Promise((r) => setTimeout(r, 200));
   await Promise.all([...pubs, sub].map((c) => c.endAsync()));
-  return { kind: 'bare', acked, lat };
+  return { kind: 'bare', acked, carried: carriedInBurst, lat };
 }
 
 let gateways: { client: MqttClient; id: string }[] = [];
