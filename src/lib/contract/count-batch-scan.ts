@@ -139,6 +139,11 @@ function readCounts(): number[] {
     // MAX_COUNT has 10 digits; a fraction, exponent or sign leaves the plain form below.
     if (digits === 0 || digits > 10 || (digits > 1 && b[start] === ZERO) || v > MAX_COUNT || out.length === MAX_BINS) throw NOT_PLAIN;
     out.push(v);
+    // Gateways mostly write no spaces: the comma is looked for before any whitespace.
+    if (c === COMMA) {
+      c = b[++at];
+      continue;
+    }
     while (isSpace(c)) c = b[++at];
     if (c === COMMA) c = b[++at];
     else if (c === CLOSE_ARRAY) {

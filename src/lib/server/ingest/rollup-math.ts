@@ -23,14 +23,15 @@ const [SECOND_MS, MINUTE_MS] = ROLLUP_LEVELS_MS;
 
 /** Adds the slices' bins into per-(gateway, key, level, block) deltas, merged across slices. */
 export function rollupDeltas(items: { gatewayId: string; slice: Slice }[]): RollupDelta[] {
-  // Blocks by series and level, then by block start: a block start is a 13-digit number, and
-  // formatting one into a string key for every lookup cost more than all the sums together.
-  const levels = new Map<string, Map<number, RollupDelta>>();
-  const levelOf = (gatewayId: string, key: string, stepMs: number) => {
-    const id = `${gatewayId}\u0000${key}\u0000${stepMs}`;
-    let m = levels.get(id);
-    if (!m) levels.set(id, (m = new Map()));
-    return m;
+  // Blocks by gateway, key and level, then by block start: nested maps, because formatting a block
+  // start or a series into a string key for every lookup cost more than all the sums together.
+  const series = new Map<string, Map<string, [Map<number, RollupDelta>, Map<number, RollupDelta>]>>();
+  const levelsOf = (gatewayId: string, key: string) => {
+    let byKey = series.get(gatewayId);
+    if (!byKey) series.set(gatewayId, (byKey = new Map()));
+    let levels = byKey.get(key);
+    if (!levels) byKey.set(key, (levels = [new Map(), new Map()]));
+    return levels;
   };
   const add = (blocks: Map<number, RollupDelta>, gatewayId: string, key: string, stepMs: number, t: number, sum: number, bins: number) => {
     const blockMs = stepMs * BLOCK_LEN;
@@ -47,8 +48,7 @@ export function rollupDeltas(items: { gatewayId: string; slice: Slice }[]): Roll
   // One pass over the bins of a series, one lookup per second it touches (a batch of 100 bins of
   // 1 ms touches one or two), and one more per second for the minute level.
   const addSeries = (gatewayId: string, key: string, t0: number, dt: number, values: ArrayLike<number>, offset: number, n: number) => {
-    const seconds = levelOf(gatewayId, key, SECOND_MS);
-    const minutes = levelOf(gatewayId, key, MINUTE_MS);
+    const [seconds, minutes] = levelsOf(gatewayId, key);
     let j = 0;
     while (j < n) {
       const t = t0 + j * dt;
@@ -68,7 +68,7 @@ export function rollupDeltas(items: { gatewayId: string; slice: Slice }[]): Roll
     if (slice.cc) addSeries(gatewayId, CC_KEY, t0, dt, slice.cc, 0, n);
   }
   // A stable order keeps row locks in one order across transactions.
-  return [...levels.values()].flatMap((m) => [...m.values()]).sort((a, b) =>
+  return [...series.values()].flatMap((byKey) => [...byKey.values()].flatMap(([seconds, minutes]) => [...seconds.values(), ...minutes.values()])).sort((a, b) =>
     a.gatewayId < b.gatewayId ? -1 : a.gatewayId > b.gatewayId ? 1 : a.key < b.key ? -1 : a.key > b.key ? 1 : a.stepMs - b.stepMs || a.blockT0 - b.blockT0,
   );
 }
