@@ -4,7 +4,8 @@
 //    publish → subscriber latency;
 //  - plain COPY of the same bins into a one-row-per-bin table: bins/s and bytes per bin;
 //  - Fringewise at a realistic load (20 gateways × 4 channels × 1 kHz bins, batches of 100) with
-//    200 WebSocket clients on the bench: sustained bins/s, publish → WebSocket p50/p99 and where the
+//    200 WebSocket clients on the bench: sustained bins/s, publish → WebSocket p50/p99 (after a 2 s
+//    warm-up, and with it) and where the
 //    time goes stage by stage, memory over the soak; then at saturation (every gateway publishing
 //    as fast as PUBACKs allow);
 //  - stored bytes per bin, indexes included.
@@ -123,6 +124,9 @@ async function bareBroker(load: Load): Promise<{ qos1CarriedMsgsPerS: number; qo
 }
 
 type Marks = Partial<Record<LiveStage, number>>;
+/** Latency figures leave out the deliveries of batches published this long after the realistic load starts (ms). */
+const WARMUP_MS = 2_000;
+
 /** Stages of publish → browser, each from the previous mark; `browser` is per delivery, the rest per batch. */
 const STAGES = ['brokerAndDecode', 'waitForWriter', 'writeAndCommit', 'frameWait', 'frameWrite', 'toBrowser'] as const;
 
@@ -239,8 +243,14 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null,
   loopDelay.disable();
   if (withBreakdown) diagnostics_channel.unsubscribe(LIVE_TRACE_CHANNEL, onTrace);
   const publishedSpan = (real.batches.at(-1)!.at - real.batches[0]!.at) / 1000 + (BINS * DT_MS) / 1000;
-  const lat = real.batches.flatMap((b) => b.lat).sort((a, b) => a - b);
-  const puback = real.batches.map((b) => b.pubackMs).sort((a, b) => a - b);
+  // Latency is judged in the steady state: the first WARMUP_MS, when 20 gateways have just come
+  // online (first span reads, channels created, code not yet optimised), held a quarter of the
+  // p99 tail in a traced run. Reported with them too.
+  const steadyFrom = real.batches[0]!.at + WARMUP_MS;
+  const steady = real.batches.filter((b) => b.at >= steadyFrom);
+  const lat = steady.flatMap((b) => b.lat).sort((a, b) => a - b);
+  const latWithWarmup = real.batches.flatMap((b) => b.lat).sort((a, b) => a - b);
+  const puback = steady.map((b) => b.pubackMs).sort((a, b) => a - b);
   const { pool } = getDbHandle();
   const stored = async () =>
     (await pool.query<{ bins: number }>('select coalesce(sum(n * array_length(keys, 1)), 0)::float8 as bins from count_batches where gateway_id = any($1)', [gws.map((g) => g.gatewayId)])).rows[0]!.bins;
@@ -252,12 +262,13 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null,
     binsPerS: round(realisticBins / publishedSpan, 0),
     wsP50Ms: round(pct(lat, 0.5)),
     wsP99Ms: round(pct(lat, 0.99)),
-    wsDeliveries: lat.length,
+    wsP99WithWarmupMs: round(pct(latWithWarmup, 0.99)),
+    wsDeliveries: latWithWarmup.length,
     wsExpected: real.batches.length * WS_CLIENTS,
     pubackP50Ms: round(pct(puback, 0.5)),
     pubackP99Ms: round(pct(puback, 0.99)),
     walBytesPerBatch,
-    breakdown: withBreakdown ? breakdown(real.batches, marks) : null,
+    breakdown: withBreakdown ? breakdown(steady, marks) : null,
     eventLoopDelayMs: { p50: round(loopDelay.percentile(50) / 1e6), p99: round(loopDelay.percentile(99) / 1e6), max: round(loopDelay.max / 1e6) },
     gcPauses: gcSummary(gcs),
     memory,
