@@ -23,15 +23,26 @@ const MAX_LATENCY_SAMPLES = 2_000_000;
 const WS_CLIENTS_WORKER = `
 const { parentPort, workerData } = require('node:worker_threads');
 const WebSocket = require(require.resolve('ws', { paths: [process.cwd()] }));
-const arrivals = new Map();
 const now = () => performance.timeOrigin + performance.now();
 const HEAD = /^{"type":"counts","bench":"[^"]*","gateway":"([^"]*)","t0":(\\d+),"dt":(\\d+)/;
+// Arrival times go into typed arrays allocated once: growing a JS array per batch kept over a
+// million numbers in this thread's heap, and its collections stalled the browsers' thread.
+const when = new Float64Array(workerData.capacity);
+const which = new Int32Array(workerData.capacity);
+let recorded = 0;
+const batchIndex = new Map();
+const batchKeys = [];
 let oneBatchBytes = Infinity;
 const arrived = (timed, key, t) => {
-  if (!timed) return;
-  const list = arrivals.get(key);
-  if (list) list.push(t);
-  else arrivals.set(key, [t]);
+  if (!timed || recorded === when.length) return;
+  let k = batchIndex.get(key);
+  if (k === undefined) {
+    k = batchKeys.length;
+    batchKeys.push(key);
+    batchIndex.set(key, k);
+  }
+  when[recorded] = t;
+  which[recorded++] = k;
 };
 let open = 0;
 for (let i = 0; i < workerData.n; i++) {
@@ -52,7 +63,11 @@ for (let i = 0; i < workerData.n; i++) {
     for (let j = 0; j < n; j += workerData.bins) arrived(timed, m.gateway + '/' + (m.t0 + j * m.dt), t);
   });
 }
-parentPort.on('message', () => parentPort.postMessage([...arrivals]));
+parentPort.on('message', () => {
+  const lists = batchKeys.map(() => []);
+  for (let j = 0; j < recorded; j++) lists[which[j]].push(when[j]);
+  parentPort.postMessage(batchKeys.map((key, k) => [key, lists[k]]));
+});
 `;
 
 /** Publishes as fast as a window of unacknowledged messages allows; resolves with messages acknowledged. */
@@ -120,7 +135,7 @@ async function realistic(cmd: Extract<LoadCommand, { cmd: 'realistic' }>): Promi
   // samples near 2 million: a 10-minute soak would otherwise collect 24 million of them.
   const expectedBatches = (gateways.length * cmd.ms) / 100;
   const timed = Math.min(cmd.wsClients, Math.max(10, Math.floor(MAX_LATENCY_SAMPLES / expectedBatches)));
-  const browsers = new Worker(WS_CLIENTS_WORKER, { eval: true, workerData: { url: cmd.wsUrl, token: cmd.token, n: cmd.wsClients, bins: BINS, timed } });
+  const browsers = new Worker(WS_CLIENTS_WORKER, { eval: true, workerData: { url: cmd.wsUrl, token: cmd.token, n: cmd.wsClients, bins: BINS, timed, capacity: MAX_LATENCY_SAMPLES * 1.2 } });
   await new Promise<void>((resolve, reject) => {
     browsers.once('message', () => resolve());
     browsers.once('error', reject);
