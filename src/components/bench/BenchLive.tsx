@@ -11,6 +11,7 @@ import { ApiError, errorText, fetchCounts, fetchFigures, fetchSweeps, sweepSchem
 import { DriveTracker } from '../../lib/client/drive-state.ts';
 import { FringeCells } from '../../lib/client/fringe-cells.ts';
 import { RateRing } from '../../lib/client/rate-ring.ts';
+import { BACKFILL_CLOCK_SLACK_MS, backfillRates } from '../../lib/client/rates-backfill.ts';
 import type { CountsMessage } from '../../lib/live-messages.ts';
 import { FringeChart, type FringeHandle } from './FringeChart.tsx';
 import { RatesChart, type RatesHandle } from './RatesChart.tsx';
@@ -29,8 +30,6 @@ const TREND_MS = 30 * 60_000;
 const RATES_BACKFILL_MS = 10 * 60_000;
 /** Step of the backfill, ms: the ring's bucket width. */
 const BACKFILL_STEP_MS = 100;
-/** How far back from page open a backfilled bucket may still have been filling (ms). */
-const BACKFILL_SETTLE_MS = 2_000;
 /** Most envelope points kept (one per figures message ≈ 1/s over the trend span). */
 const MAX_ENVELOPE = 1800;
 
@@ -106,27 +105,15 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
     const ctl = new AbortController();
     const now = Date.now();
     // The step must be a multiple of the stored bin width: 100 ms suits bins up to 100 ms, 1 s the rest.
-    fetchCounts(bench.id, now - RATES_BACKFILL_MS, now, BACKFILL_STEP_MS, ctl.signal)
+    const to = now + BACKFILL_CLOCK_SLACK_MS;
+    fetchCounts(bench.id, now - RATES_BACKFILL_MS, to, BACKFILL_STEP_MS, ctl.signal)
       .catch((err: unknown) => {
-        if (err instanceof ApiError && err.status === 422) return fetchCounts(bench.id, now - RATES_BACKFILL_MS, now, 1000, ctl.signal);
+        if (err instanceof ApiError && err.status === 422) return fetchCounts(bench.id, now - RATES_BACKFILL_MS, to, 1000, ctl.signal);
         throw err;
       })
       .then(
       (c) => {
-        const ch: Record<string, number[]> = {};
-        for (const [k, v] of Object.entries(c.channels)) ch[k] = v.map((n) => n ?? 0);
-        // Buckets the server had no bins for come back as null: leave them out rather than draw zeros.
-        const firstKey = Object.keys(c.channels)[0];
-        const col = firstKey ? c.channels[firstKey]! : [];
-        for (let i = 0; i < col.length; i++) {
-          if (col[i] == null) continue;
-          const one: Record<string, number[]> = {};
-          for (const k of Object.keys(ch)) one[k] = [ch[k]![i]!];
-          // Buckets ending in the last seconds may still have been filling (a gateway's batch covers
-          // up to a second and takes a moment to store): live bins replace them when they come.
-          ring.add(c.t0 + i * c.step, c.step, one, true, c.t0 + (i + 1) * c.step > now - BACKFILL_SETTLE_MS);
-        }
-        if (col.some((v) => v != null)) setHasCounts(true);
+        if (backfillRates(ring, c)) setHasCounts(true);
         rates.current?.invalidate();
       },
       (err) => !ctl.signal.aborted && setCountsError(`History unavailable: ${errorText(err)}`),

@@ -1,0 +1,36 @@
+import { describe, expect, it } from 'vitest';
+import { RateRing } from './rate-ring.ts';
+import { BACKFILL_SETTLE_MS, backfillRates } from './rates-backfill.ts';
+
+const rate = (ring: RateRing) => [...ring.view(0).y[0]!].map((r) => Math.round(r));
+
+// Rate = counts / time covered per bucket (common practice for binned counting, as in rate-ring.test.ts).
+describe('rates backfill', () => {
+  // Buckets of 100 ms from t = 1,000,000 ms: 30 full ones (10 counts: 100 /s), then a last one read
+  // while half its bins were stored, then buckets past the newest data (the read reaches past this
+  // browser's clock).
+  const answer = {
+    t0: 1_000_000,
+    step: 100,
+    channels: { a: [...Array<number>(30).fill(10), 5, null, null] },
+  };
+
+  it('judges which buckets may still be filling by the newest stored bucket, whatever the clock says', () => {
+    const ring = new RateRing(['a']);
+    expect(backfillRates(ring, answer)).toBe(true);
+    expect(rate(ring)).toEqual([...Array<number>(30).fill(100), 50]);
+    // Live bins arrive from 1,001,000 on. The newest bucket ends at 1,003,100, so buckets ending
+    // after 1,001,100 are provisional and become what live says (200 /s); the one before is
+    // settled, and a live bin there adds to it as any overlap would ((10 + 20) / 0.2 s = 150 /s).
+    expect(1_000_000 + 31 * 100 - BACKFILL_SETTLE_MS).toBe(1_001_100);
+    for (let t = 1_001_000; t < 1_003_100; t += 100) ring.add(t, 100, { a: [20] });
+    expect(rate(ring)).toEqual([...Array<number>(10).fill(100), 150, ...Array<number>(20).fill(200)]);
+  });
+
+  it('leaves out empty buckets and says when there were no counts at all', () => {
+    const ring = new RateRing(['a']);
+    expect(backfillRates(ring, { t0: 0, step: 100, channels: { a: [null, null] } })).toBe(false);
+    expect(backfillRates(ring, { t0: 0, step: 100, channels: {} })).toBe(false);
+    expect(ring.view(0).x).toHaveLength(0);
+  });
+});
