@@ -5,9 +5,8 @@
 //  - plain COPY of the same bins into a one-row-per-bin table: bins/s and bytes per bin;
 //  - Fringewise at a realistic load (20 gateways × 4 channels × 1 kHz bins, batches of 100) with
 //    200 WebSocket clients on the bench: sustained bins/s, publish → WebSocket p50/p99 (after a 2 s
-//    warm-up, and with it) and where the
-//    time goes stage by stage, memory over the soak; then at saturation (every gateway publishing
-//    as fast as PUBACKs allow);
+//    warm-up, and with it) and where the time goes stage by stage, memory over the soak; then at
+//    saturation (every gateway publishing as fast as PUBACKs allow);
 //  - stored bytes per bin, indexes included.
 // The server under test (and the bare broker) run in this process; the gateways and browsers run
 // in a forked child (ingest-load.ts), as other machines would in a lab.
