@@ -121,8 +121,22 @@ describe('count batch byte scan', () => {
     ['trailing text', '{"v":1,"boot":"b","seq":0,"t0":0,"dt":1,"ch":{"a":[1]}} x'],
     ['no channels', '{"v":1,"boot":"b","seq":0,"t0":0,"dt":1,"ch":{}}'],
     ['an empty channel', '{"v":1,"boot":"b","seq":0,"t0":0,"dt":1,"ch":{"a":[]}}'],
+    ['the last bins a Date can hold (16-digit t0)', '{"v":1,"boot":"b","seq":0,"t0":8639999999999998,"dt":1,"ch":{"a":[1,1]}}'],
+    ['bins one past the last date', '{"v":1,"boot":"b","seq":0,"t0":8639999999999999,"dt":1,"ch":{"a":[1,1]}}'],
+    ['seq at Number.MAX_SAFE_INTEGER', '{"v":1,"boot":"b","seq":9007199254740991,"t0":0,"dt":1,"ch":{"a":[1]}}'],
+    ['seq at 2^53', '{"v":1,"boot":"b","seq":9007199254740992,"t0":0,"dt":1,"ch":{"a":[1]}}'],
+    ['an x of -0 (JSON.parse gives -0)', '{"v":1,"boot":"b","seq":0,"t0":0,"dt":1,"ch":{"a":[1]},"x":[-0]}'],
+    ['an x with 17 fraction digits', '{"v":1,"boot":"b","seq":0,"t0":0,"dt":1,"ch":{"a":[1]},"x":[0.00000000000000001]}'],
     ['integer-like channel keys (JSON.parse orders them first)', '{"v":1,"boot":"b","seq":0,"t0":0,"dt":1,"ch":{"b":[1],"10":[2],"2":[3]}}'],
   ])('%s', (_what, json) => void agrees(bytes(json)));
+
+  it('takes those boundary batches the schema accepts, with their values', () => {
+    expect(agrees(bytes('{"v":1,"boot":"b","seq":0,"t0":8639999999999998,"dt":1,"ch":{"a":[1,1]}}'))?.t0).toBe(8639999999999998);
+    expect(agrees(bytes('{"v":1,"boot":"b","seq":9007199254740991,"t0":0,"dt":1,"ch":{"a":[1]}}'))?.seq).toBe(Number.MAX_SAFE_INTEGER);
+    expect(Object.is(agrees(bytes('{"v":1,"boot":"b","seq":0,"t0":0,"dt":1,"ch":{"a":[1]},"x":[-0]}'))?.x?.[0], -0)).toBe(true);
+    expect(scanCountBatch(bytes('{"v":1,"boot":"b","seq":0,"t0":8639999999999999,"dt":1,"ch":{"a":[1,1]}}'))).toBeNull();
+    expect(scanCountBatch(bytes('{"v":1,"boot":"b","seq":9007199254740992,"t0":0,"dt":1,"ch":{"a":[1]}}'))).toBeNull();
+  });
 
   it('reads x values as JSON.parse does, on both of its paths', () => {
     // Values chosen to stress rounding: the double nearest 0.1, the largest and the smallest
