@@ -27,6 +27,29 @@ describe('rates backfill', () => {
     expect(rate(ring)).toEqual([...Array<number>(10).fill(100), 150, ...Array<number>(20).fill(200)]);
   });
 
+  it('takes each channel by itself: one with no bins, one with gaps, one that lags', () => {
+    const ring = new RateRing(['gw-a/a', 'gw-b/a', 'gw-c/a']);
+    const got = backfillRates(ring, {
+      t0: 0,
+      step: 100,
+      channels: {
+        'gw-a/a': [null, null, null, null, null, null], // its gateway was off the whole window
+        'gw-b/a': [10, 10, null, 10, 10, 10],
+        'gw-c/a': [10, 10, 10, null, null, null], // its batches come later than gw-b's
+      },
+    });
+    expect(got).toBe(true);
+    const v = ring.view(0);
+    const round = (y: Float64Array) => [...y].map((r) => Math.round(r));
+    expect([...v.x]).toEqual([0, 0.1, 0.2, 0.3, 0.4, 0.5]);
+    // A bucket without bins of a channel keeps that channel's last rate (rate-ring's view), never zero.
+    expect(round(v.y[1]!)).toEqual([100, 100, 100, 100, 100, 100]);
+    // gw-c's newest bucket is its own (0.3 s), so its buckets are provisional from there back 2 s:
+    // its live bins replace them rather than add to them.
+    ring.add(0, 100, { 'gw-c/a': [20] });
+    expect(round(ring.view(0).y[2]!)[0]).toBe(200);
+  });
+
   it('leaves out empty buckets and says when there were no counts at all', () => {
     const ring = new RateRing(['a']);
     expect(backfillRates(ring, { t0: 0, step: 100, channels: { a: [null, null] } })).toBe(false);
