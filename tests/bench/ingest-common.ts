@@ -52,5 +52,5 @@ export type LoadReply =
   | { kind: 'error'; message: string }
   | { kind: 'bare'; acked: number; carried: number; lat: number[] }
   /** Per batch: publish time (high-resolution wall clock, ms), publish → PUBACK, and publish → each browser. */
-  | { kind: 'realistic'; batches: { key: string; at: number; pubackMs: number; lat: number[] }[]; seqs: number[] }
+  | { kind: 'realistic'; batches: { key: string; at: number; pubackMs: number; lat: number[] }[]; seqs: number[]; timedBrowsers: number; arrivalsDropped: number }
   | { kind: 'saturate'; acked: number };

@@ -30,11 +30,13 @@ const HEAD = /^{"type":"counts","bench":"[^"]*","gateway":"([^"]*)","t0":(\\d+),
 const when = new Float64Array(workerData.capacity);
 const which = new Int32Array(workerData.capacity);
 let recorded = 0;
+let dropped = 0;
 const batchIndex = new Map();
 const batchKeys = [];
 let oneBatchBytes = Infinity;
 const arrived = (timed, key, t) => {
-  if (!timed || recorded === when.length) return;
+  if (!timed) return;
+  if (recorded === when.length) return void dropped++;
   let k = batchIndex.get(key);
   if (k === undefined) {
     k = batchKeys.length;
@@ -66,7 +68,7 @@ for (let i = 0; i < workerData.n; i++) {
 parentPort.on('message', () => {
   const lists = batchKeys.map(() => []);
   for (let j = 0; j < recorded; j++) lists[which[j]].push(when[j]);
-  parentPort.postMessage(batchKeys.map((key, k) => [key, lists[k]]));
+  parentPort.postMessage({ arrivals: batchKeys.map((key, k) => [key, lists[k]]), dropped });
 });
 `;
 
@@ -97,26 +99,55 @@ async function connect(url: string, opts: mqtt.IClientOptions): Promise<MqttClie
 }
 
 /**
+ * The QoS 1 subscriber of the bare broker's carried rate, as plain JS for an eval worker: on a
+ * thread of its own, so receiving does not slow the publishers on the main thread. Counts arrivals
+ * (mqtt.js sends each PUBACK); answers 'count' with the count so far, 'end' once disconnected.
+ */
+const CARRIED_SUBSCRIBER_WORKER = `
+const { parentPort, workerData } = require('node:worker_threads');
+const mqtt = require(require.resolve('mqtt', { paths: [process.cwd()] }));
+let carried = 0;
+const client = mqtt.connect(workerData.url, { clientId: 'carried', protocolVersion: 4, reconnectPeriod: 0 });
+client.on('connect', () => {
+  client.stream.setNoDelay(true);
+  client.subscribe('bench/+/counts', { qos: 1 }, () => parentPort.postMessage('ready'));
+});
+client.on('message', () => carried++);
+parentPort.on('message', (m) => {
+  if (m === 'count') parentPort.postMessage(carried);
+  else client.end(false, () => parentPort.postMessage('ended'));
+});
+`;
+
+/** The next message a worker posts. */
+const nextFrom = <T>(w: Worker) => new Promise<T>((resolve, reject) => {
+  w.once('message', resolve);
+  w.once('error', reject);
+});
+
+/**
  * Bare aedes at saturation twice: publish → PUBACK with nobody subscribed (messages acknowledged
- * and dropped), then carried to one QoS 1 subscriber, as the server consumes them (the subscriber
- * counts arrivals and sends its PUBACKs); then publisher → broker → subscriber latency at the
- * realistic rate.
+ * and dropped), then carried to one QoS 1 subscriber on its own thread (the messages a broker
+ * delivers to its consumer); then publisher → broker → subscriber latency at the realistic rate.
  */
 async function bare(url: string): Promise<LoadReply> {
   const pubs = await Promise.all(Array.from({ length: GATEWAYS }, (_, i) => connect(url, { clientId: `p${i}` })));
   const same = payload(0, 0);
   const topics = pubs.map((client, i) => ({ client, topic: `bench/${i}/counts` }));
   const acked = await saturate(topics, BURST_MS, () => same);
-  const sub = await connect(url, { clientId: 'sub' });
-  await sub.subscribeAsync('bench/+/counts', { qos: 1 });
-  let carried = 0;
-  const counting = () => carried++;
-  sub.on('message', counting);
+  const carrier = new Worker(CARRIED_SUBSCRIBER_WORKER, { eval: true, workerData: { url } });
+  await nextFrom(carrier);
   await saturate(topics, BURST_MS, () => same);
   // What reached the subscriber within the burst, not the backlog drained after it.
-  const carriedInBurst = carried;
-  await new Promise((r) => setTimeout(r, 1_000));
-  sub.off('message', counting);
+  const answer = nextFrom<number>(carrier);
+  carrier.postMessage('count');
+  const carried = await answer;
+  const ended = nextFrom(carrier);
+  carrier.postMessage('end');
+  await ended;
+  await carrier.terminate();
+  const sub = await connect(url, { clientId: 'sub' });
+  await sub.subscribeAsync('bench/+/counts', { qos: 1 });
   const lat: number[] = [];
   sub.on('message', (_t, p) => lat.push(now() - Number(JSON.parse(String(p)).sent)));
   const timers = pubs.map((p, i) => every(i, () => void p.publishAsync(`bench/${i}/counts`, payload(0, 0).slice(0, -1) + `,"sent":${now()}}`, { qos: 1 })));
@@ -124,7 +155,7 @@ async function bare(url: string): Promise<LoadReply> {
   timers.forEach((stop) => stop());
   await new Promise((r) => setTimeout(r, 200));
   await Promise.all([...pubs, sub].map((c) => c.endAsync()));
-  return { kind: 'bare', acked, carried: carriedInBurst, lat };
+  return { kind: 'bare', acked, carried, lat };
 }
 
 let gateways: { client: MqttClient; id: string }[] = [];
@@ -156,15 +187,14 @@ async function realistic(cmd: Extract<LoadCommand, { cmd: 'realistic' }>): Promi
   timers.forEach((stop) => stop());
   await Promise.all(pending);
   await new Promise((r) => setTimeout(r, 500));
-  const arrivals = new Map(
-    await new Promise<[string, number[]][]>((resolve) => {
-      browsers.once('message', resolve);
-      browsers.postMessage('done');
-    }),
-  );
+  const recorded = await new Promise<{ arrivals: [string, number[]][]; dropped: number }>((resolve) => {
+    browsers.once('message', resolve);
+    browsers.postMessage('done');
+  });
+  const arrivals = new Map(recorded.arrivals);
   await browsers.terminate();
   const batches = published.map((p) => ({ ...p, lat: (arrivals.get(p.key) ?? []).map((t) => sample(t - p.at)) }));
-  return { kind: 'realistic', batches, seqs };
+  return { kind: 'realistic', batches, seqs, timedBrowsers: timed, arrivalsDropped: recorded.dropped };
 }
 
 async function saturation(cmd: Extract<LoadCommand, { cmd: 'saturate' }>): Promise<LoadReply> {

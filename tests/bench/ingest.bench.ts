@@ -250,6 +250,7 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null,
   const lat = steady.flatMap((b) => b.lat).sort((a, b) => a - b);
   const latWithWarmup = real.batches.flatMap((b) => b.lat).sort((a, b) => a - b);
   const puback = steady.map((b) => b.pubackMs).sort((a, b) => a - b);
+  const pubackWithWarmup = real.batches.map((b) => b.pubackMs).sort((a, b) => a - b);
   const { pool } = getDbHandle();
   const stored = async () =>
     (await pool.query<{ bins: number }>('select coalesce(sum(n * array_length(keys, 1)), 0)::float8 as bins from count_batches where gateway_id = any($1)', [gws.map((g) => g.gatewayId)])).rows[0]!.bins;
@@ -261,9 +262,12 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null,
     binsPerS: round(realisticBins / publishedSpan, 0),
     wsP50Ms: round(pct(lat, 0.5)),
     wsP99Ms: round(pct(lat, 0.99)),
-    wsP99WithWarmupMs: round(pct(latWithWarmup, 0.99)),
+    withWarmup: { wsP50Ms: round(pct(latWithWarmup, 0.5)), wsP99Ms: round(pct(latWithWarmup, 0.99)), pubackP99Ms: round(pct(pubackWithWarmup, 0.99)) },
+    // Deliveries recorded (by the timed browsers; all 200 when the run is short) against expected.
     wsDeliveries: latWithWarmup.length,
-    wsExpected: real.batches.length * WS_CLIENTS,
+    wsDeliveriesSteady: lat.length,
+    wsExpected: real.batches.length * real.timedBrowsers,
+    arrivalsDropped: real.arrivalsDropped,
     pubackP50Ms: round(pct(puback, 0.5)),
     pubackP99Ms: round(pct(puback, 0.99)),
     walBytesPerBatch,
@@ -305,11 +309,14 @@ export async function run(opts: { soakSeconds?: number; profileDir?: string | nu
       saturation: fw.saturation,
       storage: { bytesPerBin: fw.bytesPerBin, copyTableBytesPerBin: copy.copyBytesPerBin },
       ratios: {
-        // The server is the broker's one consumer, so the target's baseline is what the bare broker
-        // carries to one subscriber; a broker with nobody subscribed acknowledges and drops.
+        // The target's baseline is what the bare broker delivers to one QoS 1 subscriber: the server
+        // consumes every message its broker takes in (in process, through the publish hook), and
+        // the issue's own figure for the bare broker (20,000–30,000 msgs/s) is a delivered rate. A
+        // broker with nobody subscribed acknowledges and drops; that ratio is reported beside it.
         saturationVsBareBroker: round(fw.saturation.msgsPerS / bare.qos1CarriedMsgsPerS),
         saturationVsBareBrokerUnsubscribed: round(fw.saturation.msgsPerS / bare.qos1AckedUnsubscribedMsgsPerS),
         wsP99MinusBrokerP99Ms: round(fw.realistic.wsP99Ms - bare.roundTripP99Ms),
+        wsP99WithWarmupMinusBrokerP99Ms: round(fw.realistic.withWarmup.wsP99Ms - bare.roundTripP99Ms),
         ingestVsCopyBinsPerS: round(fw.saturation.binsPerS / copy.copyBinsPerS),
         // Offered: every gateway's channels × 1,000 bins/s; below ~0.97 the server fell behind.
         realisticStoredVsOffered: round(fw.realistic.binsPerS / ((GATEWAYS * KEYS.length * BINS * 1000) / (BINS * DT_MS))),
