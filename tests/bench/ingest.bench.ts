@@ -14,7 +14,7 @@
 // profile option writes a CPU and an allocation profile of the server's thread per phase). Prints a JSON summary.
 import { execFileSync, fork, type ChildProcess } from 'node:child_process';
 import diagnostics_channel from 'node:diagnostics_channel';
-import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { Session } from 'node:inspector/promises';
 import net from 'node:net';
 import os from 'node:os';
@@ -50,6 +50,18 @@ async function profiled<T>(dir: string | null, phase: string, fn: () => Promise<
     writeFileSync(path.join(dir, `${phase}.heapprofile`), JSON.stringify(heap));
     session.disconnect();
   }
+}
+
+/**
+ * The machine's pressure stall totals (Linux PSI, /proc/pressure; µs since boot): time at least one
+ * task (`some`) or every task (`full`) waited for I/O, and time some task waited for a CPU. Null
+ * where the kernel has none. Read around the realistic phase, they tell a run whose tail met the
+ * machine's I/O stalls from one that did not.
+ */
+function pressure(): { ioSome: number; ioFull: number; cpuSome: number } | null {
+  const total = (file: string, kind: 'some' | 'full') => Number(new RegExp(`^${kind} .*total=(\\d+)`, 'm').exec(readFileSync(file, 'utf8'))?.[1] ?? NaN);
+  if (!existsSync('/proc/pressure/io') || !existsSync('/proc/pressure/cpu')) return null;
+  return { ioSome: total('/proc/pressure/io', 'some'), ioFull: total('/proc/pressure/io', 'full'), cpuSome: total('/proc/pressure/cpu', 'some') };
 }
 
 /** `PerformanceEntry.detail.kind` of a GC entry (node:perf_hooks constants NODE_PERFORMANCE_GC_*). */
@@ -212,6 +224,7 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null,
   const { pool: walPool } = getDbHandle();
   const walAt = async () => (await walPool.query<{ lsn: string }>('select pg_current_wal_lsn()::text as lsn')).rows[0]!.lsn;
   const walBefore = await walAt();
+  const pressureBefore = pressure();
   const began = performance.now();
   // Pauses of the server's event loop during the realistic phase: GC by kind, and loop delay.
   const gcs: { kind: string; ms: number }[] = [];
@@ -258,6 +271,9 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null,
   // WAL written per stored batch: what each write costs PostgreSQL in bytes (rows, rollups, health, indexes).
   const wal = await walPool.query<{ bytes: number }>('select pg_wal_lsn_diff($1::pg_lsn, $2::pg_lsn)::float8 as bytes', [await walAt(), walBefore]);
   const walBytesPerBatch = round(wal.rows[0]!.bytes / real.batches.length, 0);
+  const pressureAfter = pressure();
+  const stalledMs = (k: 'ioSome' | 'ioFull' | 'cpuSome') => (pressureBefore && pressureAfter ? round((pressureAfter[k] - pressureBefore[k]) / 1000, 0) : null);
+  const machineStalls = { ioSomeMs: stalledMs('ioSome'), ioFullMs: stalledMs('ioFull'), cpuSomeMs: stalledMs('cpuSome') };
   const realistic = {
     binsPerS: round(realisticBins / publishedSpan, 0),
     wsP50Ms: round(pct(lat, 0.5)),
@@ -271,6 +287,8 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null,
     pubackP50Ms: round(pct(puback, 0.5)),
     pubackP99Ms: round(pct(puback, 0.99)),
     walBytesPerBatch,
+    // Over the realistic phase (PSI): how long the machine's tasks waited for I/O and for a CPU.
+    machineStalls,
     breakdown: withBreakdown ? breakdown(steady, marks) : null,
     eventLoopDelayMs: { p50: round(loopDelay.percentile(50) / 1e6), p99: round(loopDelay.percentile(99) / 1e6), max: round(loopDelay.max / 1e6) },
     gcPauses: gcSummary(gcs),
