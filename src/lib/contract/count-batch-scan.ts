@@ -38,7 +38,8 @@ const POWERS_OF_TEN = Array.from({ length: MAX_INT_DIGITS + 1 }, (_, k) => Numbe
 
 // The scan's state: module-level rather than fields of an object, so that every read is a plain
 // variable access in the hot loops. One scan runs at a time (it never yields).
-let p: Uint8Array = new Uint8Array(0);
+const NO_BYTES = new Uint8Array(0);
+let p: Uint8Array = NO_BYTES;
 let i = 0;
 
 /** JSON whitespace: space, line feed, carriage return, tab. */
@@ -299,6 +300,9 @@ export function scanCountBatch(payload: Uint8Array): CountBatch | null {
   } catch (e) {
     if (e === NOT_PLAIN) return null;
     throw e;
+  } finally {
+    // The payload's buffer is the broker's: not kept alive past the scan.
+    p = NO_BYTES;
   }
   if (v !== CONTRACT_VERSION || boot === undefined || boot.length < 1 || boot.length > 32 || seq === undefined || t0 === undefined || dt === undefined || dt < 1 || !channels) return null;
   const { ch, n } = channels;
