@@ -106,7 +106,7 @@ export function SweepControl({ bench, lastSweep, onSweepStarted, drive }: Props)
           type="button"
           className="btn"
           disabled={busy || mid === null}
-          title={mid === null ? 'Needs a fitted sweep over part of this range: a fit is not followed beyond the span it covered' : undefined}
+          title={mid === null ? 'Needs a fitted pass over part of this range: a fit is not followed beyond the span it covered' : undefined}
           onClick={() => mid !== null && void send({ op: 'hold', x: Number(mid.toFixed(4)) }, `Hold at mid-fringe ${mid.toFixed(3)} V`)}
         >
           Hold at mid-fringe{mid !== null && <span className="figure text-xs text-muted">{mid.toFixed(3)} V</span>}

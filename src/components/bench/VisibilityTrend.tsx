@@ -79,7 +79,7 @@ export function VisibilityTrend(props: Props) {
       bands: [{ series: [3, 2], fill: withAlpha(p.accent, 0.18) }],
       series: [
         { label: 'time' },
-        { label: 'sweep fit ± 1σ', stroke: p.accent, width: 1.5, points: { show: true, size: 5, fill: p.accent }, spanGaps: true },
+        { label: 'pass fit ± 1σ', stroke: p.accent, width: 1.5, points: { show: true, size: 5, fill: p.accent }, spanGaps: true },
         // The band's edges: drawn as the shaded band only, so kept out of the legend ('hidden!' beats uPlot's unlayered legend CSS).
         { label: '−1σ', class: 'hidden!', stroke: 'transparent', points: { show: false }, spanGaps: true },
         { label: '+1σ', class: 'hidden!', stroke: 'transparent', points: { show: false }, spanGaps: true },
@@ -112,10 +112,10 @@ export function VisibilityTrend(props: Props) {
           )}
         </p>
       </div>
-      <div ref={box} className="relative min-h-[200px]" role="img" aria-label="Visibility of each fitted sweep over time, with the alarm limit">
+      <div ref={box} className="relative min-h-[200px]" role="img" aria-label="Visibility of each fitted pass over time, with the alarm limit">
         {(props.loading || props.error || empty) && (
           <p className={`pointer-events-none absolute left-1/2 top-[40%] z-10 -translate-x-1/2 -translate-y-1/2 rounded-md border border-line bg-panel px-3 py-1.5 text-center text-sm ${props.error ? 'text-bad' : 'text-muted'}`}>
-            {props.error ?? (props.loading ? 'Loading sweeps…' : props.emptyText ?? 'No fitted sweeps in the last 30 minutes.')}
+            {props.error ?? (props.loading ? 'Loading passes…' : props.emptyText ?? 'No fitted passes in the last 30 minutes.')}
           </p>
         )}
       </div>

@@ -143,7 +143,7 @@ export function StabilityCard({ benchId, channels, from, to }: { benchId: string
           {phase ? (
             <AllanChart curves={phaseCurves} yLabel="σ(τ), rad" yTick={(v) => String(Number(v.toPrecision(2)))} yValue={(v) => (v == null ? '–' : `${v.toPrecision(3)} rad`)} label="Allan deviation of the interferometer phase against averaging time" testId="stability-phase-chart" />
           ) : (
-            <p className="text-sm text-muted">{loading || error ? '–' : 'No phase for this range: it needs both outputs and a fitted sweep for the visibility.'}</p>
+            <p className="text-sm text-muted">{loading || error ? '–' : 'No phase for this range: it needs both outputs and a fitted pass for the visibility.'}</p>
           )}
         </div>
       </div>

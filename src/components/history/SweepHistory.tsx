@@ -159,23 +159,23 @@ export function SweepHistory({ benchId, from, to }: Props) {
     <section className="card space-y-3" aria-labelledby="sweeps-h" data-testid="history-sweeps">
       <div className="flex flex-wrap items-baseline justify-between gap-2">
         <h2 id="sweeps-h" className="font-semibold">Visibility over time</h2>
-        <p className="text-xs text-muted">each fitted sweep in the range, raw (no dark subtraction) · hover a point for its fit</p>
+        <p className="text-xs text-muted">each fitted pass in the range, raw (no dark subtraction) · hover a point for its fit</p>
       </div>
-      <div ref={box} className="relative" style={{ minHeight: HEIGHT }} role="img" aria-label="Fitted visibility of each sweep in the range, up and down passes apart, with ±1σ whiskers">
+      <div ref={box} className="relative" style={{ minHeight: HEIGHT }} role="img" aria-label="Fitted visibility of each pass in the range, up and down apart, with ±1σ whiskers">
         {(loading || error || empty) && (
           <ChartState error={!!error} testId="sweeps-state">
-            {error ? `Could not load sweeps: ${error}` : loading ? 'Loading sweeps…' : 'No sweeps in this range.'}
+            {error ? `Could not load passes: ${error}` : loading ? 'Loading passes…' : 'No fitted passes in this range.'}
           </ChartState>
         )}
       </div>
       <p className="figure min-h-4 truncate text-xs text-muted" aria-live="polite">{hovered ? describe(hovered) : '\u00a0'}</p>
       {sweeps.length > 0 && (
         <div className="overflow-x-auto">
-          <table className="table figure" aria-label="Sweeps in the range by direction">
+          <table className="table figure" aria-label="Fitted passes in the range by direction">
             <thead>
               <tr>
-                <th scope="col">Passes</th>
-                <th scope="col" className="text-right">Sweeps</th>
+                <th scope="col">Direction</th>
+                <th scope="col" className="text-right">Passes</th>
                 <th scope="col" className="text-right">Mean V ± spread</th>
                 <th scope="col" className="text-right">Median fit error</th>
                 <th scope="col" className="text-right">Piezo nm/V ± spread</th>

@@ -67,7 +67,7 @@ export default function RunCharts(props: { benchId: string; from: number; to: nu
         </div>
       </section>
       <div className="break-inside-avoid">
-        <VisibilityTrend sweeps={props.sweeps} envelope={[]} limit={null} loading={false} error={null} emptyText="No sweeps were fitted during this run." span={{ from: props.from, to: props.to }} />
+        <VisibilityTrend sweeps={props.sweeps} envelope={[]} limit={null} loading={false} error={null} emptyText="No passes were fitted during this run." span={{ from: props.from, to: props.to }} />
       </div>
     </div>
   );
