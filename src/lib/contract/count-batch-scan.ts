@@ -36,8 +36,8 @@ const MAX_INT_DIGITS = 15;
 /** 10^0 … 10^15, each exact in a double. */
 const POWERS_OF_TEN = Array.from({ length: MAX_INT_DIGITS + 1 }, (_, k) => Number(`1e${k}`));
 
-// The scan's state: module-level rather than fields of an object, so that every read is a plain
-// variable access in the hot loops. One scan runs at a time (it never yields).
+// The scan's bytes and position, read directly by the readers of the few top-level tokens. One
+// scan runs at a time (it never yields).
 const NO_BYTES = new Uint8Array(0);
 let p: Uint8Array = NO_BYTES;
 let i = 0;
@@ -114,7 +114,8 @@ function readUint(max: number): number {
 }
 
 // The array readers below run over hundreds of elements per batch, so they work on local copies
-// of the scan's state (module-level variables cost about twice as much per byte read here).
+// of the scan's state (module-level variables cost about twice as much per byte read here), each
+// with its own loop: one loop shared through a per-element callback would not be inlined for both.
 
 /** `[uint, …]`: each element plain digits, at most MAX_COUNT; at most MAX_BINS of them. */
 function readCounts(): number[] {
