@@ -2,7 +2,8 @@
 // (the WebSocket hub, and later fits and alarms) without any of them knowing the others.
 import type { FeatureMessage, LiveMessage } from '../../live-messages.ts';
 
-export type FanoutListener = (benchId: string, message: LiveMessage | FeatureMessage) => void;
+/** `late`: the message is a batch that already waited a frame period or more since it arrived. */
+export type FanoutListener = (benchId: string, message: LiveMessage | FeatureMessage, late: boolean) => void;
 
 export class Fanout {
   private listeners = new Set<FanoutListener>();
@@ -12,10 +13,10 @@ export class Fanout {
     return () => this.listeners.delete(listener);
   }
 
-  emit(benchId: string, message: LiveMessage | FeatureMessage): void {
+  emit(benchId: string, message: LiveMessage | FeatureMessage, late = false): void {
     for (const l of this.listeners) {
       try {
-        l(benchId, message);
+        l(benchId, message, late);
       } catch (err) {
         console.error('[fanout] listener failed:', err);
       }

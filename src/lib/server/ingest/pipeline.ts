@@ -5,6 +5,7 @@ import { serverEvents } from '../events.ts';
 import type { Slice } from './coverage.ts';
 import { decodeInbound, type InboundKind } from './decode.ts';
 import { Fanout } from './fanout.ts';
+import { isLate } from '../live/frame-period.ts';
 import { GatewayDirectory } from './gateway-directory.ts';
 import { storeStatus } from './status-store.ts';
 import { BatchWriter, type StoredEvent } from './store.ts';
@@ -70,9 +71,10 @@ export class Ingest {
     const benchId = this.directory.cached(e.gatewayId);
     if (!benchId) return;
     const receivedAt = Date.now();
+    const late = isLate(e.arrivedAt, receivedAt);
     for (const s of e.slices) {
       const msg = countsMessage(benchId, e.gatewayId, s);
-      this.fanout.emit(benchId, msg);
+      this.fanout.emit(benchId, msg, late);
       // Fits and alarms listen on the server bus; boot/seq are the ingest's business, not theirs.
       const batch = { v: 1 as const, boot: '', seq: 0, t0: s.t0, dt: s.dt, ch: msg.ch, ...(msg.x && { x: msg.x }), ...(msg.cc && { cc: msg.cc }) };
       serverEvents().emit('batch-stored', { benchId, gatewayId: e.gatewayId, batch, receivedAt });

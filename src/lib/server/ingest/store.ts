@@ -25,6 +25,8 @@ const MAX_ITEMS_PER_WRITE = 1_000;
 
 export interface StoredEvent {
   gatewayId: string;
+  /** When the batch reached the ingest (ms since the epoch). */
+  arrivedAt: number;
   slices: Slice[];
 }
 
@@ -218,7 +220,7 @@ export class BatchWriter {
       const outcome = result.outcomes.get(item)!;
       if (outcome.kind === 'stored') {
         try {
-          this.onStored({ gatewayId: item.gatewayId, slices: outcome.slices });
+          this.onStored({ gatewayId: item.gatewayId, arrivedAt: item.arrivedAt, slices: outcome.slices });
         } catch (err) {
           console.error('[ingest] fan-out failed:', err);
         }

@@ -2,11 +2,11 @@
 // as the middleware, keeps each bench's clients, pushes what the fan-out emits, answers `resume`,
 // and terminates sockets that stop answering pings.
 //
-// Push in frames: what the fan-out emits for a bench waits at most FRAME_MS, is coalesced
-// (contiguous counts of a gateway merge), serialised and framed ONCE (ws-frame.ts) and handed to
-// every client of the bench, which writes the whole frame with one socket write. With 200
-// browsers and 200 batches/s the per-message, per-client send was half the server's CPU and put
-// it behind (DEVELOPERS.md, "Ingest benchmark").
+// Push in frames: what the fan-out emits for a bench waits at most FRAME_MS (frame-period.ts; a
+// late batch not at all), is coalesced (contiguous counts of a gateway merge), serialised and
+// framed ONCE (ws-frame.ts) and handed to every client of the bench, which writes the whole frame
+// with one socket write. With 200 browsers and 200 batches/s the per-message, per-client send was
+// half the server's CPU and put it behind (DEVELOPERS.md, "Ingest benchmark").
 import type http from 'node:http';
 import type { Socket } from 'node:net';
 import type { Duplex } from 'node:stream';
@@ -22,18 +22,13 @@ import { binsOf, coalesceCounts, joinSpans } from './coalesce.ts';
 import { HIGH_WATER_BYTES, MAX_QUEUED_BYTES, Outbox, type PreparedFrame, type Queued, type Sink } from './outbox.ts';
 import { countsPage, type ResumeCursor } from './resume.ts';
 import { traceStage } from './trace.ts';
+import { frameDelay } from './frame-period.ts';
 import { textFrames } from './ws-frame.ts';
 
 /** Ping period; a socket that has not answered the previous ping by the next one is terminated (ms). */
 const HEARTBEAT_MS = 30_000;
 /** Largest client message accepted (bytes): clients only send small control messages. */
 const MAX_CLIENT_MESSAGE_BYTES = 4 * 1024;
-/**
- * Shortest time between two frames to a bench's clients (ms). A frame goes out at once when the
- * previous one is older; otherwise messages gather until then. 10 ms keeps publish → browser within
- * the 20 ms budget over the broker and caps socket writes at 100 a second per client.
- */
-export const FRAME_MS = 10;
 /**
  * How far back a resume reaches (ms). Pages are paced by the client's socket, so the bound is on
  * the database work a client can ask for; an older `since` starts here and the answer says
@@ -73,23 +68,31 @@ export class LiveHub {
   private lastFrameAt = -Infinity;
 
   constructor(fanout: Fanout) {
-    this.unsubscribe = fanout.subscribe((benchId, message) => this.publish(benchId, message));
+    this.unsubscribe = fanout.subscribe((benchId, message, late) => this.publish(benchId, message, late));
     this.heartbeat = setInterval(() => this.beat(), HEARTBEAT_MS);
     this.heartbeat.unref();
   }
 
-  /** Sends a message to every client watching a bench in the next frame (fits, alarms and the like call this too). */
-  publish(benchId: string, message: LiveMessage | FeatureMessage): void {
+  /**
+   * Sends a message to every client watching a bench in the next frame (fits, alarms and the like
+   * call this too); a `late` one brings that frame forward to now (frame-period.ts).
+   */
+  publish(benchId: string, message: LiveMessage | FeatureMessage, late = false): void {
     if (!this.benches.get(benchId)?.size) return;
     const list = this.pending.get(benchId);
     if (list) list.push(message);
     else this.pending.set(benchId, [message]);
-    this.scheduleFrame();
+    this.scheduleFrame(late);
   }
 
-  private scheduleFrame(): void {
-    if (this.frameTimer || this.frameImmediate) return;
-    const wait = this.lastFrameAt + FRAME_MS - performance.now();
+  private scheduleFrame(late: boolean): void {
+    if (this.frameImmediate) return;
+    if (this.frameTimer) {
+      if (!late) return;
+      clearTimeout(this.frameTimer);
+      this.frameTimer = null;
+    }
+    const wait = frameDelay(this.lastFrameAt, performance.now(), late);
     // setImmediate, not 0 ms: every batch of the same COMMIT is emitted before it runs.
     if (wait <= 0) this.frameImmediate = setImmediate(() => this.frame());
     else this.frameTimer = setTimeout(() => this.frame(), wait);
