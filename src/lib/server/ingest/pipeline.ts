@@ -2,10 +2,10 @@
 // acknowledge the MQTT message when `handle` resolves. decode → store → fan-out.
 import type { CountsMessage } from '../../live-messages.ts';
 import { serverEvents } from '../events.ts';
+import { isLate } from '../live/frame-period.ts';
 import type { Slice } from './coverage.ts';
 import { decodeInbound, type InboundKind } from './decode.ts';
 import { Fanout } from './fanout.ts';
-import { isLate } from '../live/frame-period.ts';
 import { GatewayDirectory } from './gateway-directory.ts';
 import { storeStatus } from './status-store.ts';
 import { BatchWriter, type StoredEvent } from './store.ts';

@@ -19,10 +19,10 @@ import { originHost } from '../http/origin.ts';
 import type { Fanout } from '../ingest/fanout.ts';
 import { canReadBench } from './access.ts';
 import { binsOf, coalesceCounts, joinSpans } from './coalesce.ts';
+import { frameDelay } from './frame-period.ts';
 import { HIGH_WATER_BYTES, MAX_QUEUED_BYTES, Outbox, type PreparedFrame, type Queued, type Sink } from './outbox.ts';
 import { countsPage, type ResumeCursor } from './resume.ts';
 import { traceStage } from './trace.ts';
-import { frameDelay } from './frame-period.ts';
 import { textFrames } from './ws-frame.ts';
 
 /** Ping period; a socket that has not answered the previous ping by the next one is terminated (ms). */
