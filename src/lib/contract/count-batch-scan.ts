@@ -117,18 +117,19 @@ function readUint(max: number): number {
 // of the scan's state (module-level variables cost about twice as much per byte read here), each
 // with its own loop: one loop shared through a per-element callback would not be inlined for both.
 
+/** Past `[`; true, and past `]` too, when the array is empty. Once per array, so on the shared state. */
+function openArray(): boolean {
+  expect(OPEN_ARRAY);
+  return take(CLOSE_ARRAY);
+}
+
 /** `[uint, …]`: each element plain digits, at most MAX_COUNT; at most MAX_BINS of them. */
 function readCounts(): number[] {
-  expect(OPEN_ARRAY);
+  const out: number[] = [];
+  if (openArray()) return out;
   const b = p;
   let at = i;
-  const out: number[] = [];
   let c = b[at];
-  while (isSpace(c)) c = b[++at];
-  if (c === CLOSE_ARRAY) {
-    i = at + 1;
-    return out;
-  }
   for (;;) {
     while (isSpace(c)) c = b[++at];
     const start = at;
@@ -163,16 +164,11 @@ function readCounts(): number[] {
  * through Number() of their text. A value past the largest double leaves the plain form.
  */
 function readNumbers(): number[] {
-  expect(OPEN_ARRAY);
+  const out: number[] = [];
+  if (openArray()) return out;
   const b = p;
   let at = i;
-  const out: number[] = [];
   let c = b[at];
-  while (isSpace(c)) c = b[++at];
-  if (c === CLOSE_ARRAY) {
-    i = at + 1;
-    return out;
-  }
   for (;;) {
     while (isSpace(c)) c = b[++at];
     const start = at;
