@@ -44,13 +44,16 @@ export function mandelQ(counts: ArrayLike<number>): MandelQ {
 }
 
 export interface CoincidenceInput {
-  /** Singles of the two detectors over the same acquisition. */
-  counts1: number;
-  counts2: number;
-  /** Coincidences within the window. */
+  /**
+   * Singles of the two detectors, bin by bin over the same acquisition (one bin holding the totals
+   * is the textbook form, right only while both rates stay constant).
+   */
+  counts1: ArrayLike<number>;
+  counts2: ArrayLike<number>;
+  /** Bin width Δt, s. */
+  binS: number;
+  /** Coincidences within the window over all the bins. */
   coincidences: number;
-  /** Acquisition time, s. */
-  seconds: number;
   /**
    * Full coincidence window τ_c, s: a pair counts when |t₁ − t₂| ≤ τ_c/2. With each channel's
    * resolving time τ this is τ_c = 2τ, so the accidental rate R₁R₂τ_c is the 2τR₁R₂ of the texts.
@@ -59,61 +62,91 @@ export interface CoincidenceInput {
 }
 
 export interface G2Result {
-  /** g2(0) = N_c/N_acc = N_c·T/(N₁N₂τ_c): 1 coherent, 2 thermal, 0 single photon. */
+  /** g2(0) = N_c/N_acc: 1 coherent, 2 thermal, 0 single photon. */
   g2: Measured;
   /** Garwood 1σ interval on g2(0) from the coincidence count alone (the dominant error). */
   interval: { lower: number; upper: number };
-  /** Expected accidental coincidences N₁N₂τ_c/T = R₁R₂τ_c·T. */
+  /** Expected accidental coincidences N_acc = Σᵢ n₁ᵢn₂ᵢτ_c/Δt. */
   accidentals: number;
   /** Coincidences above accidentals, N_c − N_acc: the correlated pairs. */
   excess: Measured;
 }
 
 /**
+ * Σᵢ aᵢbᵢ/cᵢ over bins with cᵢ > 0, and its variance with every count an independent Poisson
+ * variable (which overstates it a little where the counts are correlated: conservative).
+ */
+function binProductSum(a: ArrayLike<number>, b: ArrayLike<number>, c: (i: number) => number): { sum: number; variance: number } {
+  if (a.length !== b.length) throw new RangeError('singles series of unequal length');
+  let sum = 0;
+  let variance = 0;
+  for (let i = 0; i < a.length; i++) {
+    const ci = c(i);
+    if (!(ci > 0)) continue;
+    const ai = a[i] as number;
+    const bi = b[i] as number;
+    sum += (ai * bi) / ci;
+    variance += (bi * bi * ai + ai * ai * bi) / (ci * ci);
+  }
+  return { sum, variance };
+}
+
+/**
  * g2(0) of a two-detector (Hanbury Brown–Twiss) measurement from singles and coincidences. The
- * accidentals R₁R₂τ_c are what uncorrelated light gives, so they normalise g2 and are subtracted
- * to count the correlated (or missing) pairs.
+ * accidentals R₁R₂τ_c are what uncorrelated light gives at each moment, so they are summed bin by
+ * bin: with the window totals instead, two outputs of an interferometer that move in antiphase
+ * through a fringe read ⟨R₁R₂⟩/(⟨R₁⟩⟨R₂⟩) = 1 − V²/2 for laser light, as if antibunched.
  */
 export function g2FromCoincidences(input: CoincidenceInput): G2Result {
-  const { counts1, counts2, coincidences, seconds, windowS } = input;
-  if (!(seconds > 0 && windowS > 0)) throw new RangeError('acquisition time and window must be positive');
-  const accidentals = (counts1 * counts2 * windowS) / seconds;
+  const { counts1, counts2, binS, coincidences, windowS } = input;
+  if (!(binS > 0 && windowS > 0)) throw new RangeError('bin width and window must be positive');
+  const products = binProductSum(counts1, counts2, () => binS / windowS);
+  const accidentals = products.sum;
   if (!(accidentals > 0)) throw new RangeError('no singles: g2(0) undefined');
   const g2 = coincidences / accidentals;
-  const rel1 = counts1 > 0 ? 1 / counts1 : 0;
-  const rel2 = counts2 > 0 ? 1 / counts2 : 0;
-  const err = Math.sqrt(coincidences / (accidentals * accidentals) + g2 * g2 * (rel1 + rel2));
+  const relVarAcc = products.variance / (accidentals * accidentals);
+  const err = Math.sqrt(coincidences / (accidentals * accidentals) + g2 * g2 * relVarAcc);
   const ci: PoissonInterval = garwoodInterval(Math.round(coincidences));
   return {
     g2: { value: g2, err },
     interval: { lower: ci.lower / accidentals, upper: ci.upper / accidentals },
     accidentals,
-    excess: { value: coincidences - accidentals, err: Math.sqrt(coincidences + accidentals * accidentals * (rel1 + rel2)) },
+    excess: { value: coincidences - accidentals, err: Math.sqrt(coincidences + products.variance) },
   };
 }
 
 export interface HeraldedInput {
-  /** Herald (gate) detections N_G. */
-  gates: number;
-  /** Gate–transmitted and gate–reflected twofold coincidences N_GT, N_GR. */
-  gateTransmitted: number;
-  gateReflected: number;
-  /** Threefold coincidences N_GTR. */
+  /** Herald (gate) detections N_G,ᵢ, bin by bin (one bin holding the totals is the textbook form). */
+  gates: ArrayLike<number>;
+  /** Gate–transmitted and gate–reflected twofold coincidences N_GT,ᵢ and N_GR,ᵢ in the same bins. */
+  gateTransmitted: ArrayLike<number>;
+  gateReflected: ArrayLike<number>;
+  /** Threefold coincidences N_GTR over all the bins. */
   triples: number;
 }
 
 /**
  * Heralded anticorrelation parameter α = N_GTR·N_G/(N_GT·N_GR) (Grangier, Roger & Aspect,
  * Europhys. Lett. 1, 173 (1986); Thorn et al., Am. J. Phys. 72, 1210 (2004)): 1 for classical
- * coherent light, 0 for an ideal single photon. Error from the Poisson variances of the four
- * counts treated as independent, which slightly overstates it (N_GTR ⊂ N_GT): conservative.
+ * coherent light, 0 for an ideal single photon. The triples expected without anticorrelation,
+ * N_GT·N_GR/N_G, are summed bin by bin, for the reason given at g2FromCoincidences. Error from
+ * the Poisson variances of the counts treated as independent, which slightly overstates it
+ * (N_GTR ⊂ N_GT): conservative.
  */
 export function heraldedAlpha(input: HeraldedInput): { alpha: Measured; triplesInterval: { lower: number; upper: number } } {
   const { gates, gateTransmitted, gateReflected, triples } = input;
-  if (!(gateTransmitted > 0 && gateReflected > 0 && gates > 0)) throw new RangeError('α needs gate and twofold counts');
-  const scale = gates / (gateTransmitted * gateReflected);
+  if (gates.length !== gateTransmitted.length) throw new RangeError('gate series of unequal length');
+  const expected = binProductSum(gateTransmitted, gateReflected, (i) => gates[i] as number);
+  // The gates' own Poisson variance: ∂(tr/g)/∂g = −tr/g².
+  let gateVariance = 0;
+  for (let i = 0; i < gates.length; i++) {
+    const g = gates[i] as number;
+    if (g > 0) gateVariance += ((gateTransmitted[i] as number) * (gateReflected[i] as number)) ** 2 / g ** 3;
+  }
+  if (!(expected.sum > 0)) throw new RangeError('α needs gate and twofold counts');
+  const scale = 1 / expected.sum;
   const alpha = triples * scale;
-  const relVar = 1 / gates + 1 / gateTransmitted + 1 / gateReflected;
+  const relVar = (expected.variance + gateVariance) * scale * scale;
   const err = Math.sqrt(triples * scale * scale + alpha * alpha * relVar);
   const ci = garwoodInterval(Math.round(triples));
   return { alpha: { value: alpha, err }, triplesInterval: { lower: ci.lower * scale, upper: ci.upper * scale } };

@@ -1,6 +1,8 @@
 // Which recent bins feed which live figure, checked on steady synthetic counts where each figure
 // has a closed form from its published definition.
+import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
+import { benchFiguresSchema } from '../../bench-figures-schema.ts';
 import type { ChannelSettings } from './live-figures.ts';
 import { computeFigures } from './live-figures.ts';
 import { RecentBins } from './recent-bins.ts';
@@ -17,7 +19,7 @@ const CC_TOTAL = 120; // coincidences over the window
 function recent(): RecentBins {
   const r = new RecentBins();
   for (let s = 0; s < SECONDS; s++) {
-    // The first 120 bins hold one coincidence each: only the total matters for g2(0).
+    // The first 120 bins hold one coincidence each: with steady singles, only their total matters.
     const cc = Array.from({ length: BINS }, (_, i) => (s * BINS + i < CC_TOTAL ? 1 : 0));
     r.add(GW, { v: 1, boot: 'b', seq: s, t0: T0 + s * BINS * DT, dt: DT, ch: { a: new Array(BINS).fill(A), b: new Array(BINS).fill(B) }, cc });
   }
@@ -68,7 +70,9 @@ describe('computeFigures', () => {
     expect(figures.contrast).toBeCloseTo((A - B) / (A + B), 12);
   });
 
-  it('gives g2(0) = N_c·T/(N_1·N_2·Δt) (Grangier, Roger, Aspect, Europhys. Lett. 1, 173 (1986))', () => {
+  // Accidentals R₁R₂τ_c (the chance-coincidence rate 2τ·r₁·r₂ of Knoll, Radiation Detection and
+  // Measurement, 4th ed., with τ_c = 2τ; from memory): with steady singles, N_c·T/(N_1·N_2·τ_c).
+  it('gives g2(0) as the coincidences over the accidentals', () => {
     const n1 = A * BINS * SECONDS;
     const n2 = B * BINS * SECONDS;
     const accidentals = (n1 * n2 * 1_000e-9) / SECONDS;
@@ -89,5 +93,57 @@ describe('computeFigures', () => {
     const [na, nb, darkA] = [A * BINS, B * BINS, 100];
     expect(fresh.phase?.value).toBeCloseTo(Math.acos((na - darkA - nb) / (0.9 * (na - darkA + nb))), 6);
     expect(fresh.phase?.driftRadPerS).toBeNull(); // fewer than 5 readings yet
+  });
+});
+
+describe('computeFigures on whatever a bench sends', () => {
+  it('leaves Mandel Q out for a channel without counts (shutter closed, detector off) instead of throwing', () => {
+    const r = new RecentBins();
+    r.add(GW, { v: 1, boot: 'b', seq: 0, t0: T0, dt: DT, ch: { a: new Array(BINS).fill(0), b: new Array(BINS).fill(B) } });
+    const { figures } = computeFigures({ ...input(), recent: r, now: T0 + BINS * DT });
+    expect(figures.channels.find((c) => c.role === 'out_a')!.mandelQ).toBeNull();
+    expect(figures.channels.find((c) => c.role === 'out_b')!.mandelQ).not.toBeNull();
+  });
+
+  it('shows no phase from a reading at a bright fringe, whose error is unbounded, but keeps it for the drift', () => {
+    const r = new RecentBins();
+    // Output b dark: D/V clips at 1, θ = 0 (common practice: arccos of the normalised difference).
+    r.add(GW, { v: 1, boot: 'b', seq: 0, t0: T0, dt: DT, ch: { a: new Array(BINS).fill(A), b: new Array(BINS).fill(0) } });
+    const { figures, phaseReading } = computeFigures({ ...input([{ timeMs: T0, value: 0.8, err: 0.01 }]), recent: r, now: T0 + BINS * DT });
+    expect(figures.phase).toBeNull();
+    expect(phaseReading?.theta).toBe(0);
+    expect(benchFiguresSchema.safeParse(figures).success).toBe(true);
+  });
+
+  it('always yields figures the live schema accepts: zeros, floods, darks above the counts, dead time at its limit', () => {
+    const counts = fc.array(fc.oneof(fc.constant(0), fc.integer({ min: 0, max: 30 }), fc.integer({ min: 0, max: 2_000_000 })), { minLength: BINS, maxLength: BINS });
+    const channel = (key: string, role: ChannelSettings['role']) =>
+      fc.record({
+        darkRate: fc.option(fc.double({ min: 0, max: 1e7, noNaN: true }), { nil: null }),
+        deadTimeNs: fc.option(fc.double({ min: 0, max: 1e4, noNaN: true }), { nil: null }),
+        deadTimeModel: fc.constantFrom('nonparalyzable' as const, 'paralyzable' as const),
+        efficiency: fc.double({ min: 0, max: 1, noNaN: true }),
+      }).map((s): ChannelSettings => ({ gateway: GW, key, label: key, role, darkRateErr: s.darkRate === null ? null : s.darkRate / 10, ...s }));
+    fc.assert(
+      fc.property(
+        fc.array(fc.record({ a: counts, b: counts, g: counts, cc: counts, x: fc.option(fc.array(fc.double({ min: -10, max: 10, noNaN: true }), { minLength: BINS, maxLength: BINS }), { nil: undefined }) }), { minLength: 1, maxLength: 3 }),
+        fc.tuple(channel('a', 'out_a'), channel('b', 'out_b'), fc.option(channel('g', 'herald'), { nil: null })),
+        fc.option(fc.double({ min: 0, max: 1, noNaN: true }), { nil: null }),
+        (batches, [ca, cb, cg], sweepV) => {
+          const r = new RecentBins();
+          batches.forEach((b, s) => r.add(GW, { v: 1, boot: 'b', seq: s, t0: T0 + s * BINS * DT, dt: DT, ch: { a: b.a, b: b.b, g: b.g }, cc: b.cc, ...(b.x ? { x: b.x } : {}) }));
+          const at = T0 + batches.length * BINS * DT;
+          const { figures } = computeFigures({
+            ...input(sweepV === null ? [] : [{ timeMs: at, value: sweepV, err: 0.01 }]),
+            channels: cg ? [ca, cb, cg] : [ca, cb],
+            recent: r,
+            now: at,
+          });
+          const parsed = benchFiguresSchema.safeParse(figures);
+          if (!parsed.success) throw new Error(JSON.stringify(parsed.error.issues.slice(0, 3)));
+        },
+      ),
+      { numRuns: 300, seed: 42 },
+    );
   });
 });

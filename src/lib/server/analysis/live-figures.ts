@@ -34,6 +34,11 @@ const PHASE_WINDOW_MS = 1_000;
 
 const modelName = (m: ChannelSettings['deadTimeModel']): DeadTimeModel => (m === 'paralyzable' ? 'paralyzable' : 'non-paralyzable');
 
+/** A figure with its error, or null when either is not a finite number (the live schema refuses those). */
+function finite<T extends { value: number; err: number }>(m: T | null | undefined): T | null {
+  return m && Number.isFinite(m.value) && Number.isFinite(m.err) ? m : null;
+}
+
 function sum(a: Float64Array): number {
   let s = 0;
   for (let i = 0; i < a.length; i++) s += a[i] as number;
@@ -44,29 +49,30 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
   const { recent, windowMs } = input;
   const to = recent.latestEnd();
   const channels: ChannelFigures[] = [];
-  const totals = new Map<string, { counts: number; seconds: number; series: Float64Array }>();
+  const totals = new Map<string, { counts: number; seconds: number; dtMs: number; series: Float64Array }>();
 
   for (const c of input.channels) {
     const s = recent.series(c.gateway, c.key, windowMs, to);
     if (!s || s.counts.length === 0) continue;
     const seconds = (s.counts.length * s.dtMs) / 1000;
     const counts = sum(s.counts);
-    totals.set(c.role === 'aux' ? `aux:${c.gateway}/${c.key}` : c.role, { counts, seconds, series: s.counts });
+    totals.set(c.role === 'aux' ? `aux:${c.gateway}/${c.key}` : c.role, { counts, seconds, dtMs: s.dtMs, series: s.counts });
     const measured = rateFromCounts(counts, seconds);
     const corr = correctRate({
       measured,
       ...(c.darkRate !== null ? { dark: { value: c.darkRate, err: c.darkRateErr ?? 0 } } : {}),
       ...(c.deadTimeNs ? { deadTime: { tau: c.deadTimeNs * 1e-9, model: modelName(c.deadTimeModel) } } : {}),
     });
-    const q = s.counts.length >= 10 ? mandelQ(s.counts).q : null;
+    // A dark channel (shutter closed, detector off, no heralds) has no Q.
+    const q = s.counts.length >= 10 && counts > 0 ? mandelQ(s.counts).q : null;
     channels.push({
       channel: `${c.gateway}/${c.key}`,
       role: c.role,
       label: c.label,
       rateRaw: measured.value,
-      rateCorrected: corr.ok ? corr.net : null,
+      rateCorrected: corr.ok ? finite(corr.net) : null,
       deadTimeLoss: corr.ok && c.deadTimeNs ? corr.lossFraction : null,
-      mandelQ: q && Number.isFinite(q.value) ? q : null,
+      mandelQ: finite(q),
       warning: corr.ok ? (corr.warnings[0] ?? null) : corr.reason,
     });
   }
@@ -81,7 +87,8 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
   let visibility: BenchFigures['visibility'] = null;
   const fresh = input.sweepPoints.filter((p) => input.now - p.timeMs < SWEEP_FRESH_MS);
   const combined = runningVisibility(fresh);
-  if (combined) visibility = { value: combined.value, err: combined.err, source: 'sweep', net: input.sweepNet };
+  const fitted = finite(combined);
+  if (fitted) visibility = { value: fitted.value, err: fitted.err, source: 'sweep', net: input.sweepNet };
   const sa = outA ? recent.series(outA.gateway, outA.key, windowMs, to) : null;
   const sb = outB ? recent.series(outB.gateway, outB.key, windowMs, to) : null;
   const scan = outA ? recent.scan(outA.gateway, PHASE_WINDOW_MS, to) : null;
@@ -108,10 +115,12 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
       const cal = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, la.dtMs) * bins, darkB: perBinDark(outB, lb.dtMs) * bins };
       const theta = phaseAtHold(na, nb, cal);
       if (Number.isFinite(theta.value)) {
+        // Readings at a fringe extreme (D/V clipped to ±1) still mark the crossings the drift is
+        // unfolded by, but their error is unbounded: no phase figure is shown from them.
         phaseReading = { t: to / 1000, theta: theta.value };
         const history = [...input.phaseHistory, phaseReading];
         const drift = history.length >= 5 ? driftRate(history.map((h) => h.t), unfoldPhase(history.map((h) => h.theta))) : null;
-        phase = { value: theta.value, err: theta.err, driftRadPerS: drift && Number.isFinite(drift.value) ? drift.value : null };
+        if (Number.isFinite(theta.err)) phase = { value: theta.value, err: theta.err, driftRadPerS: drift && Number.isFinite(drift.value) ? drift.value : null };
       }
       // Shot-noise comparison near mid-fringe only, where the per-bin phase is linear in the counts.
       const d = normalizedDifference(na, nb, cal);
@@ -122,31 +131,38 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
         const photonsPerBin = (na + nb) / bins;
         if (eps.every(Number.isFinite) && photonsPerBin > 0) {
           const s = phaseSensitivity(phaseNoise(eps), photonsPerBin, v);
-          shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, dB: s.dB, binMs: la.dtMs };
+          if ([s.measured, s.shotNoiseLimit, s.ratio, s.dB].every(Number.isFinite)) {
+            shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, dB: s.dB, binMs: la.dtMs };
+          }
         }
       }
     }
   }
 
-  // g2(0) (laser: singles and twofold coincidences) or α (heralded: gated counts and triples).
+  // g2(0) (laser: singles and twofold coincidences) or α (heralded: gated counts and triples),
+  // with the accidentals (or the triples expected without anticorrelation) summed bin by bin.
   let g2: BenchFigures['g2'] = null;
   let alpha: BenchFigures['alpha'] = null;
   const cc = outA ? recent.coincidences(outA.gateway, windowMs, to) : null;
   const ta = totals.get('out_a');
   const tb = totals.get('out_b');
-  if (cc && ta && tb && ta.counts > 0 && tb.counts > 0) {
+  const th = herald ? totals.get('herald') : undefined;
+  const aligned = (t: { series: Float64Array; dtMs: number } | undefined) => t !== undefined && cc !== null && t.series.length === cc.counts.length && t.dtMs === cc.dtMs;
+  if (cc && ta && tb && ta.counts > 0 && tb.counts > 0 && aligned(ta) && aligned(tb)) {
     const coincidences = sum(cc.counts);
-    const th = totals.get('herald');
-    if (herald && th && th.counts > 0) {
-      const r = heraldedAlpha({ gates: th.counts, gateTransmitted: ta.counts, gateReflected: tb.counts, triples: coincidences });
-      alpha = r.alpha;
+    // Few coincidences (accidentals at a fraction of a count per window, as on slow InGaAs
+    // benches, or no triples from a good single-photon source): the Gaussian error collapses to 0
+    // at 0 counts, so quote the exact Garwood interval's half-width instead.
+    const few = coincidences < 20;
+    if (herald) {
+      if (th && th.counts > 0 && aligned(th)) {
+        const r = heraldedAlpha({ gates: th.series, gateTransmitted: ta.series, gateReflected: tb.series, triples: coincidences });
+        alpha = finite({ value: r.alpha.value, err: few ? (r.triplesInterval.upper - r.triplesInterval.lower) / 2 : r.alpha.err });
+      }
     } else {
-      const r = g2FromCoincidences({ counts1: ta.counts, counts2: tb.counts, coincidences, seconds: ta.seconds, windowS: input.coincidenceWindowNs * 1e-9 });
-      // Few coincidences (accidentals at a fraction of a count per window, as on slow InGaAs
-      // benches): the Gaussian error collapses to 0 at 0 counts, so quote the exact Garwood
-      // interval's half-width instead.
-      const err = coincidences < 20 ? (r.interval.upper - r.interval.lower) / 2 : r.g2.err;
-      g2 = { value: r.g2.value, err, accidentals: r.accidentals };
+      const r = g2FromCoincidences({ counts1: ta.series, counts2: tb.series, binS: cc.dtMs / 1000, coincidences, windowS: input.coincidenceWindowNs * 1e-9 });
+      const err = few ? (r.interval.upper - r.interval.lower) / 2 : r.g2.err;
+      g2 = finite({ value: r.g2.value, err }) && Number.isFinite(r.accidentals) ? { value: r.g2.value, err, accidentals: r.accidentals } : null;
     }
   }
 

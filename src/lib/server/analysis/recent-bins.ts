@@ -39,7 +39,7 @@ export class RecentBins {
 
   /** Bins of `gatewayId/key` ending in (to − windowMs, to], in time order. */
   series(gatewayId: string, key: string, windowMs: number, to = this.latestEnd()): ChannelSeries | null {
-    return this.collect(gatewayId, windowMs, to, (b) => b.ch[key]);
+    return this.collect(gatewayId, windowMs, to, (b) => (Object.hasOwn(b.ch, key) ? b.ch[key] : undefined));
   }
 
   coincidences(gatewayId: string, windowMs: number, to = this.latestEnd()): ChannelSeries | null {

@@ -160,7 +160,10 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     const now = Date.now();
     for (const [benchId, s] of states) {
       if (now - s.lastBatchAt > 5_000 || !s.settings) continue;
-      const { figures, phaseReading } = computeFigures({
+      // One bench's odd data must neither stop the others' figures nor, from a timer, the server.
+      let computed: ReturnType<typeof computeFigures>;
+      try {
+        computed = computeFigures({
         benchId,
         now,
         windowMs: WINDOW_MS,
@@ -170,7 +173,12 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
         sweepPoints: s.sweepPoints,
         sweepNet: s.sweepNet,
         phaseHistory: s.phaseHistory,
-      });
+        });
+      } catch (err) {
+        console.warn('[figures]', benchId, err instanceof Error ? err.message : err);
+        continue;
+      }
+      const { figures, phaseReading } = computed;
       if (phaseReading) {
         s.phaseHistory.push(phaseReading);
         while (s.phaseHistory.length > 0 && phaseReading.t - (s.phaseHistory[0]?.t ?? 0) > PHASE_HISTORY_S) s.phaseHistory.shift();
