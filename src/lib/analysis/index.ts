@@ -25,6 +25,6 @@ export { fitSweeps, type FitSweepsInput, type FittedSweep } from './fit-sweeps.t
 export { piezoCalibration, PATH_FACTORS } from './piezo.ts';
 export { runningVisibility, envelopeVisibility, visibilityTrend, type EnvelopeEstimate, type VisibilityPoint, type VisibilityTrend } from './running-visibility.ts';
 export { normalizedDifference, phaseAtHold, quadratureError, unwrapPhase, unfoldPhase, driftRate, type HoldCalibration, type UnfoldOptions } from './phase.ts';
-export { mandelQ, g2FromCoincidences, heraldedAlpha, type CoincidenceInput, type G2Result, type HeraldedInput, type MandelQ } from './photon-stats.ts';
+export { mandelQ, poissonQThroughDeadTime, g2FromCoincidences, heraldedAlpha, type CoincidenceInput, type G2Result, type HeraldedInput, type MandelQ } from './photon-stats.ts';
 export { allanAt, allanDeviation, type AllanPoint } from './allan.ts';
 export { phaseSensitivity, phaseFisherPerPhoton, phaseNoise, squeezingDb, type PhaseSensitivity } from './sensitivity.ts';

@@ -43,6 +43,18 @@ export function mandelQ(counts: ArrayLike<number>): MandelQ {
   return { q: { value: ratio - 1, err: Math.sqrt(Math.max(0, varQ)) }, mean, variance, bins: n };
 }
 
+/**
+ * Mandel Q that Poisson (laser) light shows through a detector losing the fraction `loss` = m·τ of
+ * its counts to non-paralyzable dead time: the counts' variance is about m·T·(1 − mτ)² (Müller,
+ * Nucl. Instrum. Methods 112, 47 (1973); from memory, checked by an event-level simulation in the
+ * test), so Q ≈ (1 − mτ)² − 1 ≈ −2mτ. A measured Q is sub-Poissonian only below this. To first
+ * order in the loss the paralyzable model gives the same.
+ */
+export function poissonQThroughDeadTime(loss: number): number {
+  if (!(loss >= 0 && loss < 1)) throw new RangeError('dead-time loss must be in [0, 1)');
+  return (1 - loss) ** 2 - 1;
+}
+
 export interface CoincidenceInput {
   /**
    * Singles of the two detectors, bin by bin over the same acquisition (one bin holding the totals
