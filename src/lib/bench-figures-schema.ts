@@ -27,7 +27,7 @@ export const benchFiguresSchema: z.ZodType<BenchFigures> = z.object({
   contrast: num.nullable(),
   g2: valueErr.extend({ accidentals: num }).nullable(),
   alpha: valueErr.nullable(),
-  shotNoise: z.object({ measuredRad: num, limitRad: num, ratio: num, dB: num, binMs: num.optional() }).nullable(),
+  shotNoise: z.object({ measuredRad: num, limitRad: num, ratio: num, dB: num, binMs: num.optional(), visibilityLimitRad: num.optional() }).nullable(),
 });
 
 export type { BenchFigures };

@@ -40,5 +40,14 @@ export interface BenchFigures {
   alpha: ValueErr | null;
   /** Measured phase noise per bin beside the shot-noise limit. */
   /** Phase noise per bin of `binMs` against the shot-noise limit for the photons of such a bin (older snapshots lack `binMs`). */
-  shotNoise: { measuredRad: number; limitRad: number; ratio: number; dB: number; binMs?: number | undefined } | null;
+  shotNoise: {
+    measuredRad: number;
+    /** 1/√N for the N signal photons of a bin: the shot-noise limit at visibility 1. */
+    limitRad: number;
+    ratio: number;
+    dB: number;
+    binMs?: number | undefined;
+    /** 1/(V√N): the floor at the bench's visibility (older snapshots lack it). */
+    visibilityLimitRad?: number | undefined;
+  } | null;
 }

@@ -2,6 +2,7 @@
 // has a closed form from its published definition.
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
+import { mulberry32, poisson } from '../../../../simulators/random.ts';
 import { benchFiguresSchema } from '../../bench-figures-schema.ts';
 import type { ChannelSettings } from './live-figures.ts';
 import { computeFigures } from './live-figures.ts';
@@ -145,5 +146,24 @@ describe('computeFigures on whatever a bench sends', () => {
       ),
       { numRuns: 300, seed: 42 },
     );
+  });
+});
+
+describe('phase noise against the shot-noise limit', () => {
+  it('reads the floor 1/(V√N) for Poisson counts held at mid-fringe, 1/V times the limit at V = 1', () => {
+    // Common practice: at mid-fringe the two outputs' normalised difference has variance 1/N for
+    // N detected photons and slope V per radian, so δφ = 1/(V√N).
+    const rng = mulberry32(3);
+    const [bins, perOutput, v] = [1_000, 250, 0.8];
+    const r = new RecentBins();
+    const ch = { a: Array.from({ length: bins }, () => poisson(rng, perOutput)), b: Array.from({ length: bins }, () => poisson(rng, perOutput)) };
+    r.add(GW, { v: 1, boot: 'b', seq: 0, t0: T0, dt: 1, ch, x: new Array(bins).fill(3) });
+    const noDarks = channels.map((c) => ({ ...c, darkRate: null, darkRateErr: null, deadTimeNs: null }));
+    const { figures } = computeFigures({ ...input([{ timeMs: T0, value: v, err: 0.001 }]), channels: noDarks, recent: r, now: T0 + bins });
+    const sn = figures.shotNoise!;
+    expect(sn.visibilityLimitRad).toBeCloseTo(1 / (v * Math.sqrt(2 * perOutput)), 2);
+    // The standard deviation of 1,000 bins is good to ±√(1/2000) ≈ 2.2 % (1σ).
+    expect(Math.abs(sn.measuredRad / sn.visibilityLimitRad! - 1)).toBeLessThan(0.07);
+    expect(Math.abs(sn.ratio - 1 / v)).toBeLessThan(0.07 / v);
   });
 });

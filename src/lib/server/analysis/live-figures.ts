@@ -128,11 +128,12 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
         const perBin = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, la.dtMs), darkB: perBinDark(outB, lb.dtMs) };
         const eps = new Float64Array(bins);
         for (let i = 0; i < bins; i++) eps[i] = quadratureError(la.counts[i] as number, lb.counts[i] as number, perBin).value;
-        const photonsPerBin = (na + nb) / bins;
+        // The limits count signal photons: dark counts are noise of their own, not light.
+        const photonsPerBin = (na + nb) / bins - perBin.darkA - perBin.darkB;
         if (eps.every(Number.isFinite) && photonsPerBin > 0) {
           const s = phaseSensitivity(phaseNoise(eps), photonsPerBin, v);
-          if ([s.measured, s.shotNoiseLimit, s.ratio, s.dB].every(Number.isFinite)) {
-            shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, dB: s.dB, binMs: la.dtMs };
+          if ([s.measured, s.shotNoiseLimit, s.ratio, s.dB, s.visibilityLimit].every(Number.isFinite)) {
+            shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, dB: s.dB, binMs: la.dtMs, visibilityLimitRad: s.visibilityLimit };
           }
         }
       }
