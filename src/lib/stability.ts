@@ -24,7 +24,7 @@ export interface Stability {
   missingBuckets: number;
 }
 
-const allanPoint = z.object({ tau: z.number(), adev: z.number(), err: z.number(), terms: z.number() });
+const allanPoint = z.object({ tau: z.number(), adev: z.number(), err: z.number(), lo: z.number(), hi: z.number(), edf: z.number(), terms: z.number() });
 
 export const stabilitySchema: z.ZodType<Stability> = z.object({
   from: z.number(),

@@ -1,4 +1,4 @@
-// Vertical ±1σ whiskers under a uPlot point series (uPlot draws points and lines, not error bars).
+// Vertical whiskers (±1σ or an interval) under a uPlot point series (uPlot draws points and lines, not error bars).
 import uPlot from 'uplot';
 
 /**

@@ -8,7 +8,7 @@ import { fetchStability } from '../../lib/client/api.ts';
 import { useFetched } from '../../lib/client/use-fetched.ts';
 import { withAlpha, type ChartPalette } from '../../lib/client/chart-theme.ts';
 import { formatRate, formatRateTick } from '../../lib/client/format.ts';
-import type { AllanPoint } from '../../lib/analysis/allan.ts';
+import { MIN_EDF, type AllanPoint } from '../../lib/analysis/allan.ts';
 import type { Stability } from '../../lib/stability.ts';
 import { ChartState } from '../charts/ChartState.tsx';
 import { errorBars } from '../charts/error-bars.ts';
@@ -23,7 +23,8 @@ interface Curve {
   colour: (p: ChartPalette) => string;
   /** A reference line (dashed, no points or whiskers) rather than a measured curve. */
   floor?: boolean;
-  points: { tau: number; y: number; err?: number }[];
+  /** `lo`–`hi`: the whisker, a 68% χ² interval. */
+  points: { tau: number; y: number; lo?: number; hi?: number }[];
 }
 
 /** τ in s as a tick on the decade grid: "0.1", "1", "100", "1000", "10 k" (minutes would break the decades). */
@@ -47,10 +48,9 @@ function AllanChart(props: { curves: Curve[]; yLabel: string; yTick: (v: number)
     });
     return [x, ...ys];
   };
-  const whisker = (c: number, sign: 1 | -1) => (i: number) => {
+  const whisker = (c: number, end: 'lo' | 'hi') => (i: number) => {
     const t = taus()[i];
-    const pt = ref.current[c]?.points.find((p) => p.tau === t);
-    return pt?.err != null ? pt.y + sign * pt.err : null;
+    return ref.current[c]?.points.find((p) => p.tau === t)?.[end] ?? null;
   };
 
   const plot = useUPlot(
@@ -75,7 +75,7 @@ function AllanChart(props: { curves: Curve[]; yLabel: string; yTick: (v: number)
           value: (_u: uPlot, v: number | null) => props.yValue(v),
         })),
       ],
-      hooks: { draw: ref.current.flatMap((c, i) => (c.floor ? [] : [errorBars(i + 1, whisker(i, -1), whisker(i, 1), withAlpha(c.colour(p), 0.6))])) },
+      hooks: { draw: ref.current.flatMap((c, i) => (c.floor ? [] : [errorBars(i + 1, whisker(i, 'lo'), whisker(i, 'hi'), withAlpha(c.colour(p), 0.6))])) },
     }),
     data,
     HEIGHT,
@@ -91,7 +91,7 @@ function AllanChart(props: { curves: Curve[]; yLabel: string; yTick: (v: number)
 }
 
 function measured(points: AllanPoint[]): Curve['points'] {
-  return points.map((p) => ({ tau: p.tau, y: p.adev, err: p.err }));
+  return points.map((p) => ({ tau: p.tau, y: p.adev, lo: p.lo, hi: p.hi }));
 }
 
 export function StabilityCard({ benchId, channels, from, to }: { benchId: string; channels: ViewChannel[]; from: number; to: number }) {
@@ -124,6 +124,9 @@ export function StabilityCard({ benchId, channels, from, to }: { benchId: string
         </div>
         <p className="mt-1 text-sm text-muted">
           White counting noise falls as τ<sup>−½</sup> along the dashed floor √(R/τ); where a curve leaves the floor and turns up at long τ, the bench drifted (alignment, temperature, source power).
+        </p>
+        <p className="mt-1 text-xs text-muted" data-testid="stability-bars">
+          Bars: 68% χ² interval from the equivalent degrees of freedom for white noise (narrower than the truth where drift dominates). Averaging times with fewer than {MIN_EDF} degrees of freedom are left out, among them half the range, which rests on a single independent difference.
         </p>
       </div>
       <div className="grid gap-4 xl:grid-cols-2">

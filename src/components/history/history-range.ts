@@ -8,7 +8,7 @@ export function pickStep(spanMs: number, pixels: number): number {
   return NICE_STEPS_MS.find((s) => s >= want) ?? NICE_STEPS_MS[NICE_STEPS_MS.length - 1]!;
 }
 
-/** Points wanted in a stability series: enough for τ up to τ₀·2¹⁰ with many terms at short τ. */
+/** Points wanted in a stability series: τ up to τ₀·2⁹ (edf ≈ 4 there) with many degrees of freedom at short τ. */
 const STABILITY_POINTS = 2000;
 /** Above this span, ms, the series is read at whole seconds, which the 1 s rollups serve fast. */
 const ROLLUP_SPAN_MS = 5 * 60_000;

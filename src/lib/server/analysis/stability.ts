@@ -26,7 +26,7 @@ export async function benchStability(benchId: string, from: number, to: number, 
       channel: name,
       role: info.role,
       meanRate,
-      points: allanDeviation(present, tau0).map((p) => ({ ...p, poissonLimit: Math.sqrt(meanRate / p.tau) })),
+      points: allanDeviation([present], tau0).map((p) => ({ ...p, poissonLimit: Math.sqrt(meanRate / p.tau) })),
     });
   }
 
@@ -38,7 +38,7 @@ export async function benchStability(benchId: string, from: number, to: number, 
   if (a && b && a.length === b.length && fit) {
     const visibility = fit.visibilityNet ?? fit.visibility;
     const folded = a.map((ra, i) => phaseAtHold(ra * tau0, (b[i] as number) * tau0, { visibility, efficiencyRatio: 1 }).value).filter(Number.isFinite);
-    if (folded.length >= 4) phase = { visibility, points: allanDeviation(unfoldPhase(folded), tau0) };
+    if (folded.length >= 4) phase = { visibility, points: allanDeviation([unfoldPhase(folded)], tau0) };
   }
   return { from, to, tau0, rates, phase, missingBuckets: missing };
 }
