@@ -18,9 +18,13 @@ export interface Stability {
   /** τ₀: the bucket the series were read at, s. */
   tau0: number;
   rates: RateStability[];
-  /** Allan deviation of the phase (rad) while the drive held still; null without a visibility to scale by. */
-  phase: { visibility: number; points: AllanPoint[] } | null;
-  /** Buckets with no stored bins are left out of the series, which joins across them. */
+  /**
+   * Allan deviation of the phase (rad) over the buckets where the drive held still, pooled over the
+   * `stretches` of consecutive such buckets at one position; null without a visibility to scale
+   * by or without enough held buckets.
+   */
+  phase: { visibility: number; points: AllanPoint[]; heldBuckets: number; stretches: number } | null;
+  /** Most buckets with no stored bins in any one channel; each series is split at them, never joined across. */
   missingBuckets: number;
 }
 
@@ -31,6 +35,6 @@ export const stabilitySchema: z.ZodType<Stability> = z.object({
   to: z.number(),
   tau0: z.number().positive(),
   rates: z.array(z.object({ channel: z.string(), role: z.string(), meanRate: z.number(), points: z.array(allanPoint.extend({ poissonLimit: z.number() })) })),
-  phase: z.object({ visibility: z.number(), points: z.array(allanPoint) }).nullable(),
+  phase: z.object({ visibility: z.number(), points: z.array(allanPoint), heldBuckets: z.number(), stretches: z.number() }).nullable(),
   missingBuckets: z.number(),
 });

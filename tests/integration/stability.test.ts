@@ -3,9 +3,10 @@
 // [computed]), which is the reference the screen draws beside the measured curve.
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { mulberry32, poisson } from '../../simulators/random.ts';
+import { phaseAtHold } from '../../src/lib/analysis/phase.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
 import { packCounts } from '../../src/lib/server/db/packed-counts.ts';
-import { channels, countBatches } from '../../src/lib/server/db/schema.ts';
+import { channels, countBatches, sweeps } from '../../src/lib/server/db/schema.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import type { RunningApp } from '../../src/server/app.ts';
 import { startWebApp, userWithToken } from '../helpers/web-app.ts';
@@ -30,6 +31,7 @@ beforeAll(async () => {
     rows.push({ gatewayId: GW, t0: T0 + k * 100 * DT, t1: T0 + (k + 1) * 100 * DT, dt: DT, n: 100, keys: ['a'], counts: packCounts(counts), boot: 'b', seq: k });
   }
   await getDb().insert(countBatches).values(rows);
+  await seedPhaseBench();
 });
 afterAll(async () => {
   await app?.close();
@@ -45,4 +47,80 @@ it('puts steady Poisson counts on the √(R/τ) line', async () => {
   for (const p of rate!.points.filter((p) => p.tau <= 3.2)) {
     expect(Math.abs(p.adev - p.poissonLimit)).toBeLessThan(3 * p.err + 0.05 * p.poissonLimit);
   }
+});
+
+// Phase: a two-output bench (model N_a = η_a·(N/2)(1 + V cos θ) + d_a, N_b = η_b·(N/2)(1 − V cos θ)
+// + d_b, Gerry & Knight ch. 6, chapter from memory) that holds at θ₁ for 100 s, sweeps for 50 s,
+// sends nothing for 50 s, then holds at θ₂ for 200 s. Only the two holds may enter the phase's
+// Allan deviation, as two stretches, and with the channels' efficiencies and darks.
+const PH = `stabph-${tag}`;
+const PH_GW = `stabph-${tag}-gw`;
+const PH_T0 = 1_796_200_000_000;
+const V = 0.9;
+const ETA_A = 0.5;
+const ETA_B = 0.8;
+const DARK_A = 200; // counts/s
+const DARK_B = 400; // counts/s
+const PHOTONS = 10_000; // N, photons/s reaching the beam splitter
+const THETA = [1.2, Math.PI - 1.2]; // rad: the two holds
+const meanCounts = (theta: number, seconds: number) => ({
+  a: (ETA_A * (PHOTONS / 2) * (1 + V * Math.cos(theta)) + DARK_A) * seconds,
+  b: (ETA_B * (PHOTONS / 2) * (1 - V * Math.cos(theta)) + DARK_B) * seconds,
+});
+
+async function seedPhaseBench() {
+  await createBench({ id: PH, name: 'Stability phase', wavelengthNm: 633 });
+  await createGateway(PH_GW, PH);
+  await getDb()
+    .insert(channels)
+    .values([
+      { gatewayId: PH_GW, key: 'a', benchId: PH, role: 'out_a', efficiency: ETA_A, darkRate: DARK_A, darkRateErr: 5 },
+      { gatewayId: PH_GW, key: 'b', benchId: PH, role: 'out_b', efficiency: ETA_B, darkRate: DARK_B, darkRateErr: 5 },
+    ]);
+  const rng = mulberry32(11);
+  const rows = [];
+  // Batches of 100 bins of 100 ms: 0–9 hold, 10–14 sweep, 15–19 missing, 20–39 hold.
+  for (let k = 0; k < 40; k++) {
+    if (k >= 15 && k < 20) continue;
+    const sweeping = k >= 10 && k < 15;
+    const x = Array.from({ length: 100 }, (_, j) => (sweeping ? 3 + 0.15 * ((k - 10) * 100 + j) : k < 10 ? 3 : 40));
+    // Sweeping, a fringe every 10 (V) of x.
+    const theta = x.map((xi) => (sweeping ? 2 * Math.PI * (xi / 10) : (THETA[k < 10 ? 0 : 1] as number)));
+    const means = theta.map((t) => meanCounts(t, DT / 1000));
+    const a = means.map((m) => poisson(rng, m.a));
+    const b = means.map((m) => poisson(rng, m.b));
+    rows.push({ gatewayId: PH_GW, t0: PH_T0 + k * 100 * DT, t1: PH_T0 + (k + 1) * 100 * DT, dt: DT, n: 100, keys: ['a', 'b'], counts: packCounts([...a, ...b]), x, boot: 'b', seq: k });
+  }
+  await getDb().insert(countBatches).values(rows);
+  // The pass that gives the visibility: net V as fitted with the darks, raw V lower.
+  await getDb().insert(sweeps).values({ benchId: PH, startMs: PH_T0 - 20_000, endMs: PH_T0 - 10_000, direction: 'up', visibility: 0.8, visibilityErr: 0.01, visibilityNet: V, phase: 0, phaseErr: 0.01, periodX: 10, periodXErr: 0.1, counts: 1e5, fit: {} });
+}
+
+it('takes the phase only where the drive held still, split at sweeps and gaps, with the channel calibration', async () => {
+  const { token } = await userWithToken('observer', 'stabph');
+  const step = 200; // ms: two bins a bucket, so a bucket in the sweep sees its drive move
+  const res = await fetch(new URL(`/api/v1/benches/${PH}/stability?from=${PH_T0}&to=${PH_T0 + 400_000}&step=${step}`, app.url), { headers: { authorization: `Bearer ${token}` } });
+  expect(res.status).toBe(200);
+  const body = (await res.json()) as { missingBuckets: number; phase: { visibility: number; heldBuckets: number; stretches: number; points: { tau: number; adev: number; err: number; lo: number; hi: number }[] } | null };
+  expect(body.missingBuckets).toBe(250);
+  expect(body.phase).not.toBeNull();
+  const phase = body.phase!;
+  expect(phase.visibility).toBe(V);
+  expect(phase.stretches).toBe(2);
+  expect(phase.heldBuckets).toBe(500 + 1000);
+  // White counting noise only: at τ₀ the Allan deviation is the per-bucket phase error, propagated
+  // from Poisson counts by phaseAtHold at the mean counts and pooled over the two holds by their
+  // terms (499 and 999). A sweep let in would put whole fringes into it.
+  const cal = { visibility: V, efficiencyRatio: ETA_B / ETA_A, darkA: (DARK_A * step) / 1000, darkB: (DARK_B * step) / 1000 };
+  const perBucket = THETA.map((t) => {
+    const m = meanCounts(t, step / 1000);
+    return phaseAtHold(m.a, m.b, cal).err;
+  });
+  const expected = Math.sqrt((499 * perBucket[0]! ** 2 + 999 * perBucket[1]! ** 2) / 1498);
+  const first = phase.points[0]!;
+  expect(first.tau).toBeCloseTo(step / 1000, 9);
+  expect(Math.abs(first.adev - expected)).toBeLessThan(3 * first.err);
+  // The longest τ fits in the longer hold (1000 buckets): m = 256 at most, never the 1750-bucket span joined.
+  expect(phase.points.at(-1)!.tau).toBeLessThanOrEqual((256 * step) / 1000);
+  for (const p of phase.points) expect(p.lo).toBeLessThan(p.adev);
 });

@@ -119,7 +119,7 @@ export function StabilityCard({ benchId, channels, from, to }: { benchId: string
           <h2 id="stab-h" className="font-semibold">Stability</h2>
           <p className="figure text-xs text-muted">
             overlapping Allan deviation · τ₀ {step >= 1000 ? `${step / 1000} s` : `${step} ms`}
-            {answer && answer.missingBuckets > 0 && ` · ${answer.missingBuckets} buckets without data left out`}
+            {answer && answer.missingBuckets > 0 && ` · ${answer.missingBuckets} buckets without data: series split there`}
           </p>
         </div>
         <p className="mt-1 text-sm text-muted">
@@ -142,11 +142,18 @@ export function StabilityCard({ benchId, channels, from, to }: { benchId: string
           </div>
         </div>
         <div>
-          <h3 className="mb-1 text-sm font-medium">Phase{phase && <span className="figure font-normal text-muted"> · scaled by V = {phase.visibility.toFixed(3)}</span>}</h3>
+          <h3 className="mb-1 text-sm font-medium">
+            Phase
+            {phase && (
+              <span className="figure font-normal text-muted">
+                {' '}· scaled by V = {phase.visibility.toFixed(3)} · {phase.heldBuckets} buckets with the drive held still, in {phase.stretches} {phase.stretches === 1 ? 'stretch' : 'stretches'}
+              </span>
+            )}
+          </h3>
           {phase ? (
             <AllanChart curves={phaseCurves} yLabel="σ(τ), rad" yTick={(v) => String(Number(v.toPrecision(2)))} yValue={(v) => (v == null ? '–' : `${v.toPrecision(3)} rad`)} label="Allan deviation of the interferometer phase against averaging time" testId="stability-phase-chart" />
           ) : (
-            <p className="text-sm text-muted">{loading || error ? '–' : 'No phase for this range: it needs both outputs and a fitted pass for the visibility.'}</p>
+            <p className="text-sm text-muted">{loading || error ? '–' : 'No phase for this range: it needs both outputs, a fitted pass for the visibility and the drive held still long enough.'}</p>
           )}
         </div>
       </div>

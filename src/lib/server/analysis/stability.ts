@@ -1,10 +1,44 @@
 // Stability of a bench over a time range: overlapping Allan deviation of each channel's rate and of
-// the interferometer phase, beside the white-Poisson reference √(R/τ) a rate cannot beat.
-import { allanDeviation } from '../../analysis/allan.ts';
-import { phaseAtHold, unfoldPhase } from '../../analysis/phase.ts';
-import { queryCounts } from '../counts-query.ts';
+// the interferometer phase, beside the white-Poisson reference √(R/τ) a rate cannot beat. Every
+// series is split at missing buckets and the Allan deviation pooled over the stretches, so no
+// difference spans a gap and τ is a true time.
+import { allanDeviation, contiguousStretches } from '../../analysis/allan.ts';
+import { heldPhaseStretches } from '../../analysis/held-phase.ts';
 import type { RateStability, Stability } from '../../stability.ts';
+import { benchCalibrations } from '../benches.ts';
+import { queryCounts } from '../counts-query.ts';
+import { getDbHandle } from '../db/index.ts';
 import { latestSweep } from './sweeps-store.ts';
+
+/**
+ * The drive's position per bucket where it held still through the bucket (every bin's `x` the
+ * same, the live figures' test), else null; 0 stands for a gateway that sends no `x`, which has no
+ * drive to move. Read from the raw bins whatever the step, since rollups keep no `x`; aggregated
+ * in the database so a long range sends one row per bucket. Buckets without raw bins (past their
+ * retention) are unknown, hence null.
+ */
+async function heldPositions(gatewayId: string, t0: number, step: number, points: number): Promise<(number | null)[]> {
+  const end = t0 + points * step;
+  const { rows } = await getDbHandle().pool.query<{ bucket: number; lo: number | null; hi: number | null; withx: number; bins: number }>(
+    `with c as (
+       (select t0, dt, n, x from count_batches where gateway_id = $1 and t0 <= $2 order by t0 desc limit 1)
+       union all
+       (select t0, dt, n, x from count_batches where gateway_id = $1 and t0 > $2 and t0 < $3)
+     )
+     select floor((c.t0 + (o.j - 1) * c.dt - $2)::float8 / $4)::int as bucket,
+            min(o.v) as lo, max(o.v) as hi, count(o.v)::int as withx, count(*)::int as bins
+       from c cross join lateral unnest(coalesce(c.x, array_fill(null::float8, array[c.n]))) with ordinality as o(v, j)
+      group by 1`,
+    [gatewayId, t0, end, step],
+  );
+  const held = new Array<number | null>(points).fill(null);
+  for (const r of rows) {
+    if (r.bucket < 0 || r.bucket >= points) continue;
+    if (r.withx === 0) held[r.bucket] = 0;
+    else if (r.withx === r.bins && r.lo === r.hi) held[r.bucket] = r.lo;
+  }
+  return held;
+}
 
 /** Reads the range at `stepMs` and computes the Allan deviations (τ = step·2^k). */
 export async function benchStability(benchId: string, from: number, to: number, stepMs: number): Promise<Stability> {
@@ -12,33 +46,46 @@ export async function benchStability(benchId: string, from: number, to: number, 
   const tau0 = stepMs / 1000;
   let missing = 0;
   const rates: RateStability[] = [];
-  const series = new Map<string, number[]>();
   for (const info of counts.channelInfo) {
     const name = `${info.gateway}/${info.key}`;
     const col = counts.channels[name];
     if (!col) continue;
-    const present = col.filter((v): v is number => v !== null).map((v) => v / tau0);
-    missing = Math.max(missing, col.length - present.length);
-    if (present.length < 4) continue;
-    series.set(info.role, present);
-    const meanRate = present.reduce((a, b) => a + b, 0) / present.length;
+    const stretches = contiguousStretches(col.map((v) => (v === null ? null : v / tau0)));
+    const present = stretches.reduce((n, s) => n + s.length, 0);
+    missing = Math.max(missing, col.length - present);
+    if (present < 4) continue;
+    const meanRate = stretches.reduce((sum, s) => s.reduce((a, b) => a + b, sum), 0) / present;
     rates.push({
       channel: name,
       role: info.role,
       meanRate,
-      points: allanDeviation([present], tau0).map((p) => ({ ...p, poissonLimit: Math.sqrt(meanRate / p.tau) })),
+      points: allanDeviation(stretches, tau0).map((p) => ({ ...p, poissonLimit: Math.sqrt(meanRate / p.tau) })),
     });
   }
 
-  // Phase needs the fringe visibility: the latest sweep fit before the range's end.
+  // Phase: both outputs on the same buckets, with the channel calibration the live figures use and
+  // the visibility of the latest sweep fit before the range's end; dark counts come off exactly
+  // when that visibility is the net (dark-subtracted) one, so the two agree.
   let phase: Stability['phase'] = null;
-  const a = series.get('out_a');
-  const b = series.get('out_b');
+  const cals = await benchCalibrations(benchId);
+  const outA = cals.find((c) => c.role === 'out_a');
+  const outB = cals.find((c) => c.role === 'out_b');
+  const a = outA && counts.channels[`${outA.gateway}/${outA.key}`];
+  const b = outB && counts.channels[`${outB.gateway}/${outB.key}`];
   const fit = await latestSweep(benchId, to);
-  if (a && b && a.length === b.length && fit) {
+  if (outA && outB && a && b && fit && outA.efficiency > 0) {
+    const net = fit.visibilityNet !== null;
     const visibility = fit.visibilityNet ?? fit.visibility;
-    const folded = a.map((ra, i) => phaseAtHold(ra * tau0, (b[i] as number) * tau0, { visibility, efficiencyRatio: 1 }).value).filter(Number.isFinite);
-    if (folded.length >= 4) phase = { visibility, points: allanDeviation([unfoldPhase(folded)], tau0) };
+    const cal = {
+      visibility,
+      efficiencyRatio: outB.efficiency / outA.efficiency,
+      darkA: net ? (outA.darkRate ?? 0) * tau0 : 0,
+      darkB: net ? (outB.darkRate ?? 0) * tau0 : 0,
+    };
+    const held = await heldPositions(outA.gateway, counts.t0, counts.step, a.length);
+    const stretches = heldPhaseStretches({ a, b, held }, cal);
+    const points = allanDeviation(stretches, tau0);
+    if (points.length) phase = { visibility, points, heldBuckets: stretches.reduce((n, s) => n + s.length, 0), stretches: stretches.length };
   }
   return { from, to, tau0, rates, phase, missingBuckets: missing };
 }
