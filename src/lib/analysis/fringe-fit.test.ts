@@ -160,6 +160,17 @@ describe('joint Poisson ML fringe fit', () => {
     expect(r.outputs.a.net).not.toBeNull();
   });
 
+  it('refuses a pass whose counts sit at or below the calibrated dark level', () => {
+    // 5 signal + 20 dark counts per bin, fitted against darks that claim more than the counts hold.
+    const s = simulateSweep({ ...BASE, amplitudeA: 5, amplitudeB: 5, darkA: 20, darkB: 20, seed: 1 });
+    for (const darks of [{ darkA: 40, darkB: 40 }, { darkA: 40, darkB: 20 }, { darkA: 20, darkB: 40 }]) {
+      const r = fitFringes(s, { ...darks, quadratic: true });
+      expect(r.ok).toBe(false);
+      if (!r.ok) expect(r.reason).toMatch(/^no net signal above the dark level: output [ab]/);
+    }
+    expect(fitFringes(s, { darkA: 20, darkB: 20, quadratic: true }).ok).toBe(true);
+  });
+
   it('gives each output its own visibility', () => {
     const a = simulateSweep({ ...BASE, bins: 200, visibility: 0.95, seed: 31 });
     const b = simulateSweep({ ...BASE, bins: 200, visibility: 0.85, seed: 32 });

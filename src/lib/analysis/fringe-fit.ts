@@ -694,6 +694,13 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   const da = options.darkA ?? 0;
   const db = options.darkB ?? 0;
   if (!(da >= 0 && db >= 0)) return { ok: false, reason: 'dark counts per bin must be non-negative' };
+  // An output whose mean sits at or below its calibrated dark level has no fringe to fit: its
+  // amplitude would collapse onto MIN_AMPLITUDE and leave V and the period unconstrained.
+  for (const [name, dark, sum] of [['a', options.darkA, sumA], ['b', options.darkB, sumB]] as const) {
+    if (dark !== undefined && sum / len <= dark) {
+      return { ok: false, reason: `no net signal above the dark level: output ${name} averages ${(sum / len).toPrecision(3)} counts per bin against ${dark.toPrecision(3)} of calibrated dark` };
+    }
+  }
   const A0 = Math.max(sumA / len - da, 1e-3);
   const B0 = Math.max(sumB / len - db, 1e-3);
   if (sumA + sumB === 0) return { ok: false, reason: 'no counts in this pass' };
