@@ -160,6 +160,35 @@ describe('joint Poisson ML fringe fit', () => {
     expect(r.outputs.a.net).not.toBeNull();
   });
 
+  it('gives the net visibility its own error, which the scatter over replicas confirms', () => {
+    // Dark counts dilute the fringe, so the net V is less certain than the raw V. Outside check
+    // (common practice): the standard deviation of each estimate over independent Poisson replicas
+    // must match the 1σ the fit reports for it. With 300 replicas a sample deviation is known to
+    // about 1/√(2·299) ≈ 4%, while the two errors here differ by ~25%.
+    const nets: number[] = [];
+    const raws: number[] = [];
+    let netErr = 0;
+    let rawErr = 0;
+    const replicas = 300;
+    for (let t = 0; t < replicas; t++) {
+      const r = fit(simulateSweep({ ...BASE, bins: 200, amplitudeA: 200, amplitudeB: 200, darkA: 50, darkB: 50, seed: 900 + t }), { darkA: 50, darkB: 50 });
+      if (!r.visibilityNet) throw new Error('net visibility missing');
+      expect(r.visibilityNet.method).toBe('fisher');
+      nets.push(r.visibilityNet.value);
+      raws.push(r.visibility.value);
+      netErr += r.visibilityNet.err / replicas;
+      rawErr += r.visibility.err / replicas;
+    }
+    const sd = (xs: number[]) => {
+      const m = xs.reduce((a, b) => a + b, 0) / xs.length;
+      return Math.sqrt(xs.reduce((a, b) => a + (b - m) ** 2, 0) / (xs.length - 1));
+    };
+    expect(Math.abs(sd(nets) / netErr - 1)).toBeLessThan(0.12);
+    expect(Math.abs(sd(raws) / rawErr - 1)).toBeLessThan(0.12);
+    // The raw error would understate the net V's scatter by a quarter.
+    expect(sd(nets) / rawErr).toBeGreaterThan(1.2);
+  });
+
   it('refuses a pass whose counts sit at or below the calibrated dark level', () => {
     // 5 signal + 20 dark counts per bin, fitted against darks that claim more than the counts hold.
     const s = simulateSweep({ ...BASE, amplitudeA: 5, amplitudeB: 5, darkA: 20, darkB: 20, seed: 1 });
