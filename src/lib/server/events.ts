@@ -24,6 +24,7 @@ export interface FittedSweepSummary {
   visibility: number;
   visibilityErr: number;
   visibilityNet: number | null;
+  visibilityNetErr: number | null;
   phase: number;
   periodX: number;
   counts: number;

@@ -79,6 +79,7 @@ export async function storeSweep(benchId: string, pass: CompletedPass, fit: Frin
       visibility: fit.visibility.value,
       visibilityErr: fit.visibility.err,
       visibilityNet: fit.visibilityNet?.value ?? null,
+      visibilityNetErr: fit.visibilityNet?.err ?? null,
       phase: fit.phase.value,
       phaseErr: fit.phase.err,
       periodX: fit.period.value,
@@ -101,6 +102,7 @@ function summary(row: typeof sweeps.$inferSelect): FittedSweepSummary {
     visibility: row.visibility,
     visibilityErr: row.visibilityErr,
     visibilityNet: row.visibilityNet,
+    visibilityNetErr: row.visibilityNetErr,
     phase: row.phase,
     periodX: row.periodX,
     counts: row.counts,
@@ -137,7 +139,11 @@ export async function latestSweep(benchId: string, toMs: number) {
   return row ?? null;
 }
 
-/** A stored sweep as the contract's `GET …/sweeps` gives it (and the run report shows it). */
+/**
+ * A stored sweep as the contract's `GET …/sweeps` gives it (and the run report shows it):
+ * `visibility`/`visibilityErr` stay the raw fit, as they always were; `visibilityNet` and
+ * `visibilityNetErr` are the net fit's, and `shownVisibility` (src/lib/sweep-visibility.ts) picks.
+ */
 export interface SweepView {
   id: number;
   start: number;
@@ -146,6 +152,7 @@ export interface SweepView {
   visibility: number;
   visibilityErr: number;
   visibilityNet: number | null;
+  visibilityNetErr: number | null;
   phase: number;
   phaseErr: number;
   periodX: number;
@@ -163,6 +170,7 @@ export function sweepView(r: typeof sweeps.$inferSelect): SweepView {
     visibility: r.visibility,
     visibilityErr: r.visibilityErr,
     visibilityNet: r.visibilityNet,
+    visibilityNetErr: r.visibilityNetErr,
     phase: r.phase,
     phaseErr: r.phaseErr,
     periodX: r.periodX,

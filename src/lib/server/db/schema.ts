@@ -182,6 +182,8 @@ export const sweeps = pgTable(
     visibility: doublePrecision('visibility').notNull(),
     visibilityErr: doublePrecision('visibility_err').notNull(),
     visibilityNet: doublePrecision('visibility_net'),
+    // The net visibility's own 1σ (null when uncalibrated, and on rows stored before it was kept).
+    visibilityNetErr: doublePrecision('visibility_net_err'),
     phase: doublePrecision('phase').notNull(),
     phaseErr: doublePrecision('phase_err').notNull(),
     periodX: doublePrecision('period_x').notNull(),

@@ -1,0 +1,1 @@
+ALTER TABLE "sweeps" ADD COLUMN "visibility_net_err" double precision;
