@@ -14,6 +14,7 @@ import { alarmRules, benches, gateways, settings, type AlarmRule } from '../db/s
 import { serverEvents, type ServerEvents } from '../events.ts';
 import { sendMail } from '../mail/send.ts';
 import { runtime } from '../runtime.ts';
+import { shownVisibility } from '../../sweep-visibility.ts';
 import { AlarmStates, type Transition } from './evaluator.ts';
 import { insertRaised, markCleared, openEvents } from './event-store.ts';
 import { MailPolicy, mailPolicyStateSchema, type MailPolicyOptions, type OutgoingAlarmMail } from './mail-policy.ts';
@@ -80,7 +81,7 @@ export class AlarmEngine {
     on('batch-stored', (e) => this.onBatch(e));
     on('batch-rejected', (e) => this.onRejected(e));
     on('gateway-status', (e) => this.lastSeen.set(e.gatewayId, e.at));
-    on('sweep-fitted', (e) => this.evaluate(e.benchId, 'visibility_low', e.sweep.endMs, () => [{ subject: '', sample: { at: e.sweep.endMs, value: e.sweep.visibility } }]));
+    on('sweep-fitted', (e) => this.evaluate(e.benchId, 'visibility_low', e.sweep.endMs, () => [{ subject: '', sample: { at: e.sweep.endMs, value: shownVisibility(e.sweep).value } }]));
     on('phase-update', (e) =>
       this.evaluate(e.benchId, 'phase_drift', e.at, () => (e.driftRadPerS === null ? [] : [{ subject: '', sample: { at: e.at, value: Math.abs(e.driftRadPerS) } }])),
     );

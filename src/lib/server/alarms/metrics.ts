@@ -7,7 +7,8 @@
 // - dark_high: the same rate, but without a channel it watches only the bench's `aux` channels —
 //   detectors a lab keeps covered as a dark reference. There is no shutter signal in contract v1,
 //   so "dark" is a property of the channel, set by its role.
-// - visibility_low: each fitted sweep's visibility (0…1).
+// - visibility_low: each fitted sweep's visibility (0…1), net of darks where they are calibrated
+//   (shownVisibility), the figure the bench page shows beside the alarm limit.
 // - phase_drift: |phase drift| at hold, rad/s, from each phase update.
 // - gateway_silent: seconds since a gateway last sent anything (counts or status), sampled by a timer.
 // - rejected_batches: rejected batches of a gateway in the last REJECT_WINDOW_MS.

@@ -4,7 +4,7 @@ import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { mulberry32, poisson } from '../../../../simulators/random.ts';
 import { benchFiguresSchema } from '../../bench-figures-schema.ts';
-import type { ChannelSettings } from './live-figures.ts';
+import type { ChannelSettings, SweepPoint } from './live-figures.ts';
 import { computeFigures } from './live-figures.ts';
 import { RecentBins } from './recent-bins.ts';
 
@@ -33,7 +33,7 @@ const channels: ChannelSettings[] = [
 ];
 
 const end = T0 + SECONDS * BINS * DT;
-const input = (sweepPoints: { timeMs: number; value: number; err: number }[] = []) => ({
+const input = (sweepPoints: SweepPoint[] = []) => ({
   benchId: 'bench',
   now: end,
   windowMs: SECONDS * 1000,
@@ -41,7 +41,6 @@ const input = (sweepPoints: { timeMs: number; value: number; err: number }[] = [
   coincidenceWindowNs: 1_000,
   recent: recent(),
   sweepPoints,
-  sweepNet: false,
   phaseHistory: [],
 });
 
@@ -85,15 +84,30 @@ describe('computeFigures', () => {
   it('prefers fresh sweep fits, ignores fits older than two minutes, and reads the phase at hold with them', () => {
     // A phase that never moves shows no fringe envelope: without a fresh fit there is no visibility.
     expect(figures.visibility).toBeNull();
-    const stale = computeFigures(input([{ timeMs: end - 200_000, value: 0.9, err: 0.01 }])).figures;
+    const stale = computeFigures(input([{ timeMs: end - 200_000, value: 0.9, err: 0.01, net: false }])).figures;
     expect(stale.visibility).toBeNull();
-    const fresh = computeFigures(input([{ timeMs: end - 10_000, value: 0.9, err: 0.01 }])).figures;
+    const fresh = computeFigures(input([{ timeMs: end - 10_000, value: 0.9, err: 0.01, net: false }])).figures;
     expect(fresh.visibility).toMatchObject({ source: 'sweep', value: 0.9 });
     // Two outputs ∝ 1 ± V cos θ (common practice): over the last second, dark counts taken off a,
     // cos θ = (N_a − D_a − N_b)/(V (N_a − D_a + N_b)).
     const [na, nb, darkA] = [A * BINS, B * BINS, 100];
     expect(fresh.phase?.value).toBeCloseTo(Math.acos((na - darkA - nb) / (0.9 * (na - darkA + nb))), 6);
     expect(fresh.phase?.driftRadPerS).toBeNull(); // fewer than 5 readings yet
+  });
+
+  it('averages only fits of the newest one\'s kind and says whether they are net of darks', () => {
+    const raw = { value: 0.72, err: 0.0034, net: false };
+    const net = { value: 0.9, err: 0.0043, net: true };
+    const v = (points: SweepPoint[]) => computeFigures(input(points)).figures.visibility!;
+    // One fit of the newest kind: the average is that fit, its error untouched by the other kind's.
+    const netNewest = v([{ timeMs: end - 30_000, ...raw }, { timeMs: end - 10_000, ...net }]);
+    expect(netNewest.net).toBe(true);
+    expect(netNewest.value).toBeCloseTo(0.9, 12);
+    expect(netNewest.err).toBeCloseTo(0.0043, 12);
+    const rawNewest = v([{ timeMs: end - 30_000, ...net }, { timeMs: end - 10_000, ...raw }]);
+    expect(rawNewest.net).toBe(false);
+    expect(rawNewest.value).toBeCloseTo(0.72, 12);
+    expect(rawNewest.err).toBeCloseTo(0.0034, 12);
   });
 });
 
@@ -110,7 +124,7 @@ describe('computeFigures on whatever a bench sends', () => {
     const r = new RecentBins();
     // Output b dark: D/V clips at 1, θ = 0 (common practice: arccos of the normalised difference).
     r.add(GW, { v: 1, boot: 'b', seq: 0, t0: T0, dt: DT, ch: { a: new Array(BINS).fill(A), b: new Array(BINS).fill(0) } });
-    const { figures, phaseReading } = computeFigures({ ...input([{ timeMs: T0, value: 0.8, err: 0.01 }]), recent: r, now: T0 + BINS * DT });
+    const { figures, phaseReading } = computeFigures({ ...input([{ timeMs: T0, value: 0.8, err: 0.01, net: false }]), recent: r, now: T0 + BINS * DT });
     expect(figures.phase).toBeNull();
     expect(phaseReading?.theta).toBe(0);
     expect(benchFiguresSchema.safeParse(figures).success).toBe(true);
@@ -135,7 +149,7 @@ describe('computeFigures on whatever a bench sends', () => {
           batches.forEach((b, s) => r.add(GW, { v: 1, boot: 'b', seq: s, t0: T0 + s * BINS * DT, dt: DT, ch: { a: b.a, b: b.b, g: b.g }, cc: b.cc, ...(b.x ? { x: b.x } : {}) }));
           const at = T0 + batches.length * BINS * DT;
           const { figures } = computeFigures({
-            ...input(sweepV === null ? [] : [{ timeMs: at, value: sweepV, err: 0.01 }]),
+            ...input(sweepV === null ? [] : [{ timeMs: at, value: sweepV, err: 0.01, net: false }]),
             channels: cg ? [ca, cb, cg] : [ca, cb],
             recent: r,
             now: at,
@@ -159,7 +173,7 @@ describe('phase noise against the shot-noise limit', () => {
     const ch = { a: Array.from({ length: bins }, () => poisson(rng, perOutput)), b: Array.from({ length: bins }, () => poisson(rng, perOutput)) };
     r.add(GW, { v: 1, boot: 'b', seq: 0, t0: T0, dt: 1, ch, x: new Array(bins).fill(3) });
     const noDarks = channels.map((c) => ({ ...c, darkRate: null, darkRateErr: null, deadTimeNs: null }));
-    const { figures } = computeFigures({ ...input([{ timeMs: T0, value: v, err: 0.001 }]), channels: noDarks, recent: r, now: T0 + bins });
+    const { figures } = computeFigures({ ...input([{ timeMs: T0, value: v, err: 0.001, net: false }]), channels: noDarks, recent: r, now: T0 + bins });
     const sn = figures.shotNoise!;
     expect(sn.visibilityLimitRad).toBeCloseTo(1 / (v * Math.sqrt(2 * perOutput)), 2);
     // The standard deviation of 1,000 bins is good to ±√(1/2000) ≈ 2.2 % (1σ).

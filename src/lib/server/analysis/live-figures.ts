@@ -12,6 +12,9 @@ import type { RecentBins } from './recent-bins.ts';
 
 export type ChannelSettings = ChannelCalibration;
 
+/** One fitted pass's visibility, and whether it is net of darks. */
+export type SweepPoint = VisibilityPoint & { net: boolean };
+
 export interface FiguresInput {
   benchId: string;
   now: number;
@@ -19,10 +22,8 @@ export interface FiguresInput {
   channels: ChannelSettings[];
   coincidenceWindowNs: number;
   recent: RecentBins;
-  /** Latest sweep fits (raw or net as shown), newest last. */
-  sweepPoints: VisibilityPoint[];
-  /** Whether the sweep points are net (dark-subtracted) visibilities. */
-  sweepNet: boolean;
+  /** Latest sweep fits as shown (shownVisibility), each raw or net. */
+  sweepPoints: SweepPoint[];
   /** Phase readings at hold so far (s, folded θ ∈ [0, π]), for the drift rate; the caller keeps ~60 s. */
   phaseHistory: { t: number; theta: number }[];
 }
@@ -86,9 +87,11 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
   // Visibility: the latest sweep fits while fresh, else the envelope over the window.
   let visibility: BenchFigures['visibility'] = null;
   const fresh = input.sweepPoints.filter((p) => input.now - p.timeMs < SWEEP_FRESH_MS);
-  const combined = runningVisibility(fresh);
-  const fitted = finite(combined);
-  if (fitted) visibility = { value: fitted.value, err: fitted.err, source: 'sweep', net: input.sweepNet };
+  // Only fits of the newest one's kind are averaged: raw and net V of one fringe differ by the
+  // darks, and a calibration set or cleared in between leaves both kinds in the window.
+  const newest = fresh.reduce<SweepPoint | null>((a, p) => (!a || p.timeMs >= a.timeMs ? p : a), null);
+  const fitted = newest ? finite(runningVisibility(fresh.filter((p) => p.net === newest.net))) : null;
+  if (fitted && newest) visibility = { value: fitted.value, err: fitted.err, source: 'sweep', net: newest.net };
   const sa = outA ? recent.series(outA.gateway, outA.key, windowMs, to) : null;
   const sb = outB ? recent.series(outB.gateway, outB.key, windowMs, to) : null;
   const scan = outA ? recent.scan(outA.gateway, PHASE_WINDOW_MS, to) : null;

@@ -3,14 +3,14 @@
 // once a second. A slow fit never delays storing or pushing counts.
 import { eq } from 'drizzle-orm';
 import type { FringeFitOptions, FringeFitResult } from '../../analysis/fringe-fit.ts';
-import type { VisibilityPoint } from '../../analysis/running-visibility.ts';
 import type { BenchFigures } from '../../bench-figures.ts';
 import type { CountBatch } from '../../contract/wire.ts';
+import { shownVisibility } from '../../sweep-visibility.ts';
 import { benchCalibrations } from '../benches.ts';
 import { getDb } from '../db/index.ts';
 import { benches, channels as channelsTable } from '../db/schema.ts';
 import { serverEvents } from '../events.ts';
-import { computeFigures, type ChannelSettings } from './live-figures.ts';
+import { computeFigures, type ChannelSettings, type SweepPoint } from './live-figures.ts';
 import { RecentBins } from './recent-bins.ts';
 import { SweepTracker, type CompletedPass } from './sweep-tracker.ts';
 import { sweepsBetween, storeSweep } from './sweeps-store.ts';
@@ -23,8 +23,7 @@ interface BenchState {
   tracker: SweepTracker;
   recent: RecentBins;
   settings: { channels: ChannelSettings[]; coincidenceWindowNs: number; loadedAt: number } | null;
-  sweepPoints: VisibilityPoint[];
-  sweepNet: boolean;
+  sweepPoints: SweepPoint[];
   phaseHistory: { t: number; theta: number }[];
   figures: BenchFigures | null;
   lastBatchAt: number;
@@ -54,7 +53,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
   const state = (benchId: string): BenchState => {
     let s = states.get(benchId);
     if (!s) {
-      s = { tracker: new SweepTracker(), recent: new RecentBins(), settings: null, sweepPoints: [], sweepNet: false, phaseHistory: [], figures: null, lastBatchAt: 0, tracking: Promise.resolve(), fitting: Promise.resolve() };
+      s = { tracker: new SweepTracker(), recent: new RecentBins(), settings: null, sweepPoints: [], phaseHistory: [], figures: null, lastBatchAt: 0, tracking: Promise.resolve(), fitting: Promise.resolve() };
       states.set(benchId, s);
       void loadRecentSweeps(benchId, s);
     }
@@ -72,7 +71,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
   async function loadRecentSweeps(benchId: string, s: BenchState) {
     const now = Date.now();
     const { rows } = await sweepsBetween(benchId, now - 600_000, now).catch(() => ({ rows: [] }));
-    for (const r of rows.slice(-8)) s.sweepPoints.push({ timeMs: (r.startMs + r.endMs) / 2, value: r.visibilityNet ?? r.visibility, err: r.visibilityErr });
+    for (const r of rows.slice(-8)) s.sweepPoints.push({ timeMs: (r.startMs + r.endMs) / 2, ...shownVisibility(r) });
   }
 
   /** Fits one pass with the outputs' dark calibration and stores it; null when the fit failed or the pass was stored before. */
@@ -91,17 +90,14 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     };
     const result = await opts.fit({ x: pass.x, a: pass.a, b: pass.b }, options);
     if (!result.ok) return null;
-    const stored = await storeSweep(benchId, pass, result, optics ?? null);
-    return stored ? { result, ...stored } : null;
+    return await storeSweep(benchId, pass, result, optics ?? null);
   }
 
   async function fitAndStore(benchId: string, s: BenchState, pass: CompletedPass, settings: { channels: ChannelSettings[] }) {
     const fitted = await fitPass(benchId, pass, settings.channels.find((c) => c.role === 'out_a'), settings.channels.find((c) => c.role === 'out_b'));
     if (!fitted) return;
-    const { result, summary, fit } = fitted;
-    const shown = result.shown === 'net' && result.visibilityNet ? result.visibilityNet : result.visibility;
-    s.sweepNet = result.shown === 'net';
-    s.sweepPoints.push({ timeMs: (pass.startMs + pass.endMs) / 2, value: shown.value, err: shown.err });
+    const { summary, fit } = fitted;
+    s.sweepPoints.push({ timeMs: (pass.startMs + pass.endMs) / 2, ...shownVisibility(summary) });
     if (s.sweepPoints.length > 32) s.sweepPoints.splice(0, s.sweepPoints.length - 32);
     serverEvents().emit('sweep-fitted', { benchId, sweep: summary });
     opts.publish(benchId, { type: 'sweep', bench: benchId, sweep: { ...summary, fit } });
@@ -171,7 +167,6 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
         coincidenceWindowNs: s.settings.coincidenceWindowNs,
         recent: s.recent,
         sweepPoints: s.sweepPoints,
-        sweepNet: s.sweepNet,
         phaseHistory: s.phaseHistory,
         });
       } catch (err) {
