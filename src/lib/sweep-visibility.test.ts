@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { shownVisibility } from './sweep-visibility.ts';
+import { shownVisibility, visibilityBasis } from './sweep-visibility.ts';
 
 describe('shownVisibility', () => {
   // The figures of a pass at 200 signal and 50 dark counts per bin (fringe-fit.test.ts); the rule only picks.
@@ -11,5 +11,16 @@ describe('shownVisibility', () => {
     expect(shownVisibility({ visibility: 0.72, visibilityErr: 0.0034, visibilityNet: 0.9, visibilityNetErr: null })).toEqual({ value: 0.72, err: 0.0034, net: false });
     expect(shownVisibility({ visibility: 0.72, visibilityErr: 0.0034, visibilityNet: null })).toEqual({ value: 0.72, err: 0.0034, net: false });
     expect(shownVisibility({ visibility: 0.72, visibilityErr: 0.0034 })).toEqual({ value: 0.72, err: 0.0034, net: false });
+  });
+});
+
+describe('visibilityBasis', () => {
+  const net = { visibility: 0.72, visibilityErr: 0.0034, visibilityNet: 0.9, visibilityNetErr: 0.0043 };
+  const raw = { visibility: 0.72, visibilityErr: 0.0034, visibilityNet: null, visibilityNetErr: null };
+  it('says whether the shown values are net, raw or a mix', () => {
+    expect(visibilityBasis([])).toBeNull();
+    expect(visibilityBasis([net, net])).toBe('net of darks');
+    expect(visibilityBasis([raw])).toBe('raw (no dark subtraction)');
+    expect(visibilityBasis([raw, net, net])).toBe('net of darks for 2 of 3 passes, raw for the rest');
   });
 });

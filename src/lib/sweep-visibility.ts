@@ -23,3 +23,13 @@ export function shownVisibility(s: SweepVisibilities): ShownVisibility {
   if (s.visibilityNet != null && s.visibilityNetErr != null) return { value: s.visibilityNet, err: s.visibilityNetErr, net: true };
   return { value: s.visibility, err: s.visibilityErr, net: false };
 }
+
+/** What a list of sweeps' shown visibilities are, in words for a chart's caption; null when empty. */
+export function visibilityBasis(list: readonly SweepVisibilities[]): string | null {
+  if (list.length === 0) return null;
+  const net = list.filter((s) => shownVisibility(s).net).length;
+  if (net === list.length) return 'net of darks';
+  if (net === 0) return 'raw (no dark subtraction)';
+  // Darks calibrated (or cleared) within the list: the two kinds differ by the darks, so say so.
+  return `net of darks for ${net} of ${list.length} passes, raw for the rest`;
+}

@@ -9,6 +9,7 @@ import { sweepFit, type Sweep } from '../../lib/client/api.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
 import { formatDuration, formatRateTick, formatValueErr } from '../../lib/client/format.ts';
 import { useNow } from '../../lib/client/use-now.ts';
+import { shownVisibility } from '../../lib/sweep-visibility.ts';
 import { axis, useUPlot } from '../charts/useUPlot.ts';
 import { CURVE_POINTS, fitRates } from './fringe-curve.ts';
 
@@ -142,6 +143,7 @@ export function FringeChart(props: Props) {
   const now = useNow(5_000);
   // The calibration of the latest pass, labelled with its direction: up and down differ by the piezo's hysteresis.
   const piezo = lastFit ? sweepFit(lastFit)?.piezoNmPerV : null;
+  const lastV = lastFit ? shownVisibility(lastFit) : null;
   return (
     <section className="card" aria-labelledby="fringe-h">
       <div className="mb-2 flex flex-wrap items-center justify-between gap-2">
@@ -151,10 +153,10 @@ export function FringeChart(props: Props) {
           <p className="text-xs text-muted">
             <span className="figure">{clicks.toLocaleString()}</span> clicks in the kept {dir ? `${dir}-going ` : ''}passes
           </p>
-          {lastFit && (
+          {lastFit && lastV && (
             <p className="text-xs text-muted">
               {/* Each figure kept whole, so a narrow card breaks the line between them. */}
-              <span className="whitespace-nowrap">last fit <span className="figure" data-testid="last-fit-visibility">V = {formatValueErr({ value: lastFit.visibility, err: lastFit.visibilityErr })}</span></span>
+              <span className="whitespace-nowrap">last fit <span className="figure" data-testid="last-fit-visibility">V = {formatValueErr(lastV)}</span> ({lastV.net ? 'net of darks' : 'raw'})</span>
               {/* Its age: an old fit over an idle bench must not pass for the fringes of now. */}
               {now !== null && <span className="whitespace-nowrap"> · <span className="figure">{formatDuration(now - lastFit.end)}</span> ago</span>}
               {piezo && (

@@ -1,8 +1,10 @@
-// Visibility over the last half hour: each fitted sweep with its 1σ band, the running (envelope)
-// estimate between sweeps, and the alarm limit as a line.
+// Visibility over the last half hour: each fitted sweep with its 1σ band (net of darks where they
+// are calibrated, as the live tile and the alarm take it), the running (envelope) estimate between
+// sweeps, and the alarm limit as a line.
 import { useEffect, useRef } from 'react';
 import type uPlot from 'uplot';
 import type { Sweep } from '../../lib/client/api.ts';
+import { shownVisibility, visibilityBasis } from '../../lib/sweep-visibility.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
 import { axis, timeAxis, useUPlot } from '../charts/useUPlot.ts';
 import { useNow } from '../../lib/client/use-now.ts';
@@ -59,7 +61,8 @@ export function VisibilityTrend(props: Props) {
     const rows: [number, number | null, number | null, number | null, number | null][] = [];
     for (const s of sweeps) {
       const t = (s.start + s.end) / 2000;
-      rows.push([t, s.visibility, s.visibility - s.visibilityErr, s.visibility + s.visibilityErr, null]);
+      const v = shownVisibility(s);
+      rows.push([t, v.value, v.value - v.err, v.value + v.err, null]);
     }
     for (const e of envelope) rows.push([e.t / 1000, null, null, null, e.v]);
     rows.sort((a, b) => a[0] - b[0]);
@@ -100,11 +103,13 @@ export function VisibilityTrend(props: Props) {
   }, [props.sweeps, props.envelope, props.limit, tick]);
 
   const empty = props.sweeps.length === 0 && props.envelope.length === 0;
+  const basis = visibilityBasis(props.sweeps);
   return (
     <section className="card" aria-labelledby="vis-h">
       <div className="mb-2 flex items-baseline justify-between gap-2">
         <h2 id="vis-h" className="font-semibold">Visibility trend</h2>
         <p className="text-xs text-muted">
+          {basis && <span data-testid="trend-basis">passes {basis} · </span>}
           {props.limit !== null ? (
             <>alarm below <span className="figure">{props.limit.toFixed(3)}</span></>
           ) : (

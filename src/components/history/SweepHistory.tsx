@@ -6,6 +6,7 @@ import { useEffect, useMemo, useRef, useState } from 'react';
 import type uPlot from 'uplot';
 import { fetchSweeps, sweepFit, type Sweep } from '../../lib/client/api.ts';
 import { useFetched } from '../../lib/client/use-fetched.ts';
+import { shownVisibility, visibilityBasis } from '../../lib/sweep-visibility.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
 import { formatClock, formatNumber, formatValueErr, PLUS_MINUS } from '../../lib/client/format.ts';
 import { ChartState } from '../charts/ChartState.tsx';
@@ -59,8 +60,8 @@ function summarise(label: string, list: Sweep[]): Summary {
   return {
     label,
     n: list.length,
-    v: meanSd(list.map((s) => s.visibility)),
-    medianErr: median(list.map((s) => s.visibilityErr)),
+    v: meanSd(list.map((s) => shownVisibility(s).value)),
+    medianErr: median(list.map((s) => shownVisibility(s).err)),
     piezo: meanSd(fits.flatMap((f) => (f?.piezoNmPerV ? [f.piezoNmPerV.value] : []))),
     medianP: median(fits.flatMap((f) => (f?.quality ? [f.quality.pValue] : []))),
   };
@@ -69,10 +70,11 @@ function summarise(label: string, list: Sweep[]): Summary {
 /** One hovered sweep in words: when, which way, V, period, fit p-value and piezo calibration. */
 function describe(s: Sweep): string {
   const f = sweepFit(s);
+  const v = shownVisibility(s);
   const parts = [
     `${formatClock(s.start)}–${formatClock(s.end)}`,
     `${s.direction} pass`,
-    `V ${formatValueErr({ value: s.visibility, err: s.visibilityErr })}`,
+    `V ${v.net ? 'net' : 'raw'} ${formatValueErr(v)}`,
     `period ${formatNumber(s.periodX, 3)} V`,
     f?.quality ? `p = ${f.quality.pValue.toPrecision(2)}` : null,
     f?.piezoNmPerV ? `piezo ${formatValueErr(f.piezoNmPerV)} nm/V` : null,
@@ -95,10 +97,11 @@ export function SweepHistory({ benchId, from, to }: Props) {
   const data = (): uPlot.AlignedData => {
     const list = ref.current.sweeps;
     // One x per sweep (its middle): the up and down series are null where the other direction is.
-    return [list.map((s) => (s.start + s.end) / 2000), list.map((s) => (s.direction === 'up' ? s.visibility : null)), list.map((s) => (s.direction === 'down' ? s.visibility : null))];
+    const shown = list.map(shownVisibility);
+    return [list.map((s) => (s.start + s.end) / 2000), list.map((s, i) => (s.direction === 'up' ? shown[i]!.value : null)), list.map((s, i) => (s.direction === 'down' ? shown[i]!.value : null))];
   };
-  const lo = (i: number) => { const s = ref.current.sweeps[i]; return s ? s.visibility - s.visibilityErr : null; };
-  const hi = (i: number) => { const s = ref.current.sweeps[i]; return s ? s.visibility + s.visibilityErr : null; };
+  const lo = (i: number) => { const s = ref.current.sweeps[i]; if (!s) return null; const v = shownVisibility(s); return v.value - v.err; };
+  const hi = (i: number) => { const s = ref.current.sweeps[i]; if (!s) return null; const v = shownVisibility(s); return v.value + v.err; };
 
   const plot = useUPlot(
     box,
@@ -115,8 +118,9 @@ export function SweepHistory({ benchId, from, to }: Props) {
             let min = Infinity;
             let max = -Infinity;
             for (const s of list) {
-              min = Math.min(min, s.visibility - s.visibilityErr);
-              max = Math.max(max, s.visibility + s.visibilityErr);
+              const v = shownVisibility(s);
+              min = Math.min(min, v.value - v.err);
+              max = Math.max(max, v.value + v.err);
             }
             const pad = Math.max(0.002, (max - min) * 0.1);
             return [Math.max(0, min - pad), Math.min(1, max + pad)];
@@ -124,7 +128,7 @@ export function SweepHistory({ benchId, from, to }: Props) {
         },
       },
       // Same axis width as the count-rate chart above, so the two time axes line up.
-      axes: [timeAxis(p), axis(p, { size: 64, label: 'visibility (raw)' })],
+      axes: [timeAxis(p), axis(p, { size: 64, label: 'visibility' })],
       series: [
         { label: 'time', value: timeLegendValue },
         { label: 'up pass ± 1σ', stroke: p.accent, width: 0, points: { show: true, size: 6, fill: p.accent, stroke: p.accent } },
@@ -154,12 +158,13 @@ export function SweepHistory({ benchId, from, to }: Props) {
   }, [sweeps]);
   const hovered = hover !== null ? sweeps[hover] : undefined;
   const empty = !loading && !error && sweeps.length === 0;
+  const basis = visibilityBasis(sweeps);
 
   return (
     <section className="card space-y-3" aria-labelledby="sweeps-h" data-testid="history-sweeps">
       <div className="flex flex-wrap items-baseline justify-between gap-2">
         <h2 id="sweeps-h" className="font-semibold">Visibility over time</h2>
-        <p className="text-xs text-muted">each fitted pass in the range, raw (no dark subtraction) · hover a point for its fit</p>
+        <p className="text-xs text-muted">each fitted pass in the range<span data-testid="sweeps-basis">{basis ? `, ${basis}` : ''}</span> · hover a point for its fit</p>
       </div>
       <div ref={box} className="relative" style={{ minHeight: HEIGHT }} role="img" aria-label="Fitted visibility of each pass in the range, up and down apart, with ±1σ whiskers">
         {(loading || error || empty) && (

@@ -94,6 +94,7 @@ export const sweepSchema = z.preprocess(
     visibility: z.number(),
     visibilityErr: z.number(),
     visibilityNet: z.number().nullable().optional(),
+    visibilityNetErr: z.number().nullable().optional(),
     phase: z.number(),
     periodX: z.number(),
     counts: z.number(),
