@@ -188,4 +188,21 @@ describe('alarm evaluation on ingest', () => {
     const open = await getDb().select().from(alarmEvents).where(and(eq(alarmEvents.benchId, BENCH), inArray(alarmEvents.ruleId, [rule.id])));
     expect(open.every((e) => e.clearedAt !== null)).toBe(true);
   });
+
+  it('judges visibility_low on the net visibility where the darks are calibrated, as the bench page shows it', async () => {
+    const rule = await createRule(BENCH, ruleInputSchema.parse({ name: 'Fringe washed out', metric: 'visibility_low', threshold: 0.8, clearThreshold: 0.85 }), null);
+    await engine.reload();
+    const sweep = (id: number, net: { value: number; err: number } | null) => {
+      const endMs = Date.now() - 1_000;
+      return { id, startMs: endMs - 2_000, endMs, direction: 'up' as const, visibility: 0.72, visibilityErr: 0.0034, visibilityNet: net?.value ?? null, visibilityNetErr: net?.err ?? null, phase: 0, periodX: 2.5, counts: 100_000 };
+    };
+    // Raw 0.72 with darks 50 of 250 counts per bin; net 0.90: the fringe is fine.
+    serverEvents().emit('sweep-fitted', { benchId: BENCH, sweep: sweep(1, { value: 0.9, err: 0.0043 }) });
+    expect(await eventsOf(rule.id)).toHaveLength(0);
+    // Uncalibrated, the raw 0.72 is the only visibility there is.
+    serverEvents().emit('sweep-fitted', { benchId: BENCH, sweep: sweep(2, null) });
+    const raised = await eventsOf(rule.id);
+    expect(raised).toHaveLength(1);
+    expect(raised[0]!.value).toBeCloseTo(0.72, 12);
+  });
 });
