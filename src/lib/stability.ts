@@ -21,9 +21,10 @@ export interface Stability {
   /**
    * Allan deviation of the phase (rad) over the buckets where the drive held still, pooled over the
    * `stretches` of consecutive such buckets at one position; null without a visibility to scale
-   * by or without enough held buckets.
+   * by or without enough held buckets. `net`: the visibility is net of darks (shownVisibility), and
+   * the darks were taken off the counts to match.
    */
-  phase: { visibility: number; points: AllanPoint[]; heldBuckets: number; stretches: number } | null;
+  phase: { visibility: number; net: boolean; points: AllanPoint[]; heldBuckets: number; stretches: number } | null;
   /** Most buckets with no stored bins in any one channel; each series is split at them, never joined across. */
   missingBuckets: number;
 }
@@ -35,6 +36,6 @@ export const stabilitySchema: z.ZodType<Stability> = z.object({
   to: z.number(),
   tau0: z.number().positive(),
   rates: z.array(z.object({ channel: z.string(), role: z.string(), meanRate: z.number(), points: z.array(allanPoint.extend({ poissonLimit: z.number() })) })),
-  phase: z.object({ visibility: z.number(), points: z.array(allanPoint), heldBuckets: z.number(), stretches: z.number() }).nullable(),
+  phase: z.object({ visibility: z.number(), net: z.boolean(), points: z.array(allanPoint), heldBuckets: z.number(), stretches: z.number() }).nullable(),
   missingBuckets: z.number(),
 });

@@ -93,7 +93,7 @@ async function seedPhaseBench() {
   }
   await getDb().insert(countBatches).values(rows);
   // The pass that gives the visibility: net V as fitted with the darks, raw V lower.
-  await getDb().insert(sweeps).values({ benchId: PH, startMs: PH_T0 - 20_000, endMs: PH_T0 - 10_000, direction: 'up', visibility: 0.8, visibilityErr: 0.01, visibilityNet: V, phase: 0, phaseErr: 0.01, periodX: 10, periodXErr: 0.1, counts: 1e5, fit: {} });
+  await getDb().insert(sweeps).values({ benchId: PH, startMs: PH_T0 - 20_000, endMs: PH_T0 - 10_000, direction: 'up', visibility: 0.8, visibilityErr: 0.01, visibilityNet: V, visibilityNetErr: 0.012, phase: 0, phaseErr: 0.01, periodX: 10, periodXErr: 0.1, counts: 1e5, fit: {} });
 }
 
 it('takes the phase only where the drive held still, split at sweeps and gaps, with the channel calibration', async () => {
@@ -101,11 +101,12 @@ it('takes the phase only where the drive held still, split at sweeps and gaps, w
   const step = 200; // ms: two bins a bucket, so a bucket in the sweep sees its drive move
   const res = await fetch(new URL(`/api/v1/benches/${PH}/stability?from=${PH_T0}&to=${PH_T0 + 400_000}&step=${step}`, app.url), { headers: { authorization: `Bearer ${token}` } });
   expect(res.status).toBe(200);
-  const body = (await res.json()) as { missingBuckets: number; phase: { visibility: number; heldBuckets: number; stretches: number; points: { tau: number; adev: number; err: number; lo: number; hi: number }[] } | null };
+  const body = (await res.json()) as { missingBuckets: number; phase: { visibility: number; net: boolean; heldBuckets: number; stretches: number; points: { tau: number; adev: number; err: number; lo: number; hi: number }[] } | null };
   expect(body.missingBuckets).toBe(250);
   expect(body.phase).not.toBeNull();
   const phase = body.phase!;
   expect(phase.visibility).toBe(V);
+  expect(phase.net).toBe(true);
   expect(phase.stretches).toBe(2);
   expect(phase.heldBuckets).toBe(500 + 1000);
   // White counting noise only: at τ₀ the Allan deviation is the per-bucket phase error, propagated

@@ -146,7 +146,7 @@ export function StabilityCard({ benchId, channels, from, to }: { benchId: string
             Phase
             {phase && (
               <span className="figure font-normal text-muted">
-                {' '}· scaled by V = {phase.visibility.toFixed(3)} · {phase.heldBuckets} buckets with the drive held still, in {phase.stretches} {phase.stretches === 1 ? 'stretch' : 'stretches'}
+                {' '}· scaled by V = {phase.visibility.toFixed(3)} ({phase.net ? 'net of darks' : 'raw'}) · {phase.heldBuckets} buckets with the drive held still, in {phase.stretches} {phase.stretches === 1 ? 'stretch' : 'stretches'}
               </span>
             )}
           </h3>

@@ -5,6 +5,7 @@
 import { allanDeviation, contiguousStretches } from '../../analysis/allan.ts';
 import { heldPhaseStretches } from '../../analysis/held-phase.ts';
 import type { RateStability, Stability } from '../../stability.ts';
+import { shownVisibility } from '../../sweep-visibility.ts';
 import { benchCalibrations } from '../benches.ts';
 import { queryCounts } from '../counts-query.ts';
 import { getDbHandle } from '../db/index.ts';
@@ -74,8 +75,7 @@ export async function benchStability(benchId: string, from: number, to: number, 
   const b = outB && counts.channels[`${outB.gateway}/${outB.key}`];
   const fit = await latestSweep(benchId, to);
   if (outA && outB && a && b && fit && outA.efficiency > 0) {
-    const net = fit.visibilityNet !== null;
-    const visibility = fit.visibilityNet ?? fit.visibility;
+    const { value: visibility, net } = shownVisibility(fit);
     const cal = {
       visibility,
       efficiencyRatio: outB.efficiency / outA.efficiency,
@@ -85,7 +85,7 @@ export async function benchStability(benchId: string, from: number, to: number, 
     const held = await heldPositions(outA.gateway, counts.t0, counts.step, a.length);
     const stretches = heldPhaseStretches({ a, b, held }, cal);
     const points = allanDeviation(stretches, tau0);
-    if (points.length) phase = { visibility, points, heldBuckets: stretches.reduce((n, s) => n + s.length, 0), stretches: stretches.length };
+    if (points.length) phase = { visibility, net, points, heldBuckets: stretches.reduce((n, s) => n + s.length, 0), stretches: stretches.length };
   }
   return { from, to, tau0, rates, phase, missingBuckets: missing };
 }
