@@ -64,18 +64,20 @@ export async function loadGatewayHealth(gatewayId: string, now = Date.now()): Pr
     [gatewayId, now - RATE_WINDOW_MS, now],
   );
   let bins = 0;
-  const sums: Record<string, { counts: number; ms: number }> = {};
+  // Keyed by channel keys, which the gateway chooses ("__proto__", "constructor"): a Map, never a plain object.
+  const sums = new Map<string, { counts: number; ms: number }>();
   for (const r of rows) {
     const counts = unpackCounts(r.counts);
     bins += r.n;
     r.keys.forEach((k, i) => {
-      const s = (sums[k] ??= { counts: 0, ms: 0 });
+      let s = sums.get(k);
+      if (!s) sums.set(k, (s = { counts: 0, ms: 0 }));
       for (let j = 0; j < r.n; j++) s.counts += counts[i * r.n + j]!;
       s.ms += r.n * r.dt;
     });
   }
-  const countsPerSecond: Record<string, number> = {};
-  for (const [k, s] of Object.entries(sums)) countsPerSecond[k] = s.ms ? (s.counts * 1000) / s.ms : 0;
+  // Object.fromEntries defines own properties, so even "__proto__" stays a plain data key.
+  const countsPerSecond = Object.fromEntries([...sums].map(([k, s]) => [k, s.ms ? (s.counts * 1000) / s.ms : 0]));
   return {
     id: g.id,
     benchId: g.benchId,

@@ -11,8 +11,8 @@ import { storeStatus } from './status-store.ts';
 import { BatchWriter, type StoredEvent } from './store.ts';
 
 export function countsMessage(benchId: string, gatewayId: string, s: Slice): CountsMessage {
-  const ch: Record<string, number[]> = {};
-  s.keys.forEach((k, i) => (ch[k] = s.channels[i]!));
+  // Object.fromEntries defines own properties: `ch[k] = …` would set the prototype for a channel "__proto__".
+  const ch: Record<string, number[]> = Object.fromEntries(s.keys.map((k, i) => [k, s.channels[i]!]));
   const msg: CountsMessage = { type: 'counts', bench: benchId, gateway: gatewayId, t0: s.t0, dt: s.dt, ch };
   if (s.x) msg.x = s.x;
   if (s.cc) msg.cc = s.cc;

@@ -26,6 +26,20 @@ describe('coalesceCounts', () => {
     expect(run([counts('g1', 0, 2), counts('g1', 30, 2)])).toHaveLength(2);
     expect(run([counts('g1', 0, 2), status, counts('g1', 20, 2)])).toHaveLength(3);
   });
+
+  it('treats channel keys named like Object.prototype properties as plain keys', () => {
+    // JSON.parse makes "__proto__" an own key, as a gateway's batch arrives.
+    const withKeys = (t0: number, keys: string[]): CountsMessage => ({ ...counts('g1', t0, 2), ch: JSON.parse(`{${keys.map((k, i) => `"${k}":[${t0 + i},${t0 + i}]`).join(',')}}`) as Record<string, number[]> });
+    // Same number of channels, other names: "constructor" is found on Object.prototype by `in`.
+    expect(run([withKeys(0, ['constructor', 'x1']), withKeys(20, ['x1', 'y'])])).toHaveLength(2);
+    const merged = run([withKeys(0, ['__proto__', 'constructor']), withKeys(20, ['__proto__', 'constructor'])]);
+    expect(merged).toHaveLength(1);
+    expect(Object.entries(merged[0]!.type === 'counts' ? merged[0]!.ch : {})).toEqual([
+      ['__proto__', [0, 0, 20, 20]],
+      ['constructor', [1, 1, 21, 21]],
+    ]);
+    expect(Object.entries(countsOutside(withKeys(0, ['__proto__']), [[0, 10]])[0]!.ch)).toEqual([['__proto__', [0]]]);
+  });
 });
 
 describe('countsOutside', () => {

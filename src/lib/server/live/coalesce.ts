@@ -19,12 +19,14 @@ function canMerge(a: CountsMessage, b: CountsMessage): boolean {
   if (a.t0 + binsOf(a) * a.dt !== b.t0 || binsOf(a) + binsOf(b) > MAX_MERGED_BINS) return false;
   const ka = Object.keys(a.ch);
   const kb = Object.keys(b.ch);
-  return ka.length === kb.length && ka.every((k) => k in b.ch);
+  // Own keys only: `in` would find "constructor" or "toString" on Object.prototype.
+  return ka.length === kb.length && ka.every((k) => Object.hasOwn(b.ch, k));
 }
 
+// Channel keys are the gateway's ("__proto__" included): built with Object.fromEntries, whose
+// properties are always own data properties, never with `ch[k] = …`.
 function merge(a: CountsMessage, b: CountsMessage): CountsMessage {
-  const ch: Record<string, number[]> = {};
-  for (const k of Object.keys(a.ch)) ch[k] = a.ch[k]!.concat(b.ch[k]!);
+  const ch: Record<string, number[]> = Object.fromEntries(Object.entries(a.ch).map(([k, v]) => [k, v.concat(b.ch[k]!)]));
   const out: CountsMessage = { ...a, ch };
   if (a.x && b.x) out.x = a.x.concat(b.x);
   if (a.cc && b.cc) out.cc = a.cc.concat(b.cc);
@@ -62,8 +64,7 @@ export function coalesceCounts<T>(items: T[], msgOf: (item: T) => Message, combi
 
 /** Bins [a, b) of a count message, as a message of their own. */
 function binsBetween(m: CountsMessage, a: number, b: number): CountsMessage {
-  const ch: Record<string, number[]> = {};
-  for (const [k, v] of Object.entries(m.ch)) ch[k] = v.slice(a, b);
+  const ch: Record<string, number[]> = Object.fromEntries(Object.entries(m.ch).map(([k, v]) => [k, v.slice(a, b)]));
   const out: CountsMessage = { ...m, t0: m.t0 + a * m.dt, ch };
   if (m.x) out.x = m.x.slice(a, b);
   if (m.cc) out.cc = m.cc.slice(a, b);
