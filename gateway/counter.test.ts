@@ -18,6 +18,18 @@ describe('BinAccumulator', () => {
     ]);
   });
 
+  it('keeps a channel named "__proto__" as a channel', () => {
+    const out: Bins[] = [];
+    const acc = new BinAccumulator((b) => out.push(b), 60_000);
+    acc.push(0, 10, ['__proto__', 'constructor'], [1, 2]);
+    acc.flush();
+    expect(Object.entries(out[0]!.ch)).toEqual([
+      ['__proto__', [1]],
+      ['constructor', [2]],
+    ]);
+    expect(JSON.stringify(out[0]!.ch)).toBe('{"__proto__":[1],"constructor":[2]}');
+  });
+
   it('never puts more than MAX_BATCH_BINS bins in a batch', () => {
     const out: Bins[] = [];
     const acc = new BinAccumulator((b) => out.push(b), 60_000);

@@ -103,8 +103,8 @@ export class BinAccumulator {
 
   flush(): void {
     if (this.size === 0) return;
-    const ch: Record<string, number[]> = {};
-    this.keys.forEach((k, i) => (ch[k] = this.counts[i]!));
+    // Own properties even for a channel "__proto__" (assignment would set the prototype instead).
+    const ch: Record<string, number[]> = Object.fromEntries(this.keys.map((k, i) => [k, this.counts[i]!]));
     const bins: Bins = { t0: this.t0, dt: this.dt, ch };
     if (this.x) bins.x = this.x;
     if (this.cc) bins.cc = this.cc;

@@ -23,7 +23,8 @@ export interface DemoGateways {
 export async function startDemoGateways(opts: DemoGatewaysOptions): Promise<DemoGateways> {
   const gateways: Gateway[] = [];
   for (const bench of DEMO_BENCHES) {
-    const token = opts.tokens[bench.gateway];
+    // Own entries only: a gateway id may be "constructor", which a plain object inherits.
+    const token = Object.hasOwn(opts.tokens, bench.gateway) ? opts.tokens[bench.gateway] : undefined;
     if (!token) {
       console.warn(`[demo] no token for ${bench.gateway} (revoked, or seeding is off): bench ${bench.id} is not simulated`);
       continue;

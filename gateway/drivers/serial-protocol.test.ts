@@ -15,6 +15,11 @@ describe('parseSerialLine', () => {
     expect(parseSerialLine('7 1 2 3 -1.5e-1 4', header)).toEqual({ kind: 'bin', bin: { t: 7, counts: [1, 2, 3], x: -0.15, cc: 4 } });
   });
 
+  it('reads a header field named "__proto__" as an ignored field', () => {
+    expect(parseSerialLine('HELLO __proto__=x toString=1 v=1 dt=1 cols=t,a', null)).toEqual({ kind: 'header', header: { dt: 1, keys: ['a'], hasX: false, hasCc: false } });
+    expect(Object.keys(Object.prototype)).toEqual([]);
+  });
+
   it('skips blank and comment lines', () => {
     expect(parseSerialLine('', header)).toEqual({ kind: 'skip' });
     expect(parseSerialLine('# firmware 2.3, gate 10 ms', null)).toEqual({ kind: 'skip' });

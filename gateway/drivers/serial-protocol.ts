@@ -81,13 +81,14 @@ export function parseSerialLine(line: string, header: SerialHeader | null): Seri
   if (text === '' || text.startsWith('#')) return { kind: 'skip' };
   const fields = text.split(/[\s]+/);
   if (fields[0] === 'HELLO') {
-    const pairs: Record<string, string> = {};
+    const pairs: [string, string][] = [];
     for (const f of fields.slice(1)) {
       const eq = f.indexOf('=');
       if (eq <= 0) return { kind: 'error', reason: `header field "${f.slice(0, 30)}" is not key=value` };
-      pairs[f.slice(0, eq)] = f.slice(eq + 1);
+      pairs.push([f.slice(0, eq), f.slice(eq + 1)]);
     }
-    const parsed = headerSchema.safeParse(pairs);
+    // Names from the device: own properties only, so a field "__proto__" cannot set the prototype.
+    const parsed = headerSchema.safeParse(Object.fromEntries(pairs));
     if (!parsed.success) {
       const issue = parsed.error.issues[0];
       return { kind: 'error', reason: `bad HELLO: ${issue?.path.join('.') ?? ''} ${firstIssue(parsed.error)}`.trim() };

@@ -84,10 +84,11 @@ export function rowLine(row: CsvRow, hasX: boolean, hasCc: boolean): string {
 export function parseChannelLine(line: string): { column: string; fields: Record<string, string> } | null {
   const m = /^#\s*channel\s+([^:\s]+):\s*(.*)$/.exec(line.trim());
   if (!m) return null;
-  const fields: Record<string, string> = {};
+  const pairs: [string, string][] = [];
   for (const part of m[2]!.split(';')) {
     const eq = part.indexOf('=');
-    if (eq > 0) fields[part.slice(0, eq).trim()] = part.slice(eq + 1).trim();
+    if (eq > 0) pairs.push([part.slice(0, eq).trim(), part.slice(eq + 1).trim()]);
   }
-  return { column: m[1]!, fields };
+  // The names come from an uploaded file: own properties only, so "__proto__=…" is just a field.
+  return { column: m[1]!, fields: Object.fromEntries(pairs) };
 }

@@ -63,7 +63,8 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
           }
         }),
       );
-      return { live: Object.fromEntries(results) as Record<string, Live>, at: Date.now() };
+      // Maps by bench id: a plain object would answer a bench "constructor" with Object before its first poll.
+      return { live: new Map(results), at: Date.now() };
     },
     POLL_MS,
     [benches],
@@ -80,12 +81,12 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
             return [b.id, { counts, alarms, asOf: Date.now() }];
           }),
         );
-        return Object.fromEntries(results) as Record<string, Slow>;
+        return new Map(results);
       },
       SLOW_POLL_MS,
       [benches],
-    ) ?? {};
-  const live = fast?.live ?? {};
+    ) ?? new Map<string, Slow>();
+  const live = fast?.live ?? new Map<string, Live>();
   const mountedAt = useNow();
   const now = fast?.at ?? mountedAt;
 
@@ -94,14 +95,14 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
   return (
     <ul className="grid gap-4 sm:grid-cols-2 xl:grid-cols-3" aria-label="Benches">
       {benches.map((b) => {
-        const l = live[b.id];
+        const l = live.get(b.id);
         const f = l?.figures ?? null;
         const a = f?.channels.find((c) => c.role === 'out_a');
         const o = f?.channels.find((c) => c.role === 'out_b');
         const stale = f && now !== null ? now - f.at > STALE_MS : false;
         const online = b.gatewaysOnline > 0;
         const v = f?.visibility ?? null;
-        const sl = slow[b.id];
+        const sl = slow.get(b.id);
         const alarm = alarmSummary(b, sl?.alarms ?? null);
         return (
           <li key={b.id} className="card flex flex-col gap-3" data-testid={`bench-card-${b.id}`}>

@@ -68,7 +68,8 @@ export async function seedDemo(opts: { dataDir?: string } = {}): Promise<void> {
     if (!gw) tokens[b.gateway] = (await createGateway(b.gateway, b.id)).token;
     else if (gw.revokedAt) delete tokens[b.gateway];
     else if (opts.dataDir) {
-      const stored = tokens[b.gateway];
+      // Own entries only: a gateway id may be "constructor", which a plain object inherits.
+      const stored = Object.hasOwn(tokens, b.gateway) ? tokens[b.gateway] : undefined;
       if (!stored || !(await verifyGatewayToken(b.gateway, stored))) tokens[b.gateway] = (await rotateGatewayToken(b.gateway)).token;
     }
     // Labels and roles as an admin would set them; a label an admin changed is kept.

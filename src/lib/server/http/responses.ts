@@ -78,13 +78,14 @@ export async function readFormFields(request: Request): Promise<Record<string, s
   } catch {
     throw new HttpError(400, 'request body is not a form');
   }
-  const obj: Record<string, string> = {};
+  const fields: [string, string][] = [];
   for (const [k, v] of form.entries()) {
     if (typeof v !== 'string') continue;
     if (k.includes('\0') || v.includes('\0')) throw new HttpError(422, NUL_MESSAGE);
-    obj[k] = v;
+    fields.push([k, v]);
   }
-  return obj;
+  // Field names are the client's: own properties only, so a field "__proto__" cannot set the prototype.
+  return Object.fromEntries(fields);
 }
 
 /** Parses form fields against a schema (throws HttpError 400/413/422 with the reason). */
