@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { countBatchSchema, decodePayload, MAX_EPOCH_MS } from './wire.ts';
+import { ackSchema, countBatchSchema, decodePayload, MAX_EPOCH_MS, statusSchema } from './wire.ts';
 
 const batch = (t0: number, n = 10, dt = 1000) => JSON.stringify({ v: 1, boot: 'b', seq: 0, t0, dt, ch: { a: Array.from({ length: n }, () => 1) } });
 const decode = (s: string) => decodePayload(new TextEncoder().encode(s), countBatchSchema);
@@ -16,5 +16,24 @@ describe('count batch times', () => {
     const past = decode(batch(MAX_EPOCH_MS - 9_000));
     expect(past).toEqual({ ok: false, reason: 't0: the bins end past the last representable date' });
     expect(decode(batch(9_007_199_254_740_000, 1, 1)).ok).toBe(false);
+  });
+});
+
+describe('NUL characters', () => {
+  const enc = (v: unknown) => new TextEncoder().encode(JSON.stringify(v));
+  it('refuses stored text holding U+0000, with the field in the reason', () => {
+    expect(decodePayload(enc({ v: 1, boot: 'a\u0000b', seq: 0, t0: 0, dt: 10, ch: { a: [1] } }), countBatchSchema)).toEqual({ ok: false, reason: 'boot: must not contain the NUL character (U+0000)' });
+    expect(decodePayload(enc({ v: 1, state: 'online', software: 'gw\u0000' }), statusSchema)).toEqual({ ok: false, reason: 'software: must not contain the NUL character (U+0000)' });
+    expect(decodePayload(enc({ v: 1, state: 'online', scan: { min: 0, max: 1, unit: '\u0000' } }), statusSchema)).toEqual({ ok: false, reason: 'scan.unit: must not contain the NUL character (U+0000)' });
+    expect(decodePayload(enc({ v: 1, state: 'online', boot: '\u0000' }), statusSchema).ok).toBe(false);
+    expect(decodePayload(enc({ v: 1, id: 'c1', ok: false, error: 'no\u0000' }), ackSchema)).toEqual({ ok: false, reason: 'error: must not contain the NUL character (U+0000)' });
+    expect(decodePayload(enc({ v: 1, id: 'c\u00001', ok: true }), ackSchema).ok).toBe(false);
+    expect(decodePayload(enc({ v: 1, id: 'c1', ok: false, error: 'out of range' }), ackSchema).ok).toBe(true);
+  });
+
+  it('writes out a NUL of a bad key in the reason, which is stored', () => {
+    const d = decodePayload(enc({ v: 1, boot: 'b', seq: 0, t0: 0, dt: 10, ch: { 'a\u0000': [1] } }), countBatchSchema);
+    expect(d.ok).toBe(false);
+    if (!d.ok) expect(d.reason).toBe('ch.a\\u0000: bad channel key "a\\u0000"');
   });
 });

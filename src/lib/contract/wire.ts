@@ -16,6 +16,16 @@ export const MAX_EPOCH_MS = 8.64e15;
 
 const CHANNEL_KEY = /^[a-z0-9_]{1,16}$/;
 
+/**
+ * Text the server stores (boot ids, software and unit names, command errors) may not hold U+0000:
+ * PostgreSQL's text and jsonb cannot, so such a message is refused whole here, with this reason,
+ * instead of failing half-way through a write.
+ */
+const NUL_REASON = 'must not contain the NUL character (U+0000)';
+const hasNoNul = (s: string) => !s.includes('\0');
+/** A stored string of `min`–`max` characters, without NUL. */
+const text = (min: number, max: number) => z.string().min(min).max(max).refine(hasNoNul, NUL_REASON);
+
 export const gatewayIdSchema = z.string().regex(/^[a-z0-9][a-z0-9-]{0,39}$/, 'id must match [a-z0-9][a-z0-9-]{0,39}');
 export const benchIdSchema = gatewayIdSchema;
 export const channelKeySchema = z.string().regex(CHANNEL_KEY, 'channel key must match [a-z0-9_]{1,16}');
@@ -75,7 +85,7 @@ const xSchema = z4.custom<number[]>().superRefine((x, ctx) => {
 export const countBatchSchema = z4
   .object({
     v: z4.literal(CONTRACT_VERSION),
-    boot: z4.string().min(1).max(32),
+    boot: z4.string().min(1).max(32).refine(hasNoNul, NUL_REASON),
     seq: z4.number().int().min(0).max(Number.MAX_SAFE_INTEGER),
     t0: z4.number().int().min(0).max(MAX_EPOCH_MS),
     dt: z4.number().int().min(1).max(60_000),
@@ -95,10 +105,10 @@ export type CountBatch = z4.infer<typeof countBatchSchema>;
 export const statusSchema = z.object({
   v: z.literal(CONTRACT_VERSION),
   state: z.enum(['online', 'offline']),
-  boot: z.string().min(1).max(32).optional(),
+  boot: text(1, 32).optional(),
   channels: z.array(channelKeySchema).max(64).optional(),
-  scan: z.object({ min: z.number().finite(), max: z.number().finite(), unit: z.string().max(16) }).optional(),
-  software: z.string().max(100).optional(),
+  scan: z.object({ min: z.number().finite(), max: z.number().finite(), unit: text(0, 16) }).optional(),
+  software: text(0, 100).optional(),
 });
 export type GatewayStatus = z.infer<typeof statusSchema>;
 
@@ -120,9 +130,9 @@ export type Command = CommandBody & { v: 1; id: string };
 
 export const ackSchema = z.object({
   v: z.literal(CONTRACT_VERSION),
-  id: z.string().min(1).max(100),
+  id: text(1, 100),
   ok: z.boolean(),
-  error: z.string().max(1000).optional(),
+  error: text(0, 1000).optional(),
 });
 export type Ack = z.infer<typeof ackSchema>;
 
@@ -173,7 +183,8 @@ export function decodePayload<T>(payload: Uint8Array, schema: PayloadSchema<T>):
   if (!parsed.success) {
     const issue = parsed.error.issues[0];
     const where = issue?.path.length ? issue.path.map(String).join('.') + ': ' : '';
-    return { ok: false, reason: `${where}${issue?.message ?? 'invalid'}`.slice(0, 300) };
+    // The path may hold the payload's own keys: a NUL there is written out, since the reason is stored.
+    return { ok: false, reason: `${where}${issue?.message ?? 'invalid'}`.replaceAll('\0', '\\u0000').slice(0, 300) };
   }
   return { ok: true, value: parsed.data };
 }

@@ -25,7 +25,8 @@ export function emptyDelta(): HealthDelta {
 }
 
 export function noteReject(d: HealthDelta, reason: string, at: number): void {
-  d.rejects.unshift({ at, reason });
+  // Kept in jsonb, which cannot hold U+0000: written out, so the note (and the count) is stored.
+  d.rejects.unshift({ at, reason: reason.replaceAll('\0', '\\u0000') });
   if (d.rejects.length > MAX_REJECT_NOTES) d.rejects.length = MAX_REJECT_NOTES;
 }
 

@@ -92,7 +92,11 @@ export class BatchWriter {
     for (const resolve of this.idle.splice(0)) resolve();
   }
 
-  /** Writes a group; if it fails for a non-transient reason, writes its items one by one so one bad item cannot hold back the rest. */
+  /**
+   * Writes a group; if it fails for a non-transient reason, writes its items one by one so one bad
+   * item cannot hold back the rest. A batch that fails alone is rejected for the database's reason,
+   * and counted as such on its gateway's health before it resolves (and is acknowledged).
+   */
   private async writeIsolating(items: Item[]): Promise<void> {
     try {
       await withDbRetry('store', () => this.write(items));
@@ -104,8 +108,9 @@ export class BatchWriter {
       const item = items[0]!;
       const reason = `could not be stored: ${err instanceof Error ? err.message : String(err)}`.slice(0, 300);
       console.error(`[ingest] ${item.gatewayId}: ${reason}`);
-      if (item.kind === 'batch') item.resolve({ kind: 'rejected', reason });
-      else item.resolve();
+      if (item.kind !== 'batch') return item.resolve();
+      // Only a reject note: if even that cannot be written, the branch above resolves it.
+      await this.writeIsolating([{ kind: 'reject', gatewayId: item.gatewayId, reason, at: item.arrivedAt, resolve: () => item.resolve({ kind: 'rejected', reason }) }]);
     }
   }
 
