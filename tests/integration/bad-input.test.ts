@@ -60,6 +60,35 @@ describe('times and ids past what can be stored or shown', () => {
   });
 });
 
+describe('ids that cannot be a bench\'s or a gateway\'s', () => {
+  const bad = ['%00', 'a%00b', 'A', '-x', 'x'.repeat(41)];
+
+  it('answers them on the API with 422 and a JSON reason, never a 500', async () => {
+    for (const id of bad) {
+      const gets = [`/api/v1/benches/${id}/counts?from=1&to=2`, `/api/v1/benches/${id}/sweeps`, `/api/v1/benches/${id}/figures`, `/api/v1/benches/${id}/stability?from=1&to=2`, `/api/v1/gateways/${id}/health`];
+      for (const path of gets) {
+        const res = await api(op, path);
+        expect(res.status, path).toBe(422);
+        expect(((await res.json()) as { error: string }).error, path).toMatch(/id must match/);
+      }
+      const post = await api(op, `/api/v1/benches/${id}/commands`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ op: 'stop' }) });
+      expect(post.status, id).toBe(422);
+    }
+    // A well-formed id nobody has stays a 404.
+    expect((await api(op, `/api/v1/benches/no-such-${tag}/figures`)).status).toBe(404);
+    expect((await api(op, `/api/v1/gateways/no-such-${tag}/health`)).status).toBe(404);
+  });
+
+  it('shows the pages\' own not-found answer for them', async () => {
+    for (const id of bad) {
+      for (const path of [`/benches/${id}`, `/benches/${id}/history`, `/benches/${id}/import`, `/benches/${BENCH}/gateways/${id}`, `/benches/${id}/gateways/${id}`, `/admin/benches/${id}`]) {
+        const res = await api(admin, path);
+        expect(res.status, path).toBe(404);
+      }
+    }
+  });
+});
+
 describe('request bodies', () => {
   it('refuses NUL characters in JSON text with 422 and stores nothing', async () => {
     const res = await api(op, `/api/v1/benches/${BENCH}/runs`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ title: 'night\u0000scan' }) });

@@ -1,6 +1,7 @@
 // Benches and their channels: reads for pages and the API, and the channel-role defaults of the
 // contract (first two keys of the first gateway serve as out_a/out_b until an admin sets roles).
 import { asc, eq } from 'drizzle-orm';
+import { benchIdSchema } from '../contract/wire.ts';
 import { isImportGateway } from '../import-shapes.ts';
 import { getDb } from './db/index.ts';
 import type { ChannelCalibration, ChannelRole } from '../channel-calibration.ts';
@@ -19,7 +20,9 @@ export async function listBenches(): Promise<Bench[]> {
   return await getDb().select().from(benches).orderBy(asc(benches.name));
 }
 
+/** The bench, or null when there is none; an id that cannot be a bench's (a NUL, a slash) is not looked up. */
 export async function getBench(id: string): Promise<Bench | null> {
+  if (!benchIdSchema.safeParse(id).success) return null;
   const [row] = await getDb().select().from(benches).where(eq(benches.id, id)).limit(1);
   return row ?? null;
 }

@@ -2,6 +2,7 @@
 // recent rates, seq gaps (possible loss), rejected batches with the last reasons, broker refusals,
 // and the clock offset between its bins and their arrival.
 import { eq } from 'drizzle-orm';
+import { gatewayIdSchema } from '../contract/wire.ts';
 import { getDb, getDbHandle } from './db/index.ts';
 import { unpackCounts } from './db/packed-counts.ts';
 import { gatewayHealth, gateways } from './db/schema.ts';
@@ -49,7 +50,9 @@ function batchesIn(rows: { boot: string; seq: number }[]): number {
   return batches;
 }
 
+/** The gateway's health, or null when there is none; an id that cannot be a gateway's is not looked up. */
 export async function loadGatewayHealth(gatewayId: string, now = Date.now()): Promise<GatewayHealthView | null> {
+  if (!gatewayIdSchema.safeParse(gatewayId).success) return null;
   const [row] = await getDb()
     .select({ g: gateways, h: gatewayHealth })
     .from(gateways)

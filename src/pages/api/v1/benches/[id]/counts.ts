@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { benchIdSchema } from '../../../../../lib/contract/wire.ts';
 import { getBench } from '../../../../../lib/server/benches.ts';
 import { queryCounts } from '../../../../../lib/server/counts-query.ts';
 import { countsCsv } from '../../../../../lib/server/counts-query-csv.ts';
@@ -16,7 +17,7 @@ const query = z.object({
 
 /** `?from=&to=&step=` (ms or ISO 8601; step in ms): binned counts, JSON or CSV (`format=csv` or `Accept: text/csv`). */
 export const GET = endpoint('observer', async ({ params, url, request }) => {
-  const bench = await getBench(params['id'] ?? '');
+  const bench = await getBench(parseOr422(benchIdSchema, params['id']));
   if (!bench) return problem(404, 'no such bench');
   const q = parseOr422(query, Object.fromEntries(url.searchParams));
   const result = await queryCounts(bench.id, q.from, q.to, q.step);

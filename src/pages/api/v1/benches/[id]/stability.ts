@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { benchIdSchema } from '../../../../../lib/contract/wire.ts';
 import { benchStability } from '../../../../../lib/server/analysis/stability.ts';
 import { getBench } from '../../../../../lib/server/benches.ts';
 import { endpoint } from '../../../../../lib/server/http/endpoint.ts';
@@ -14,7 +15,7 @@ const query = z.object({
 
 /** `?from=&to=&step=`: overlapping Allan deviation of each channel's rate and of the phase. */
 export const GET = endpoint('observer', async ({ params, url }) => {
-  const bench = await getBench(params['id'] ?? '');
+  const bench = await getBench(parseOr422(benchIdSchema, params['id']));
   if (!bench) return problem(404, 'no such bench');
   const q = parseOr422(query, Object.fromEntries(url.searchParams));
   return json(await benchStability(bench.id, q.from, q.to, q.step));

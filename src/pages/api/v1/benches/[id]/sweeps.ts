@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { benchIdSchema } from '../../../../../lib/contract/wire.ts';
 import { MAX_SWEEPS, sweepView, sweepsBetween } from '../../../../../lib/server/analysis/sweeps-store.ts';
 import { getBench } from '../../../../../lib/server/benches.ts';
 import { endpoint } from '../../../../../lib/server/http/endpoint.ts';
@@ -15,7 +16,7 @@ const query = z.object({
 const DAY_MS = 86_400_000;
 
 export const GET = endpoint('observer', async ({ params, url }) => {
-  const bench = await getBench(params['id'] ?? '');
+  const bench = await getBench(parseOr422(benchIdSchema, params['id']));
   if (!bench) return problem(404, 'no such bench');
   const q = parseOr422(query, Object.fromEntries(url.searchParams));
   const to = q.to ?? Date.now();
