@@ -48,6 +48,17 @@ describe('times and ids past what can be stored or shown', () => {
     }
   });
 
+  it('answers times that are neither whole ms nor ISO 8601 with a zone with 422', async () => {
+    for (const time of ['-5', '1%202%203', 'March%203', '2026-03-03T14:05:00', '2026-02-30T00:00Z']) {
+      for (const path of [`counts?from=${time}&to=2`, `sweeps?from=${time}`, `stability?from=1&to=${time}`, `export?to=${time}`]) {
+        const res = await api(op, `/api/v1/benches/${BENCH}/${path}`);
+        expect(res.status, path).toBe(422);
+        expect(((await res.json()) as { error: string }).error, path).toMatch(/neither whole ms since the epoch nor an ISO 8601 date and time with zone/);
+      }
+    }
+    expect((await api(op, `/api/v1/benches/${BENCH}/counts?from=2026-03-03T14:05:00Z&to=2026-03-03T15:06:00%2B01:00`)).status).toBe(200);
+  });
+
   it('answers record ids past the largest integer with 422', async () => {
     const huge = '99999999999999999999';
     const statuses = [
