@@ -34,6 +34,20 @@ describe('sign-in', () => {
     expect(home.text).toContain('Lab overview');
   });
 
+  it('sends a signed-in user only to a path on this site after sign-in', async () => {
+    resetSignInLimits();
+    const u = await userWithToken('observer');
+    const c = new HttpClient(app.url);
+    expect((await c.signIn(u.email, u.password)).status).toBe(303);
+    // Browsers take "/\\host" and "/<tab>/host" for "//host".
+    for (const next of ['/%5Cevil.example', '//evil.example', '/%09/evil.example', 'https://evil.example/', '/%E2%82%AC']) {
+      const res = await c.get(`/signin?next=${next}`);
+      expect(res.status, next).toBe(302);
+      expect(res.location, next).toBe('/');
+    }
+    expect((await c.get('/signin?next=%2Fbenches%3Fx%3D1')).location).toBe('/benches?x=1');
+  });
+
   it('answers a wrong password and an unknown account with the same message and status', async () => {
     resetSignInLimits();
     const u = await userWithToken('observer');
