@@ -105,7 +105,7 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
         const sl = slow.get(b.id);
         const alarm = alarmSummary(b, sl?.alarms ?? null);
         return (
-          <li key={b.id} className="card flex flex-col gap-3" data-testid={`bench-card-${b.id}`}>
+          <li key={b.id} className="card flex min-w-0 flex-col gap-3" data-testid={`bench-card-${b.id}`}>
             <div className="flex items-start justify-between gap-2">
               <div className="min-w-0">
                 <a href={`/benches/${b.id}`} className="text-lg font-semibold hover:underline">{b.name}</a>

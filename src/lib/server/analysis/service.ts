@@ -140,8 +140,8 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
         const outA = settings.channels.find((c) => c.role === 'out_a');
         const outB = settings.channels.find((c) => c.role === 'out_b');
         if (!outA || !outB || outA.gateway !== gatewayId || outB.gateway !== gatewayId || !batch.x) return;
-        const a = batch.ch[outA.key];
-        const b = batch.ch[outB.key];
+        const a = Object.hasOwn(batch.ch, outA.key) ? batch.ch[outA.key] : undefined;
+        const b = Object.hasOwn(batch.ch, outB.key) ? batch.ch[outB.key] : undefined;
         if (!a || !b) return;
         // Fits run one after another per bench, so sweeps are stored in order.
         for (const pass of s.tracker.push(batch.t0, batch.dt, batch.x, a, b)) {
