@@ -62,6 +62,13 @@ export function SweepControl({ bench, lastSweep, onSweepStarted, drive }: Props)
     void send({ op: 'sweep', from: Number(from), to: Number(to), step: Number(step), dwell: Number(dwell), sweeps: Number(sweeps) }, 'Sweep');
   };
 
+  const holdAt = (e: FormEvent) => {
+    e.preventDefault();
+    const x = holdX.trim() === '' ? Number.NaN : Number(holdX);
+    if (!Number.isFinite(x)) setMessage({ ok: false, text: 'Hold needs a position in volts.' });
+    else void send({ op: 'hold', x }, `Hold at ${x} V`);
+  };
+
   const fit = lastSweep ? sweepFit(lastSweep) : null;
   const mid = fit ? midFringeX(fit, Math.min(Number(from), Number(to)), Math.max(Number(from), Number(to)), (Number(from) + Number(to)) / 2) : null;
   // Each sweep goes there and back: twice the steps between From and To.
@@ -99,9 +106,10 @@ export function SweepControl({ bench, lastSweep, onSweepStarted, drive }: Props)
           <button type="button" className="btn-danger ml-auto" disabled={busy} onClick={() => void send({ op: 'stop' }, 'Stop')}>Stop drive</button>
         </div>
       </form>
-      <div className="mt-3 flex flex-wrap items-end gap-2 border-t border-line pt-3">
-        <label className="w-32"><span className="label">Hold at (V)</span><input className="field figure" type="number" step="any" min={range.min} max={range.max} value={holdX} onChange={(e) => setHoldX(e.target.value)} /></label>
-        <button type="button" className="btn" disabled={busy} onClick={() => void send({ op: 'hold', x: Number(holdX) }, `Hold at ${holdX} V`)}>Hold</button>
+      {/* A form, so an empty or out-of-range field is stopped by the browser: Number('') is 0 V. */}
+      <form className="mt-3 flex flex-wrap items-end gap-2 border-t border-line pt-3" onSubmit={holdAt}>
+        <label className="w-32"><span className="label">Hold at (V)</span><input className="field figure" type="number" step="any" required min={range.min} max={range.max} value={holdX} onChange={(e) => setHoldX(e.target.value)} /></label>
+        <button type="submit" className="btn" disabled={busy}>Hold</button>
         <button
           type="button"
           className="btn"
@@ -111,7 +119,7 @@ export function SweepControl({ bench, lastSweep, onSweepStarted, drive }: Props)
         >
           Hold at mid-fringe{mid !== null && <span className="figure text-xs text-muted">{mid.toFixed(3)} V</span>}
         </button>
-      </div>
+      </form>
       <p className="mt-2 text-xs text-muted">
         Mid-fringe comes from the latest {lastSweep?.direction ?? ''} fit; piezo hysteresis shifts it with the direction of approach, so trim with the contrast readout (0 at mid-fringe).
       </p>
