@@ -14,8 +14,11 @@ export default defineConfig({
   integrations: [react()],
   server: { host: process.env.HOST ?? '127.0.0.1', port: Number(port) },
   security: {
-    checkOrigin: true,
-    // Without these, Astro treats every request as http://localhost and form posts get 403.
+    // Off: src/middleware.ts checks origins itself, since Astro's check runs before any middleware
+    // and would refuse Bearer-token scripts posting forms or bodies without a JSON content type.
+    checkOrigin: false,
+    // Without these, Astro treats every request as http://localhost (its URL's origin is what the
+    // middleware compares a request's Origin with), so form posts would get 403.
     allowedDomains: [{ hostname: '127.0.0.1' }, { hostname: 'localhost' }, ...(process.env.PUBLIC_HOSTNAME ? [{ hostname: process.env.PUBLIC_HOSTNAME }] : [])],
   },
   vite: {

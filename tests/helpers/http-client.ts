@@ -1,5 +1,5 @@
-// A tiny browser stand-in for HTTP tests: keeps cookies, sends the Origin header that Astro's form
-// check and our same-origin check expect, and never follows redirects so tests can assert them.
+// A tiny browser stand-in for HTTP tests: keeps cookies, sends the Origin header that our same-origin
+// check expects, and never follows redirects so tests can assert them.
 
 export interface Page {
   status: number;

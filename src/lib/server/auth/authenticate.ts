@@ -26,6 +26,11 @@ export function readCookie(header: string | null | undefined, name: string): str
   return null;
 }
 
+/** The token of an `Authorization: Bearer` header, or null when the header is absent or another scheme. */
+export function bearerToken(authorization: string | null): string | null {
+  return authorization?.toLowerCase().startsWith('bearer ') ? authorization.slice(7).trim() : null;
+}
+
 /** Lucia's session ids are lowercase base32; anything else cannot be one and is not looked up. */
 const SESSION_ID = /^[a-z0-9]{1,100}$/;
 
@@ -35,9 +40,9 @@ export async function authenticate(headers: Headers | Record<string, string | st
     const v = headers[name];
     return Array.isArray(v) ? (v[0] ?? null) : (v ?? null);
   };
-  const authz = get('authorization');
-  if (authz?.toLowerCase().startsWith('bearer ')) {
-    const user = await userForApiToken(authz.slice(7).trim());
+  const token = bearerToken(get('authorization'));
+  if (token !== null) {
+    const user = await userForApiToken(token);
     return { user, sessionId: null, method: user ? 'token' : null, cookie: null };
   }
   const sessionId = readCookie(get('cookie'), SESSION_COOKIE);
