@@ -2,8 +2,9 @@ import { defineMiddleware, sequence } from 'astro:middleware';
 import { authenticate, bearerToken, readCookie } from './lib/server/auth/authenticate.ts';
 import { SESSION_COOKIE } from './lib/server/auth/lucia.ts';
 import { hasRole, type Role } from './lib/server/auth/roles.ts';
+import { allowedMethods, routePatternOf } from './lib/server/http/api-methods.ts';
 import { crossSiteRefused } from './lib/server/http/origin.ts';
-import { problem } from './lib/server/http/responses.ts';
+import { json, problem } from './lib/server/http/responses.ts';
 
 // Pages anyone may open; every other page needs a signed-in user (API routes check roles themselves).
 const PUBLIC_PAGES = [/^\/signin\/?$/, /^\/welcome\/[^/]+\/?$/, /^\/favicon\.svg$/];
@@ -14,6 +15,23 @@ const auth = defineMiddleware(async (ctx, next) => {
   ctx.locals.authSessionId = res.sessionId;
   ctx.locals.authMethod = res.method;
   if (res.cookie) ctx.cookies.set(res.cookie.name, res.cookie.value, res.cookie.attributes);
+  return next();
+});
+
+// The API's route modules by Astro's route pattern, loaded when first asked (Astro loads the same ones).
+const API_ROUTES = new Map(
+  Object.entries(import.meta.glob<Record<string, unknown>>(['./pages/api/**/*.ts', '!./pages/api/**/*.test.ts'])).map(([file, load]) => [routePatternOf(file), load]),
+);
+
+// Astro answers a method a route does not export with its HTML 404 page; scripts get JSON. Paths
+// no route matches never reach the middleware: src/server/http.ts answers those.
+const apiMethods = defineMiddleware(async (ctx, next) => {
+  const load = ctx.url.pathname.startsWith('/api/') ? API_ROUTES.get(ctx.routePattern) : undefined;
+  if (!load) return next();
+  const allowed = allowedMethods(await load());
+  const method = ctx.request.method;
+  if (method === 'OPTIONS') return new Response(null, { status: 204, headers: { allow: allowed.join(', ') } });
+  if (!allowed.includes(method)) return json({ error: `${method} is not served here; use ${allowed.join(', ')}` }, 405, { allow: allowed.join(', ') });
   return next();
 });
 
@@ -50,4 +68,4 @@ const pagesNeedSignIn = defineMiddleware((ctx, next) => {
   return next();
 });
 
-export const onRequest = sequence(sameOrigin, auth, pagesNeedSignIn);
+export const onRequest = sequence(apiMethods, sameOrigin, auth, pagesNeedSignIn);

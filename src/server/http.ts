@@ -19,6 +19,16 @@ export interface WebServer {
   close(): Promise<void>;
 }
 
+/** What no route answers: JSON `{ error }` under /api (the contract's error shape), plain text elsewhere. */
+function answer(res: http.ServerResponse, status: number, error: string, api: boolean, headers: Record<string, string> = {}): void {
+  if (res.headersSent) {
+    res.end();
+    return;
+  }
+  res.writeHead(status, { 'content-type': api ? 'application/json; charset=utf-8' : 'text/plain; charset=utf-8', ...headers });
+  res.end(api ? JSON.stringify({ error }) : error);
+}
+
 export async function startWebServer(opts: {
   port: number;
   host: string;
@@ -34,11 +44,16 @@ export async function startWebServer(opts: {
   const server = http.createServer((req, res) => {
     const url = req.url ?? '/';
     const pathname = url.split('?')[0] ?? '/';
+    const api = pathname.startsWith('/api/');
+    if (opts.upgrades[pathname]) {
+      // Only a WebSocket handshake is served here (those arrive as 'upgrade' events, below).
+      answer(res, 426, 'this path only answers a WebSocket upgrade', api, { upgrade: 'websocket', connection: 'Upgrade' });
+      return;
+    }
     const astro = () =>
       handler(req, res, (err) => {
         if (err) console.error('[http]', err);
-        if (!res.headersSent) res.writeHead(err ? 500 : 404, { 'content-type': 'text/plain' });
-        res.end(err ? 'internal error' : 'not found');
+        answer(res, err ? 500 : 404, err ? 'internal error' : 'not found', api);
       });
     if ((req.method === 'GET' || req.method === 'HEAD') && !pathname.startsWith('/api/') && pathname.includes('.')) {
       // Hashed build assets never change; other public files may.

@@ -1,5 +1,6 @@
 // The HTTP edges scripts and browsers meet before a route's own code: the cross-site check
-// (cookie requests from our own origin only, Bearer scripts served whatever their content type).
+// (cookie requests from our own origin only, Bearer scripts served whatever their content type),
+// and JSON for every /api answer, wrong methods and unknown paths included.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import type { RunningApp } from '../../src/server/app.ts';
@@ -78,5 +79,53 @@ describe('cross-site requests', () => {
     const res = await new HttpClient(app.url).postForm('/signin', { email: op.email, password: op.password }, { origin: 'http://evil.example' });
     expect(res.status).toBe(403);
     expect(res.headers.get('set-cookie')).toBeNull();
+  });
+});
+
+describe('JSON for every /api answer', () => {
+  const call = (path: string, method = 'GET') => fetch(new URL(path, app.url), { method, headers: { authorization: `Bearer ${op.token}` } });
+
+  it('answers a wrong method on a known route 405 with Allow', async () => {
+    const cases: [string, string, string][] = [
+      ['/api/v1/benches', 'POST', 'GET, HEAD, OPTIONS'],
+      [`/api/v1/benches/${BENCH}/commands`, 'GET', 'POST, OPTIONS'],
+      [`/api/v1/benches/${BENCH}/commands`, 'DELETE', 'POST, OPTIONS'],
+      [`/api/v1/benches/${BENCH}/import`, 'PUT', 'POST, OPTIONS'],
+    ];
+    for (const [path, method, allow] of cases) {
+      const res = await call(path, method);
+      expect(res.status, `${method} ${path}`).toBe(405);
+      expect(res.headers.get('allow'), `${method} ${path}`).toBe(allow);
+      isJson(res);
+      expect((await res.json()).error).toMatch(new RegExp(`${method} is not served`));
+    }
+  });
+
+  it('answers OPTIONS with the route’s methods and no body', async () => {
+    const res = await call(`/api/v1/benches/${BENCH}/counts`, 'OPTIONS');
+    expect(res.status).toBe(204);
+    expect(res.headers.get('allow')).toBe('GET, HEAD, OPTIONS');
+    expect(res.headers.get('access-control-allow-origin')).toBeNull();
+  });
+
+  it('answers unknown /api paths 404 JSON, and the live path without an upgrade 426 JSON', async () => {
+    for (const path of ['/api/nope', '/api/v1/benches/x/y/z', '/api/v2/benches']) {
+      const res = await call(path);
+      expect(res.status, path).toBe(404);
+      isJson(res);
+      expect(await res.json()).toEqual({ error: 'not found' });
+    }
+    const live = await call(`/api/v1/live?bench=${BENCH}`);
+    expect(live.status).toBe(426);
+    expect(live.headers.get('upgrade')).toBe('websocket');
+    isJson(live);
+    expect((await live.json()).error).toMatch(/WebSocket/);
+    // Pages keep their own answers.
+    expect((await call('/no-such-page')).headers.get('content-type')).not.toMatch(/json/);
+  });
+
+  it('still serves the methods a route has', async () => {
+    expect((await call('/api/v1/benches')).status).toBe(200);
+    expect((await call('/api/v1/benches', 'HEAD')).status).toBe(200);
   });
 });
