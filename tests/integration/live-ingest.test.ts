@@ -201,6 +201,30 @@ describe('broker policy', () => {
     await until(async () => (await health(gw.gatewayId)).refused >= 2, 5_000, 'refusals counted');
   });
 
+  it('refuses a gateway connecting with another gateway’s client id, and leaves that gateway connected', async () => {
+    const a = await freshGateway();
+    const b = await freshGateway();
+    const real = await connectGateway(t.mqttPort, a.gatewayId, a.token, { clientId: a.gatewayId });
+    let kicked = false;
+    real.once('close', () => (kicked = true));
+    await expect(connectGateway(t.mqttPort, b.gatewayId, b.token, { clientId: a.gatewayId })).rejects.toMatchObject({ code: 2 });
+    await until(async () => (await health(b.gatewayId)).refused === 1, 5_000, 'refusal counted');
+    // A client id another gateway holds is refused too: its session (subscriptions, queued commands) stays its own.
+    const own = await connectGateway(t.mqttPort, a.gatewayId, a.token, { clientId: `box-${a.gatewayId}`, clean: false });
+    await own.subscribeAsync(topicFor(a.gatewayId, 'cmd'), { qos: 1 });
+    await own.endAsync();
+    await expect(connectGateway(t.mqttPort, b.gatewayId, b.token, { clientId: `box-${a.gatewayId}` })).rejects.toMatchObject({ code: 2 });
+    await until(async () => (await health(b.gatewayId)).refused === 2, 5_000, 'refusal counted');
+    // Its own id and an id of its own choosing (mosquitto_pub, mqtt.js defaults) are served.
+    for (const clientId of [b.gatewayId, `mqttjs_${b.gatewayId}`]) {
+      const c = await connectGateway(t.mqttPort, b.gatewayId, b.token, { clientId });
+      await c.endAsync();
+    }
+    expect(kicked).toBe(false);
+    expect(real.connected).toBe(true);
+    await real.endAsync();
+  });
+
   it('refuses publishing under another gateway id and stores nothing of it', async () => {
     const a = await freshGateway();
     const b = await freshGateway();

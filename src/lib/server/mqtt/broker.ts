@@ -23,7 +23,7 @@ export interface EmbeddedBrokerOptions {
   ingest: Ingest;
 }
 
-function authError(returnCode: 3 | 4 | 5, message: string): AuthenticateError {
+function authError(returnCode: 2 | 3 | 4 | 5, message: string): AuthenticateError {
   return Object.assign(new Error(message), { returnCode }) as AuthenticateError;
 }
 
@@ -32,12 +32,38 @@ export async function startEmbeddedBroker(opts: EmbeddedBrokerOptions): Promise<
   const gatewayOf = new WeakMap<Client, string>();
   const sessions = new Map<string, Set<Client>>();
 
+  // Who holds each client id: aedes gives a client id's session (subscriptions, queued commands)
+  // to whoever connects with it next and closes the connection holding it (3.1.1 §3.1.4-2), so a
+  // gateway connecting as another's client id would cut that gateway off or inherit its session.
+  // Kept while connected, and after a persistent session (clean = 0) for as long as aedes keeps it.
+  const clientIdHolders = new Map<string, { gateway: string; client: Client }>();
+
+  /** The other gateway that `clientId` belongs to, or null when `gw` may use it. */
+  async function clientIdTakenFrom(clientId: string, gw: string): Promise<string | null> {
+    // Our gateway CLI uses its own id; other clients (mosquitto_pub, mqtt.js) pick random ones.
+    if (clientId === gw) return null;
+    const held = clientIdHolders.get(clientId)?.gateway;
+    if (held !== undefined && held !== gw) return held;
+    const [row] = await getDb().select({ id: gateways.id }).from(gateways).where(eq(gateways.id, clientId)).limit(1);
+    return row ? row.id : null;
+  }
+
   // CONNECT: username = gateway id, password = its token (contract, "Transport").
   async function authenticate(client: Client, username: string | undefined, password: Buffer | undefined, done: (err: AuthenticateError | null, ok: boolean | null) => void) {
     const id = username ?? '';
     try {
       const ok = await verifyGatewayToken(id, password?.toString('utf8') ?? '');
+      if (ok && (await clientIdTakenFrom(client.id, id)) !== null) {
+        void ingest.writer.refused(id, `connect as client id ${client.id.slice(0, 80)}, another gateway's`);
+        // 3.1.1 §3.2.2.3: 2 = identifier rejected.
+        return done(authError(2, 'client id belongs to another gateway'), null);
+      }
       if (ok) {
+        clientIdHolders.set(client.id, { gateway: id, client });
+        // A clean session ends with its connection (registered or not); a newer connection may hold the id by now.
+        client.conn.once('close', () => {
+          if (client.clean && clientIdHolders.get(client.id)?.client === client) clientIdHolders.delete(client.id);
+        });
         gatewayOf.set(client, id);
         ingest.directory.remember(id, ok.benchId);
         return done(null, true);
