@@ -1,6 +1,8 @@
 // The live path end to end in one process: gateway (mqtt.js) → embedded broker → PostgreSQL →
 // WebSocket. Exactly-once storage, late bins and rollups, broker policy, status and resume.
 import { eq, sql } from 'drizzle-orm';
+import net from 'node:net';
+import mqttPacket from 'mqtt-packet';
 import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { topicFor } from '../../src/lib/contract/wire.ts';
@@ -9,6 +11,7 @@ import { getDb, getDbHandle } from '../../src/lib/server/db/index.ts';
 import { channels, countBatches, gatewayHealth, gateways, rollups } from '../../src/lib/server/db/schema.ts';
 import { BatchWriter } from '../../src/lib/server/ingest/store.ts';
 import { NEXT_PAGE_SQL } from '../../src/lib/server/live/resume.ts';
+import { maxPacketRemaining } from '../../src/lib/server/mqtt/broker.ts';
 import { revokeGateway } from '../../src/lib/server/provisioning.ts';
 import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
@@ -223,6 +226,35 @@ describe('broker policy', () => {
     expect(kicked).toBe(false);
     expect(real.connected).toBe(true);
     await real.endAsync();
+  });
+
+  it('closes a connection at a packet just over the size limit, counts it, and stores nothing', async () => {
+    const gw = await freshGateway();
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    const closed = new Promise<void>((r) => client.once('close', () => r()));
+    const topic = topicFor(gw.gatewayId, 'counts');
+    // Remaining length = topic length (2) + topic + packet id (2) + payload = the limit + 1.
+    const payload = Buffer.alloc(maxPacketRemaining('fringewise/v1') + 1 - 4 - topic.length, 0x20);
+    void client.publishAsync(topic, payload, { qos: 1 }).catch(() => undefined);
+    await closed;
+    client.end(true);
+    await until(async () => (await health(gw.gatewayId)).refused === 1, 5_000, 'refusal counted');
+    expect((await health(gw.gatewayId)).lastRejects).toEqual([expect.objectContaining({ reason: expect.stringMatching(/^refused: packet of \d+ bytes or more is over the \d+-byte limit/) })]);
+    expect((await rawSum(gw.gatewayId)).rows).toBe(0);
+  });
+
+  it('closes a connection announcing a 100 MB publish without waiting for its body', async () => {
+    const gw = await freshGateway();
+    const socket = net.connect(t.mqttPort, '127.0.0.1');
+    await new Promise<void>((r) => socket.once('connect', () => r()));
+    const connack = new Promise<void>((r) => socket.once('data', () => r()));
+    socket.write(mqttPacket.generate({ cmd: 'connect', protocolId: 'MQTT', protocolVersion: 4, clientId: gw.gatewayId, clean: true, keepalive: 30, username: gw.gatewayId, password: Buffer.from(gw.token) }));
+    await connack;
+    const closed = new Promise<void>((r) => socket.once('close', () => r()));
+    // PUBLISH QoS 1 with a remaining length of 100,663,296 bytes, then only its first kilobyte.
+    socket.write(Buffer.concat([Buffer.from([0x32, 0x80, 0x80, 0x80, 0x30]), Buffer.alloc(1024, 0x20)]));
+    await closed;
+    await until(async () => (await health(gw.gatewayId)).refused === 1, 5_000, 'refusal counted');
   });
 
   it('refuses publishing under another gateway id and stores nothing of it', async () => {

@@ -11,6 +11,8 @@ import { getDb } from '../db/index.ts';
 import { gateways } from '../db/schema.ts';
 import type { Ingest } from '../ingest/pipeline.ts';
 import { verifyGatewayToken } from '../provisioning.ts';
+import { MAX_PAYLOAD_BYTES } from '../../contract/wire.ts';
+import { PacketSizeGuard } from './packet-guard.ts';
 import { gatewayMayPublish, gatewayMaySubscribe } from './topic-policy.ts';
 import type { MqttTransport } from './transport.ts';
 import { listen } from '../listen.ts';
@@ -25,6 +27,15 @@ export interface EmbeddedBrokerOptions {
 
 function authError(returnCode: 2 | 3 | 4 | 5, message: string): AuthenticateError {
   return Object.assign(new Error(message), { returnCode }) as AuthenticateError;
+}
+
+/**
+ * The largest remaining length of any packet we accept: a PUBLISH of the contract's largest payload
+ * (256 KiB) on a gateway's longest topic (`{prefix}/{40-char gw}/status`), with the topic's 2-byte
+ * length and the QoS 1 packet id. Anything longer can only be refused, so it is never read whole.
+ */
+export function maxPacketRemaining(prefix: string): number {
+  return 2 + Buffer.byteLength(`${prefix}/${'g'.repeat(40)}/status`) + 2 + MAX_PAYLOAD_BYTES;
 }
 
 export async function startEmbeddedBroker(opts: EmbeddedBrokerOptions): Promise<MqttTransport> {
@@ -133,13 +144,37 @@ export async function startEmbeddedBroker(opts: EmbeddedBrokerOptions): Promise<
     if (gw) sessions.get(gw)?.delete(client);
   });
 
+  // Packet size: aedes 1.2 has no limit, and its parser (mqtt-packet) holds a packet whole before
+  // anyone sees it, so a 100 MB PUBLISH was buffered and only then refused. aedes takes its bytes
+  // with the socket's read() (paused mode, lib/client.js `nextBatch`; flowing mode calls it too), so
+  // wrapping that one method of our own socket shows the guard every byte aedes gets, in order and
+  // without a copy or another stream in the path. An oversize packet closes the connection at its
+  // header (the gateway re-sends what was not acknowledged) and counts against the gateway.
+  const maxRemaining = maxPacketRemaining(prefix);
+  function guardPacketSize(socket: net.Socket, client: () => Client | undefined) {
+    const guard = new PacketSizeGuard(maxRemaining);
+    const read = socket.read.bind(socket);
+    socket.read = (size?: number): unknown => {
+      const chunk: unknown = read(size);
+      const refusal = chunk instanceof Uint8Array ? guard.feed(chunk) : null;
+      if (refusal === null) return chunk;
+      const c = client();
+      const gw = c ? gatewayOf.get(c) : undefined;
+      if (gw) void ingest.writer.refused(gw, refusal);
+      socket.destroy();
+      return null;
+    };
+  }
+
   const sockets = new Set<net.Socket>();
   const server = net.createServer((socket) => {
     // Nagle's algorithm adds tens of ms to small MQTT packets (stack notes, TCP_NODELAY lesson).
     socket.setNoDelay(true);
     sockets.add(socket);
     socket.on('close', () => sockets.delete(socket));
-    broker.handle(socket);
+    let client: Client | undefined;
+    guardPacketSize(socket, () => client);
+    client = broker.handle(socket);
   });
   const port = await listen(server, opts.port, opts.host);
 
