@@ -6,7 +6,7 @@ import { getDb } from '../../src/lib/server/db/index.ts';
 import { auditLog, benches } from '../../src/lib/server/db/schema.ts';
 import { buildIfStale } from '../../src/server/build.ts';
 import { and, eq } from 'drizzle-orm';
-import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, type TestLive } from '../helpers/live-path.ts';
+import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
 
 let t: TestLive;
@@ -109,6 +109,39 @@ describe('POST /api/v1/benches/{id}/commands', () => {
     expect(await ws.next((m) => m.type === 'ack')).toEqual({ type: 'ack', bench: gw.benchId, gateway: gw.gatewayId, id, ok: false, error: 'out of scan range' });
     await client.endAsync();
     ws.ws.close();
+  });
+});
+
+describe('POST /api/v1/benches/{id}/commands: sweeps that cannot run, and offline gateways', () => {
+  const post = (bench: string, body: unknown) =>
+    fetch(`${t.baseUrl}/api/v1/benches/${bench}/commands`, { method: 'POST', headers: { authorization: `Bearer ${operator}`, 'content-type': 'application/json' }, body: JSON.stringify(body) });
+
+  it('refuses a sweep without a span, with too many steps, or running past a week, with the reason', async () => {
+    const gw = await freshGateway();
+    await getDb().update(benches).set({ driveMin: 0, driveMax: 50, driveMaxStep: 0.5, driveMinDwellMs: 1 }).where(eq(benches.id, gw.benchId));
+    const cases: [object, RegExp][] = [
+      [{ from: 12, to: 12, step: 0.1, dwell: 10, sweeps: 1 }, /needs a span/],
+      [{ from: 0, to: 40, step: 1e-7, dwell: 10, sweeps: 10_000 }, /400000000 steps .* at most 65536 per pass/],
+      [{ from: 0, to: 40, step: 0.001, dwell: 100, sweeps: 10_000 }, /days; at most 7 days/],
+    ];
+    for (const [body, reason] of cases) {
+      const res = await post(gw.benchId, { op: 'sweep', ...body });
+      expect(res.status, JSON.stringify(body)).toBe(422);
+      expect((await res.json()).error, JSON.stringify(body)).toMatch(reason);
+    }
+    // A downward sweep is a sweep.
+    expect((await post(gw.benchId, { op: 'sweep', from: 40, to: 0, step: 0.05, dwell: 20, sweeps: 1 })).status).toBe(202);
+  });
+
+  it('says whether the drive gateway is online, so a client knows no ack will come', async () => {
+    const gw = await freshGateway();
+    const offline = await post(gw.benchId, { op: 'stop' });
+    expect(offline.status).toBe(202);
+    expect(await offline.json()).toEqual({ id: expect.any(String), gateway: gw.gatewayId, gatewayOnline: false });
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    await client.publishAsync(topicFor(gw.gatewayId, 'status'), JSON.stringify({ v: 1, state: 'online', boot: 'b1', channels: ['a', 'b'] }), { qos: 1, retain: true });
+    await until(async () => ((await (await post(gw.benchId, { op: 'stop' })).json()) as { gatewayOnline: boolean }).gatewayOnline, 5_000, 'gateway online');
+    await client.endAsync();
   });
 });
 

@@ -47,7 +47,12 @@ export function SweepControl({ bench, lastSweep, onSweepStarted, drive }: Props)
     setBusy(true);
     setMessage(null);
     try {
-      await sendCommand(bench.id, cmd);
+      const sent = await sendCommand(bench.id, cmd);
+      if (!sent.gatewayOnline) {
+        // The broker keeps nothing for an offline gateway (clean sessions): the command is lost.
+        setMessage({ ok: false, text: `${what} not delivered: gateway ${sent.gateway} is offline. Send it again once it is back.` });
+        return;
+      }
       setMessage({ ok: true, text: `${what}: sent to the gateway.` });
       if (cmd.op === 'sweep') onSweepStarted();
     } catch (err) {

@@ -128,8 +128,8 @@ export async function fetchFigures(bench: string, signal?: AbortSignal): Promise
   return answer.figures;
 }
 
-export function sendCommand(bench: string, cmd: CommandBody): Promise<{ id: string }> {
-  return call(`/api/v1/benches/${encodeURIComponent(bench)}/commands`, z.object({ id: z.string() }), { method: 'POST', body: JSON.stringify(cmd) });
+export function sendCommand(bench: string, cmd: CommandBody): Promise<{ id: string; gateway: string; gatewayOnline: boolean }> {
+  return call(`/api/v1/benches/${encodeURIComponent(bench)}/commands`, z.object({ id: z.string(), gateway: z.string(), gatewayOnline: z.boolean() }), { method: 'POST', body: JSON.stringify(cmd) });
 }
 
 export function fetchRuns(bench: string, signal?: AbortSignal): Promise<RunView[]> {

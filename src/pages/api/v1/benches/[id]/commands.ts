@@ -3,10 +3,13 @@ import { dispatchCommand } from '../../../../../lib/server/commands/dispatch.ts'
 import { endpoint } from '../../../../../lib/server/http/endpoint.ts';
 import { json, parseOr422, readJson } from '../../../../../lib/server/http/responses.ts';
 
-/** A command body per the contract, without `v` and `id` → 202 `{ id }`; 422 outside the bench's drive limits. */
+/**
+ * A command body per the contract, without `v` and `id` → 202 `{ id, gateway, gatewayOnline }` (the
+ * contract's `{ id }` and two added fields: with `gatewayOnline: false` no ack will come); 422
+ * outside the bench's drive limits or for a sweep that cannot be run.
+ */
 export const POST = endpoint('operator', async ({ params, request, user }) => {
   const benchId = parseOr422(benchIdSchema, params['id']);
   const body = await readJson(request, commandBodySchema);
-  const { id } = await dispatchCommand(benchId, body, user.id);
-  return json({ id }, 202);
+  return json(await dispatchCommand(benchId, body, user.id), 202);
 });
