@@ -78,6 +78,15 @@ describe('GET /api/v1/benches/{id}/counts', () => {
     expect((await huge.json()).error).toMatch(/points/);
     expect((await get(`/api/v1/benches/${gw.benchId}/counts?from=0&to=1`, 'fwp_nope')).status).toBe(401);
   });
+
+  it('refuses a raw step that is not a multiple of the stored bin width', async () => {
+    for (const step of [15, 7, 5]) {
+      const res = await get(`/api/v1/benches/${gw.benchId}/counts?from=${BASE}&to=${BASE + 3000}&step=${step}`, observer);
+      expect(res.status, String(step)).toBe(422);
+      expect((await res.json()).error, String(step)).toMatch(new RegExp(`step ${step} ms is not a multiple of the stored bin width \\(10 ms`));
+    }
+    expect((await get(`/api/v1/benches/${gw.benchId}/counts?from=${BASE}&to=${BASE + 3000}&step=30`, observer)).status).toBe(200);
+  });
 });
 
 describe('POST /api/v1/benches/{id}/commands', () => {

@@ -2,7 +2,8 @@
 // serves the step exactly: 1 min rollups when the step is a multiple of a minute, 1 s rollups when
 // it is a multiple of a second, raw rows otherwise. Buckets are aligned to multiples of the step
 // since the epoch, so two queries with the same step always agree; a bin counts in the bucket
-// holding its start (exact when the step is a multiple of the bin width, as the contract asks).
+// holding its start, exact since a raw step must be a multiple of the bin width (the contract's
+// rule, refused with 422 otherwise).
 import { getDbHandle } from './db/index.ts';
 import { unpackRow } from './db/packed-counts.ts';
 import { benchChannels, type BenchChannel } from './benches.ts';
@@ -107,6 +108,10 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
         where c.t1 > $2`,
       [gatewayIds, t0, end],
     );
+    // Contract: `step` is a multiple of the stored bin width. Otherwise buckets hold unequal numbers
+    // of bins (step 15 on 10 ms bins: 2, 1, 2, … bins a bucket) or none (step 7: every third empty).
+    const misfit = rows.find((r) => step % r.dt !== 0);
+    if (misfit) throw new HttpError(422, `step ${step} ms is not a multiple of the stored bin width (${misfit.dt} ms from ${misfit.gateway_id}): use a multiple of ${misfit.dt} ms`);
     for (const r of rows.map(unpackRow)) {
       r.keys.forEach((key, k) => {
         const name = `${r.gateway_id}/${key}`;
