@@ -63,3 +63,10 @@ export const noteViewSchema: z.ZodType<NoteView> = z.object({
   author: z.object({ id: z.string(), name: z.string() }).nullable(),
   snapshot: benchFiguresSchema.nullable(),
 });
+
+/**
+ * `{ type: 'run', bench, run }` on /api/v1/live when a run starts or stops, and `{ type: 'note',
+ * bench, note }` when a note is added: everyone on the bench page follows the operator's record.
+ */
+export const runMessageSchema = z.object({ type: z.literal('run'), bench: z.string(), run: runViewSchema });
+export const noteMessageSchema = z.object({ type: z.literal('note'), bench: z.string(), note: noteViewSchema });

@@ -2,6 +2,7 @@
 // with a figures snapshot); observers read only.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { RunningApp } from '../../src/server/app.ts';
+import { openLive } from '../helpers/live-path.ts';
 import { startWebApp, userWithToken } from '../helpers/web-app.ts';
 
 let app: RunningApp;
@@ -47,6 +48,23 @@ describe('runs API', () => {
     expect((await call(op, `/api/v1/runs/${run.id}/notes`, { body: 'late' })).status).toBe(409);
     const list = (await (await call(obs, '/api/v1/benches/mz-633/runs')).json()) as { id: number; noteCount: number }[];
     expect(list.find((r) => r.id === run.id)?.noteCount).toBe(1);
+  });
+
+  it("pushes a run's start, its notes and its stop to everyone watching the bench", async () => {
+    const live = await openLive(app.url, 'mz-1550', obs);
+    try {
+      const run = (await (await call(op, '/api/v1/benches/mz-1550/runs', { title: 'Followed from afar' })).json()) as { id: number };
+      const started = (await live.next((m) => m.type === 'run')) as unknown as { run: { id: number; endMs: number | null; title: string } };
+      expect(started.run).toMatchObject({ id: run.id, endMs: null, title: 'Followed from afar' });
+      await call(op, `/api/v1/runs/${run.id}/notes`, { body: 'Seen live' });
+      const noted = (await live.next((m) => m.type === 'note')) as unknown as { note: { runId: number; body: string } };
+      expect(noted.note).toMatchObject({ runId: run.id, body: 'Seen live' });
+      await call(op, `/api/v1/runs/${run.id}/stop`, {});
+      const stopped = (await live.next((m) => m.type === 'run' && (m as unknown as { run: { endMs: number | null } }).run.endMs !== null)) as unknown as { run: { id: number } };
+      expect(stopped.run.id).toBe(run.id);
+    } finally {
+      live.ws.close();
+    }
   });
 
   it('lets operators keep a run from retention and release it, and shows the run page for both roles', async () => {

@@ -13,10 +13,11 @@ import { FringeCells } from '../../lib/client/fringe-cells.ts';
 import { RateRing } from '../../lib/client/rate-ring.ts';
 import { BACKFILL_CLOCK_SLACK_MS, backfillRates } from '../../lib/client/rates-backfill.ts';
 import type { CountsMessage } from '../../lib/live-messages.ts';
+import { noteMessageSchema, runMessageSchema } from '../../lib/runs.ts';
 import { FringeChart, type FringeHandle } from './FringeChart.tsx';
 import { RatesChart, type RatesHandle } from './RatesChart.tsx';
 import { PhotonStats, Readouts } from './Readouts.tsx';
-import { RunPanel } from './RunPanel.tsx';
+import { RunPanel, type RunPush } from './RunPanel.tsx';
 import { DriveStateLine } from './DriveStateLine.tsx';
 import { SweepControl } from './SweepControl.tsx';
 import { VisibilityTrend, type EnvelopePoint } from './VisibilityTrend.tsx';
@@ -53,6 +54,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
   const [envelope, setEnvelope] = useState<EnvelopePoint[]>([]);
   const [hasCc, setHasCc] = useState(false);
   const [alarms, setAlarms] = useState<AlarmEventView[]>(props.alarms);
+  const [runPush, setRunPush] = useState<RunPush | null>(null);
   const seenCounts = useRef(false);
   const drive = useMemo(() => new DriveTracker(), []);
 
@@ -93,6 +95,12 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
       } else if (msg.type === 'alarm') {
         const a = alarmMessageSchema.safeParse(msg);
         if (a.success) setAlarms((list) => applyAlarmMessage(list, a.data));
+      } else if (msg.type === 'run') {
+        const r = runMessageSchema.safeParse(msg);
+        if (r.success) setRunPush((p) => ({ seq: (p?.seq ?? 0) + 1, run: r.data.run }));
+      } else if (msg.type === 'note') {
+        const n = noteMessageSchema.safeParse(msg);
+        if (n.success) setRunPush((p) => ({ seq: (p?.seq ?? 0) + 1, note: n.data.note }));
       }
     },
     [],
@@ -194,7 +202,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
             <p className="figure mt-1 text-xs">limits {bench.drive.min}–{bench.drive.max} V · step ≤ {bench.drive.maxStep} V · dwell ≥ {bench.drive.minDwellMs} ms</p>
           </section>
         )}
-        <RunPanel benchId={bench.id} initialRun={bench.activeRun} canOperate={viewer.canOperate} figures={figures} />
+        <RunPanel benchId={bench.id} initialRun={bench.activeRun} canOperate={viewer.canOperate} figures={figures} pushed={runPush} />
       </div>
       <section id="alarms" className="card scroll-mt-4" aria-labelledby="alarms-h">
         <h2 id="alarms-h" className="mb-2 font-semibold">Alarms</h2>

@@ -7,14 +7,18 @@ import { formatClock, formatDuration, formatSnapshot } from '../../lib/client/fo
 import { useNow } from '../../lib/client/use-now.ts';
 import type { NoteView, RunView } from '../../lib/runs.ts';
 
+/** A run started or stopped, or a note added, as pushed to everyone on the bench page; `seq` orders them. */
+export type RunPush = { seq: number } & ({ run: RunView } | { note: NoteView });
+
 interface Props {
   benchId: string;
   initialRun: RunView | null;
   canOperate: boolean;
   figures: BenchFigures | null;
+  pushed: RunPush | null;
 }
 
-export function RunPanel({ benchId, initialRun, canOperate, figures }: Props) {
+export function RunPanel({ benchId, initialRun, canOperate, figures, pushed }: Props) {
   const [run, setRun] = useState<RunView | null>(initialRun);
   const [notes, setNotes] = useState<NoteView[] | null>(null);
   const [notesError, setNotesError] = useState<string | null>(null);
@@ -35,6 +39,19 @@ export function RunPanel({ benchId, initialRun, canOperate, figures }: Props) {
     fetchNotes(run.id, ctl.signal).then(setNotes, (err) => !ctl.signal.aborted && setNotesError(errorText(err)));
     return () => ctl.abort();
   }, [run?.id]);
+
+  // Another operator's run or note (and the echo of this page's own, which changes nothing).
+  useEffect(() => {
+    if (!pushed) return;
+    if ('run' in pushed) {
+      const r = pushed.run;
+      if (r.endMs === null) setRun(r);
+      else setRun((cur) => (cur?.id === r.id ? null : cur));
+    } else {
+      const note = pushed.note;
+      if (run?.id === note.runId) setNotes((list) => (list === null || list.some((n) => n.id === note.id) ? list : [...list, note]));
+    }
+  }, [pushed?.seq]);
 
   const act = async (fn: () => Promise<void>) => {
     setBusy(true);
@@ -62,7 +79,7 @@ export function RunPanel({ benchId, initialRun, canOperate, figures }: Props) {
     if (!run) return;
     void act(async () => {
       const note = await addNote(run.id, { body: text, snapshot: withSnapshot ? figures : null });
-      setNotes((n) => [...(n ?? []), note]);
+      setNotes((n) => (n?.some((x) => x.id === note.id) ? n : [...(n ?? []), note]));
       setText('');
     });
   };
@@ -109,7 +126,7 @@ export function RunPanel({ benchId, initialRun, canOperate, figures }: Props) {
               {notes.map((n) => (
                 <li key={n.id} className="border-l-2 border-accent pl-2">
                   <p className="text-xs text-muted"><span className="figure">{formatClock(n.atMs)}</span> · {n.author?.name ?? 'someone'}</p>
-                  <p className="whitespace-pre-wrap">{n.body}</p>
+                  <p className="whitespace-pre-wrap [overflow-wrap:anywhere]">{n.body}</p>
                   {n.snapshot && <p className="figure text-xs text-muted">{formatSnapshot(n.snapshot)}</p>}
                 </li>
               ))}

@@ -4,6 +4,7 @@ import { and, asc, count, desc, eq, inArray, isNull } from 'drizzle-orm';
 import { getDb } from './db/index.ts';
 import { benches, notes, runs, users } from './db/schema.ts';
 import { HttpError } from './http/responses.ts';
+import { runtime } from './runtime.ts';
 import { recordAudit } from './audit.ts';
 import type { AddNoteBody, NoteView, RunView, StartRunBody } from '../runs.ts';
 import { benchFiguresSchema } from '../bench-figures-schema.ts';
@@ -76,8 +77,9 @@ export async function startRun(benchId: string, body: StartRunBody, userId: stri
   if (!bench) throw new HttpError(404, `no bench "${benchId}"`);
   try {
     const [row] = await getDb().insert(runs).values({ benchId, title: body.title, startMs: now, startedBy: userId }).returning({ id: runs.id });
-    const run = await getRun(row!.id);
-    return run!;
+    const run = (await getRun(row!.id))!;
+    publishRun(run);
+    return run;
   } catch (err) {
     if (isUniqueViolation(err)) throw new HttpError(409, 'this bench already has an active run: stop it first');
     throw err;
@@ -103,7 +105,14 @@ export async function stopRun(id: number, now = Date.now()): Promise<RunView> {
     if (!run) throw new HttpError(404, `no run ${id}`);
     throw new HttpError(409, 'this run has already stopped');
   }
-  return (await getRun(id))!;
+  const run = (await getRun(id))!;
+  publishRun(run);
+  return run;
+}
+
+/** Pushes a run's start or stop to the bench's live clients when the hub runs in this process. */
+function publishRun(run: RunView): void {
+  runtime().live?.publish(run.benchId, { type: 'run', bench: run.benchId, run });
 }
 
 /** Marks a run to be spared by retention, or no longer; recorded in the audit trail. */
@@ -143,5 +152,7 @@ export async function addNote(runId: number, body: AddNoteBody, userId: string, 
     .values({ runId, authorId: userId, atMs: now, body: body.body, snapshot: body.snapshot ?? null })
     .returning({ id: notes.id });
   const all = await listNotes(runId);
-  return all.find((n) => n.id === row!.id)!;
+  const note = all.find((n) => n.id === row!.id)!;
+  runtime().live?.publish(run.benchId, { type: 'note', bench: run.benchId, note });
+  return note;
 }
