@@ -22,7 +22,7 @@ export const benchFiguresSchema: z.ZodType<BenchFigures> = z.object({
   at: num,
   windowMs: num,
   channels: z.array(channelFiguresSchema).max(64),
-  visibility: valueErr.extend({ source: z.enum(['sweep', 'envelope']), net: z.boolean() }).nullable(),
+  visibility: valueErr.extend({ source: z.enum(['sweep', 'envelope']), net: z.boolean(), latestPassMs: num.optional() }).nullable(),
   phase: valueErr.extend({ driftRadPerS: num.nullable() }).nullable(),
   contrast: num.nullable(),
   g2: valueErr.extend({ accidentals: num }).nullable(),

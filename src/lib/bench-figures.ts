@@ -28,8 +28,11 @@ export interface BenchFigures {
   at: number;
   windowMs: number;
   channels: ChannelFigures[];
-  /** Latest visibility: from the last fitted sweep, or an envelope estimate while only drifting. */
-  visibility: (ValueErr & { source: 'sweep' | 'envelope'; net: boolean }) | null;
+  /**
+   * Latest visibility: from the last fitted passes (`latestPassMs` the newest one's time, absent in
+   * older snapshots), or an envelope estimate while the phase drifts through whole fringes.
+   */
+  visibility: (ValueErr & { source: 'sweep' | 'envelope'; net: boolean; latestPassMs?: number | undefined }) | null;
   /** Phase at hold (rad) with drift rate (rad/s). */
   phase: (ValueErr & { driftRadPerS: number | null }) | null;
   /** (N_a − N_b)/(N_a + N_b) over the last second: the mid-fringe error signal is 0 at quadrature. */

@@ -36,6 +36,37 @@ describe('envelope visibility while the phase drifts', () => {
     expect(Math.sqrt(num / den) - 0.8).toBeGreaterThan(10 * e.err);
   });
 
+  it('warns when the phase drifted through only a slice of a fringe around mid-fringe', () => {
+    // A slow drift of ±0.6 rad about mid-fringe: half the bins on each side, yet the spread of the
+    // outputs is the slice's (two outputs ∝ 1 ± V cos θ, common practice), far below V = 0.9.
+    const rng = mulberry32(22);
+    const n = 1_000;
+    const a = new Float64Array(n);
+    const b = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const theta = Math.PI / 2 - 0.6 + (1.2 * i) / n;
+      a[i] = poisson(rng, 500 * (1 + 0.9 * Math.cos(theta)));
+      b[i] = poisson(rng, 500 * (1 - 0.9 * Math.cos(theta)));
+    }
+    const e = envelopeVisibility(a, b, { efficiencyRatio: 1 });
+    expect(e!.value).toBeLessThan(0.5);
+    expect(e!.warnings).toHaveLength(1);
+    expect(e!.warnings[0]).toMatch(/whole fringe/);
+  });
+
+  it('takes a window whose phase drifted just over one fringe, at high counts', () => {
+    const rng = mulberry32(23);
+    const n = 1_000;
+    const a = new Float64Array(n);
+    const b = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const theta = 0.3 + (2.2 * Math.PI * i) / n;
+      a[i] = poisson(rng, 500 * (1 + 0.9 * Math.cos(theta)));
+      b[i] = poisson(rng, 500 * (1 - 0.9 * Math.cos(theta)));
+    }
+    expect(envelopeVisibility(a, b, { efficiencyRatio: 1 })?.warnings).toEqual([]);
+  });
+
   it('warns when the window did not sample the fringe evenly', () => {
     const a = new Float64Array(100).fill(90);
     const b = new Float64Array(100).fill(10);

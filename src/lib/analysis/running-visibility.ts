@@ -50,6 +50,50 @@ export interface EnvelopeEstimate extends Measured {
 /** A window whose balance lies outside this band did not sample the fringe evenly. */
 const BALANCE_BAND = [0.25, 0.75] as const;
 
+/** Photons per smoothed point of the coverage check: enough that shot noise does not fake a turn. */
+const COVERAGE_PHOTONS = 200;
+
+/**
+ * Whether the phase passed through a whole fringe inside the window: the normalised difference,
+ * smoothed, must go from one extreme of its range to the other and back. A window that saw only a
+ * slice of a fringe (a slow drift through mid-fringe) does not, and its spread is the slice's, not
+ * the fringe's: the envelope would read V far too low, and balance alone (half the bins on each
+ * side) does not catch it.
+ */
+function turnsThroughFringe(diff: Float64Array, sum: Float64Array): boolean {
+  const n = diff.length;
+  let photons = 0;
+  for (let i = 0; i < n; i++) photons += sum[i] as number;
+  const k = Math.max(1, Math.min(Math.floor(n / 20), Math.ceil((COVERAGE_PHOTONS * n) / Math.max(photons, 1))));
+  const d: number[] = [];
+  for (let i = 0; i + k <= n; i += k) {
+    let sd = 0;
+    let ss = 0;
+    for (let j = i; j < i + k; j++) {
+      sd += diff[j] as number;
+      ss += sum[j] as number;
+    }
+    if (ss > 0) d.push(sd / ss);
+  }
+  if (d.length < 5) return false;
+  const hi = Math.max(...d);
+  const lo = Math.min(...d);
+  const band = (hi - lo) / 4;
+  // The order in which the smoothed difference visits its top and bottom quarters, repeats
+  // merged: top → bottom → top (or the reverse) is a whole fringe for a drift in one direction.
+  // A slice of a fringe gives at most bottom → top. Noise at a quarter's edge only repeats a letter.
+  let visits = 0;
+  let last: 'top' | 'bottom' | null = null;
+  for (const v of d) {
+    const at = v >= hi - band ? 'top' : v <= lo + band ? 'bottom' : null;
+    if (at && at !== last) {
+      visits++;
+      last = at;
+    }
+  }
+  return visits >= 3;
+}
+
 /**
  * Visibility from the spread of the two outputs while the phase drifts over the window, without a
  * fit. With x = n_a − d_a, y = (n_b − d_b)/η, Δ = x − y and S = x + y, a uniformly sampled phase gives
@@ -64,6 +108,8 @@ export function envelopeVisibility(countsA: ArrayLike<number>, countsB: ArrayLik
   const eta = cal.efficiencyRatio;
   const num = new Float64Array(n);
   const den = new Float64Array(n);
+  const diff = new Float64Array(n);
+  const total = new Float64Array(n);
   let sNum = 0;
   let sDen = 0;
   let above = 0;
@@ -75,6 +121,8 @@ export function envelopeVisibility(countsA: ArrayLike<number>, countsB: ArrayLik
     const w = a + b / (eta * eta);
     num[i] = 2 * ((x - y) ** 2 - w);
     den[i] = (x + y) ** 2 - w;
+    diff[i] = x - y;
+    total[i] = x + y;
     sNum += num[i] as number;
     sDen += den[i] as number;
     if (x > y) above++;
@@ -88,6 +136,7 @@ export function envelopeVisibility(countsA: ArrayLike<number>, countsB: ArrayLik
   const balance = above / n;
   const warnings: string[] = [];
   if (balance < BALANCE_BAND[0] || balance > BALANCE_BAND[1]) warnings.push('the phase did not sample the fringe evenly in this window: the envelope estimate is biased');
+  else if (!turnsThroughFringe(diff, total)) warnings.push('the phase did not pass through a whole fringe in this window: the envelope would read V too low');
   // At V = 0 the delta method fails; quote the V whose square is one σ of V² instead.
   const err = value > 0 ? Math.sqrt(varR) / (2 * value) : Math.sqrt(Math.sqrt(varR));
   return { value, err, bins: n, balance, warnings };

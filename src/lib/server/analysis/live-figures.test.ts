@@ -81,13 +81,14 @@ describe('computeFigures', () => {
     expect(figures.alpha).toBeNull();
   });
 
-  it('prefers fresh sweep fits, ignores fits older than two minutes, and reads the phase at hold with them', () => {
+  it('prefers fits of the last half hour, says when the newest was, and reads the phase at hold with them', () => {
     // A phase that never moves shows no fringe envelope: without a fresh fit there is no visibility.
     expect(figures.visibility).toBeNull();
-    const stale = computeFigures(input([{ timeMs: end - 200_000, value: 0.9, err: 0.01, net: false }])).figures;
+    const stale = computeFigures(input([{ timeMs: end - 31 * 60_000, value: 0.9, err: 0.01, net: false }])).figures;
     expect(stale.visibility).toBeNull();
-    const fresh = computeFigures(input([{ timeMs: end - 10_000, value: 0.9, err: 0.01, net: false }])).figures;
-    expect(fresh.visibility).toMatchObject({ source: 'sweep', value: 0.9 });
+    // A sweep, then a hold at mid-fringe for several minutes: the phase still reads.
+    const fresh = computeFigures(input([{ timeMs: end - 5 * 60_000, value: 0.9, err: 0.01, net: false }])).figures;
+    expect(fresh.visibility).toMatchObject({ source: 'sweep', value: 0.9, latestPassMs: end - 5 * 60_000 });
     // Two outputs ∝ 1 ± V cos θ (common practice): over the last second, dark counts taken off a,
     // cos θ = (N_a − D_a − N_b)/(V (N_a − D_a + N_b)).
     const [na, nb, darkA] = [A * BINS, B * BINS, 100];

@@ -28,8 +28,12 @@ export interface FiguresInput {
   phaseHistory: { t: number; theta: number }[];
 }
 
-/** A sweep fit older than this no longer stands for the current visibility, ms. */
-const SWEEP_FRESH_MS = 120_000;
+/**
+ * A sweep fit older than this no longer stands for the current visibility, ms. Long enough for the
+ * usual sweep, hold at mid-fringe, read the phase and its noise: alignment drifts over hours, and
+ * the figure says how old its newest pass is.
+ */
+const SWEEP_FRESH_MS = 30 * 60_000;
 /** Phase is read over the last second while the drive holds still, ms. */
 const PHASE_WINDOW_MS = 1_000;
 
@@ -91,7 +95,7 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
   // darks, and a calibration set or cleared in between leaves both kinds in the window.
   const newest = fresh.reduce<SweepPoint | null>((a, p) => (!a || p.timeMs >= a.timeMs ? p : a), null);
   const fitted = newest ? finite(runningVisibility(fresh.filter((p) => p.net === newest.net))) : null;
-  if (fitted && newest) visibility = { value: fitted.value, err: fitted.err, source: 'sweep', net: newest.net };
+  if (fitted && newest) visibility = { value: fitted.value, err: fitted.err, source: 'sweep', net: newest.net, latestPassMs: newest.timeMs };
   const sa = outA ? recent.series(outA.gateway, outA.key, windowMs, to) : null;
   const sb = outB ? recent.series(outB.gateway, outB.key, windowMs, to) : null;
   const scan = outA ? recent.scan(outA.gateway, PHASE_WINDOW_MS, to) : null;
