@@ -97,6 +97,12 @@ describe('ids that cannot be a bench\'s or a gateway\'s', () => {
         expect(res.status, path).toBe(404);
       }
     }
+    // A well-formed id that names nothing gets the app's not-found page, with its way back.
+    for (const path of ['/benches/no-such-bench', '/runs/999999999', `/benches/${BENCH}/gateways/no-such-gw`, '/admin/benches/no-such-bench']) {
+      const res = await api(admin, path);
+      expect(res.status, path).toBe(404);
+      expect(await res.text(), path).toMatch(/Nothing here[\s\S]*Back to the lab overview/);
+    }
   });
 });
 
