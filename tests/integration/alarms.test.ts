@@ -127,7 +127,7 @@ describe('alarm evaluation on ingest', () => {
     expect(mail.subject).toContain(`Alarm bench ${tag}`);
     // Raise and clear arrived within the gather window: one mail holding both.
     expect(mail.text).toContain(`${GW}/a`);
-    expect(mail.text).toContain('1500000');
+    expect(mail.text).toContain('1.50 Mc/s');
 
     const acked = await acknowledge(BENCH, raised[0]!.id, operatorId, 'Closed the shutter, lowered the pump');
     expect(acked.ackComment).toBe('Closed the shutter, lowered the pump');

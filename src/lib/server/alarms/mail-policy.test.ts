@@ -27,8 +27,9 @@ describe('alarm mail policy', () => {
     expect(mail!.to).toEqual(['night@lab.example']);
     expect(mail!.subject).toContain('CRITICAL raised');
     expect(mail!.subject).toContain('Detector A overexposed');
-    expect(mail!.text).toContain('2500000 counts/s');
-    expect(mail!.text).toContain('Raises above 2000000 counts/s, clears below 1500000 counts/s');
+    expect(mail!.text).toContain('2.50 Mc/s');
+    expect(mail!.text).toContain('Raises above 2.00 Mc/s, clears below 1.50 Mc/s');
+    expect(mail!.text).toContain('at 1970-01-01 00:00:00 UTC');
   });
 
   it('folds a flapping rule into one digest per quiet period', () => {

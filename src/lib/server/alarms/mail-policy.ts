@@ -8,6 +8,7 @@
 // the engine can keep it in the database and a restart loses no digest.
 import { z } from 'zod';
 import { ALARM_METRICS, METRIC_INFO, SEVERITIES, type AlarmMetric, type Severity } from '../../alarm-messages.ts';
+import { formatRate } from '../../client/format.ts';
 
 const SEVERITY_ORDER: readonly Severity[] = SEVERITIES;
 
@@ -153,8 +154,15 @@ export class MailPolicy {
 function fmtValue(metric: AlarmMetric, v: number | null): string {
   if (v === null) return '—';
   const unit = METRIC_INFO[metric].unit;
+  // Rates as on every screen (c/s, kc/s, Mc/s), so a mail and the bench page read alike.
+  if (unit === 'counts/s') return formatRate(v);
   const digits = Math.abs(v) >= 100 ? 0 : Math.abs(v) >= 1 ? 2 : 4;
   return `${v.toFixed(digits)}${unit ? ' ' + unit : ''}`;
+}
+
+/** A mail's times: in UTC and said so, since its readers sit in any time zone. */
+function when(ms: number): string {
+  return new Date(ms).toISOString().replace('T', ' ').slice(0, 19) + ' UTC';
 }
 
 function about(item: MailItem): string {
@@ -170,7 +178,7 @@ function describe(item: MailItem): string[] {
     `Rule:      ${item.ruleName}${about(item)}`,
     `Metric:    ${info.label}`,
     `Severity:  ${item.severity}`,
-    `Change:    ${item.change} at ${new Date(item.at).toISOString()}`,
+    `Change:    ${item.change} at ${when(item.at)}`,
     `Value:     ${fmtValue(item.metric, item.value)}`,
     `Raises ${word} ${fmtValue(item.metric, item.threshold)}, clears ${back} ${fmtValue(item.metric, item.clearThreshold)}.`,
   ];
@@ -192,7 +200,7 @@ export function formatDigest(items: MailItem[], quietMs = DEFAULT_QUIET_MS, more
   const rules = [...new Set(sorted.map((i) => i.ruleName))];
   const named = rules.slice(0, 3).join(', ') + (rules.length > 3 ? ` and ${rules.length - 3} more` : '');
   const lines = sorted.map(
-    (i) => `${new Date(i.at).toISOString()}  ${i.change.padEnd(7)}  ${i.severity.padEnd(8)}  ${i.benchName} — ${i.ruleName}${about(i)}: ${fmtValue(i.metric, i.value)}`,
+    (i) => `${when(i.at)}  ${i.change.padEnd(7)}  ${i.severity.padEnd(8)}  ${i.benchName} — ${i.ruleName}${about(i)}: ${fmtValue(i.metric, i.value)}`,
   );
   return {
     subject: `[Fringewise] ${worst.toUpperCase()} digest: ${sorted.length + more} alarm changes (${raised}${more ? ' listed' : ''} raised) - ${named} on ${benches}`,
