@@ -37,7 +37,7 @@ export interface BenchFigures {
   phase: (ValueErr & { driftRadPerS: number | null }) | null;
   /** (N_a − N_b)/(N_a + N_b) over the last second: the mid-fringe error signal is 0 at quadrature. */
   contrast: number | null;
-  /** g2(0) from coincidences, accidentals subtracted. */
+  /** g2(0) = N_c/N_acc: the coincidences divided by the accidentals uncorrelated light would give (summed bin by bin), not background-subtracted. */
   g2: (ValueErr & { accidentals: number }) | null;
   /** Heralded anticorrelation parameter α. */
   alpha: ValueErr | null;

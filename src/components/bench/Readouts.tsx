@@ -105,7 +105,7 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
           {/* A heralded bench is judged by α: its g²(0) without the herald only says "waiting". */}
           {(f.g2 || !f.alpha) && (
             <>
-              <dt className="text-muted">g²(0), accidentals subtracted</dt>
+              <dt className="text-muted">g²(0), coincidences over accidentals</dt>
               {/* An uncertainty of 1 or more cannot tell a single-photon source (g² ≈ 0) from a classical one (g² ≥ 1): too few counts to say anything yet. */}
               <dd className="figure text-right" title={f.g2 ? formatValueErr(f.g2) : undefined}>
                 {f.g2 ? (f.g2.err >= 1 ? 'too few coincidences' : formatValueErr(f.g2)) : props.hasCoincidences ? 'waiting' : 'no coincidences'}
