@@ -3,11 +3,13 @@
 // gateway also drops its live MQTT session (provisioning.ts asks the broker to).
 import { and, asc, eq } from 'drizzle-orm';
 import { z } from 'zod';
+import { coincidenceWindowSchema } from '../coincidence-window.ts';
 import { benchIdSchema, channelKeySchema, gatewayIdSchema, statusSchema } from '../contract/wire.ts';
 import { pickDriveGateway } from './commands/dispatch.ts';
 import { getDb } from './db/index.ts';
 import { benches, channels, gateways, type Bench, type Channel, type Gateway } from './db/schema.ts';
 import { recordAudit } from './audit.ts';
+import { serverEvents } from './events.ts';
 import type { SessionUser } from './auth/lucia.ts';
 import { HttpError } from './http/responses.ts';
 import { createBench, createGateway, revokeGateway, rotateGatewayToken, type BenchInput } from './provisioning.ts';
@@ -68,7 +70,7 @@ export async function createBenchAudited(actor: SessionUser, input: BenchInput):
 }
 
 async function patchBench(actor: SessionUser, id: string, action: string, patch: Partial<Bench>): Promise<Bench> {
-  return await getDb().transaction(async (tx) => {
+  const saved = await getDb().transaction(async (tx) => {
     const [before] = await tx.select().from(benches).where(eq(benches.id, id)).for('update');
     if (!before) throw new HttpError(404, `bench ${id} does not exist`);
     const [after] = await tx.update(benches).set(patch).where(eq(benches.id, id)).returning();
@@ -76,6 +78,9 @@ async function patchBench(actor: SessionUser, id: string, action: string, patch:
     await recordAudit({ actorId: actor.id, entity: 'bench', entityId: id, action, before: benchSnapshot(before), after: benchSnapshot(after) }, tx);
     return after;
   });
+  // After the commit, so whoever reloads reads the new row.
+  serverEvents().emit('bench-settings-changed', { benchId: id });
+  return saved;
 }
 
 export async function updateBenchDetails(actor: SessionUser, id: string, input: unknown): Promise<Bench> {
@@ -84,6 +89,11 @@ export async function updateBenchDetails(actor: SessionUser, id: string, input: 
 
 export async function updateDriveLimits(actor: SessionUser, id: string, input: unknown): Promise<Bench> {
   return await patchBench(actor, id, 'update_drive_limits', driveLimitsSchema.parse(input));
+}
+
+/** The live analysis takes the new window from its next figures on (the change event drops its cached settings). */
+export async function updateCoincidenceWindow(actor: SessionUser, id: string, input: unknown): Promise<Bench> {
+  return await patchBench(actor, id, 'update_coincidence_window', coincidenceWindowSchema.parse(input));
 }
 
 export interface BenchAdminView {
@@ -112,7 +122,7 @@ export async function benchAdminView(id: string): Promise<BenchAdminView> {
 
 export async function updateChannel(actor: SessionUser, benchId: string, input: unknown): Promise<Channel> {
   const { gatewayId, key, ...patch } = channelSettingsSchema.parse(input);
-  return await getDb().transaction(async (tx) => {
+  const updated = await getDb().transaction(async (tx) => {
     const where = and(eq(channels.gatewayId, gatewayId), eq(channels.key, key), eq(channels.benchId, benchId));
     const [before] = await tx.select().from(channels).where(where).for('update');
     if (!before) throw new HttpError(404, `channel ${gatewayId}/${key} is not on bench ${benchId}`);
@@ -123,6 +133,9 @@ export async function updateChannel(actor: SessionUser, benchId: string, input: 
     await recordAudit({ actorId: actor.id, entity: 'channel', entityId: `${gatewayId}/${key}`, action: 'update', before: b, after: a }, tx);
     return after;
   });
+  // After the commit, as for the bench's own settings.
+  serverEvents().emit('bench-settings-changed', { benchId });
+  return updated;
 }
 
 export async function provisionGateway(actor: SessionUser, benchId: string, gatewayId: string): Promise<{ token: string }> {

@@ -1,5 +1,5 @@
-// In-process bus between server stages: ingest announces what it stored, and the fitter and the
-// alarm evaluator listen (the WebSocket hub has its own fan-out, ingest/fanout.ts). On globalThis
+// In-process bus between server stages: ingest announces what it stored, the admin pages what they
+// changed, and the fitter and the alarm evaluator listen (the WebSocket hub has its own fan-out, ingest/fanout.ts). On globalThis
 // so both module copies share one bus.
 import { EventEmitter } from 'node:events';
 import type { CountBatch, GatewayStatus } from '../contract/wire.ts';
@@ -12,6 +12,8 @@ export interface ServerEvents {
   'gateway-status': [{ benchId: string; gatewayId: string; status: GatewayStatus; at: number }];
   /** A sweep was fitted and stored (table `sweeps`). */
   'sweep-fitted': [{ benchId: string; sweep: FittedSweepSummary }];
+  /** An admin changed a bench's settings or a channel's (committed): cached copies are stale. */
+  'bench-settings-changed': [{ benchId: string }];
   /** The phase estimate at hold was updated (rad, rad/s). */
   'phase-update': [{ benchId: string; at: number; phase: number; driftRadPerS: number | null }];
 }

@@ -4,6 +4,7 @@
 import { eq } from 'drizzle-orm';
 import type { FringeFitOptions, FringeFitResult } from '../../analysis/fringe-fit.ts';
 import type { BenchFigures } from '../../bench-figures.ts';
+import { DEFAULT_COINCIDENCE_WINDOW_NS } from '../../coincidence-window.ts';
 import type { CountBatch } from '../../contract/wire.ts';
 import { shownVisibility } from '../../sweep-visibility.ts';
 import { benchCalibrations } from '../benches.ts';
@@ -32,7 +33,11 @@ interface BenchState {
   fitting: Promise<void>;
 }
 
-/** Channel settings are re-read this often, ms, so an admin's edits take effect without a restart. */
+/**
+ * Bench and channel settings are re-read this often, ms, and at once when the admin pages announce
+ * a change ('bench-settings-changed'); the period covers changes made outside them (SQL, a second
+ * instance).
+ */
 const SETTINGS_TTL_MS = 10_000;
 /** Figures are recomputed this often per active bench, ms. */
 const FIGURES_EVERY_MS = 1_000;
@@ -64,7 +69,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     if (s.settings && Date.now() - s.settings.loadedAt < SETTINGS_TTL_MS) return s.settings;
     const [bench] = await getDb().select({ cw: benches.coincidenceWindowNs }).from(benches).where(eq(benches.id, benchId)).limit(1);
     const channels = await benchCalibrations(benchId);
-    s.settings = { channels, coincidenceWindowNs: bench?.cw ?? 2, loadedAt: Date.now() };
+    s.settings = { channels, coincidenceWindowNs: bench?.cw ?? DEFAULT_COINCIDENCE_WINDOW_NS, loadedAt: Date.now() };
     return s.settings;
   }
 
@@ -152,6 +157,15 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
   };
   serverEvents().on('batch-stored', onBatch);
 
+  // Reloaded on the tracking chain, so the reload cannot race a batch's own (older) read.
+  const onSettingsChanged = ({ benchId }: { benchId: string }) => {
+    const s = states.get(benchId);
+    if (!s) return;
+    if (s.settings) s.settings.loadedAt = -Infinity;
+    s.tracking = s.tracking.then(() => settingsFor(benchId, s)).then(() => undefined, (err: unknown) => console.warn('[analysis]', err instanceof Error ? err.message : err));
+  };
+  serverEvents().on('bench-settings-changed', onSettingsChanged);
+
   const timer = setInterval(() => {
     const now = Date.now();
     for (const [benchId, s] of states) {
@@ -193,6 +207,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     close: () => {
       clearInterval(timer);
       serverEvents().off('batch-stored', onBatch);
+      serverEvents().off('bench-settings-changed', onSettingsChanged);
     },
   };
 }
