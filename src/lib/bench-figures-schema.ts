@@ -26,6 +26,7 @@ export const benchFiguresSchema: z.ZodType<BenchFigures> = z.object({
   phase: valueErr.extend({ driftRadPerS: num.nullable() }).nullable(),
   contrast: num.nullable(),
   g2: valueErr.extend({ accidentals: num }).nullable(),
+  coincidenceWindowNs: num.positive().optional(),
   alpha: valueErr.nullable(),
   shotNoise: z.object({ measuredRad: num, limitRad: num, ratio: num, dB: num, binMs: num.optional(), visibilityLimitRad: num.optional() }).nullable(),
 });

@@ -39,6 +39,8 @@ export interface BenchFigures {
   contrast: number | null;
   /** g2(0) = N_c/N_acc: the coincidences divided by the accidentals uncorrelated light would give (summed bin by bin), not background-subtracted. */
   g2: (ValueErr & { accidentals: number }) | null;
+  /** The full coincidence window g2(0)'s accidentals were computed with, ns (the bench's setting; older snapshots lack it). */
+  coincidenceWindowNs?: number | undefined;
   /** Heralded anticorrelation parameter α. */
   alpha: ValueErr | null;
   /** Measured phase noise per bin beside the shot-noise limit. */

@@ -1,6 +1,7 @@
 // Large readouts an operator reads from across the bench: both output rates (raw and corrected),
 // V ± σ, phase, contrast and the phase noise against the shot-noise limit.
 import type { BenchFigures, ChannelFigures } from '../../lib/bench-figures.ts';
+import { formatWindow } from '../../lib/coincidence-window.ts';
 import { formatNumber, formatRateErr, formatValueErr, PLUS_MINUS, rateParts } from '../../lib/client/format.ts';
 
 /** A number read from across the bench: the value large, its unit and uncertainty smaller beside it, never wrapping. */
@@ -105,7 +106,11 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
           {/* A heralded bench is judged by α: its g²(0) without the herald only says "waiting". */}
           {(f.g2 || !f.alpha) && (
             <>
-              <dt className="text-muted">g²(0), coincidences over accidentals</dt>
+              <dt className="text-muted">
+                g²(0), coincidences over accidentals
+                {/* The accidentals scale with the window: say which one this value assumed. */}
+                {f.coincidenceWindowNs !== undefined && <span className="figure ml-1.5 text-xs" data-testid="coincidence-window">{formatWindow(f.coincidenceWindowNs)}</span>}
+              </dt>
               {/* An uncertainty of 1 or more cannot tell a single-photon source (g² ≈ 0) from a classical one (g² ≥ 1): too few counts to say anything yet. */}
               <dd className="figure text-right" title={f.g2 ? formatValueErr(f.g2) : undefined}>
                 {f.g2 ? (f.g2.err >= 1 ? 'too few coincidences' : formatValueErr(f.g2)) : props.hasCoincidences ? 'waiting' : 'no coincidences'}

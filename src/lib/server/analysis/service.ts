@@ -195,8 +195,9 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
       } else {
         s.phaseHistory.length = 0;
       }
-      s.figures = figures;
-      opts.publish(benchId, { type: 'figures', bench: benchId, figures });
+      // Said beside g2(0), so a reader can tell which window its accidentals assumed.
+      s.figures = { ...figures, coincidenceWindowNs: s.settings.coincidenceWindowNs };
+      opts.publish(benchId, { type: 'figures', bench: benchId, figures: s.figures });
     }
   }, FIGURES_EVERY_MS);
   timer.unref();
