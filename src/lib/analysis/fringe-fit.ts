@@ -4,6 +4,7 @@
 // Fisher-scoring Hessian with analytic derivatives. d_a, d_b are known dark counts per bin: fitted
 // together with A, B and V the model would be degenerate.
 import { fft } from './fft.ts';
+import { FIT_WARNING } from './fit-warnings.ts';
 import { inverseSymmetric, solveSymmetric } from './linear-algebra.ts';
 import type { Measured } from './measured.ts';
 import { chiSquareSf } from './special-functions.ts';
@@ -717,7 +718,7 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   const shownProblem = calibrated ? net : raw;
   const fit = fitProblem(shownProblem, starts(shownProblem, fMin, fMax, A0, B0), quadratic);
   const warnings: string[] = [];
-  if (!fit.min.converged) warnings.push('the fit did not converge within the iteration limit');
+  if (!fit.min.converged) warnings.push(FIT_WARNING.notConverged);
   if (!fit.cov) return { ok: false, reason: 'the Fisher information is singular: the data do not constrain the fringe' };
 
   // The raw fit starts from the net one: the same fringe with the dark counts folded into A and B.
@@ -733,7 +734,7 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   const method = options.interval ?? 'auto';
   const visibility = visibilityEstimate(raw, rawFit, method, sumA + sumB);
   const visibilityNet = calibrated ? visibilityEstimate(net, fit, method, netTotal) : null;
-  if ((calibrated ? (visibilityNet as VisibilityEstimate) : visibility).value >= 1) warnings.push('visibility at its physical bound 1: the interval is one-sided');
+  if ((calibrated ? (visibilityNet as VisibilityEstimate) : visibility).value >= 1) warnings.push(FIT_WARNING.atBound);
 
   const { values, jac } = physical(fit.min.p, sc);
   const cov = new Float64Array(NP * NP);
@@ -754,7 +755,7 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   const dev = deviance(shownProblem, fit.min.p);
   const dof = 2 * len - fit.free.length;
   const fringeDeltaCash = flatCash(shownProblem) - fit.min.cost;
-  if (fringeDeltaCash < FRINGE_DETECTION_DELTA_C) warnings.push('no significant fringe: the outputs are consistent with flat counts');
+  if (fringeDeltaCash < FRINGE_DETECTION_DELTA_C) warnings.push(FIT_WARNING.noFringe);
   const phase = measuredAt(values, cov, 4);
   return {
     ok: true,
