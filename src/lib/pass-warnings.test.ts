@@ -15,9 +15,9 @@ describe('pass warnings', () => {
   });
 
   it('shortens known warnings and cuts others at the colon', () => {
-    expect(shortWarning(FIT_WARNING.notConverged)).toBe('fit did not converge');
+    expect(shortWarning(FIT_WARNING.notConverged)).toBe('fit not converged');
     expect(shortWarning('drive reversed early: pass shortened')).toBe('drive reversed early');
-    expect(warningsLine(passWarnings({ warnings: [FIT_WARNING.noFringe, FIT_WARNING.notConverged] }))).toBe('no significant fringe · fit did not converge');
+    expect(warningsLine(passWarnings({ warnings: [FIT_WARNING.noFringe, FIT_WARNING.notConverged] }))).toBe('no significant fringe · fit not converged');
   });
 
   it('recognises the fitter’s own no-fringe warning on flat counts', () => {

@@ -15,7 +15,7 @@ const storedWarnings = z.object({ warnings: z.array(z.string().max(500)).max(20)
 
 const SHORT: Record<string, string> = {
   [FIT_WARNING.noFringe]: 'no significant fringe',
-  [FIT_WARNING.notConverged]: 'fit did not converge',
+  [FIT_WARNING.notConverged]: 'fit not converged',
   [FIT_WARNING.atBound]: 'V at its bound 1',
 };
 
