@@ -1,7 +1,9 @@
 // The fitted sweeps of a history range: each pass's visibility with its ±1σ whisker on the same time
 // axis as the count rates above, up and down passes apart (they differ by the piezo's hysteresis),
 // and a summary per direction an operator can quote: how many, mean V and its scatter, the piezo
-// calibration.
+// calibration, how many carry fit warnings; then the passes with warnings, one line each. A pass
+// without a significant fringe is drawn apart, muted and without a whisker, and left out of the
+// mean V and the median fit error: its V ± σ measures no fringe.
 import { useEffect, useMemo, useRef, useState } from 'react';
 import type uPlot from 'uplot';
 import { fetchSweeps, sweepFit, type Sweep } from '../../lib/client/api.ts';
@@ -9,11 +11,15 @@ import { useFetched } from '../../lib/client/use-fetched.ts';
 import { shownVisibility, visibilityBasis } from '../../lib/sweep-visibility.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
 import { formatClock, formatNumber, formatValueErr, PLUS_MINUS } from '../../lib/client/format.ts';
+import { FIT_WARNING } from '../../lib/analysis/fit-warnings.ts';
+import { passWarnings, warningsLine } from '../../lib/pass-warnings.ts';
 import { ChartState } from '../charts/ChartState.tsx';
 import { errorBars } from '../charts/error-bars.ts';
 import { axis, timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
 
 const HEIGHT = 220;
+/** Passes with warnings listed under the table; the rest are counted. */
+const FLAGGED_LISTED = 8;
 
 interface Props {
   benchId: string;
@@ -30,6 +36,8 @@ interface Summary {
   medianErr: number | null;
   piezo: { value: number; err: number } | null;
   medianP: number | null;
+  /** Passes whose fit carries a warning. */
+  flagged: number;
 }
 
 function meanSd(xs: number[]): { value: number; err: number } | null {
@@ -57,27 +65,32 @@ function median(xs: number[]): number | null {
 
 function summarise(label: string, list: Sweep[]): Summary {
   const fits = list.map(sweepFit);
+  const fringes = list.filter((s) => !passWarnings(s.fit).noFringe);
   return {
     label,
     n: list.length,
-    v: meanSd(list.map((s) => shownVisibility(s).value)),
-    medianErr: median(list.map((s) => shownVisibility(s).err)),
+    v: meanSd(fringes.map((s) => shownVisibility(s).value)),
+    medianErr: median(fringes.map((s) => shownVisibility(s).err)),
     piezo: meanSd(fits.flatMap((f) => (f?.piezoNmPerV ? [f.piezoNmPerV.value] : []))),
     medianP: median(fits.flatMap((f) => (f?.quality ? [f.quality.pValue] : []))),
+    flagged: list.filter((s) => passWarnings(s.fit).all.length > 0).length,
   };
 }
 
-/** One hovered sweep in words: when, which way, V, period, fit p-value and piezo calibration. */
+/** One hovered sweep in words: when, which way, V, period, fit p-value, piezo calibration and warnings. */
 function describe(s: Sweep): string {
   const f = sweepFit(s);
   const v = shownVisibility(s);
+  const w = passWarnings(s.fit);
   const parts = [
     `${formatClock(s.start)}–${formatClock(s.end)}`,
     `${s.direction} pass`,
-    `V ${v.net ? 'net' : 'raw'} ${formatValueErr(v)}`,
+    w.noFringe ? `V ${v.net ? 'net' : 'raw'} ${formatNumber(v.value, 3)} (no significant fringe)` : `V ${v.net ? 'net' : 'raw'} ${formatValueErr(v)}`,
     `period ${formatNumber(s.periodX, 3)} V`,
     f?.quality ? `p = ${f.quality.pValue.toPrecision(2)}` : null,
     f?.piezoNmPerV ? `piezo ${formatValueErr(f.piezoNmPerV)} nm/V` : null,
+    // The no-fringe warning is said with V above.
+    ...w.all.filter((t) => t !== FIT_WARNING.noFringe).map((t) => `⚠ ${t}`),
   ];
   return parts.filter(Boolean).join(' · ');
 }
@@ -91,14 +104,17 @@ export function SweepHistory({ benchId, from, to }: Props) {
   const { loading, error } = fetched;
   const [hover, setHover] = useState<number | null>(null);
   const box = useRef<HTMLDivElement>(null);
-  const ref = useRef({ sweeps, from, to });
-  ref.current = { sweeps, from, to };
+  const noFringe = useMemo(() => sweeps.map((s) => passWarnings(s.fit).noFringe), [sweeps]);
+  const hasNoFringe = noFringe.includes(true);
+  const ref = useRef({ sweeps, noFringe, from, to });
+  ref.current = { sweeps, noFringe, from, to };
 
   const data = (): uPlot.AlignedData => {
-    const list = ref.current.sweeps;
-    // One x per sweep (its middle): the up and down series are null where the other direction is.
+    const { sweeps: list, noFringe: flat } = ref.current;
     const shown = list.map(shownVisibility);
-    return [list.map((s) => (s.start + s.end) / 2000), list.map((s, i) => (s.direction === 'up' ? shown[i]!.value : null)), list.map((s, i) => (s.direction === 'down' ? shown[i]!.value : null))];
+    // One x per sweep (its middle): each series is null where the pass belongs to another.
+    const pick = (keep: (s: Sweep, i: number) => boolean) => list.map((s, i) => (keep(s, i) ? shown[i]!.value : null));
+    return [list.map((s) => (s.start + s.end) / 2000), pick((s, i) => s.direction === 'up' && !flat[i]), pick((s, i) => s.direction === 'down' && !flat[i]), pick((_s, i) => !!flat[i])];
   };
   const lo = (i: number) => { const s = ref.current.sweeps[i]; if (!s) return null; const v = shownVisibility(s); return v.value - v.err; };
   const hi = (i: number) => { const s = ref.current.sweeps[i]; if (!s) return null; const v = shownVisibility(s); return v.value + v.err; };
@@ -117,11 +133,13 @@ export function SweepHistory({ benchId, from, to }: Props) {
             if (list.length === 0) return [0.8, 1];
             let min = Infinity;
             let max = -Infinity;
-            for (const s of list) {
+            list.forEach((s, i) => {
               const v = shownVisibility(s);
-              min = Math.min(min, v.value - v.err);
-              max = Math.max(max, v.value + v.err);
-            }
+              // A pass without a fringe is drawn without a whisker: only its value needs room.
+              const e = ref.current.noFringe[i] ? 0 : v.err;
+              min = Math.min(min, v.value - e);
+              max = Math.max(max, v.value + e);
+            });
             const pad = Math.max(0.002, (max - min) * 0.1);
             return [Math.max(0, min - pad), Math.min(1, max + pad)];
           },
@@ -134,6 +152,8 @@ export function SweepHistory({ benchId, from, to }: Props) {
         { label: 'up pass ± 1σ', stroke: p.accent, width: 0, points: { show: true, size: 6, fill: p.accent, stroke: p.accent } },
         // Hollow markers in the ink colour: apart from the up passes by shape as well as colour (ember and tide are the outputs').
         { label: 'down pass ± 1σ', stroke: p.ink, width: 0, points: { show: true, size: 7, width: 1.5, fill: p.panel, stroke: p.ink } },
+        // Small, hollow and muted, without a whisker: no fringe was measured. In the legend only when drawn, as on the live trend.
+        { label: 'no significant fringe', ...(hasNoFringe ? {} : { class: 'hidden!' }), stroke: p.muted, width: 0, points: { show: true, size: 5, width: 1, fill: p.panel, stroke: p.muted } },
       ],
       hooks: {
         draw: [errorBars(1, lo, hi, withAlpha(p.accent, 0.55)), errorBars(2, lo, hi, withAlpha(p.ink, 0.45))],
@@ -142,6 +162,7 @@ export function SweepHistory({ benchId, from, to }: Props) {
     }),
     data,
     HEIGHT,
+    hasNoFringe,
   );
 
   // A new range: the hovered sweep of the old one means nothing.
@@ -156,6 +177,7 @@ export function SweepHistory({ benchId, from, to }: Props) {
     const down = sweeps.filter((s) => s.direction === 'down');
     return [summarise('up', up), summarise('down', down), summarise('all', sweeps)];
   }, [sweeps]);
+  const flaggedPasses = useMemo(() => sweeps.flatMap((s) => { const w = passWarnings(s.fit); return w.all.length > 0 ? [{ s, w, v: shownVisibility(s) }] : []; }), [sweeps]);
   const hovered = hover !== null ? sweeps[hover] : undefined;
   const empty = !loading && !error && sweeps.length === 0;
   const basis = visibilityBasis(sweeps);
@@ -185,6 +207,7 @@ export function SweepHistory({ benchId, from, to }: Props) {
                 <th scope="col" className="text-right">Median fit error</th>
                 <th scope="col" className="text-right">Piezo nm/V ± spread</th>
                 <th scope="col" className="text-right">Median fit p</th>
+                <th scope="col" className="text-right">With warnings</th>
               </tr>
             </thead>
             <tbody>
@@ -196,10 +219,28 @@ export function SweepHistory({ benchId, from, to }: Props) {
                   <td className="text-right">{formatNumber(r.medianErr, 4)}</td>
                   <td className="text-right">{meanText(r.piezo)}</td>
                   <td className="text-right">{r.medianP !== null ? r.medianP.toPrecision(2) : '–'}</td>
+                  <td className={`text-right ${r.flagged > 0 ? 'text-warn' : ''}`}>{r.flagged}</td>
                 </tr>
               ))}
             </tbody>
           </table>
+        </div>
+      )}
+      {flaggedPasses.length > 0 && (
+        <div className="text-xs" data-testid="passes-with-warnings">
+          <p className="mb-1 text-muted">
+            Passes with fit warnings{flaggedPasses.length > FLAGGED_LISTED ? `, the latest ${FLAGGED_LISTED} of ${flaggedPasses.length}` : ''}
+            {flaggedPasses.some((p) => p.w.noFringe) ? ' (those without a significant fringe are left out of the mean V and the median fit error)' : ''}:
+          </p>
+          <ul className="figure space-y-0.5">
+            {flaggedPasses.slice(-FLAGGED_LISTED).map(({ s, w, v }) => (
+              <li key={s.id ?? s.start} title={w.all.join('\n')}>
+                <span className="text-muted">{formatClock(s.start)} {s.direction}</span>{' '}
+                <span className={w.noFringe ? 'text-muted' : ''}>V {w.noFringe ? formatNumber(v.value, 3) : formatValueErr(v)}</span>{' '}
+                <span className="font-sans text-warn">{warningsLine(w)}</span>
+              </li>
+            ))}
+          </ul>
         </div>
       )}
     </section>
