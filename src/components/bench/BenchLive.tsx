@@ -13,6 +13,7 @@ import { FringeCells } from '../../lib/client/fringe-cells.ts';
 import { RateRing } from '../../lib/client/rate-ring.ts';
 import { BACKFILL_CLOCK_SLACK_MS, backfillRates } from '../../lib/client/rates-backfill.ts';
 import type { CountsMessage } from '../../lib/live-messages.ts';
+import { passWarnings } from '../../lib/pass-warnings.ts';
 import { noteMessageSchema, runMessageSchema } from '../../lib/runs.ts';
 import { FringeChart, type FringeHandle } from './FringeChart.tsx';
 import { RatesChart, type RatesHandle } from './RatesChart.tsx';
@@ -156,12 +157,13 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
     b: bench.channels.find((c) => c.id === bench.outB)?.label ?? 'Output B',
   };
   const lastSweep = sweeps.at(-1) ?? null;
+  const latestPass = lastSweep ? passWarnings(lastSweep.fit) : null;
 
   return (
     <div className="space-y-4">
       <LiveBanner state={live} />
       <AlarmBanner events={alarms} />
-      <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} corrections={corrections} />
+      <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} corrections={corrections} latestPass={latestPass} />
       <div className="grid gap-4 xl:grid-cols-2">
         <RatesChart ring={ring} channels={bench.channels} onReady={(h) => (rates.current = h)} hasData={hasCounts} error={hasCounts ? null : countsError} />
         <FringeChart

@@ -1,11 +1,13 @@
 // Large readouts an operator reads from across the bench: both output rates (raw and corrected),
-// V ± σ, phase, contrast and the phase noise against the shot-noise limit.
+// V ± σ (with the latest pass's fit warnings), phase, contrast and the phase noise against the
+// shot-noise limit.
 import type { BenchFigures, ChannelFigures } from '../../lib/bench-figures.ts';
 import { formatWindow } from '../../lib/coincidence-window.ts';
 import { formatNumber, formatRateErr, formatValueErr, PLUS_MINUS, rateParts } from '../../lib/client/format.ts';
+import { warningsLine, type PassWarnings } from '../../lib/pass-warnings.ts';
 
 /** A number read from across the bench: the value large, its unit and uncertainty smaller beside it, never wrapping. */
-function Tile(props: { label: string; value: string; unit?: string | undefined; subs?: (string | null)[]; tone?: string; testId?: string }) {
+function Tile(props: { label: string; value: string; unit?: string | undefined; subs?: (string | null)[]; tone?: string; testId?: string; warning?: { short: string; full: string } | null }) {
   return (
     <div className="card min-w-0 !p-3">
       <p className="label truncate" title={props.label}>{props.label}</p>
@@ -15,6 +17,7 @@ function Tile(props: { label: string; value: string; unit?: string | undefined; 
         {props.unit && <span className="whitespace-nowrap text-sm text-muted">{props.unit}</span>}
       </p>
       {props.subs?.map((s, i) => s && <p key={i} className="figure mt-0.5 truncate text-xs text-muted" title={s}>{s}</p>)}
+      {props.warning && <p className="mt-0.5 truncate text-xs text-warn" title={props.warning.full} data-testid={props.testId && `${props.testId}-warning`}>{props.warning.short}</p>}
     </div>
   );
 }
@@ -40,13 +43,19 @@ function splitErr(v: { value: number; err: number }, decimals?: number): { value
   return { value, err };
 }
 
-/** `corrections`: ids ("gateway/key") of the channels with a dark rate or a dead time set. */
-export function Readouts(props: { figures: BenchFigures | null; loading: boolean; error: string | null; corrections: Set<string> }) {
+/**
+ * `corrections`: ids ("gateway/key") of the channels with a dark rate or a dead time set.
+ * `latestPass`: the warnings of the newest fitted pass, or null before one.
+ */
+export function Readouts(props: { figures: BenchFigures | null; loading: boolean; error: string | null; corrections: Set<string>; latestPass: PassWarnings | null }) {
   const f = props.figures;
   const a = f?.channels.find((c) => c.role === 'out_a');
   const b = f?.channels.find((c) => c.role === 'out_b');
   const v = f?.visibility;
   const vs = v ? splitErr(v) : null;
+  // The tile's value comes from the recent fits: the newest one's warnings qualify it. Without a
+  // significant fringe in that pass the value is no confident V ± σ, so it is muted and its ± dropped.
+  const passWarning = v?.source === 'sweep' && props.latestPass && props.latestPass.all.length > 0 ? props.latestPass : null;
   const ph = f?.phase;
   const phs = ph ? splitErr(ph) : null;
   const sn = f?.shotNoise;
@@ -60,7 +69,9 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
         <Tile
           label={`Visibility${v?.net ? ', net of darks' : ''}`}
           value={vs?.value ?? '–'}
-          subs={[vs ? `± ${vs.err}` : null, !v ? 'needs a sweep or drift' : v.source === 'sweep' ? 'mean of recent fits' : 'fringe envelope (drift)']}
+          subs={[vs && !passWarning?.noFringe ? `± ${vs.err}` : null, !v ? 'needs a sweep or drift' : v.source === 'sweep' ? 'mean of recent fits' : 'fringe envelope (drift)']}
+          tone={passWarning?.noFringe ? 'text-muted' : ''}
+          warning={passWarning && { short: `last pass: ${passWarning.noFringe ? 'no fringe' : warningsLine(passWarning)}`, full: passWarning.all.join('\n') }}
           testId="visibility"
         />
         <Tile
@@ -109,7 +120,7 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
               <dt className="text-muted">
                 g²(0), coincidences over accidentals
                 {/* The accidentals scale with the window: say which one this value assumed. */}
-                {f.coincidenceWindowNs !== undefined && <span className="figure ml-1.5 text-xs" data-testid="coincidence-window">{formatWindow(f.coincidenceWindowNs)}</span>}
+                {f.coincidenceWindowNs !== undefined && <span className="figure block text-xs" data-testid="coincidence-window">{formatWindow(f.coincidenceWindowNs)}</span>}
               </dt>
               {/* An uncertainty of 1 or more cannot tell a single-photon source (g² ≈ 0) from a classical one (g² ≥ 1): too few counts to say anything yet. */}
               <dd className="figure text-right" title={f.g2 ? formatValueErr(f.g2) : undefined}>
