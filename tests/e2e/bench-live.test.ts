@@ -107,6 +107,14 @@ describe('bench live view', () => {
     await screenshotBothThemes(page, 'bench-observer-tablet');
   });
 
+  it('names the coincidence window beside g²(0) on a laser bench', async () => {
+    const page = observer.page;
+    await page.goto(`${app.url}/benches/mz-633`);
+    // The demo benches' counters use the seeded 2 ns window.
+    await expect.poll(() => page.getByTestId('coincidence-window').textContent(), { timeout: 20_000 }).toBe('window 2.0 ns');
+    expect(await page.getByRole('region', { name: 'Photon statistics' }).textContent()).toContain('g²(0), coincidences over accidentals');
+  });
+
   it('keeps a run with a note and a snapshot, and captures every screen in both themes', async () => {
     const page = operator.page;
     await page.goto(`${app.url}/benches/${BENCH}`);
