@@ -7,8 +7,9 @@ import { FrameGate } from '../../lib/client/frame-gate.ts';
 import type { FringeCells } from '../../lib/client/fringe-cells.ts';
 import { sweepFit, type Sweep } from '../../lib/client/api.ts';
 import { withAlpha } from '../../lib/client/chart-theme.ts';
-import { formatDuration, formatRateTick, formatValueErr } from '../../lib/client/format.ts';
+import { formatDuration, formatNumber, formatRateTick, formatValueErr } from '../../lib/client/format.ts';
 import { useNow } from '../../lib/client/use-now.ts';
+import { passWarnings, warningsLine } from '../../lib/pass-warnings.ts';
 import { shownVisibility } from '../../lib/sweep-visibility.ts';
 import { axis, useUPlot } from '../charts/useUPlot.ts';
 import { CURVE_POINTS, fitRates } from './fringe-curve.ts';
@@ -144,6 +145,7 @@ export function FringeChart(props: Props) {
   // The calibration of the latest pass, labelled with its direction: up and down differ by the piezo's hysteresis.
   const piezo = lastFit ? sweepFit(lastFit)?.piezoNmPerV : null;
   const lastV = lastFit ? shownVisibility(lastFit) : null;
+  const lastWarnings = lastFit ? passWarnings(lastFit.fit) : null;
   return (
     <section className="card" aria-labelledby="fringe-h">
       <div className="mb-2 flex flex-wrap items-center justify-between gap-2">
@@ -156,7 +158,9 @@ export function FringeChart(props: Props) {
           {lastFit && lastV && (
             <p className="text-xs text-muted">
               {/* Each figure kept whole, so a narrow card breaks the line between them. */}
-              <span className="whitespace-nowrap">last fit <span className="figure" data-testid="last-fit-visibility">V = {formatValueErr(lastV)}</span> ({lastV.net ? 'net of darks' : 'raw'})</span>
+              {/* Without a significant fringe V ± σ measures no fringe: the value alone, with the warning. */}
+              <span className="whitespace-nowrap">last fit <span className="figure" data-testid="last-fit-visibility">V = {lastWarnings?.noFringe ? formatNumber(lastV.value, 3) : formatValueErr(lastV)}</span> ({lastV.net ? 'net of darks' : 'raw'})</span>
+              {lastWarnings && lastWarnings.all.length > 0 && <span className="whitespace-nowrap text-warn" title={lastWarnings.all.join('\n')} data-testid="last-fit-warning"> · {warningsLine(lastWarnings)}</span>}
               {/* Its age: an old fit over an idle bench must not pass for the fringes of now. */}
               {now !== null && <span className="whitespace-nowrap"> · <span className="figure">{formatDuration(now - lastFit.end)}</span> ago</span>}
               {piezo && (
