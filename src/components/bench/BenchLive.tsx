@@ -157,6 +157,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
     b: bench.channels.find((c) => c.id === bench.outB)?.label ?? 'Output B',
   };
   const lastSweep = sweeps.at(-1) ?? null;
+  const lastPasses = (['up', 'down'] as const).flatMap((way) => sweeps.findLast((s) => s.direction === way) ?? []);
   const latestPass = lastSweep ? passWarnings(lastSweep.fit) : null;
 
   return (
@@ -191,6 +192,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
             bench={bench}
             drive={drive}
             lastSweep={lastSweep}
+            lastPasses={lastPasses}
             onSweepStarted={() => {
               cells.clear();
               fringe.current?.invalidate();

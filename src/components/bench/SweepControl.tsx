@@ -5,7 +5,7 @@ import { useState, type FormEvent } from 'react';
 import type { BenchViewData } from '../../lib/bench-view.ts';
 import { errorText, sendCommand, sweepFit, type Sweep } from '../../lib/client/api.ts';
 import type { CommandBody } from '../../lib/contract/wire.ts';
-import { midFringeX } from './mid-fringe.ts';
+import { midFringeHold } from './mid-fringe.ts';
 import { DriveStateLine } from './DriveStateLine.tsx';
 import type { DriveTracker } from '../../lib/client/drive-state.ts';
 
@@ -14,6 +14,8 @@ interface Props {
   drive: DriveTracker;
   bench: BenchViewData;
   lastSweep: Sweep | null;
+  /** The latest pass of each direction, where a mid-fringe point is read from. */
+  lastPasses: Sweep[];
   /** Called after a sweep was accepted, so the fringe view starts afresh. */
   onSweepStarted: () => void;
 }
@@ -31,7 +33,7 @@ export function reachable(bench: BenchViewData): { min: number; max: number; gat
   return min < max ? { min, max, gateway: scan } : { min: bench.drive.min, max: bench.drive.max, gateway: scan };
 }
 
-export function SweepControl({ bench, lastSweep, onSweepStarted, drive }: Props) {
+export function SweepControl({ bench, lastSweep, lastPasses, onSweepStarted, drive }: Props) {
   const d = bench.drive;
   const range = reachable(bench);
   const [from, setFrom] = useState(String(range.min));
@@ -74,8 +76,18 @@ export function SweepControl({ bench, lastSweep, onSweepStarted, drive }: Props)
     else void send({ op: 'hold', x }, `Hold at ${x} V`);
   };
 
-  const fit = lastSweep ? sweepFit(lastSweep) : null;
-  const mid = fit ? midFringeX(fit, Math.min(Number(from), Number(to)), Math.max(Number(from), Number(to)), (Number(from) + Number(to)) / 2) : null;
+  const state = drive.state(Date.now());
+  const held = midFringeHold(
+    lastPasses.flatMap((p) => {
+      const fit = sweepFit(p);
+      return fit ? [{ direction: p.direction, fit }] : [];
+    }),
+    state.kind === 'unknown' ? null : state.x,
+    Math.min(Number(from), Number(to)),
+    Math.max(Number(from), Number(to)),
+    (Number(from) + Number(to)) / 2,
+  );
+  const mid = held?.x ?? null;
   // Each sweep goes there and back: twice the steps between From and To.
   const estSeconds = (2 * Math.abs(Number(to) - Number(from)) / Math.max(Number(step), 1e-9)) * Number(dwell) * Number(sweeps) / 1000;
 
@@ -126,7 +138,7 @@ export function SweepControl({ bench, lastSweep, onSweepStarted, drive }: Props)
         </button>
       </form>
       <p className="mt-2 text-xs text-muted">
-        Mid-fringe comes from the latest {lastSweep?.direction ?? ''} fit; piezo hysteresis shifts it with the direction of approach, so trim with the contrast readout (0 at mid-fringe).
+        Mid-fringe comes from the latest {held?.direction ?? lastSweep?.direction ?? ''} pass, the way the drive will approach it where a pass ran that way: piezo hysteresis moves the fringes with the direction of approach. Trim with the contrast readout (0 at mid-fringe).
       </p>
       {message && (
         <p className={`mt-2 text-sm ${message.ok ? 'text-good' : 'text-bad'}`} role="status" data-testid="drive-message">{message.text}</p>

@@ -38,3 +38,26 @@ export function midFringeX(fit: SweepFit, from: number, to: number, near: number
   }
   return best;
 }
+
+/**
+ * Where to hold at mid-fringe, from the latest fitted pass of each direction. Piezo hysteresis
+ * puts the fringes elsewhere for each way the drive approaches, so the point comes from a pass that
+ * ran the way the drive will move to it from `at` (its position now): up to a point above, down to
+ * one below. With the position unknown, or no pass that way giving a point, the newest pass is used
+ * as it stands. Null when no pass gives one.
+ */
+export function midFringeHold(
+  passes: { direction: 'up' | 'down'; fit: SweepFit }[],
+  at: number | null,
+  from: number,
+  to: number,
+  near: number,
+): { x: number; direction: 'up' | 'down' } | null {
+  const candidates = passes.flatMap((p) => {
+    const x = midFringeX(p.fit, from, to, near);
+    return x === null ? [] : [{ x, direction: p.direction }];
+  });
+  const consistent = at === null ? [] : candidates.filter((c) => (c.direction === 'up' ? c.x > at : c.x < at));
+  const pick = consistent.length ? consistent : candidates.slice(-1);
+  return pick.reduce<{ x: number; direction: 'up' | 'down' } | null>((best, c) => (best === null || Math.abs(c.x - near) < Math.abs(best.x - near) ? c : best), null);
+}
