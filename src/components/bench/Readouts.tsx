@@ -3,7 +3,8 @@
 // shot-noise limit.
 import type { BenchFigures, ChannelFigures } from '../../lib/bench-figures.ts';
 import { formatWindow } from '../../lib/coincidence-window.ts';
-import { formatNumber, formatRateErr, formatValueErr, PLUS_MINUS, rateParts } from '../../lib/client/format.ts';
+import { formatDuration, formatNumber, formatRateErr, formatValueErr, PLUS_MINUS, rateParts } from '../../lib/client/format.ts';
+import { poissonQThroughDeadTime } from '../../lib/analysis/photon-stats.ts';
 import { warningsLine, type PassWarnings } from '../../lib/pass-warnings.ts';
 
 /** A number read from across the bench: the value large, its unit and uncertainty smaller beside it, never wrapping. */
@@ -69,7 +70,7 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
         <Tile
           label={`Visibility${v?.net ? ', net of darks' : ''}`}
           value={vs?.value ?? '–'}
-          subs={[vs && !passWarning?.noFringe ? `± ${vs.err}` : null, !v ? 'needs a sweep or drift' : v.source === 'sweep' ? 'mean of recent fits' : 'fringe envelope (drift)']}
+          subs={[vs && !passWarning?.noFringe ? `± ${vs.err}` : null, !v ? 'needs a sweep, or a drift over a whole fringe' : v.source === 'envelope' ? 'fringe envelope (drift)' : v.latestPassMs !== undefined && f ? `newest pass ${formatDuration(f.at - v.latestPassMs)} ago` : 'mean of recent fits']}
           tone={passWarning?.noFringe ? 'text-muted' : ''}
           warning={passWarning && { short: `last pass: ${passWarning.noFringe ? 'no fringe' : warningsLine(passWarning)}`, full: passWarning.all.join('\n') }}
           testId="visibility"
@@ -85,7 +86,16 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
           label="Phase noise"
           value={sn ? sn.ratio.toFixed(2) : '–'}
           unit={sn ? '× shot noise' : undefined}
-          subs={sn ? [`${(sn.measuredRad * 1000).toFixed(2)} mrad${sn.binMs ? ` per ${sn.binMs} ms bin` : ''} · ${sn.dB >= 0 ? '+' : ''}${sn.dB.toFixed(1)} dB`, `shot-noise limit ${(sn.limitRad * 1000).toFixed(2)} mrad`] : ['while holding only']}
+          subs={
+            sn
+              ? [
+                  `${(sn.measuredRad * 1000).toFixed(2)} mrad${sn.binMs ? ` per ${sn.binMs} ms bin` : ''} · ${sn.dB >= 0 ? '+' : ''}${sn.dB.toFixed(1)} dB`,
+                  `shot-noise limit ${(sn.limitRad * 1000).toFixed(2)} mrad`,
+                  // At visibility V no phase reading beats 1/(V√N): the floor this bench can reach.
+                  sn.visibilityLimitRad !== undefined ? `${(sn.measuredRad / sn.visibilityLimitRad).toFixed(2)} × the floor at this V` : null,
+                ]
+              : ['while holding only']
+          }
         />
       </div>
       {warnings.length > 0 && (
@@ -110,7 +120,13 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
         <dl className="grid grid-cols-[1fr_auto] gap-x-4 gap-y-1.5 text-sm [&>dd]:whitespace-nowrap">
           {f.channels.map((c) => (
             <div key={c.channel} className="contents">
-              <dt className="text-muted">Mandel Q, {c.label}</dt>
+              <dt className="text-muted">
+                Mandel Q, {c.label}
+                {/* Dead time thins the counts regularly: laser light itself reads below 0 here. */}
+                {c.mandelQ && c.deadTimeLoss != null && c.deadTimeLoss >= 0.005 && c.deadTimeLoss < 1 && (
+                  <span className="figure block text-xs">laser light reads {formatNumber(poissonQThroughDeadTime(c.deadTimeLoss), 3)} (dead time)</span>
+                )}
+              </dt>
               <dd className="figure text-right">{formatValueErr(c.mandelQ)}</dd>
             </div>
           ))}
@@ -143,7 +159,7 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
           )}
         </dl>
       )}
-      <p className="mt-2 text-xs text-muted">Q from the counts per bin over the last {f ? (f.windowMs / 1000).toFixed(0) : '–'} s: 0 Poissonian, &lt; 0 sub-Poissonian.{f?.alpha ? '' : ' g²(0) = 1 coherent, 0 single photon.'} While the drive sweeps, these figures measure the fringes, not the light.</p>
+      <p className="mt-2 text-xs text-muted">Q from the counts per bin over the last {f ? (f.windowMs / 1000).toFixed(0) : '–'} s: 0 Poissonian, &lt; 0 sub-Poissonian, below what dead time alone gives.{f?.alpha ? '' : ' g²(0) = 1 coherent, 0 single photon.'} While the drive sweeps or the phase drifts, these figures measure the fringes, not the light.</p>
     </section>
   );
 }
