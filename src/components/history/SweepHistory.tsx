@@ -35,7 +35,7 @@ interface Summary {
   /** Median of the fits' own 1σ: scatter well above it means the visibility moved. */
   medianErr: number | null;
   piezo: { value: number; err: number } | null;
-  medianP: number | null;
+  medianDevPerDof: number | null;
   /** Passes whose fit carries a warning. */
   flagged: number;
 }
@@ -72,7 +72,9 @@ function summarise(label: string, list: Sweep[]): Summary {
     v: meanSd(fringes.map((s) => shownVisibility(s).value)),
     medianErr: median(fringes.map((s) => shownVisibility(s).err)),
     piezo: meanSd(fits.flatMap((f) => (f?.piezoNmPerV ? [f.piezoNmPerV.value] : []))),
-    medianP: median(fits.flatMap((f) => (f?.quality ? [f.quality.pValue] : []))),
+    // Deviance per degree of freedom says how far a fit is from Poisson-limited (1) where p, at
+    // the counts of a bright bench, reads 0 for any small misfit.
+    medianDevPerDof: median(fits.flatMap((f) => (f?.quality?.deviance !== undefined && f.quality.dof ? [f.quality.deviance / f.quality.dof] : []))),
     flagged: list.filter((s) => passWarnings(s.fit).all.length > 0).length,
   };
 }
@@ -87,7 +89,7 @@ function describe(s: Sweep): string {
     `${s.direction} pass`,
     w.noFringe ? `V ${v.net ? 'net' : 'raw'} ${formatNumber(v.value, 3)} (no significant fringe)` : `V ${v.net ? 'net' : 'raw'} ${formatValueErr(v)}`,
     `period ${formatNumber(s.periodX, 3)} V`,
-    f?.quality ? `p = ${f.quality.pValue.toPrecision(2)}` : null,
+    f?.quality ? `p = ${f.quality.pValue.toPrecision(2)}${f.quality.errorScale && f.quality.errorScale > 1 ? `, errors ×${f.quality.errorScale.toFixed(1)}` : ''}` : null,
     f?.piezoNmPerV ? `piezo ${formatValueErr(f.piezoNmPerV)} nm/V` : null,
     // The no-fringe warning is said with V above.
     ...w.all.filter((t) => t !== FIT_WARNING.noFringe).map((t) => `⚠ ${t}`),
@@ -206,7 +208,7 @@ export function SweepHistory({ benchId, from, to }: Props) {
                 <th scope="col" className="text-right">Mean V ± spread</th>
                 <th scope="col" className="text-right">Median fit error</th>
                 <th scope="col" className="text-right">Piezo nm/V ± spread</th>
-                <th scope="col" className="text-right">Median fit p</th>
+                <th scope="col" className="text-right" title="Deviance per degree of freedom: 1 for a fit limited by Poisson noise; above it, errors are widened by its square root">Median dev./dof</th>
                 <th scope="col" className="text-right">With warnings</th>
               </tr>
             </thead>
@@ -218,7 +220,7 @@ export function SweepHistory({ benchId, from, to }: Props) {
                   <td className="text-right">{meanText(r.v, 4)}</td>
                   <td className="text-right">{formatNumber(r.medianErr, 4)}</td>
                   <td className="text-right">{meanText(r.piezo)}</td>
-                  <td className="text-right">{r.medianP !== null ? r.medianP.toPrecision(2) : '–'}</td>
+                  <td className="text-right">{r.medianDevPerDof !== null ? r.medianDevPerDof.toPrecision(2) : '–'}</td>
                   <td className={`text-right ${r.flagged > 0 ? 'text-warn' : ''}`}>{r.flagged}</td>
                 </tr>
               ))}

@@ -1,6 +1,7 @@
 import { levenbergMarquardt } from 'ml-levenberg-marquardt';
 import { describe, expect, it } from 'vitest';
 import { fitFringes, type FringeFit, type FringeFitOptions } from './fringe-fit.ts';
+import { gaussian, mulberry32 } from '../../../simulators/random.ts';
 import { simulateSweep, type SimulatedSweep, type SweepSpec } from './test-fixtures.ts';
 
 function fit(s: SimulatedSweep, options: FringeFitOptions = {}): FringeFit {
@@ -187,6 +188,33 @@ describe('joint Poisson ML fringe fit', () => {
     expect(Math.abs(sd(raws) / rawErr - 1)).toBeLessThan(0.12);
     // The raw error would understate the net V's scatter by a quarter.
     expect(sd(nets) / rawErr).toBeGreaterThan(1.2);
+  });
+
+  it('widens its errors by √(deviance/dof) when the counts scatter beyond Poisson, as the replicas confirm', () => {
+    // Birge, Phys. Rev. 40, 207 (1932): with χ²/dof = S² > 1 the errors are scaled by S. Counts
+    // here scatter five times as widely as Poisson (variance 5·n, as from a fluctuating gain), so
+    // the Poisson errors alone would be √5 ≈ 2.2× too small. Outside check (common practice): the
+    // scatter of V over independent replicas against the reported 1σ.
+    const rng = mulberry32(77);
+    const values: number[] = [];
+    let err = 0;
+    let scale = 0;
+    const replicas = 150;
+    for (let t = 0; t < replicas; t++) {
+      const s = simulateSweep({ ...BASE, bins: 200, seed: 2_000 + t });
+      const wobble = (v: number) => Math.max(0, Math.round(v + 2 * Math.sqrt(v) * gaussian(rng)));
+      const r = fit({ x: s.x, countsA: s.countsA.map(wobble), countsB: s.countsB.map(wobble) });
+      values.push(r.visibility.value);
+      err += r.visibility.err / replicas;
+      scale += r.quality.errorScale / replicas;
+    }
+    const m = values.reduce((a, b) => a + b, 0) / replicas;
+    const sd = Math.sqrt(values.reduce((a, b) => a + (b - m) ** 2, 0) / (replicas - 1));
+    expect(scale).toBeGreaterThan(2);
+    // 150 replicas know a deviation to about 1/√298 ≈ 6 %.
+    expect(Math.abs(sd / err - 1)).toBeLessThan(0.2);
+    // …and a fit to plain Poisson counts keeps its own errors.
+    expect(fit(simulateSweep({ ...BASE, bins: 200, seed: 3 })).quality.errorScale).toBe(1);
   });
 
   it('refuses a pass whose counts sit at or below the calibrated dark level', () => {

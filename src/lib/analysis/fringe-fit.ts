@@ -42,6 +42,16 @@ export interface FringeFitOptions {
  */
 export const FRINGE_DETECTION_DELTA_C = 14.16;
 
+/**
+ * A fit whose goodness of fit has p below this has its uncertainties scaled by the Birge ratio
+ * √(deviance/dof) (Birge, Phys. Rev. 40, 207 (1932); the scale factor S of the Particle Data
+ * Group's averages): at high counts the model misses structure beyond Poisson noise (drift during
+ * the pass, piezo nonlinearity past the quadratic term, dead time), the Poisson errors alone
+ * understate how far the result may lie from the truth, and the scatter between passes shows it.
+ * An acceptable fit keeps its Poisson errors.
+ */
+export const ERROR_SCALE_P = 0.01;
+
 /** Below this many net counts in a pass (both outputs) the profile interval is used by default. */
 export const LOW_COUNT_TOTAL = 10_000;
 
@@ -97,6 +107,11 @@ export interface FringeFit {
     pValue: number;
     iterations: number;
     converged: boolean;
+    /**
+     * Factor every uncertainty of this fit was multiplied by: √(deviance/dof) when the fit is
+     * poor (p < ERROR_SCALE_P), else 1. See ERROR_SCALE_P.
+     */
+    errorScale: number;
     /**
      * C(no fringe) − C(fit): how much the fringe improves on flat outputs. Below
      * FRINGE_DETECTION_DELTA_C the "fringe" may be noise, and period, phase and the V interval
@@ -662,6 +677,14 @@ function measuredAt(values: Float64Array, cov: Float64Array, i: number): Measure
   return { value: values[i] as number, err: Math.sqrt(Math.max(0, cov[i * NP + i] as number)) };
 }
 
+function scaleMeasured(m: Measured, k: number): Measured {
+  return { value: m.value, err: m.err * k };
+}
+
+function scaleEstimate(e: VisibilityEstimate, k: number): VisibilityEstimate {
+  return { ...e, err: e.err * k, lower: Math.max(0, e.value - k * (e.value - e.lower)), upper: Math.min(1, e.value + k * (e.upper - e.value)) };
+}
+
 /** Fit one monotonic pass. Counts must be non-negative; x need not be uniformly spaced. */
 export function fitFringes(data: FringeData, options: FringeFitOptions = {}): FringeFitResult {
   const len = data.x.length;
@@ -750,32 +773,36 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
       cov[i * NP + j] = s;
     }
   }
-  const names = quadratic ? PARAM_NAMES : PARAM_NAMES.slice(0, 5);
-  const matrix = names.map((_, i) => names.map((__, j) => cov[i * NP + j] as number));
   const dev = deviance(shownProblem, fit.min.p);
   const dof = 2 * len - fit.free.length;
+  const pValue = chiSquareSf(dev, dof);
+  const k = pValue < ERROR_SCALE_P && dev > dof ? Math.sqrt(dev / dof) : 1;
+  const names = quadratic ? PARAM_NAMES : PARAM_NAMES.slice(0, 5);
+  const matrix = names.map((_, i) => names.map((__, j) => k * k * (cov[i * NP + j] as number)));
   const fringeDeltaCash = flatCash(shownProblem) - fit.min.cost;
   if (fringeDeltaCash < FRINGE_DETECTION_DELTA_C) warnings.push(FIT_WARNING.noFringe);
-  const phase = measuredAt(values, cov, 4);
+  const at = (i: number) => scaleMeasured(measuredAt(values, cov, i), k);
+  const phase = at(4);
+  const output = (pr: Problem, p: Float64Array, o: 'a' | 'b') => scaleMeasured(outputVisibility(pr, p, o), k);
   return {
     ok: true,
-    visibility,
-    visibilityNet,
+    visibility: scaleEstimate(visibility, k),
+    visibilityNet: visibilityNet && scaleEstimate(visibilityNet, k),
     shown: calibrated ? 'net' : 'raw',
-    period: measuredAt(values, cov, 3),
+    period: at(3),
     phase: { value: wrapPhase(phase.value), err: phase.err },
-    phaseAtCenter: { value: wrapPhase(fit.min.p[IPSI] as number), err: Math.sqrt(Math.max(0, full[IPSI * NP + IPSI] as number)) },
+    phaseAtCenter: { value: wrapPhase(fit.min.p[IPSI] as number), err: k * Math.sqrt(Math.max(0, full[IPSI * NP + IPSI] as number)) },
     center: sc.xc,
-    quadratic: quadratic ? measuredAt(values, cov, 5) : null,
-    amplitudeA: measuredAt(values, cov, 0),
-    amplitudeB: measuredAt(values, cov, 1),
+    quadratic: quadratic ? at(5) : null,
+    amplitudeA: at(0),
+    amplitudeB: at(1),
     outputs: {
-      a: { raw: outputVisibility(raw, rawFit.min.p, 'a'), net: calibrated ? outputVisibility(net, fit.min.p, 'a') : null },
-      b: { raw: outputVisibility(raw, rawFit.min.p, 'b'), net: calibrated ? outputVisibility(net, fit.min.p, 'b') : null },
+      a: { raw: output(raw, rawFit.min.p, 'a'), net: calibrated ? output(net, fit.min.p, 'a') : null },
+      b: { raw: output(raw, rawFit.min.p, 'b'), net: calibrated ? output(net, fit.min.p, 'b') : null },
     },
     counts: { a: sumA, b: sumB, bins: len },
     darkPerBin: calibrated ? { a: da, b: db } : null,
-    quality: { cash: fit.min.cost, deviance: dev, dof, pValue: chiSquareSf(dev, dof), iterations: fit.min.iterations, converged: fit.min.converged, fringeDeltaCash },
+    quality: { cash: fit.min.cost, deviance: dev, dof, pValue, iterations: fit.min.iterations, converged: fit.min.converged, fringeDeltaCash, errorScale: k },
     covariance: { names, matrix },
     warnings,
   };
