@@ -2,7 +2,7 @@
 import { and, asc, desc, eq, gte, inArray, lte, sql } from 'drizzle-orm';
 import type { FringeFit } from '../../analysis/fringe-fit.ts';
 import type { Measured } from '../../analysis/measured.ts';
-import { piezoCalibration } from '../../analysis/piezo.ts';
+import { meanPeriod, piezoCalibration } from '../../analysis/piezo.ts';
 import type { FringeParams } from '../../analysis/fringe-model.ts';
 import type { FittedSweepSummary } from '../events.ts';
 import { getDb } from '../db/index.ts';
@@ -28,15 +28,6 @@ export interface BenchOptics {
   wavelengthNm: number;
   /** Optical path change per unit of mirror travel (2 for a retro-reflecting mirror in one arm). */
   pathFactor: number;
-}
-
-/** The pass's mean fringe period: with θ = 2π(x + q·x²)/P + φ the phase advance over [x₀, x₁] sets it. */
-function meanPeriod(fit: FringeFit, xMin: number, xMax: number): Measured {
-  const q = fit.quadratic?.value ?? 0;
-  const span = xMax - xMin;
-  const advance = span + q * (xMax * xMax - xMin * xMin);
-  const scale = advance > 0 ? span / advance : 1;
-  return { value: fit.period.value * scale, err: fit.period.err * scale };
 }
 
 /** Stores a fitted pass; null when that pass was stored before. */
