@@ -8,6 +8,9 @@ export const IMPORT_GATEWAY_PREFIX = 'imp-';
 
 export const isImportGateway = (gatewayId: string): boolean => gatewayId.startsWith(IMPORT_GATEWAY_PREFIX);
 
+/** The pseudo-gateway of a run; only an imported run has one. */
+export const importGatewayOf = (runId: number): string => `${IMPORT_GATEWAY_PREFIX}${runId}`;
+
 /** 50 MiB: about 2–3 million bins of a two-channel table, an afternoon at 10 ms bins. */
 export const MAX_IMPORT_BYTES = 50 * 1024 * 1024;
 

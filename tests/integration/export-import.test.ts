@@ -78,7 +78,7 @@ describe('export and import', () => {
     const header = csv.split('\n').find((l) => !l.startsWith('#'))!;
     expect(header).toBe(`t_ms,${GW1}/a,${GW1}/b,${GW2}/h,x,cc`);
 
-    // The merged table has empty cells where GW2 has no bins: export only GW1's span that GW2 also covers for a clean table.
+    // A span all three channels cover, so every bin of the import is compared with its source below.
     const partial = await (await api(obs, `/api/v1/benches/${SRC}/export?from=${T + 1000}&to=${T + 3000}`)).text();
     const preview = await api(op, `/api/v1/benches/${DST}/import/preview`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: partial });
     const p = (await preview.json()) as { dtMs: number; rows: number; channels: { key: string }[]; issues: unknown[]; firstRows: string[][] };
@@ -163,6 +163,54 @@ describe('export and import', () => {
     await expect(importCounts(DST, stream, { title: 'Capped', userId: null, maxBytes: 20_000 })).rejects.toMatchObject({ status: 413 });
     expect(await getDb().select().from(runs).where(like(runs.title, 'Capped%'))).toHaveLength(0);
     expect(await getDb().select().from(runs).where(eq(runs.title, 'Huge'))).toHaveLength(0);
+  });
+
+  it('exports only channels with data, and an export over a live gateway and an import imports again', async () => {
+    const RT = `rt-${tag}`;
+    const FRESH = `rf-${tag}`;
+    const LIVE = `rt-${tag}-g`;
+    const T2 = T + 200_000;
+    await createBench({ id: RT, name: 'Round trip', wavelengthNm: 1550 });
+    await createBench({ id: FRESH, name: 'Round trip target', wavelengthNm: 1550 });
+    await createGateway(LIVE, RT);
+    await getDb().insert(channels).values([
+      { gatewayId: LIVE, key: 'a', benchId: RT, label: 'Port A' },
+      { gatewayId: LIVE, key: 'b', benchId: RT, label: 'Port B' },
+    ]);
+    const live = (t0: number, seed: number) => ({
+      gatewayId: LIVE, t0, t1: t0 + 1000, dt: 10, n: 100, keys: ['a', 'b'], boot: 'b', seq: seed,
+      counts: packCounts(Array.from({ length: 200 }, (_, i) => (i * 31 + seed) % 500)),
+      x: Array.from({ length: 100 }, (_, i) => i / 10), cc: null,
+    });
+    await getDb().insert(countBatches).values([live(T2, 1), live(T2 + 1000, 2)]);
+    // An offline recording before the live data: the bench now holds imp-N/a and imp-N/b too.
+    const offline = ['t_ms,a,b,x', ...Array.from({ length: 150 }, (_, i) => `${T2 - 5000 + i * 10},${100 + i},${200 + i},${i / 7}`)].join('\n');
+    const first = await api(op, `/api/v1/benches/${RT}/import?title=Offline`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: offline });
+    expect(first.status).toBe(201);
+    const imp = ((await first.json()) as { gatewayId: string; runId: number });
+
+    const header = (csv: string) => csv.split('\n').find((l) => !l.startsWith('#'));
+    const liveOnly = await (await api(obs, `/api/v1/benches/${RT}/export?from=${T2}&to=${T2 + 2000}`)).text();
+    expect(header(liveOnly)).toBe(`t_ms,${LIVE}/a,${LIVE}/b,x`);
+    expect(liveOnly).not.toContain(imp.gatewayId);
+    // The imported run on its own, its outputs in the usual roles.
+    const runCsv = await (await api(obs, `/api/v1/benches/${RT}/export?run=${imp.runId}`)).text();
+    expect(header(runCsv)).toBe(`t_ms,${imp.gatewayId}/a,${imp.gatewayId}/b,x`);
+    expect(runCsv).toContain(`# channel ${imp.gatewayId}/a: role=out_a;`);
+
+    const both = await (await api(obs, `/api/v1/benches/${RT}/export?from=${T2 - 5000}&to=${T2 + 2000}`)).text();
+    expect(header(both)).toBe(`t_ms,${LIVE}/a,${LIVE}/b,${imp.gatewayId}/a,${imp.gatewayId}/b,x`);
+    const preview = (await (await api(op, `/api/v1/benches/${FRESH}/import/preview`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: both })).json()) as { issues: unknown[]; rows: number; channels: { key: string }[] };
+    expect(preview).toMatchObject({ issues: [], rows: 350 });
+    expect(preview.channels.map((c) => c.key)).toEqual(['a', 'b']);
+    const again = await api(op, `/api/v1/benches/${FRESH}/import?title=Round%20trip`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: both });
+    expect(again.status).toBe(201);
+    const r = (await again.json()) as { gatewayId: string; bins: number };
+    expect(r.bins).toBe(350);
+    const sums = (bins: Map<string, number>, key: string) => [...bins].filter(([k]) => k.startsWith(`${key}@`)).reduce((s, [, v]) => s + v, 0);
+    const [srcLive, srcImp, dst] = await Promise.all([binsOf(LIVE), binsOf(imp.gatewayId), binsOf(r.gatewayId)]);
+    for (const key of ['a', 'b', 'x']) expect(sums(dst, key)).toBeCloseTo(sums(srcLive, key) + sums(srcImp, key), 6);
+    expect(dst.size).toBe(srcLive.size + srcImp.size);
   });
 
   it('lets only operators import', async () => {

@@ -2,8 +2,8 @@
 // contract (first two keys of the first gateway serve as out_a/out_b until an admin sets roles).
 import { asc, eq } from 'drizzle-orm';
 import { benchIdSchema } from '../contract/wire.ts';
-import { isImportGateway } from '../import-shapes.ts';
-import { getDb } from './db/index.ts';
+import { importGatewayOf, isImportGateway } from '../import-shapes.ts';
+import { getDb, getDbHandle } from './db/index.ts';
 import type { ChannelCalibration, ChannelRole } from '../channel-calibration.ts';
 import { benches, channels, gateways, type Bench, type Channel } from './db/schema.ts';
 
@@ -60,6 +60,20 @@ export async function benchChannels(benchId: string): Promise<BenchChannel[]> {
 export async function benchCalibrations(benchId: string): Promise<ChannelCalibration[]> {
   const roles = await benchChannels(benchId);
   const rows = await getDb().select().from(channels).where(eq(channels.benchId, benchId));
+  return withCorrections(roles, rows);
+}
+
+/**
+ * An imported run's own channels in role order. Its recording stands alone, so its first two keys
+ * are its outputs (the contract's default, as its fit takes them: `fitStored`), whatever the
+ * bench's live gateways hold.
+ */
+export async function importCalibrations(gatewayId: string): Promise<ChannelCalibration[]> {
+  const rows = await getDb().select().from(channels).where(eq(channels.gatewayId, gatewayId));
+  return withCorrections(effectiveRoles(rows, [gatewayId]), rows);
+}
+
+function withCorrections(roles: BenchChannel[], rows: Channel[]): ChannelCalibration[] {
   return roles.map((c) => {
     const row = rows.find((r) => r.gatewayId === c.gateway && r.key === c.key);
     return {
@@ -71,4 +85,41 @@ export async function benchCalibrations(benchId: string): Promise<ChannelCalibra
       efficiency: row?.efficiency ?? 1,
     };
   });
+}
+
+/**
+ * `<gateway>/<key>` of the bench's channels with at least one bin in [from, to). Exports and run
+ * reports show these only: every import adds channels to its bench, and listing them all would
+ * fill each later export with empty columns (which a re-import cannot tell apart) and each report
+ * with other recordings' outputs. Per channel the search starts at the gateway's last batch
+ * starting at or before `from` (batches of a gateway never overlap), so it walks the primary key
+ * over the range only, and stops at the first batch holding the key.
+ */
+export async function channelsWithData(benchId: string, fromMs: number, toMs: number): Promise<Set<string>> {
+  const { rows } = await getDbHandle().pool.query<{ gateway_id: string; key: string }>(
+    `select c.gateway_id, c.key from channels c
+      where c.bench_id = $1 and exists (
+        select 1 from count_batches b
+         where b.gateway_id = c.gateway_id
+           and b.t0 >= coalesce((select max(p.t0) from count_batches p where p.gateway_id = c.gateway_id and p.t0 <= $2), $2)
+           and b.t0 < $3 and b.t1 > $2 and c.key = any(b.keys))`,
+    [benchId, fromMs, toMs],
+  );
+  return new Set(rows.map((r) => `${r.gateway_id}/${r.key}`));
+}
+
+/**
+ * The channels with bins in [from, to) with their corrections, in role order. Given a run that was
+ * imported, its own channels come first with their own roles (`importCalibrations`); a live run
+ * has no such channels and keeps the bench's.
+ */
+export async function calibrationsWithData(benchId: string, fromMs: number, toMs: number, runId: number | null): Promise<ChannelCalibration[]> {
+  const [bench, own, data] = await Promise.all([
+    benchCalibrations(benchId),
+    runId === null ? Promise.resolve([]) : importCalibrations(importGatewayOf(runId)),
+    channelsWithData(benchId, fromMs, toMs),
+  ]);
+  const id = (c: ChannelCalibration) => `${c.gateway}/${c.key}`;
+  const ownIds = new Set(own.map(id));
+  return [...own, ...bench.filter((c) => !ownIds.has(id(c)))].filter((c) => data.has(id(c)));
 }

@@ -6,7 +6,7 @@ import { recordIdSchema } from '../../record-id.ts';
 import { and, eq } from 'drizzle-orm';
 import { z } from 'zod';
 import { columnsOf, metadataLines, rowCells, rowLine, type CsvMeta, type CsvRow } from '../../counts-csv.ts';
-import { benchCalibrations, getBench } from '../benches.ts';
+import { calibrationsWithData, getBench } from '../benches.ts';
 import { getDb, getDbHandle } from '../db/index.ts';
 import { unpackRow } from '../db/packed-counts.ts';
 import { runs } from '../db/schema.ts';
@@ -52,7 +52,9 @@ export async function planExport(benchId: string, q: ExportQuery): Promise<Expor
   }
   if (!(toMs > fromMs)) throw new HttpError(422, 'to must be after from');
   if (toMs - fromMs > MAX_RANGE_MS) throw new HttpError(422, 'at most 31 days per export; use the counts API with a step for longer spans');
-  const chans = await benchCalibrations(benchId);
+  // Only channels with bins in the range: an earlier import's channels would otherwise stand as
+  // empty columns in every later export.
+  const chans = await calibrationsWithData(benchId, fromMs, toMs, run?.id ?? null);
   const gws = [...new Set(chans.map((c) => c.gateway))];
   const { rows: flags } = await getDbHandle().pool.query<{ has_x: boolean; has_cc: boolean }>(
     `select exists(select 1 from count_batches where gateway_id = any($1) and t0 < $3 and t1 > $2 and x is not null) as has_x,

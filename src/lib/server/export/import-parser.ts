@@ -5,7 +5,12 @@
 // Rules: t_ms integer ms, strictly increasing; the first two rows are adjacent bins and fix the
 // bin width dt; later rows are dt apart or a whole number of dt later (a gap); the first t_ms is
 // a multiple of dt (the contract's rule for t0). Every channel cell is an integer count in
-// 0…2^31−1, x a finite number, cc an integer ≥ 0. No empty cells.
+// 0…2^31−1, x a finite number, cc an integer ≥ 0. An empty cell is no bin of that channel at that
+// time (as the export writes it where a gateway has none); a row needs at least one count.
+//
+// An import is one recording under one pseudo-gateway, so a channel is its key: columns of
+// several gateways with the same key (an export over a live gateway's time and an earlier
+// import's, say) are one channel, as long as no row has a count in two of them.
 import { channelKeySchema, MAX_BINS, MAX_COUNT, MAX_EPOCH_MS } from '../../contract/wire.ts';
 import { parseChannelLine } from '../../counts-csv.ts';
 import type { ImportIssue } from '../../import-shapes.ts';
@@ -14,6 +19,7 @@ import type { Slice } from '../ingest/coverage.ts';
 export type { ImportIssue };
 
 export interface ChannelInfo {
+  /** The first column of the key (a file may hold the key under several gateways). */
   column: string;
   key: string;
   /** From the export's `# channel` line, when the file has one. */
@@ -30,6 +36,18 @@ const MAX_ISSUES = 20;
 
 const num = (s: string | undefined) => (s === undefined || s === '' ? null : Number.isFinite(Number(s)) ? Number(s) : null);
 
+/** The batch being built: contiguous rows with the same channels, x and cc present. */
+interface OpenBatch {
+  t0: number;
+  shape: string;
+  /** Indices into `channels` of the keys with counts, and their counts bin by bin. */
+  present: number[];
+  counts: number[][];
+  x: number[] | null;
+  cc: number[] | null;
+  n: number;
+}
+
 export class CountsCsvReader {
   readonly issues: ImportIssue[] = [];
   channels: ChannelInfo[] = [];
@@ -39,12 +57,16 @@ export class CountsCsvReader {
   firstT: number | null = null;
   lastT: number | null = null;
   rows = 0;
+  /** From the export's `# wavelength_nm:` and `# bench:` lines; null in a plain table. */
+  wavelengthNm: number | null = null;
+  sourceBench: string | null = null;
   private meta = new Map<string, Record<string, string>>();
   private header: string[] | null = null;
   private xCol = -1;
   private ccCol = -1;
-  private chanCols: number[] = [];
-  private cur: { t0: number; counts: number[][]; x: number[]; cc: number[] } | null = null;
+  /** Per channel, its columns in the file. */
+  private chanCols: number[][] = [];
+  private cur: OpenBatch | null = null;
 
   /** `onBatch` receives each completed batch (≤ 10,000 bins, contiguous). */
   constructor(private readonly onBatch: (slice: Slice) => void) {}
@@ -66,8 +88,7 @@ export class CountsCsvReader {
     const first = (fields[0] ?? '').trim();
     if (first.startsWith('#')) {
       if (this.header) return;
-      const ch = parseChannelLine(raw);
-      if (ch) this.meta.set(ch.column, ch.fields);
+      this.readComment(raw);
       return;
     }
     if (fields.every((f) => f.trim() === '')) return;
@@ -75,21 +96,29 @@ export class CountsCsvReader {
     this.readRow(fields, line);
   }
 
+  private readComment(raw: string): void {
+    const ch = parseChannelLine(raw);
+    if (ch) return void this.meta.set(ch.column, ch.fields);
+    const wl = /^#\s*wavelength_nm:\s*(\S+)\s*$/.exec(raw.trim());
+    if (wl) return void (this.wavelengthNm = num(wl[1]));
+    const bench = /^#\s*bench:\s*([a-z0-9][a-z0-9-]{0,39})(\s|$)/.exec(raw.trim());
+    if (bench) this.sourceBench = bench[1]!;
+  }
+
   private readHeader(cols: string[], line: number): void {
     this.header = cols;
     if (cols[0] !== 't_ms') this.issue(line, `the first column must be t_ms (found "${cols[0]?.slice(0, 30) ?? ''}")`);
-    const seen = new Map<string, string>();
     cols.forEach((c, i) => {
       if (i === 0) return;
       if (c === 'x') return void (this.xCol = i);
       if (c === 'cc') return void (this.ccCol = i);
       const key = c.includes('/') ? c.slice(c.lastIndexOf('/') + 1) : c;
       if (!channelKeySchema.safeParse(key).success) return this.issue(line, `column "${c.slice(0, 40)}": a channel key must match [a-z0-9_]{1,16}`);
-      if (seen.has(key)) return this.issue(line, `columns "${seen.get(key)}" and "${c}" share the channel key "${key}": rename one`);
-      seen.set(key, c);
+      const known = this.channels.findIndex((ch) => ch.key === key);
+      if (known >= 0) return void this.chanCols[known]!.push(i);
       const m = this.meta.get(c) ?? {};
       const model = m['dead_time_model'];
-      this.chanCols.push(i);
+      this.chanCols.push([i]);
       this.channels.push({
         column: c,
         key,
@@ -114,24 +143,33 @@ export class CountsCsvReader {
     if (!/^\d+$/.test(cell(0)) || !Number.isSafeInteger(t)) return this.issue(line, `t_ms "${cell(0).slice(0, 30)}" is not a whole number of ms`);
     // Room for one bin of the contract's widest (60 s) after it: its end must still be a date.
     if (t > MAX_EPOCH_MS - 60_000) return this.issue(line, `t_ms ${t} is past the last representable date`);
-    const counts: number[] = [];
-    for (const i of this.chanCols) {
-      const s = cell(i);
-      const v = Number(s);
-      if (s === '') return this.issue(line, `${cols[i]}: empty cell`);
-      if (!/^\d+$/.test(s) || v > MAX_COUNT) return this.issue(line, `${cols[i]}: "${s.slice(0, 30)}" is not a count (integer 0…2^31−1)`);
-      counts.push(v);
+    const counts: (number | null)[] = [];
+    for (const [k, chCols] of this.chanCols.entries()) {
+      let value: number | null = null;
+      let from = -1;
+      for (const i of chCols) {
+        const s = cell(i);
+        if (s === '') continue;
+        if (!/^\d+$/.test(s) || Number(s) > MAX_COUNT) return this.issue(line, `${cols[i]}: "${s.slice(0, 30)}" is not a count (integer 0…2^31−1)`);
+        if (value !== null) return this.issue(line, `columns "${cols[from]}" and "${cols[i]}" both have a count for the channel key "${this.channels[k]!.key}": rename one`);
+        value = Number(s);
+        from = i;
+      }
+      counts.push(value);
     }
-    let x = 0;
-    if (this.hasX) {
+    if (counts.every((v) => v === null)) return this.issue(line, 'no channel has a count in this row');
+    let x: number | null = null;
+    if (this.hasX && cell(this.xCol) !== '') {
       x = Number(cell(this.xCol));
-      if (cell(this.xCol) === '' || !Number.isFinite(x)) return this.issue(line, `x: "${cell(this.xCol).slice(0, 30)}" is not a number`);
+      if (!Number.isFinite(x)) return this.issue(line, `x: "${cell(this.xCol).slice(0, 30)}" is not a number`);
     }
-    let cc = 0;
-    if (this.hasCc) {
+    let cc: number | null = null;
+    if (this.hasCc && cell(this.ccCol) !== '') {
       cc = Number(cell(this.ccCol));
       if (!/^\d+$/.test(cell(this.ccCol)) || cc > MAX_COUNT) return this.issue(line, `cc: "${cell(this.ccCol).slice(0, 30)}" is not a count`);
     }
+    // A batch holds the same channels (and x, cc) in every bin: a change of shape starts a new one.
+    const shape = counts.map((v) => (v === null ? '-' : '+')).join('') + (x === null ? '' : 'x') + (cc === null ? '' : 'c');
     if (this.lastT !== null) {
       const step = t - this.lastT;
       if (step <= 0) return this.issue(line, `t_ms ${t} is not after the previous row's ${this.lastT}`);
@@ -142,27 +180,31 @@ export class CountsCsvReader {
       } else if (step % this.dt !== 0) {
         return this.issue(line, `t_ms ${t} is ${step} ms after the previous row, not a multiple of the bin width ${this.dt} ms`);
       }
-      if (step !== this.dt || (this.cur?.x.length ?? 0) >= MAX_BINS) this.flush();
+      if (step !== this.dt || shape !== this.cur?.shape || this.cur.n >= MAX_BINS) this.flush();
     } else {
       this.firstT = t;
     }
     this.lastT = t;
     this.rows++;
     if (this.failed) return; // keep validating, stop building
-    if (!this.cur) this.cur = { t0: t, counts: this.chanCols.map(() => []), x: [], cc: [] };
-    counts.forEach((v, k) => this.cur!.counts[k]!.push(v));
-    this.cur.x.push(x);
-    this.cur.cc.push(cc);
+    if (!this.cur) {
+      const present = counts.flatMap((v, k) => (v === null ? [] : [k]));
+      this.cur = { t0: t, shape, present, counts: present.map(() => []), x: x === null ? null : [], cc: cc === null ? null : [], n: 0 };
+    }
+    const open = this.cur;
+    open.present.forEach((k, j) => open.counts[j]!.push(counts[k]!));
+    if (x !== null) open.x!.push(x);
+    if (cc !== null) open.cc!.push(cc);
+    open.n++;
   }
 
   private flush(): void {
     const c = this.cur;
     this.cur = null;
     if (!c || this.failed || this.dt === null) return;
-    const n = c.x.length;
     // Keys sorted, as the ingest stores them, so imported and live rows have the same shape.
-    const order = this.channels.map((ch, k) => ({ key: ch.key, k })).sort((a, b) => (a.key < b.key ? -1 : 1));
-    this.onBatch({ t0: c.t0, dt: this.dt, n, keys: order.map((o) => o.key), channels: order.map(({ k }) => c.counts[k]!), x: this.hasX ? c.x : null, cc: this.hasCc ? c.cc : null });
+    const order = c.present.map((k, j) => ({ key: this.channels[k]!.key, j })).sort((a, b) => (a.key < b.key ? -1 : 1));
+    this.onBatch({ t0: c.t0, dt: this.dt, n: c.n, keys: order.map((o) => o.key), channels: order.map(({ j }) => c.counts[j]!), x: c.x, cc: c.cc });
   }
 
   /** Call once after the last record. */

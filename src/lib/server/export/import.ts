@@ -15,7 +15,7 @@ import type { Slice } from '../ingest/coverage.ts';
 import { rollupDeltas } from '../ingest/rollup-math.ts';
 import { writeStatement } from '../ingest/write-statement.ts';
 import { runtime } from '../runtime.ts';
-import { IMPORT_GATEWAY_PREFIX, MAX_IMPORT_BYTES, type ImportIssue, type ImportPreview, type ImportResult } from '../../import-shapes.ts';
+import { importGatewayOf, MAX_IMPORT_BYTES, type ImportIssue, type ImportPreview, type ImportResult } from '../../import-shapes.ts';
 import { CountsCsvReader, type ChannelInfo } from './import-parser.ts';
 
 /** Batches buffered before a write inside the import's transaction. */
@@ -170,7 +170,7 @@ export async function importCounts(benchId: string, body: ReadableStream<Uint8Ar
       [benchId, opts.title, opts.userId],
     );
     const runId = Number(run.rows[0]!.id);
-    const gatewayId = `${IMPORT_GATEWAY_PREFIX}${runId}`;
+    const gatewayId = importGatewayOf(runId);
     await client.query('insert into gateways (id, bench_id) values ($1, $2)', [gatewayId, benchId]);
     const pending: Slice[] = [];
     let batches = 0;
