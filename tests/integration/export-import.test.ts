@@ -8,6 +8,7 @@ import { channels, countBatches, gateways, rollups, runs } from '../../src/lib/s
 import { importCounts } from '../../src/lib/server/export/import.ts';
 import { loadBenchView } from '../../src/lib/server/bench-view.ts';
 import { loadOverview } from '../../src/lib/server/overview.ts';
+import { loadRunReport } from '../../src/lib/server/run-report.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import type { RunningApp } from '../../src/server/app.ts';
 import { startWebApp, userWithToken } from '../helpers/web-app.ts';
@@ -18,6 +19,11 @@ const DST = `im-${tag}`;
 const GW1 = `ex-${tag}-a`;
 const GW2 = `ex-${tag}-b`;
 const T = 1_796_130_000_000;
+/** A bench with a live gateway's data at T2 and an import just before it, and an empty one. */
+const RT = `rt-${tag}`;
+const FRESH = `rf-${tag}`;
+const LIVE = `rt-${tag}-g`;
+const T2 = T + 200_000;
 let app: RunningApp;
 let op: string;
 let obs: string;
@@ -166,10 +172,6 @@ describe('export and import', () => {
   });
 
   it('exports only channels with data, and an export over a live gateway and an import imports again', async () => {
-    const RT = `rt-${tag}`;
-    const FRESH = `rf-${tag}`;
-    const LIVE = `rt-${tag}-g`;
-    const T2 = T + 200_000;
     await createBench({ id: RT, name: 'Round trip', wavelengthNm: 1550 });
     await createBench({ id: FRESH, name: 'Round trip target', wavelengthNm: 1550 });
     await createGateway(LIVE, RT);
@@ -211,6 +213,23 @@ describe('export and import', () => {
     const [srcLive, srcImp, dst] = await Promise.all([binsOf(LIVE), binsOf(imp.gatewayId), binsOf(r.gatewayId)]);
     for (const key of ['a', 'b', 'x']) expect(sums(dst, key)).toBeCloseTo(sums(srcLive, key) + sums(srcImp, key), 6);
     expect(dst.size).toBe(srcLive.size + srcImp.size);
+  });
+
+  it('reports a run with the channels that hold data in it, an imported run with its outputs as A and B', async () => {
+    const [imported] = await getDb().select().from(runs).where(and(eq(runs.benchId, RT), eq(runs.source, 'import')));
+    const [liveRun] = await getDb().insert(runs).values({ benchId: RT, title: 'Live', startMs: T2, endMs: T2 + 2000 }).returning();
+    const imp = await loadRunReport(imported!.id);
+    expect(imp!.channels.map((c) => [c.id, c.role, c.label])).toEqual([
+      [`imp-${imported!.id}/a`, 'out_a', 'a'],
+      [`imp-${imported!.id}/b`, 'out_b', 'b'],
+    ]);
+    expect(imp!.corrections.map((c) => c.gateway)).toEqual([`imp-${imported!.id}`, `imp-${imported!.id}`]);
+    const liveReport = await loadRunReport(liveRun!.id);
+    expect(liveReport!.channels.map((c) => [c.id, c.role])).toEqual([
+      [`${LIVE}/a`, 'out_a'],
+      [`${LIVE}/b`, 'out_b'],
+    ]);
+    expect(liveReport!.corrections).toHaveLength(2);
   });
 
   it('lets only operators import', async () => {
