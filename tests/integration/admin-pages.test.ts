@@ -7,6 +7,7 @@ import { getDb } from '../../src/lib/server/db/index.ts';
 import { auditLog, benches, caughtMail, channels, gateways, users } from '../../src/lib/server/db/schema.ts';
 import { createOneTimeLink } from '../../src/lib/server/one-time-links.ts';
 import { verifyGatewayToken } from '../../src/lib/server/provisioning.ts';
+import { importCounts } from '../../src/lib/server/export/import.ts';
 import type { RunningApp } from '../../src/server/app.ts';
 import { HttpClient, inputValue } from '../helpers/http-client.ts';
 import { resetSignInLimits, startWebApp, uniqueEmail, userWithToken } from '../helpers/web-app.ts';
@@ -230,6 +231,26 @@ describe('benches and gateways', () => {
     const beyond = await admin.postForm(`/admin/benches/${id}`, { intent: 'limits', driveMin: '0', driveMax: '120', driveMaxStep: '0.5', driveMinDwellMs: '5' });
     expect(beyond.status).toBe(200);
     expect(beyond.text).toContain('limits-beyond-reach');
+  });
+
+  it('lists imported recordings apart from the gateways: no token, no health page, no channel forms', async () => {
+    const bench = `tim-${process.pid}`;
+    await admin.postForm('/admin/benches', { id: bench, name: 'Imports', wavelengthNm: '780' });
+    await admin.postForm(`/admin/benches/${bench}`, { intent: 'gateway-add', gatewayId: `${bench}-g` });
+    const r = await importCounts(bench, new Blob(['t_ms,a,b\n1000,1,2\n1010,3,4\n']).stream(), { title: 'Offline night', userId: null });
+    const page = await admin.get(`/admin/benches/${bench}`);
+    const section = (h: string) => page.text.slice(page.text.indexOf(`id="${h}"`), page.text.indexOf('</section>', page.text.indexOf(`id="${h}"`)));
+    expect(section('gw-h')).toContain(`${bench}-g`);
+    expect(section('gw-h')).not.toContain(r.gatewayId);
+    expect(section('imp-h')).toContain(`href="/runs/${r.runId}"`);
+    expect(section('imp-h')).toContain('Offline night');
+    expect(section('ch-h')).not.toContain(r.gatewayId);
+    expect((await admin.get(`/benches/${bench}/gateways/${r.gatewayId}`)).status).toBe(404);
+    expect((await admin.get(`/api/v1/gateways/${r.gatewayId}/health`)).status).toBe(404);
+    const rotate = await admin.postForm(`/admin/benches/${bench}`, { intent: 'gateway-rotate', gatewayId: r.gatewayId });
+    expect(rotate.status).toBe(404);
+    const [gw] = await getDb().select().from(gateways).where(eq(gateways.id, r.gatewayId));
+    expect(gw!.tokenHash).toBeNull();
   });
 
   it('labels a channel, sets its role and corrections', async () => {

@@ -1,13 +1,14 @@
 // Admin changes to benches, their drive limits, channels and gateways. Each change and its audit
 // row commit together; gateway tokens are returned once and never logged. Revoking or rotating a
 // gateway also drops its live MQTT session (provisioning.ts asks the broker to).
-import { and, asc, eq } from 'drizzle-orm';
+import { and, asc, desc, eq } from 'drizzle-orm';
 import { z } from 'zod';
 import { coincidenceWindowSchema } from '../coincidence-window.ts';
 import { benchIdSchema, channelKeySchema, gatewayIdSchema, statusSchema } from '../contract/wire.ts';
 import { pickDriveGateway } from './commands/dispatch.ts';
 import { getDb } from './db/index.ts';
-import { benches, channels, gateways, type Bench, type Channel, type Gateway } from './db/schema.ts';
+import { benches, channels, gateways, runs, type Bench, type Channel, type Gateway } from './db/schema.ts';
+import { importGatewayOf, isImportGateway } from '../import-shapes.ts';
 import { recordAudit } from './audit.ts';
 import { serverEvents } from './events.ts';
 import type { SessionUser } from './auth/lucia.ts';
@@ -98,8 +99,12 @@ export async function updateCoincidenceWindow(actor: SessionUser, id: string, in
 
 export interface BenchAdminView {
   bench: Bench;
+  /** The devices: an imported run's pseudo-gateway has no token to rotate and nothing to be online. */
   gateways: Pick<Gateway, 'id' | 'revokedAt' | 'lastSeenAt' | 'createdAt' | 'status'>[];
+  /** The devices' channels; an imported run's carry the corrections its file gave. */
   channels: Channel[];
+  /** Imported recordings, newest first, with the run that holds each. */
+  imports: { runId: number; title: string; startMs: number; endMs: number; channels: string[] }[];
   /** What the gateway commands go to (the bench's first live one) says its drive reaches; null when it has not said. */
   reach: { gatewayId: string; min: number; max: number; unit: string } | null;
 }
@@ -113,11 +118,26 @@ export async function benchAdminView(id: string): Promise<BenchAdminView> {
     .where(eq(gateways.benchId, id))
     .orderBy(asc(gateways.createdAt), asc(gateways.id));
   const chans = await db.select().from(channels).where(eq(channels.benchId, id)).orderBy(asc(channels.gatewayId), asc(channels.key));
+  const imported = await db
+    .select({ runId: runs.id, title: runs.title, startMs: runs.startMs, endMs: runs.endMs })
+    .from(runs)
+    .where(and(eq(runs.benchId, id), eq(runs.source, 'import')))
+    .orderBy(desc(runs.startMs));
   // The gateway commands go to (dispatch.ts), so the reach shown is the one that refuses them.
   const driver = pickDriveGateway(gws);
   const scan = driver ? statusSchema.pick({ scan: true }).safeParse(driver.status ?? {}) : null;
   const reach = driver && scan?.success && scan.data.scan ? { gatewayId: driver.id, ...scan.data.scan } : null;
-  return { bench, gateways: gws, channels: chans, reach };
+  return {
+    bench,
+    gateways: gws.filter((g) => !isImportGateway(g.id)),
+    channels: chans.filter((c) => !isImportGateway(c.gatewayId)),
+    imports: imported.map((r) => ({
+      ...r,
+      endMs: r.endMs ?? r.startMs,
+      channels: chans.filter((c) => c.gatewayId === importGatewayOf(r.runId)).map((c) => c.key),
+    })),
+    reach,
+  };
 }
 
 export async function updateChannel(actor: SessionUser, benchId: string, input: unknown): Promise<Channel> {

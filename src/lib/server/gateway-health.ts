@@ -6,6 +6,7 @@ import { gatewayIdSchema } from '../contract/wire.ts';
 import { getDb, getDbHandle } from './db/index.ts';
 import { unpackCounts } from './db/packed-counts.ts';
 import { gatewayHealth, gateways } from './db/schema.ts';
+import { isImportGateway } from '../import-shapes.ts';
 
 /** Rates are over the bins of this last stretch of time (ms). */
 export const RATE_WINDOW_MS = 60_000;
@@ -50,9 +51,12 @@ function batchesIn(rows: { boot: string; seq: number }[]): number {
   return batches;
 }
 
-/** The gateway's health, or null when there is none; an id that cannot be a gateway's is not looked up. */
+/**
+ * The gateway's health, or null: for an unknown id, for an id that cannot be a gateway's (not
+ * looked up), and for an imported run's pseudo-gateway (a recording has no health).
+ */
 export async function loadGatewayHealth(gatewayId: string, now = Date.now()): Promise<GatewayHealthView | null> {
-  if (!gatewayIdSchema.safeParse(gatewayId).success) return null;
+  if (!gatewayIdSchema.safeParse(gatewayId).success || isImportGateway(gatewayId)) return null;
   const [row] = await getDb()
     .select({ g: gateways, h: gatewayHealth })
     .from(gateways)

@@ -48,6 +48,8 @@ export async function createGateway(id: string, benchId: string): Promise<{ toke
 
 /** Issues a new token; the old one stops working at once (connected sessions are dropped by the broker). */
 export async function rotateGatewayToken(id: string): Promise<{ token: string }> {
+  // A token would let something connect and publish as an imported recording.
+  if (isImportGateway(id)) throw new NotFoundError(`${id} holds an imported recording and takes no token`);
   const token = newSecret(GATEWAY_TOKEN_PREFIX);
   const res = await getDb().update(gateways).set({ tokenHash: hashSecret(token), revokedAt: null }).where(eq(gateways.id, id)).returning({ id: gateways.id });
   if (!res.length) throw new NotFoundError(`gateway ${id} does not exist`);
