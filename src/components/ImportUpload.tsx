@@ -1,18 +1,21 @@
 // Upload of a counts CSV recorded offline: preview first (nothing stored), then import into a new run.
 import { useState } from 'react';
 import { formatDateTime } from '../lib/client/format.ts';
-import { MAX_IMPORT_BYTES, type ImportPreview as Preview, type ImportResult as Imported } from '../lib/import-shapes.ts';
-
-
-async function post<T>(url: string, file: File): Promise<T> {
-  const res = await fetch(url, { method: 'POST', headers: { 'content-type': 'text/csv', accept: 'application/json' }, body: file });
-  const body = (await res.json().catch(() => null)) as (T & { error?: string; issues?: Preview['issues'] }) | null;
-  if (!res.ok) throw Object.assign(new Error(body?.error ?? `HTTP ${res.status}`), { issues: body?.issues ?? [] });
-  return body as T;
-}
+import { MAX_IMPORT_BYTES, overlapMessage, type ImportOverlap, type ImportPreview as Preview, type ImportResult as Imported } from '../lib/import-shapes.ts';
 
 /** A bin time of the file in the reader's local time, as every other time in the app. */
 const when = (ms: number | null) => (ms === null ? '—' : formatDateTime(ms, true));
+
+async function post<T>(url: string, file: File): Promise<T> {
+  const res = await fetch(url, { method: 'POST', headers: { 'content-type': 'text/csv', accept: 'application/json' }, body: file });
+  const body = (await res.json().catch(() => null)) as (T & { error?: string; issues?: Preview['issues']; overlap?: ImportOverlap }) | null;
+  if (!res.ok) {
+    // A refused overlap is worded here, in local time as the preview shows times; the server's text is in UTC.
+    const message = body?.overlap ? overlapMessage(body.overlap, when) : (body?.error ?? `HTTP ${res.status}`);
+    throw Object.assign(new Error(message), { issues: body?.issues ?? [] });
+  }
+  return body as T;
+}
 
 export default function ImportUpload({ benchId }: { benchId: string }) {
   const [file, setFile] = useState<File | null>(null);
@@ -107,6 +110,16 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
             {preview.hasX ? ', scan x' : ''}
             {preview.hasCc ? ', coincidences' : ''}.
           </p>
+          {preview.overlap && (
+            <p role="alert" className="mt-2 rounded-md border border-bad px-3 py-2 text-sm text-bad">
+              {overlapMessage(preview.overlap, when)}
+            </p>
+          )}
+          {preview.warnings.map((w) => (
+            <p key={w} role="note" className="mt-2 rounded-md border border-warn px-3 py-2 text-sm text-warn">
+              {w}
+            </p>
+          ))}
           <div className="my-2 overflow-x-auto">
             <table className="table figure">
               <thead>
@@ -135,10 +148,10 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
           <button
             className="btn-primary"
             type="button"
-            disabled={busy || !file || !title.trim()}
+            disabled={busy || !file || !title.trim() || preview.overlap !== null}
             onClick={() => void run(() => post<Imported>(`${base}?title=${encodeURIComponent(title.trim())}`, file!)).then((r) => r && (setDone(r), setPreview(null)))}
           >
-            {title.trim() ? 'Import as a new run' : 'Give the run a title to import'}
+            {preview.overlap ? 'Cannot import into this bench' : title.trim() ? 'Import as a new run' : 'Give the run a title to import'}
           </button>
         </section>
       )}

@@ -20,6 +20,31 @@ export interface ImportIssue {
   message: string;
 }
 
+/** Data the bench already holds inside a file's time, which an import would lay a second series over. */
+export interface ImportOverlap {
+  /** The file's span, ms: first bin start to last bin end. */
+  fileFromMs: number;
+  fileToMs: number;
+  /** The part of that span the bench holds data in, ms. */
+  heldFromMs: number;
+  heldToMs: number;
+  /** Whose data it is: a live gateway's, or an earlier import (named by its run, never its pseudo-gateway). */
+  held: { kind: 'live'; gateway: string } | { kind: 'import'; runId: number; title: string };
+  /** The file's `# bench:` line names this bench: it is this bench's own export. */
+  sameBench: boolean;
+}
+
+/**
+ * What the preview and the refused import say, in one wording; `time` formats a time (the upload
+ * island passes local time as its preview shows it, the server UTC for scripts).
+ */
+export function overlapMessage(o: ImportOverlap, time: (ms: number) => string): string {
+  const whose = o.held.kind === 'live' ? `live data from gateway ${o.held.gateway}` : `the imported run “${o.held.title}”`;
+  const head = `This bench already holds ${whose} from ${time(o.heldFromMs)} to ${time(o.heldToMs)}, inside the file's ${time(o.fileFromMs)} to ${time(o.fileToMs)}.`;
+  if (o.sameBench) return `${head} The file is an export of this bench, so its data is already here; nothing needs importing.`;
+  return `${head} A bench's time holds one recording: import the file into a bench with no data in that time (an admin can create one for it).`;
+}
+
 export interface ImportPreview {
   channels: { column: string; key: string; label: string | null }[];
   hasX: boolean;
@@ -31,6 +56,10 @@ export interface ImportPreview {
   toMs: number | null;
   firstRows: string[][];
   issues: ImportIssue[];
+  /** Set when the bench already holds data in the file's time: the import would be refused. */
+  overlap: ImportOverlap | null;
+  /** Things to check that do not stop the import (a wavelength other than the bench's). */
+  warnings: string[];
 }
 
 export interface ImportResult {

@@ -127,10 +127,24 @@ describe('export and import', () => {
     // The first test imported this span into DST; SRC holds it live.
     const partial = await (await api(obs, `/api/v1/benches/${SRC}/export?from=${T + 1000}&to=${T + 3000}`)).text();
     const before = (await getDb().select().from(runs)).length;
+    const [offline] = await getDb().select().from(runs).where(and(eq(runs.benchId, DST), eq(runs.title, 'Offline night')));
+    const span = { fileFromMs: T + 1000, fileToMs: T + 3000, heldFromMs: T + 1000, heldToMs: T + 3000 };
+    const expected = {
+      // An earlier import is named by its run, never by its pseudo-gateway.
+      [DST]: { ...span, held: { kind: 'import', runId: offline!.id, title: 'Offline night' }, sameBench: false },
+      // The file is SRC's own export: its data is there already.
+      [SRC]: { ...span, held: { kind: 'live', gateway: GW1 }, sameBench: true },
+    };
     for (const bench of [DST, SRC]) {
+      const preview = (await (await api(op, `/api/v1/benches/${bench}/import/preview`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: partial })).json()) as { issues: unknown[]; overlap: unknown };
+      expect(preview).toMatchObject({ issues: [], overlap: expected[bench] });
       const res = await api(op, `/api/v1/benches/${bench}/import?title=Again`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: partial });
       expect(res.status).toBe(409);
-      expect(((await res.json()) as { error: string }).error).toMatch(/already holds data in that time .*another bench/);
+      const body = (await res.json()) as { error: string; overlap: unknown };
+      expect(body.overlap).toEqual(preview.overlap);
+      expect(body.error).not.toContain('imp-');
+      expect(body.error).toContain(`from ${new Date(T + 1000).toISOString().slice(0, 19).replace('T', ' ')} UTC`);
+      expect(body.error).toMatch(bench === SRC ? /export of this bench, so its data is already here/ : /import the file into a bench with no data in that time/);
     }
     expect((await getDb().select().from(runs)).length).toBe(before);
     expect(await getDb().select().from(gateways).where(and(like(gateways.id, 'imp-%'), eq(gateways.benchId, SRC)))).toHaveLength(0);
@@ -144,6 +158,16 @@ describe('export and import', () => {
     expect(past!.gateways).toEqual([]);
     expect(past!.channels.map((c) => c.key)).toEqual(['a', 'b', 'h']);
     expect((await loadOverview()).find((b) => b.id === DST)).toMatchObject({ gatewaysOnline: 0, gatewaysTotal: 0 });
+  });
+
+  it('warns in the preview when the file was recorded at another wavelength than the bench\'s', async () => {
+    const file = ['# fringewise counts csv v1', '# bench: red (HeNe bench)', '# wavelength_nm: 632.8', 't_ms,a,b', '5000,1,2', '5010,3,4'].join('\n');
+    const p = (await (await api(op, `/api/v1/benches/${DST}/import/preview`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: file })).json()) as { issues: unknown[]; warnings: string[]; overlap: unknown };
+    expect(p).toMatchObject({ issues: [], overlap: null });
+    expect(p.warnings).toHaveLength(1);
+    expect(p.warnings[0]).toContain('recorded at 632.8 nm and this bench is set to 1550 nm');
+    const same = (await (await api(op, `/api/v1/benches/${DST}/import/preview`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: file.replace('632.8', '1550') })).json()) as { warnings: string[] };
+    expect(same.warnings).toEqual([]);
   });
 
   it('refuses a corrupt file with line numbers and stores nothing', async () => {

@@ -80,6 +80,11 @@ export function formatDateTime(ms: number, withSeconds = false): string {
   return `${d.getFullYear()}-${p(d.getMonth() + 1)}-${p(d.getDate())} ${p(d.getHours())}:${p(d.getMinutes())}${withSeconds ? `:${p(d.getSeconds())}` : ''}`;
 }
 
+/** formatDateTime's shape in UTC, marked so, for text written where the reader's time zone is unknown (API errors). */
+export function formatUtcDateTime(ms: number): string {
+  return `${new Date(ms).toISOString().slice(0, 19).replace('T', ' ')} UTC`;
+}
+
 /**
  * `YYYY-MM-DD HH:MM[:SS]` (a `T` also separates) in local time → ms; null unless it names a real
  * local time. The inverse of formatDateTime, for typed time fields: datetime-local inputs show the

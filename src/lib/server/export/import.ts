@@ -15,7 +15,8 @@ import type { Slice } from '../ingest/coverage.ts';
 import { rollupDeltas } from '../ingest/rollup-math.ts';
 import { writeStatement } from '../ingest/write-statement.ts';
 import { runtime } from '../runtime.ts';
-import { importGatewayOf, MAX_IMPORT_BYTES, type ImportIssue, type ImportPreview, type ImportResult } from '../../import-shapes.ts';
+import { formatUtcDateTime } from '../../client/format.ts';
+import { IMPORT_GATEWAY_PREFIX, importGatewayOf, isImportGateway, MAX_IMPORT_BYTES, overlapMessage, type ImportIssue, type ImportOverlap, type ImportPreview, type ImportResult } from '../../import-shapes.ts';
 import { CountsCsvReader, type ChannelInfo } from './import-parser.ts';
 
 /** Batches buffered before a write inside the import's transaction. */
@@ -85,8 +86,10 @@ async function readAll(body: ReadableStream<Uint8Array>, reader: CountsCsvReader
 }
 
 
-/** Reads the whole file and reports what an import would store; stores nothing. */
-export async function previewImport(body: ReadableStream<Uint8Array>, maxBytes = MAX_IMPORT_BYTES): Promise<ImportPreview> {
+/** Reads the whole file and reports what an import into the bench would store; stores nothing. */
+export async function previewImport(benchId: string, body: ReadableStream<Uint8Array>, maxBytes = MAX_IMPORT_BYTES): Promise<ImportPreview> {
+  const bench = await getBench(benchId);
+  if (!bench) throw new HttpError(404, 'no such bench');
   const reader = new CountsCsvReader(() => undefined);
   const firstRows: string[][] = [];
   try {
@@ -97,16 +100,25 @@ export async function previewImport(body: ReadableStream<Uint8Array>, maxBytes =
     if (!(err instanceof ImportError)) throw err;
     reader.issues.splice(0, reader.issues.length, ...err.issues);
   }
+  const fromMs = reader.firstT;
+  const toMs = reader.lastT !== null && reader.dt !== null ? reader.lastT + reader.dt : null;
+  const overlap = !reader.failed && fromMs !== null && toMs !== null ? await findOverlap(getDbHandle().pool, benchId, null, { fromMs, toMs, sourceBench: reader.sourceBench }) : null;
+  const warnings =
+    reader.wavelengthNm !== null && reader.wavelengthNm !== bench.wavelengthNm
+      ? [`The file was recorded at ${reader.wavelengthNm} nm and this bench is set to ${bench.wavelengthNm} nm: its fits would convert the fringe period to nm/V with ${bench.wavelengthNm} nm. Import it into a ${reader.wavelengthNm} nm bench unless the file's header is wrong.`]
+      : [];
   return {
     channels: reader.channels.map((c) => ({ column: c.column, key: c.key, label: c.label })),
     hasX: reader.hasX,
     hasCc: reader.hasCc,
     dtMs: reader.dt,
     rows: reader.rows,
-    fromMs: reader.firstT,
-    toMs: reader.lastT !== null && reader.dt !== null ? reader.lastT + reader.dt : null,
+    fromMs,
+    toMs,
     firstRows,
     issues: reader.issues,
+    overlap,
+    warnings,
   };
 }
 
@@ -130,31 +142,54 @@ async function insertChannels(client: pg.PoolClient, benchId: string, gatewayId:
   }
 }
 
+/** The refused import's 409: the overlap goes along, so the upload island words it in local time. */
+export class OverlapError extends HttpError {
+  constructor(readonly overlap: ImportOverlap) {
+    super(409, overlapMessage(overlap, formatUtcDateTime));
+  }
+}
+
 /**
  * A bench's time holds one recording. An import over times the bench already has data for (its
  * live gateways' or an earlier import's) would put two series under the same outputs: the counts
  * API would mix their scan positions and coincidences, and its fits would stand beside the live
- * ones. Such a file belongs to another bench. Per gateway, the last row starting before the end is
- * the only one that can reach into the span (rows of a gateway never overlap).
+ * ones. Per gateway, the last row starting before the file's end is the only one that can reach
+ * into the span last, and the row holding its start (found by one probe) or the next one the
+ * first (rows of a gateway never overlap). The earliest holder is reported.
  */
-async function refuseOverlap(client: pg.PoolClient, benchId: string, ownGateway: string, fromMs: number, toMs: number): Promise<void> {
-  // Two imports into one bench at once would each miss the other's uncommitted rows: one at a time.
-  await client.query('select pg_advisory_xact_lock(hashtext($1))', [`import:${benchId}`]);
-  const { rows } = await client.query<{ gateway_id: string; t0: number; t1: number }>(
-    `select g.id as gateway_id, c.t0, c.t1
+async function findOverlap(
+  db: pg.PoolClient | pg.Pool,
+  benchId: string,
+  ownGateway: string | null,
+  file: { fromMs: number; toMs: number; sourceBench: string | null },
+): Promise<ImportOverlap | null> {
+  const { rows } = await db.query<{ gateway_id: string; first_t0: string; last_t1: string }>(
+    `select g.id as gateway_id, f.t0 as first_t0, l.t1 as last_t1
        from gateways g
-       cross join lateral (select t0, t1 from count_batches c where c.gateway_id = g.id and c.t0 < $3 order by c.t0 desc limit 1) c
-      where g.bench_id = $1 and g.id <> $2 and c.t1 > $4
+       cross join lateral (select t1 from count_batches c where c.gateway_id = g.id and c.t0 < $3 order by c.t0 desc limit 1) l
+       cross join lateral (
+         select t0 from count_batches c
+          where c.gateway_id = g.id and c.t1 > $4
+            and c.t0 >= coalesce((select max(p.t0) from count_batches p where p.gateway_id = g.id and p.t0 <= $4), $4)
+          order by c.t0 limit 1) f
+      where g.bench_id = $1 and g.id is distinct from $2 and l.t1 > $4
+      order by f.t0
       limit 1`,
-    [benchId, ownGateway, toMs, fromMs],
+    [benchId, ownGateway, file.toMs, file.fromMs],
   );
   const hit = rows[0];
-  if (!hit) return;
-  const iso = (ms: number) => new Date(ms).toISOString();
-  throw new HttpError(
-    409,
-    `the file covers ${iso(fromMs)} to ${iso(toMs)}, and this bench already holds data in that time (${hit.gateway_id}, up to ${iso(Math.min(Number(hit.t1), toMs))}); import it into another bench`,
-  );
+  if (!hit) return null;
+  const run = isImportGateway(hit.gateway_id)
+    ? (await db.query<{ id: string; title: string }>('select id, title from runs where bench_id = $1 and id = $2', [benchId, hit.gateway_id.slice(IMPORT_GATEWAY_PREFIX.length)])).rows[0]
+    : undefined;
+  return {
+    fileFromMs: file.fromMs,
+    fileToMs: file.toMs,
+    heldFromMs: Math.max(Number(hit.first_t0), file.fromMs),
+    heldToMs: Math.min(Number(hit.last_t1), file.toMs),
+    held: run ? { kind: 'import', runId: Number(run.id), title: run.title } : { kind: 'live', gateway: hit.gateway_id },
+    sameBench: file.sourceBench === benchId,
+  };
 }
 
 /** Stores the file as a new run, or nothing at all (422 with line-numbered issues, 413 past the size limit). */
@@ -190,7 +225,10 @@ export async function importCounts(benchId: string, body: ReadableStream<Uint8Ar
     await write();
     const fromMs = reader.firstT!;
     const toMs = reader.lastT! + reader.dt!;
-    await refuseOverlap(client, benchId, gatewayId, fromMs, toMs);
+    // Two imports into one bench at once would each miss the other's uncommitted rows: one at a time.
+    await client.query('select pg_advisory_xact_lock(hashtext($1))', [`import:${benchId}`]);
+    const overlap = await findOverlap(client, benchId, gatewayId, { fromMs, toMs, sourceBench: reader.sourceBench });
+    if (overlap) throw new OverlapError(overlap);
     await client.query('update runs set start_ms = $2, end_ms = $3 where id = $1', [runId, fromMs, toMs]);
     await insertChannels(client, benchId, gatewayId, reader.channels);
     result = { runId, gatewayId, bins, batches, fromMs, toMs, channels: reader.channels.map((c) => `${gatewayId}/${c.key}`) };

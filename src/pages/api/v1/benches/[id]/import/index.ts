@@ -1,5 +1,5 @@
 import { benchIdSchema } from '../../../../../../lib/contract/wire.ts';
-import { ImportError, importCounts, importOptionsSchema } from '../../../../../../lib/server/export/import.ts';
+import { ImportError, importCounts, importOptionsSchema, OverlapError } from '../../../../../../lib/server/export/import.ts';
 import { uploadBody } from '../../../../../../lib/server/export/upload.ts';
 import { endpoint } from '../../../../../../lib/server/http/endpoint.ts';
 import { json, parseOr422 } from '../../../../../../lib/server/http/responses.ts';
@@ -12,6 +12,7 @@ export const POST = endpoint('operator', async (ctx) => {
     return json(await importCounts(benchId, uploadBody(ctx.request), { title, userId: ctx.user.id }), 201);
   } catch (err) {
     if (err instanceof ImportError) return json({ error: err.message, issues: err.issues }, 422);
+    if (err instanceof OverlapError) return json({ error: err.message, overlap: err.overlap }, 409);
     throw err;
   }
 });
