@@ -170,6 +170,17 @@ describe('export and import', () => {
     expect(same.warnings).toEqual([]);
   });
 
+  it('says once that a JSON export cannot be imported, in the preview and the import', async () => {
+    const json = await (await api(obs, `/api/v1/benches/${SRC}/export?from=${T}&to=${T + 10_000}&format=json`)).text();
+    const issue = { line: 1, message: 'only CSV can be imported; this looks like a JSON export: export the range or run as CSV and import that' };
+    const p = (await (await api(op, `/api/v1/benches/${DST}/import/preview`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: json })).json()) as { issues: unknown[] };
+    expect(p).toMatchObject({ issues: [issue] });
+    const res = await api(op, `/api/v1/benches/${DST}/import?title=From%20JSON`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: `\uFEFF\n  ${json}` });
+    expect(res.status).toBe(422);
+    expect(((await res.json()) as { issues: unknown[] }).issues).toEqual([issue]);
+    expect(await getDb().select().from(runs).where(eq(runs.title, 'From JSON'))).toHaveLength(0);
+  });
+
   it('refuses a corrupt file with line numbers and stores nothing', async () => {
     const bad = ['# from a lab notebook', 't_ms,a,b,x', '1000,5,6,0.5', '1010,5,6,0.6', '1020,5,-1,0.7', '1030,5,6,nope', '1045,5,6,0.9'].join('\n');
     const res = await api(op, `/api/v1/benches/${DST}/import?title=Broken`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: bad });

@@ -54,9 +54,25 @@ async function* capped(body: ReadableStream<Uint8Array>, maxBytes: number): Asyn
   }
 }
 
+/**
+ * Refuses a JSON body before csv-parse sees it: read as CSV, the export's JSON gives a line of
+ * "a channel key must match…" per field, or a quoting error, where one sentence says what is wrong.
+ */
+async function* csvOnly(chunks: AsyncGenerator<Uint8Array>): AsyncGenerator<Uint8Array> {
+  // The first chunk holding more than a byte order mark and white space decides.
+  let start = '';
+  for await (const chunk of chunks) {
+    if (!start) {
+      start = new TextDecoder().decode(chunk.subarray(0, 256)).replace(/^\uFEFF/, '').trimStart();
+      if (/^[[{]/.test(start)) throw new ImportError([{ line: 1, message: 'only CSV can be imported; this looks like a JSON export: export the range or run as CSV and import that' }]);
+    }
+    yield chunk;
+  }
+}
+
 /** Feeds every record to the reader; `afterRecord` may await (writes), which pauses the parse. */
 async function readAll(body: ReadableStream<Uint8Array>, reader: CountsCsvReader, maxBytes: number, afterRecord?: (fields: string[], isData: boolean) => Promise<void> | void): Promise<void> {
-  const source = Readable.from(capped(body, maxBytes));
+  const source = Readable.from(csvOnly(capped(body, maxBytes)));
   const parser = source.pipe(parse({ relax_column_count: true, relax_quotes: true, raw: true, info: true, skip_empty_lines: true, bom: true }));
   // pipe() does not forward errors: the size cap (413) must end the parse, not hang it.
   source.on('error', (err) => parser.destroy(err));
