@@ -267,6 +267,24 @@ describe('export and import', () => {
     expect(liveReport!.corrections).toHaveLength(2);
   });
 
+  it('reads an upload to its end before answering, and closes the connection past the cap', async () => {
+    const preview = (body: BodyInit) => api(op, `/api/v1/benches/${DST}/import/preview`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body });
+    const refused = await preview(new Uint8Array(51 * 1024 * 1024).fill(0x30));
+    expect(refused.status).toBe(413);
+    expect(refused.headers.get('connection')).toBe('close');
+    await refused.body?.cancel();
+    // 20 problems in the first lines end the parse; the other 16 MB are read and dropped, so the
+    // connection is free for the next request at once.
+    const bad = 't_ms,a\n' + 'x,1\n'.repeat(25) + '1000000,1\n'.repeat(1_600_000);
+    const stopped = await preview(bad);
+    expect(((await stopped.json()) as { issues: unknown[] }).issues).toHaveLength(20);
+    expect(stopped.headers.get('connection')).not.toBe('close');
+    const started = Date.now();
+    const next = await preview('t_ms,a\n9000,1\n9010,2\n');
+    expect(((await next.json()) as { issues: unknown[] }).issues).toEqual([]);
+    expect(Date.now() - started).toBeLessThan(1000);
+  });
+
   it('lets only operators import', async () => {
     const res = await api(obs, `/api/v1/benches/${DST}/import?title=x`, { method: 'POST', headers: { 'content-type': 'text/csv' }, body: 't_ms,a\n0,1\n10,2' });
     expect(res.status).toBe(403);
