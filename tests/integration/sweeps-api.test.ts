@@ -51,5 +51,6 @@ it('thins a long range evenly and keeps the last sweep', async () => {
   const res = await fetch(new URL(`/api/v1/benches/${BENCH}/sweeps?from=${T0}&to=${T0 + 60_000}&max=10`, app.url), { headers: { authorization: `Bearer ${token}` } });
   const body = (await res.json()) as { start: number; counts: number }[];
   expect(res.headers.get('x-sweeps-thinned-by')).toBe('5');
-  expect(body.map((s) => s.counts)).toEqual([1000, 1005, 1010, 1015, 1020, 1025, 1030, 1035, 1040, 1045, 1049]);
+  // At most max: every fifth counted back from the last.
+  expect(body.map((s) => s.counts)).toEqual([1004, 1009, 1014, 1019, 1024, 1029, 1034, 1039, 1044, 1049]);
 });

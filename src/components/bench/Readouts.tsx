@@ -17,7 +17,8 @@ function Tile(props: { label: string; value: string; unit?: string | undefined; 
         <span className={`whitespace-nowrap text-2xl font-medium md:text-3xl ${props.tone ?? ''}`}>{props.value}</span>
         {props.unit && <span className="whitespace-nowrap text-sm text-muted">{props.unit}</span>}
       </p>
-      {props.subs?.map((s, i) => s && <p key={i} className="figure mt-0.5 truncate text-xs text-muted" title={s}>{s}</p>)}
+      {/* Secondary lines wrap rather than lose their ends ("per 10 ms bin", "(drift)"). */}
+      {props.subs?.map((s, i) => s && <p key={i} className="figure mt-0.5 text-xs text-muted [overflow-wrap:anywhere]">{s}</p>)}
       {props.warning && <p className="mt-0.5 truncate text-xs text-warn" title={props.warning.full} data-testid={props.testId && `${props.testId}-warning`}>{props.warning.short}</p>}
     </div>
   );

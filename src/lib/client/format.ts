@@ -64,8 +64,9 @@ export function formatValueErr(v: { value: number; err: number } | null | undefi
   return `${v.value.toFixed(d)}${PLUS_MINUS}${Number.isFinite(v.err) ? v.err.toFixed(d) : '?'}`;
 }
 
+/** A number at fixed decimals, negative with a true minus sign like every other figure on screen. */
 export function formatNumber(v: number | null | undefined, decimals: number): string {
-  return v == null || !Number.isFinite(v) ? DASH : v.toFixed(decimals);
+  return v == null || !Number.isFinite(v) ? DASH : v.toFixed(decimals).replace(/^-/, '−');
 }
 
 /** Local time of day with seconds, e.g. "14:03:27". */

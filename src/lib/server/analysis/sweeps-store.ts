@@ -119,7 +119,8 @@ export async function sweepsBetween(benchId: string, fromMs: number, toMs: numbe
     .from(sweeps)
     .where(inRange)
     .as('numbered');
-  const picked = db.select({ id: numbered.id }).from(numbered).where(sql`(${numbered.rn} - 1) % ${k} = 0 or ${numbered.rn} = ${n}`);
+  // Every k-th counted back from the last: the last is kept and there are at most ⌈n/k⌉ ≤ max.
+  const picked = db.select({ id: numbered.id }).from(numbered).where(sql`(${n} - ${numbered.rn}) % ${k} = 0`);
   const rows = await db.select().from(sweeps).where(inArray(sweeps.id, picked)).orderBy(asc(sweeps.startMs));
   return { rows, thinnedBy: k, total: n };
 }
