@@ -11,6 +11,8 @@ import { useNow } from '../../lib/client/use-now.ts';
 
 /** Narrowest time span drawn, s: two sweeps seconds apart would otherwise get millisecond ticks. */
 const MIN_SPAN_S = 120;
+/** The pass line breaks where passes stop for longer than this or five usual spacings, s. */
+const TREND_GAP_MIN_S = 120;
 
 export interface EnvelopePoint {
   /** ms since the epoch */
@@ -57,14 +59,24 @@ export function VisibilityTrend(props: Props) {
 
   const data = (): uPlot.AlignedData => {
     const { sweeps, envelope, limit } = ref.current;
-    // Sweeps and envelope points on one sorted time axis, nulls where a series has no value.
-    const rows: [number, number | null, number | null, number | null, number | null][] = [];
+    // Sweeps and envelope points on one sorted time axis: `undefined` where a series has no value
+    // at a time (uPlot draws through it), an explicit null where the passes stop for a while (uPlot
+    // breaks the line there, so a quiet hour is not drawn as a trend).
+    type Cell = number | null | undefined;
+    const rows: [number, Cell, Cell, Cell, Cell][] = [];
+    const times = sweeps.map((s) => (s.start + s.end) / 2000).sort((a, b) => a - b);
+    const steps = times.slice(1).map((t, i) => t - (times[i] as number)).sort((a, b) => a - b);
+    const gap = Math.max(TREND_GAP_MIN_S, 5 * (steps[steps.length >> 1] ?? 0));
+    for (let i = 1; i < times.length; i++) {
+      const [t0, t1] = [times[i - 1] as number, times[i] as number];
+      if (t1 - t0 > gap) rows.push([(t0 + t1) / 2, null, null, null, undefined]);
+    }
     for (const s of sweeps) {
       const t = (s.start + s.end) / 2000;
       const v = shownVisibility(s);
-      rows.push([t, v.value, v.value - v.err, v.value + v.err, null]);
+      rows.push([t, v.value, v.value - v.err, v.value + v.err, undefined]);
     }
-    for (const e of envelope) rows.push([e.t / 1000, null, null, null, e.v]);
+    for (const e of envelope) rows.push([e.t / 1000, undefined, undefined, undefined, e.v]);
     rows.sort((a, b) => a[0] - b[0]);
     const x = rows.map((r) => r[0]);
     const lim = rows.map(() => limit);
@@ -82,10 +94,10 @@ export function VisibilityTrend(props: Props) {
       bands: [{ series: [3, 2], fill: withAlpha(p.accent, 0.18) }],
       series: [
         { label: 'time' },
-        { label: 'pass fit ± 1σ', stroke: p.accent, width: 1.5, points: { show: true, size: 5, fill: p.accent }, spanGaps: true },
+        { label: 'pass fit ± 1σ', stroke: p.accent, width: 1.5, points: { show: true, size: 5, fill: p.accent } },
         // The band's edges: drawn as the shaded band only, so kept out of the legend ('hidden!' beats uPlot's unlayered legend CSS).
-        { label: '−1σ', class: 'hidden!', stroke: 'transparent', points: { show: false }, spanGaps: true },
-        { label: '+1σ', class: 'hidden!', stroke: 'transparent', points: { show: false }, spanGaps: true },
+        { label: '−1σ', class: 'hidden!', stroke: 'transparent', points: { show: false } },
+        { label: '+1σ', class: 'hidden!', stroke: 'transparent', points: { show: false } },
         // In the legend only when drawn: an entry for a line that is not there reads as a missing line.
         { label: 'fringe envelope', ...(hasEnvelope ? {} : { class: 'hidden!' }), stroke: p.muted, width: 1, dash: [3, 3], points: { show: false }, spanGaps: true },
         { label: 'alarm limit', ...(hasLimit ? {} : { class: 'hidden!' }), stroke: p.bad, width: 1.5, dash: [8, 4], points: { show: false }, spanGaps: true },
