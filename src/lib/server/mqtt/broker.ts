@@ -30,12 +30,15 @@ function authError(returnCode: 2 | 3 | 4 | 5, message: string): AuthenticateErro
 }
 
 /**
- * The largest remaining length of any packet we accept: a PUBLISH of the contract's largest payload
- * (256 KiB) on a gateway's longest topic (`{prefix}/{40-char gw}/status`), with the topic's 2-byte
- * length and the QoS 1 packet id. Anything longer can only be refused, so it is never read whole.
+ * The largest remaining length of a packet the broker reads whole: a PUBLISH of four times the
+ * contract's largest payload (256 KiB) on a gateway's longest topic (`{prefix}/{40-char gw}/status`),
+ * with the topic's 2-byte length and the QoS 1 packet id. A payload a little over the contract's
+ * limit (a gateway's bug) is still read, rejected whole with its reason and counted, and the
+ * gateway's session goes on; anything longer closes the connection at its header, so a huge
+ * publish is never buffered.
  */
 export function maxPacketRemaining(prefix: string): number {
-  return 2 + Buffer.byteLength(`${prefix}/${'g'.repeat(40)}/status`) + 2 + MAX_PAYLOAD_BYTES;
+  return 2 + Buffer.byteLength(`${prefix}/${'g'.repeat(40)}/status`) + 2 + 4 * MAX_PAYLOAD_BYTES;
 }
 
 export async function startEmbeddedBroker(opts: EmbeddedBrokerOptions): Promise<MqttTransport> {
