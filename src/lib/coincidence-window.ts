@@ -2,6 +2,7 @@
 // divides the coincidences by the accidentals N₁N₂τ_c/T, so a wrong window scales g2(0) by
 // (true window)/(set window). Pure: the admin form, the server's validation and the readout share it.
 import { z } from 'zod';
+import { formNumber } from './form-number.ts';
 
 /**
  * Bounds, ns. Above 0.01 ns (10 ps): time taggers resolve a few ps and detector jitter is ≥ ~10 ps,
@@ -15,14 +16,10 @@ export const COINCIDENCE_WINDOW_NS = { min: 0.01, max: 1000 } as const;
 export const DEFAULT_COINCIDENCE_WINDOW_NS = 2;
 
 export const coincidenceWindowSchema = z.object({
-  // An empty box is "no number", not the 0 that coercing '' would give.
-  coincidenceWindowNs: z.preprocess(
-    (v) => (v === '' ? undefined : v),
-    z.coerce
-      .number({ invalid_type_error: 'coincidence window must be a number' })
-      .finite('coincidence window must be a number')
-      .min(COINCIDENCE_WINDOW_NS.min, `coincidence window below ${COINCIDENCE_WINDOW_NS.min} ns (10 ps)? give it in ns`)
-      .max(COINCIDENCE_WINDOW_NS.max, `coincidence window above ${COINCIDENCE_WINDOW_NS.max} ns (1 µs)? give it in ns`),
+  coincidenceWindowNs: formNumber((n) =>
+    n
+      .min(COINCIDENCE_WINDOW_NS.min, `below ${COINCIDENCE_WINDOW_NS.min} ns (10 ps)? give it in ns`)
+      .max(COINCIDENCE_WINDOW_NS.max, `above ${COINCIDENCE_WINDOW_NS.max} ns (1 µs)? give it in ns`),
   ),
 });
 

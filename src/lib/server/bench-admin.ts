@@ -4,6 +4,7 @@
 import { and, asc, desc, eq } from 'drizzle-orm';
 import { z } from 'zod';
 import { coincidenceWindowSchema } from '../coincidence-window.ts';
+import { formNumber } from '../form-number.ts';
 import { benchIdSchema, channelKeySchema, gatewayIdSchema, statusSchema } from '../contract/wire.ts';
 import { pickDriveGateway } from './commands/dispatch.ts';
 import { getDb } from './db/index.ts';
@@ -15,25 +16,25 @@ import type { SessionUser } from './auth/lucia.ts';
 import { HttpError } from './http/responses.ts';
 import { createBench, createGateway, revokeGateway, rotateGatewayToken, type BenchInput } from './provisioning.ts';
 
-const num = (label: string) => z.coerce.number({ invalid_type_error: `${label} must be a number` }).finite(`${label} must be a number`);
+// Messages leave out the field's name: the form puts its label in front (http/form-action.ts).
 /** Optional numeric form field: an empty box means "not set". */
-const optionalNum = (label: string) => z.preprocess((v) => (v === '' || v === undefined ? null : v), num(label).nullable());
+const optionalNum = () => z.preprocess((v) => (typeof v === 'string' && v.trim() === '' ? null : v), formNumber().nullable());
 
 export const benchDetailsSchema = z.object({
   name: z.string().trim().min(1, 'a name is needed').max(100),
-  wavelengthNm: num('wavelength').min(100, 'wavelength below 100 nm?').max(20_000, 'wavelength above 20 µm?'),
+  wavelengthNm: formNumber((n) => n.min(100, 'wavelength below 100 nm?').max(20_000, 'wavelength above 20 µm?')),
   description: z.string().trim().max(2000).default(''),
   // 2 for a retro-reflecting mirror moved in one arm; other geometries differ (see the bench page).
-  pathFactor: num('path factor').positive('path factor must be above 0').max(10, 'path factor above 10?'),
+  pathFactor: formNumber((n) => n.positive('path factor must be above 0').max(10, 'path factor above 10?')),
 });
 
 /** Volts and milliseconds, the units of the wire contract's sweep command. */
 export const driveLimitsSchema = z
   .object({
-    driveMin: num('lowest drive').min(-1000).max(1000),
-    driveMax: num('highest drive').min(-1000).max(1000),
-    driveMaxStep: num('largest step').positive('largest step must be above 0'),
-    driveMinDwellMs: num('shortest dwell').int('shortest dwell is whole milliseconds').min(1, 'shortest dwell is at least 1 ms').max(60_000),
+    driveMin: formNumber((n) => n.min(-1000).max(1000)),
+    driveMax: formNumber((n) => n.min(-1000).max(1000)),
+    driveMaxStep: formNumber((n) => n.positive('largest step must be above 0')),
+    driveMinDwellMs: formNumber((n) => n.int('shortest dwell is whole milliseconds').min(1, 'shortest dwell is at least 1 ms').max(60_000)),
   })
   .refine((v) => v.driveMin < v.driveMax, { message: 'the lowest drive must be below the highest', path: ['driveMax'] })
   .refine((v) => v.driveMaxStep <= v.driveMax - v.driveMin, { message: 'the largest step cannot exceed the drive range', path: ['driveMaxStep'] });
@@ -45,11 +46,11 @@ export const channelSettingsSchema = z
     label: z.string().trim().max(60).default(''),
     // '' clears an explicit role, so the contract's default (first two keys = outputs) applies again.
     role: z.enum(['', 'out_a', 'out_b', 'herald', 'aux']).transform((r) => (r === '' ? null : r)),
-    darkRate: optionalNum('dark rate').refine((v) => v === null || v >= 0, 'dark rate cannot be negative'),
-    darkRateErr: optionalNum('dark rate uncertainty').refine((v) => v === null || v >= 0, 'uncertainty cannot be negative'),
-    deadTimeNs: optionalNum('dead time').refine((v) => v === null || (v >= 0 && v <= 1e6), 'dead time must be 0 … 1 000 000 ns'),
+    darkRate: optionalNum().refine((v) => v === null || v >= 0, 'dark rate cannot be negative'),
+    darkRateErr: optionalNum().refine((v) => v === null || v >= 0, 'uncertainty cannot be negative'),
+    deadTimeNs: optionalNum().refine((v) => v === null || (v >= 0 && v <= 1e6), 'dead time must be 0 … 1 000 000 ns'),
     deadTimeModel: z.enum(['nonparalyzable', 'paralyzable']),
-    efficiency: num('efficiency').gt(0, 'efficiency must be above 0').max(10, 'relative efficiency above 10?'),
+    efficiency: formNumber((n) => n.gt(0, 'efficiency must be above 0').max(10, 'relative efficiency above 10?')),
   })
   .refine((v) => v.darkRateErr === null || v.darkRate !== null, { message: 'give the dark rate with its uncertainty', path: ['darkRate'] });
 

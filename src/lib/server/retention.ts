@@ -15,6 +15,7 @@
 // whose raw data outgrows it.
 import { eq } from 'drizzle-orm';
 import { z } from 'zod';
+import { formNumber } from '../form-number.ts';
 import { recordAudit } from './audit.ts';
 import { getDb, getDbHandle } from './db/index.ts';
 import { settings } from './db/schema.ts';
@@ -22,7 +23,7 @@ import { CC_KEY } from './ingest/rollup-math.ts';
 import { runtime } from './runtime.ts';
 
 const DAY_MS = 86_400_000;
-const days = z.coerce.number().int('whole days').min(1, 'at least 1 day').max(36_500, 'at most 100 years');
+const days = formNumber((n) => n.int('whole days').min(1, 'at least 1 day').max(36_500, 'at most 100 years'));
 
 export const retentionSettingsSchema = z
   .object({

@@ -4,6 +4,7 @@ import { and, asc, desc, eq } from 'drizzle-orm';
 import { z } from 'zod';
 import { ALARM_METRICS, METRIC_INFO, SEVERITIES } from '../../alarm-messages.ts';
 import { channelKeySchema, gatewayIdSchema } from '../../contract/wire.ts';
+import { finiteNumber, NUMBER_HINT, readFormNumber } from '../../form-number.ts';
 import { recordAudit } from '../audit.ts';
 import { getBench } from '../benches.ts';
 import { getDb } from '../db/index.ts';
@@ -11,7 +12,8 @@ import { alarmRules, auditLog, users, type AlarmRule } from '../db/schema.ts';
 import { HttpError } from '../http/responses.ts';
 import { runtime } from '../runtime.ts';
 
-const finite = z.number().finite();
+// The form's messages for the API too: "enter a number with a decimal point" fits a script's slip as well.
+const finite = finiteNumber().finite(NUMBER_HINT);
 
 export const ruleInputSchema = z
   .object({
@@ -27,7 +29,7 @@ export const ruleInputSchema = z
     threshold: finite,
     clearThreshold: finite,
     // Up to a day (s): longer holds would hide a real problem for a whole night.
-    holdSeconds: z.number().min(0).max(86_400).default(0),
+    holdSeconds: finiteNumber().min(0, 'cannot be negative').max(86_400, 'at most a day (86400 s)').default(0),
     severity: z.enum(SEVERITIES).default('warning'),
     recipients: z.array(z.string().trim().email('recipients must be e-mail addresses')).max(20).default([]),
     enabled: z.boolean().default(true),
@@ -54,8 +56,6 @@ export const ruleInputSchema = z
   });
 export type RuleInput = z.infer<typeof ruleInputSchema>;
 
-const num = (v: unknown) => (typeof v === 'string' && v.trim() !== '' ? Number(v) : v);
-
 /** The same rule from an HTML form: numbers as text, recipients one per line or comma-separated. */
 export const ruleFormSchema = z.preprocess((raw) => {
   const f = (raw ?? {}) as Record<string, string | undefined>;
@@ -63,9 +63,9 @@ export const ruleFormSchema = z.preprocess((raw) => {
     name: f['name'],
     metric: f['metric'],
     channel: f['channel'],
-    threshold: num(f['threshold']),
-    clearThreshold: num(f['clearThreshold']),
-    holdSeconds: num(f['holdSeconds'] || '0'),
+    threshold: readFormNumber(f['threshold']),
+    clearThreshold: readFormNumber(f['clearThreshold']),
+    holdSeconds: readFormNumber(f['holdSeconds'] || '0'),
     severity: f['severity'],
     recipients: (f['recipients'] ?? '')
       .split(/[\s,;]+/)
