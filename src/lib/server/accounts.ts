@@ -64,7 +64,7 @@ export async function inviteUser(actor: SessionUser, input: z.input<typeof invit
     .values({ id: newId(), email: data.email, name: data.name, role: data.role, passwordHash: null })
     .onConflictDoNothing({ target: users.email })
     .returning();
-  if (!row) throw new HttpError(409, `${data.email} already has an account`);
+  if (!row) throw new HttpError(409, `${data.email} already has an account`, 'email');
   await recordAudit({ actorId: actor.id, entity: 'user', entityId: row.id, action: 'invite', after: publicUser(row) });
   try {
     await mailLink(row, 'invite', origin, actor);
@@ -134,7 +134,7 @@ export const changePasswordSchema = z
 export async function changeOwnPassword(userId: string, currentSessionId: string | null, input: z.input<typeof changePasswordSchema>): Promise<void> {
   const data = changePasswordSchema.parse(input);
   const user = await loadUser(userId);
-  if (!user.passwordHash || !(await verifyPassword(user.passwordHash, data.current))) throw new HttpError(422, 'the current password is not right');
+  if (!user.passwordHash || !(await verifyPassword(user.passwordHash, data.current))) throw new HttpError(422, 'the current password is not right', 'current');
   await getDb().update(users).set({ passwordHash: await hashPassword(data.password) }).where(eq(users.id, userId));
   await invalidateOtherSessions(userId, currentSessionId);
 }

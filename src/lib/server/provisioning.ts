@@ -24,7 +24,7 @@ export type BenchInput = z.input<typeof benchInputSchema>;
 export async function createBench(input: BenchInput): Promise<Bench> {
   const values = benchInputSchema.parse(input);
   const [row] = await getDb().insert(benches).values(values).onConflictDoNothing({ target: benches.id }).returning();
-  if (!row) throw new DuplicateError(`bench ${values.id} already exists`);
+  if (!row) throw new DuplicateError(`bench ${values.id} already exists`, 'id');
   return row;
 }
 
@@ -41,7 +41,7 @@ export async function createGateway(id: string, benchId: string): Promise<{ toke
     .values({ id, benchId, tokenHash: hashSecret(token) })
     .onConflictDoNothing({ target: gateways.id })
     .returning({ id: gateways.id });
-  if (!row) throw new DuplicateError(`gateway ${id} already exists`);
+  if (!row) throw new DuplicateError(`gateway ${id} already exists`, 'gatewayId');
   await db.insert(gatewayHealth).values({ gatewayId: id }).onConflictDoNothing();
   return { token };
 }

@@ -12,7 +12,15 @@ export const emailSchema = z.string().trim().toLowerCase().email('not a valid e-
 export const passwordSchema = z.string().min(MIN_PASSWORD_LENGTH, `passwords need at least ${MIN_PASSWORD_LENGTH} characters`).max(200);
 export const roleSchema = z.enum(['admin', 'operator', 'observer']);
 
-export class DuplicateError extends Error {}
+export class DuplicateError extends Error {
+  constructor(
+    message: string,
+    /** The form field holding the name that is taken. */
+    readonly field: string,
+  ) {
+    super(message);
+  }
+}
 
 export async function findUserByEmail(email: string): Promise<User | null> {
   const [row] = await getDb().select().from(users).where(eq(users.email, email.trim().toLowerCase())).limit(1);
@@ -27,7 +35,7 @@ export async function createUser(input: { email: string; role: Role; name?: stri
     .values({ id: newId(), email, role: input.role, name: input.name ?? '', passwordHash })
     .onConflictDoNothing({ target: users.email })
     .returning();
-  if (!row) throw new DuplicateError(`a user with e-mail ${email} already exists`);
+  if (!row) throw new DuplicateError(`a user with e-mail ${email} already exists`, 'email');
   return row;
 }
 

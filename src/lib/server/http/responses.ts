@@ -6,6 +6,8 @@ export class HttpError extends Error {
   constructor(
     readonly status: number,
     message: string,
+    /** The form field at fault, where there is one: a form shows the message next to it. */
+    readonly field?: string,
   ) {
     super(message);
   }
