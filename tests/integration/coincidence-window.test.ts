@@ -39,9 +39,9 @@ describe('coincidence window', () => {
       ['0', 'below 0.01 ns'],
       ['-2', 'below 0.01 ns'],
       ['1500', 'above 1000 ns'],
-      ['abc', 'enter a number with a decimal point, such as 0.8'],
-      ['0,5', 'enter a number with a decimal point, such as 0.8'],
-      ['', 'enter a number'],
+      ['abc', 'Coincidence window (ns): enter a number with a decimal point, such as 0.8'],
+      ['0,5', 'Coincidence window (ns): enter a number with a decimal point, such as 0.8'],
+      ['', 'Coincidence window (ns): enter a number'],
     ] as const) {
       const res = await admin.postForm(`/admin/benches/${benchId}`, { intent: 'coincidence', coincidenceWindowNs: value });
       expect(res.status, value).toBe(422);
