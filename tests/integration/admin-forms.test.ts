@@ -1,10 +1,10 @@
 // A refused admin form comes back as it was typed, with the reason next to the box it concerns and
 // named in the notice by the box's label; nothing is stored. Number boxes refuse a decimal comma
-// with what to type instead.
+// with what to type instead. Drive limits beyond the drive's reach are saved with a warning.
 import { and, eq } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { getDb } from '../../src/lib/server/db/index.ts';
-import { alarmRules, apiTokens, auditLog, benches, channels, users } from '../../src/lib/server/db/schema.ts';
+import { alarmRules, apiTokens, auditLog, benches, channels, gateways, users } from '../../src/lib/server/db/schema.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import { getRetention } from '../../src/lib/server/retention.ts';
 import type { RunningApp } from '../../src/server/app.ts';
@@ -73,6 +73,18 @@ describe('drive limits', () => {
     const [after] = await getDb().select().from(benches).where(eq(benches.id, BENCH));
     expect(after).toEqual(before);
     expect(await benchAudits()).toEqual([]);
+  });
+
+  it('saves limits beyond the reach the drive reports, and says so naming that reach', async () => {
+    await getDb().update(gateways).set({ status: { v: 1, state: 'online', scan: { min: 0, max: 150, unit: 'V' } } }).where(eq(gateways.id, GW));
+    const res = await admin.postForm(`/admin/benches/${BENCH}`, { intent: 'limits', driveMin: '-50', driveMax: '500', driveMaxStep: '1', driveMinDwellMs: '5' });
+    expect(res.status).toBe(200);
+    expect(res.text).toContain('Drive limits saved');
+    expect(res.text).toMatch(/data-testid="saved-beyond-reach"[^>]*>[^<]*beyond the 0–150 V that the drive of/);
+    const [row] = await getDb().select().from(benches).where(eq(benches.id, BENCH));
+    expect(row).toMatchObject({ driveMin: -50, driveMax: 500 });
+    // Later visits keep warning beside the form.
+    expect((await admin.get(`/admin/benches/${BENCH}`)).text).toContain('limits-beyond-reach');
   });
 
   it('a refused channel keeps what was typed in its own form only', async () => {

@@ -230,7 +230,7 @@ describe('benches and gateways', () => {
     expect(inside.text).toContain(`href="/benches/${id}/gateways/${gw}"`);
     const beyond = await admin.postForm(`/admin/benches/${id}`, { intent: 'limits', driveMin: '0', driveMax: '120', driveMaxStep: '0.5', driveMinDwellMs: '5' });
     expect(beyond.status).toBe(200);
-    expect(beyond.text).toContain('limits-beyond-reach');
+    expect(beyond.text).toContain('saved-beyond-reach');
   });
 
   it('lists imported recordings apart from the gateways: no token, no health page, no channel forms', async () => {
