@@ -79,7 +79,7 @@ export async function startApp(opts: AppOptions): Promise<RunningApp> {
     const live = await startLivePath(opts.live);
     stops.push(() => live.close());
     const analysis = startAnalysis({
-      fit: (pass, options) => fitFringesAsync({ x: pass.x, countsA: pass.a, countsB: pass.b }, options),
+      fit: (pass, options) => fitFringesAsync({ x: pass.x, countsA: pass.a, countsB: pass.b, exposure: pass.exposure }, options),
       publish: (benchId, message) => live.hub.publish(benchId, message),
     });
     runtime().analysis = analysis;

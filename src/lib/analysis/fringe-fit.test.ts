@@ -1,10 +1,11 @@
 import { levenbergMarquardt } from 'ml-levenberg-marquardt';
 import { describe, expect, it } from 'vitest';
-import { fitFringes, type FringeFit, type FringeFitOptions } from './fringe-fit.ts';
-import { gaussian, mulberry32 } from '../../../simulators/random.ts';
+import { gaussian, mulberry32, poisson } from '../../../simulators/random.ts';
+import { fitFringes, type FringeData, type FringeFit, type FringeFitOptions } from './fringe-fit.ts';
+import { expectedCounts } from './fringe-model.ts';
 import { simulateSweep, type SimulatedSweep, type SweepSpec } from './test-fixtures.ts';
 
-function fit(s: SimulatedSweep, options: FringeFitOptions = {}): FringeFit {
+function fit(s: FringeData, options: FringeFitOptions = {}): FringeFit {
   const r = fitFringes(s, options);
   if (!r.ok) throw new Error(r.reason);
   return r;
@@ -215,6 +216,34 @@ describe('joint Poisson ML fringe fit', () => {
     expect(Math.abs(sd / err - 1)).toBeLessThan(0.2);
     // …and a fit to plain Poisson counts keeps its own errors.
     expect(fit(simulateSweep({ ...BASE, bins: 200, seed: 3 })).quality.errorScale).toBe(1);
+  });
+
+  it('fits points of unequal exposure with the exposure in the model: unbiased V and a deviance near its dof', () => {
+    // Points summing 2 and 3 bins in turn (a dwell that is no whole number of bins): the expected
+    // counts scale with the exposure (Cash, ApJ 228, 939 (1979): the statistic holds for any
+    // expected counts). Outside check: Baker–Cousins deviance ≈ χ²(dof), so deviance/dof ≈ 1 ±
+    // √(2/dof) for the right model, and V within 3σ of the truth.
+    const rng = mulberry32(31);
+    const n = 300;
+    const x = new Float64Array(n);
+    const a = new Float64Array(n);
+    const b = new Float64Array(n);
+    const e = new Float64Array(n);
+    const p = { amplitudeA: 400, amplitudeB: 380, visibility: 0.9, period: 2.5, phase: 0.7, quadratic: 0 };
+    for (let i = 0; i < n; i++) {
+      x[i] = (10 * i) / (n - 1);
+      e[i] = i % 2 ? 3 / 2.5 : 2 / 2.5;
+      const m = expectedCounts(x[i]!, p);
+      a[i] = poisson(rng, e[i]! * m.a);
+      b[i] = poisson(rng, e[i]! * m.b);
+    }
+    const withExposure = fit({ x, countsA: a, countsB: b, exposure: e });
+    expect(Math.abs(withExposure.visibility.value - 0.9)).toBeLessThan(3 * withExposure.visibility.err);
+    expect(withExposure.quality.deviance / withExposure.quality.dof).toBeLessThan(1 + 4 * Math.sqrt(2 / withExposure.quality.dof));
+    expect(withExposure.quality.errorScale).toBe(1);
+    // Without it the same counts read as a poor fit.
+    const without = fit({ x, countsA: a, countsB: b });
+    expect(without.quality.deviance / without.quality.dof).toBeGreaterThan(5);
   });
 
   it('refuses a pass whose counts sit at or below the calibrated dark level', () => {

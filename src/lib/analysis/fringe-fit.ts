@@ -1,5 +1,6 @@
 // Joint Poisson maximum-likelihood fit of both interferometer outputs over one monotonic pass:
-//   N_a(x) = A(1 + V cos θ) + d_a,  N_b(x) = B(1 − V cos θ) + d_b,  θ = 2π(x + q·x²)/P + φ,
+//   N_a(x) = e·[A(1 + V cos θ) + d_a],  N_b(x) = e·[B(1 − V cos θ) + d_b],  θ = 2π(x + q·x²)/P + φ,
+// with e each point's relative exposure (1 unless the points sum unequal numbers of bins),
 // minimising Cash's C = 2Σ(m − n ln m) (Cash, ApJ 228, 939 (1979)) by Levenberg–Marquardt on the
 // Fisher-scoring Hessian with analytic derivatives. d_a, d_b are known dark counts per bin: fitted
 // together with A, B and V the model would be degenerate.
@@ -16,6 +17,11 @@ export interface FringeData {
   countsA: ArrayLike<number>;
   /** Counts per bin, output b. */
   countsB: ArrayLike<number>;
+  /**
+   * Relative exposure of each point (the bins summed into it over their mean, say); the expected
+   * counts scale with it, so points of 2 and 3 bins fit one fringe. Absent: all equal.
+   */
+  exposure?: ArrayLike<number>;
 }
 
 export type IntervalMethod = 'fisher' | 'profile';
@@ -141,6 +147,8 @@ interface Problem {
   u: Float64Array;
   na: Float64Array;
   nb: Float64Array;
+  /** Relative exposure per point: the model's factor. */
+  e: Float64Array;
   len: number;
   da: number;
   db: number;
@@ -191,14 +199,15 @@ function evaluate(pr: Problem, p: Float64Array): Evaluation {
     const u2 = u * u;
     if (pr.useA) {
       const n = pr.na[i] as number;
-      const m = A * (1 + V * cs) + pr.da;
+      const e = pr.e[i] as number;
+      const m = e * (A * (1 + V * cs) + pr.da);
       if (m > 0) {
         c += n > 0 ? m - n * Math.log(m) : m;
         const r = 1 - n / m;
         const w = 1 / m;
-        const d0 = 1 + V * cs;
-        const d2 = A * cs;
-        const d3 = -A * V * sn;
+        const d0 = e * (1 + V * cs);
+        const d2 = e * A * cs;
+        const d3 = -e * A * V * sn;
         g0 += r * d0;
         g2 += r * d2;
         g3 += r * d3;
@@ -226,14 +235,15 @@ function evaluate(pr: Problem, p: Float64Array): Evaluation {
     }
     if (pr.useB) {
       const n = pr.nb[i] as number;
-      const m = B * (1 - V * cs) + pr.db;
+      const e = pr.e[i] as number;
+      const m = e * (B * (1 - V * cs) + pr.db);
       if (m > 0) {
         c += n > 0 ? m - n * Math.log(m) : m;
         const r = 1 - n / m;
         const w = 1 / m;
-        const d1 = 1 - V * cs;
-        const d2 = -B * cs;
-        const d3 = B * V * sn;
+        const d1 = e * (1 - V * cs);
+        const d2 = -e * B * cs;
+        const d3 = e * B * V * sn;
         g1 += r * d1;
         g2 += r * d2;
         g3 += r * d3;
@@ -362,26 +372,33 @@ function deviance(pr: Problem, p: Float64Array): number {
   for (let i = 0; i < pr.len; i++) {
     const u = pr.u[i] as number;
     const cs = Math.cos((p[IPSI] as number) + u * ((p[IK] as number) + (p[IKAPPA] as number) * u));
-    if (pr.useA) d += term(A * (1 + V * cs) + pr.da, pr.na[i] as number);
-    if (pr.useB) d += term(B * (1 - V * cs) + pr.db, pr.nb[i] as number);
+    const e = pr.e[i] as number;
+    if (pr.useA) d += term(e * (A * (1 + V * cs) + pr.da), pr.na[i] as number);
+    if (pr.useB) d += term(e * (B * (1 - V * cs) + pr.db), pr.nb[i] as number);
   }
   return 2 * d;
 }
 
-/** Cash C of flat outputs (V = 0): each output's ML level is its mean count, floored at its dark level. */
+/**
+ * Cash C of flat outputs (V = 0): each output's ML level is its count per unit of exposure,
+ * floored at its dark level.
+ */
 function flatCash(pr: Problem): number {
   let sa = 0;
   let sb = 0;
+  let se = 0;
   for (let i = 0; i < pr.len; i++) {
     sa += pr.na[i] as number;
     sb += pr.nb[i] as number;
+    se += pr.e[i] as number;
   }
-  const ma = Math.max(sa / pr.len, pr.da + MIN_AMPLITUDE);
-  const mb = Math.max(sb / pr.len, pr.db + MIN_AMPLITUDE);
-  const la = Math.log(ma);
-  const lb = Math.log(mb);
+  const ma = Math.max(sa / se, pr.da + MIN_AMPLITUDE);
+  const mb = Math.max(sb / se, pr.db + MIN_AMPLITUDE);
   let c = 0;
-  for (let i = 0; i < pr.len; i++) c += ma - (pr.na[i] as number) * la + mb - (pr.nb[i] as number) * lb;
+  for (let i = 0; i < pr.len; i++) {
+    const e = pr.e[i] as number;
+    c += e * ma - (pr.na[i] as number) * Math.log(e * ma) + e * mb - (pr.nb[i] as number) * Math.log(e * mb);
+  }
   return 2 * c;
 }
 
@@ -405,7 +422,8 @@ function starts(pr: Problem, fMin: number, fMax: number, A0: number, B0: number)
   const z = new Float64Array(len);
   let zMean = 0;
   for (let i = 0; i < len; i++) {
-    const v = ((pr.na[i] as number) - pr.da) / A0 - ((pr.nb[i] as number) - pr.db) / B0;
+    const e = pr.e[i] as number;
+    const v = ((pr.na[i] as number) / e - pr.da) / A0 - ((pr.nb[i] as number) / e - pr.db) / B0;
     z[i] = v;
     zMean += v;
   }
@@ -596,6 +614,7 @@ function outputVisibility(pr: Problem, joint: Float64Array, output: 'a' | 'b'): 
   const len = pr.len;
   const counts = output === 'a' ? pr.na : pr.nb;
   const dark = output === 'a' ? pr.da : pr.db;
+  const ex = pr.e;
   const sign = output === 'a' ? 1 : -1;
   const c = new Float64Array(len);
   for (let i = 0; i < len; i++) {
@@ -612,18 +631,20 @@ function outputVisibility(pr: Problem, joint: Float64Array, output: 'a' | 'b'): 
     let hAW = 0;
     let hWW = 0;
     for (let i = 0; i < len; i++) {
+      const e = ex[i] as number;
       const ci = c[i] as number;
       const n = counts[i] as number;
-      const m = A + (fixedV === null ? W : A * fixedV) * ci + dark;
+      const m = e * (A + (fixedV === null ? W : A * fixedV) * ci + dark);
       if (!(m > 0)) continue;
       const r = 1 - n / m;
       const h = n / (m * m);
-      const dA = fixedV === null ? 1 : 1 + fixedV * ci;
+      const dA = e * (fixedV === null ? 1 : 1 + fixedV * ci);
+      const dW = e * ci;
       gA += r * dA;
-      gW += r * ci;
+      gW += r * dW;
       hAA += h * dA * dA;
-      hAW += h * dA * ci;
-      hWW += h * ci * ci;
+      hAW += h * dA * dW;
+      hWW += h * dW * dW;
     }
     let stepA: number;
     let stepW = 0;
@@ -659,12 +680,13 @@ function outputVisibility(pr: Problem, joint: Float64Array, output: 'a' | 'b'): 
   let fAW = 0;
   let fWW = 0;
   for (let i = 0; i < len; i++) {
+    const e = ex[i] as number;
     const ci = c[i] as number;
-    const m = A * (1 + V * ci) + dark;
+    const m = e * (A * (1 + V * ci) + dark);
     if (!(m > 0)) continue;
-    fAA += 1 / m;
-    fAW += ci / m;
-    fWW += (ci * ci) / m;
+    fAA += (e * e) / m;
+    fAW += (e * e * ci) / m;
+    fWW += (e * e * ci * ci) / m;
   }
   const det = fAA * fWW - fAW * fAW;
   if (!(det > 0)) return { value: V, err: Number.NaN };
@@ -696,14 +718,21 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   let hi = Number.NEGATIVE_INFINITY;
   let sumA = 0;
   let sumB = 0;
+  if (data.exposure && data.exposure.length !== len) return { ok: false, reason: 'exposure and x differ in length' };
   const u = new Float64Array(len);
   const na = new Float64Array(len);
   const nb = new Float64Array(len);
+  const e = new Float64Array(len);
+  let sumE = 0;
   for (let i = 0; i < len; i++) {
     const x = data.x[i] as number;
     const a = data.countsA[i] as number;
     const b = data.countsB[i] as number;
+    const ei = data.exposure ? (data.exposure[i] as number) : 1;
     if (!Number.isFinite(x) || !(a >= 0) || !(b >= 0)) return { ok: false, reason: `bin ${i} has a non-finite position or negative counts` };
+    if (!(ei > 0 && Number.isFinite(ei))) return { ok: false, reason: `point ${i} has no positive exposure` };
+    e[i] = ei;
+    sumE += ei;
     lo = Math.min(lo, x);
     hi = Math.max(hi, x);
     na[i] = a;
@@ -721,12 +750,12 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   // An output whose mean sits at or below its calibrated dark level has no fringe to fit: its
   // amplitude would collapse onto MIN_AMPLITUDE and leave V and the period unconstrained.
   for (const [name, dark, sum] of [['a', options.darkA, sumA], ['b', options.darkB, sumB]] as const) {
-    if (dark !== undefined && sum / len <= dark) {
-      return { ok: false, reason: `no net signal above the dark level: output ${name} averages ${(sum / len).toPrecision(3)} counts per bin against ${dark.toPrecision(3)} of calibrated dark` };
+    if (dark !== undefined && sum / sumE <= dark) {
+      return { ok: false, reason: `no net signal above the dark level: output ${name} averages ${(sum / sumE).toPrecision(3)} counts per bin against ${dark.toPrecision(3)} of calibrated dark` };
     }
   }
-  const A0 = Math.max(sumA / len - da, 1e-3);
-  const B0 = Math.max(sumB / len - db, 1e-3);
+  const A0 = Math.max(sumA / sumE - da, 1e-3);
+  const B0 = Math.max(sumB / sumE - db, 1e-3);
   if (sumA + sumB === 0) return { ok: false, reason: 'no counts in this pass' };
 
   // Frequencies in cycles per unit of u (the pass spans 2 units).
@@ -736,7 +765,7 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   const fMin = sc.s / maxPeriod;
   const fMax = sc.s / minPeriod;
 
-  const raw: Problem = { u, na, nb, len, da: 0, db: 0, useA: true, useB: true };
+  const raw: Problem = { u, na, nb, e, len, da: 0, db: 0, useA: true, useB: true };
   const net: Problem = { ...raw, da, db };
   const shownProblem = calibrated ? net : raw;
   const fit = fitProblem(shownProblem, starts(shownProblem, fMin, fMax, A0, B0), quadratic);
@@ -753,7 +782,7 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
     s[IV] = ((s[IV] as number) * ((fit.min.p[IA] as number) + (fit.min.p[IB] as number))) / ((s[IA] as number) + (s[IB] as number));
     rawFit = fitProblem(raw, [s], quadratic);
   }
-  const netTotal = sumA + sumB - len * (da + db);
+  const netTotal = sumA + sumB - sumE * (da + db);
   const method = options.interval ?? 'auto';
   const visibility = visibilityEstimate(raw, rawFit, method, sumA + sumB);
   const visibilityNet = calibrated ? visibilityEstimate(net, fit, method, netTotal) : null;

@@ -17,7 +17,8 @@ import { SweepTracker, type CompletedPass } from './sweep-tracker.ts';
 import { sweepsBetween, storeSweep } from './sweeps-store.ts';
 import { gatewayBatches } from '../export/export.ts';
 
-export type FitFn = (pass: { x: Float64Array; a: Float64Array; b: Float64Array }, options: FringeFitOptions) => Promise<FringeFitResult>;
+/** `exposure`: each point's bins over the pass's mean bins per point (see FringeData). */
+export type FitFn = (pass: { x: Float64Array; a: Float64Array; b: Float64Array; exposure: Float64Array }, options: FringeFitOptions) => Promise<FringeFitResult>;
 export type Publish = (benchId: string, message: { type: string; bench: string; [k: string]: unknown }) => void;
 
 interface BenchState {
@@ -93,7 +94,10 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
       // full-stroke sweeps, while the quadratic term costs one parameter.
       quadratic: true,
     };
-    const result = await opts.fit({ x: pass.x, a: pass.a, b: pass.b }, options);
+    // Points sum unequal numbers of bins (a dwell no whole number of bins, the grouping past 2,000
+    // points): the fit scales each point's expected counts by its share.
+    const exposure = pass.binsPerPoint.map((n) => n / meanBins);
+    const result = await opts.fit({ x: pass.x, a: pass.a, b: pass.b, exposure }, options);
     if (!result.ok) return null;
     return await storeSweep(benchId, pass, result, optics ?? null);
   }
