@@ -1,9 +1,12 @@
 // Joint Poisson maximum-likelihood fit of both interferometer outputs over one monotonic pass:
 //   N_a(x) = e·[A(1 + V cos θ) + d_a],  N_b(x) = e·[B(1 − V cos θ) + d_b],  θ = 2π(x + q·x²)/P + φ,
-// with e each point's relative exposure (1 unless the points sum unequal numbers of bins),
+// with e each point's relative exposure (1 unless the points sum unequal numbers of bins), each
+// seen through its detector's dead time where one is set (Knoll, Radiation Detection and
+// Measurement, 4th ed., ch. 4: non-paralyzable m = n/(1 + nτ), paralyzable m = n·e^(−nτ)),
 // minimising Cash's C = 2Σ(m − n ln m) (Cash, ApJ 228, 939 (1979)) by Levenberg–Marquardt on the
 // Fisher-scoring Hessian with analytic derivatives. d_a, d_b are known dark counts per bin: fitted
 // together with A, B and V the model would be degenerate.
+import type { DeadTimeModel } from './dead-time.ts';
 import { fft } from './fft.ts';
 import { FIT_WARNING } from './fit-warnings.ts';
 import { inverseSymmetric, solveSymmetric } from './linear-algebra.ts';
@@ -26,11 +29,23 @@ export interface FringeData {
 
 export type IntervalMethod = 'fisher' | 'profile';
 
+/** A detector's dead time as the fit sees it: τ over a point's mean duration, and the model. */
+export interface DeadTimeTerm {
+  perPoint: number;
+  model: DeadTimeModel;
+}
+
 export interface FringeFitOptions {
   /** Dark counts per bin of output a from the channel's calibration; absent when uncalibrated. */
   darkA?: number;
   /** Dark counts per bin of output b from the channel's calibration; absent when uncalibrated. */
   darkB?: number;
+  /**
+   * The outputs' dead times: the model's true counts pass through them, so a bright fringe's
+   * flattened tops do not read as a lower visibility. Darks are then true (dead-time-free) counts.
+   */
+  deadTimeA?: DeadTimeTerm;
+  deadTimeB?: DeadTimeTerm;
   /** Fit the quadratic piezo term q as well. */
   quadratic?: boolean;
   /** Expected period, x units (e.g. the last fit): the start search looks within a factor 1.5. */
@@ -149,11 +164,32 @@ interface Problem {
   nb: Float64Array;
   /** Relative exposure per point: the model's factor. */
   e: Float64Array;
+  dtA: DeadTimeTerm | null;
+  dtB: DeadTimeTerm | null;
   len: number;
   da: number;
   db: number;
   useA: boolean;
   useB: boolean;
+}
+
+/**
+ * Measured counts per unit of exposure from true ones r through a dead time, and d(measured)/dr
+ * (the chain-rule factor of every derivative); r itself without one.
+ */
+function throughDeadTime(r: number, t: DeadTimeTerm | null): [number, number] {
+  if (!t) return [r, 1];
+  if (t.model === 'paralyzable') {
+    const x = Math.exp(-r * t.perPoint);
+    return [r * x, x * (1 - r * t.perPoint)];
+  }
+  const q = 1 / (1 + r * t.perPoint);
+  return [r * q, q * q];
+}
+
+/** True counts per unit of exposure from measured ones, for start values: the non-paralyzable inverse, capped. */
+function beforeDeadTime(m: number, t: DeadTimeTerm | null): number {
+  return t ? m / Math.max(1e-3, 1 - m * t.perPoint) : m;
 }
 
 /** Smallest amplitude the fit may step to, counts per bin: keeps the model positive. */
@@ -199,15 +235,17 @@ function evaluate(pr: Problem, p: Float64Array): Evaluation {
     const u2 = u * u;
     if (pr.useA) {
       const n = pr.na[i] as number;
+      const [f, fp] = throughDeadTime(A * (1 + V * cs) + pr.da, pr.dtA);
       const e = pr.e[i] as number;
-      const m = e * (A * (1 + V * cs) + pr.da);
+      const m = e * f;
       if (m > 0) {
         c += n > 0 ? m - n * Math.log(m) : m;
         const r = 1 - n / m;
         const w = 1 / m;
-        const d0 = e * (1 + V * cs);
-        const d2 = e * A * cs;
-        const d3 = -e * A * V * sn;
+        const ef = e * fp;
+        const d0 = ef * (1 + V * cs);
+        const d2 = ef * A * cs;
+        const d3 = -ef * A * V * sn;
         g0 += r * d0;
         g2 += r * d2;
         g3 += r * d3;
@@ -235,15 +273,17 @@ function evaluate(pr: Problem, p: Float64Array): Evaluation {
     }
     if (pr.useB) {
       const n = pr.nb[i] as number;
+      const [f, fp] = throughDeadTime(B * (1 - V * cs) + pr.db, pr.dtB);
       const e = pr.e[i] as number;
-      const m = e * (B * (1 - V * cs) + pr.db);
+      const m = e * f;
       if (m > 0) {
         c += n > 0 ? m - n * Math.log(m) : m;
         const r = 1 - n / m;
         const w = 1 / m;
-        const d1 = e * (1 - V * cs);
-        const d2 = -e * B * cs;
-        const d3 = e * B * V * sn;
+        const ef = e * fp;
+        const d1 = ef * (1 - V * cs);
+        const d2 = -ef * B * cs;
+        const d3 = ef * B * V * sn;
         g1 += r * d1;
         g2 += r * d2;
         g3 += r * d3;
@@ -373,8 +413,8 @@ function deviance(pr: Problem, p: Float64Array): number {
     const u = pr.u[i] as number;
     const cs = Math.cos((p[IPSI] as number) + u * ((p[IK] as number) + (p[IKAPPA] as number) * u));
     const e = pr.e[i] as number;
-    if (pr.useA) d += term(e * (A * (1 + V * cs) + pr.da), pr.na[i] as number);
-    if (pr.useB) d += term(e * (B * (1 - V * cs) + pr.db), pr.nb[i] as number);
+    if (pr.useA) d += term(e * throughDeadTime(A * (1 + V * cs) + pr.da, pr.dtA)[0], pr.na[i] as number);
+    if (pr.useB) d += term(e * throughDeadTime(B * (1 - V * cs) + pr.db, pr.dtB)[0], pr.nb[i] as number);
   }
   return 2 * d;
 }
@@ -392,8 +432,8 @@ function flatCash(pr: Problem): number {
     sb += pr.nb[i] as number;
     se += pr.e[i] as number;
   }
-  const ma = Math.max(sa / se, pr.da + MIN_AMPLITUDE);
-  const mb = Math.max(sb / se, pr.db + MIN_AMPLITUDE);
+  const ma = Math.max(sa / se, throughDeadTime(pr.da + MIN_AMPLITUDE, pr.dtA)[0]);
+  const mb = Math.max(sb / se, throughDeadTime(pr.db + MIN_AMPLITUDE, pr.dtB)[0]);
   let c = 0;
   for (let i = 0; i < pr.len; i++) {
     const e = pr.e[i] as number;
@@ -423,7 +463,7 @@ function starts(pr: Problem, fMin: number, fMax: number, A0: number, B0: number)
   let zMean = 0;
   for (let i = 0; i < len; i++) {
     const e = pr.e[i] as number;
-    const v = ((pr.na[i] as number) / e - pr.da) / A0 - ((pr.nb[i] as number) / e - pr.db) / B0;
+    const v = (beforeDeadTime((pr.na[i] as number) / e, pr.dtA) - pr.da) / A0 - (beforeDeadTime((pr.nb[i] as number) / e, pr.dtB) - pr.db) / B0;
     z[i] = v;
     zMean += v;
   }
@@ -614,6 +654,7 @@ function outputVisibility(pr: Problem, joint: Float64Array, output: 'a' | 'b'): 
   const len = pr.len;
   const counts = output === 'a' ? pr.na : pr.nb;
   const dark = output === 'a' ? pr.da : pr.db;
+  const dt = output === 'a' ? pr.dtA : pr.dtB;
   const ex = pr.e;
   const sign = output === 'a' ? 1 : -1;
   const c = new Float64Array(len);
@@ -631,13 +672,15 @@ function outputVisibility(pr: Problem, joint: Float64Array, output: 'a' | 'b'): 
     let hAW = 0;
     let hWW = 0;
     for (let i = 0; i < len; i++) {
-      const e = ex[i] as number;
       const ci = c[i] as number;
       const n = counts[i] as number;
-      const m = e * (A + (fixedV === null ? W : A * fixedV) * ci + dark);
+      const [f, fp] = throughDeadTime(A + (fixedV === null ? W : A * fixedV) * ci + dark, dt);
+      const e = (ex[i] as number) * fp;
+      const m = (ex[i] as number) * f;
       if (!(m > 0)) continue;
       const r = 1 - n / m;
-      const h = n / (m * m);
+      // Expected rather than observed curvature: the dead time makes the model nonlinear in (A, W).
+      const h = dt ? 1 / m : n / (m * m);
       const dA = e * (fixedV === null ? 1 : 1 + fixedV * ci);
       const dW = e * ci;
       gA += r * dA;
@@ -680,9 +723,10 @@ function outputVisibility(pr: Problem, joint: Float64Array, output: 'a' | 'b'): 
   let fAW = 0;
   let fWW = 0;
   for (let i = 0; i < len; i++) {
-    const e = ex[i] as number;
     const ci = c[i] as number;
-    const m = e * (A * (1 + V * ci) + dark);
+    const [f, fp] = throughDeadTime(A * (1 + V * ci) + dark, dt);
+    const m = (ex[i] as number) * f;
+    const e = (ex[i] as number) * fp;
     if (!(m > 0)) continue;
     fAA += (e * e) / m;
     fAW += (e * e * ci) / m;
@@ -754,8 +798,11 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
       return { ok: false, reason: `no net signal above the dark level: output ${name} averages ${(sum / sumE).toPrecision(3)} counts per bin against ${dark.toPrecision(3)} of calibrated dark` };
     }
   }
-  const A0 = Math.max(sumA / sumE - da, 1e-3);
-  const B0 = Math.max(sumB / sumE - db, 1e-3);
+  const dtA = options.deadTimeA ?? null;
+  const dtB = options.deadTimeB ?? null;
+  for (const t of [dtA, dtB]) if (t && !(t.perPoint >= 0 && Number.isFinite(t.perPoint))) return { ok: false, reason: 'dead time per point must be non-negative' };
+  const A0 = Math.max(beforeDeadTime(sumA / sumE, dtA) - da, 1e-3);
+  const B0 = Math.max(beforeDeadTime(sumB / sumE, dtB) - db, 1e-3);
   if (sumA + sumB === 0) return { ok: false, reason: 'no counts in this pass' };
 
   // Frequencies in cycles per unit of u (the pass spans 2 units).
@@ -765,7 +812,7 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   const fMin = sc.s / maxPeriod;
   const fMax = sc.s / minPeriod;
 
-  const raw: Problem = { u, na, nb, e, len, da: 0, db: 0, useA: true, useB: true };
+  const raw: Problem = { u, na, nb, e, dtA, dtB, len, da: 0, db: 0, useA: true, useB: true };
   const net: Problem = { ...raw, da, db };
   const shownProblem = calibrated ? net : raw;
   const fit = fitProblem(shownProblem, starts(shownProblem, fMin, fMax, A0, B0), quadratic);

@@ -2,7 +2,8 @@
 // fitter (a worker thread), stores and announces the fits, and computes each bench's live figures
 // once a second. A slow fit never delays storing or pushing counts.
 import { eq } from 'drizzle-orm';
-import type { FringeFitOptions, FringeFitResult } from '../../analysis/fringe-fit.ts';
+import { correctDeadTime } from '../../analysis/dead-time.ts';
+import type { DeadTimeTerm, FringeFitOptions, FringeFitResult } from '../../analysis/fringe-fit.ts';
 import type { BenchFigures } from '../../bench-figures.ts';
 import { DEFAULT_COINCIDENCE_WINDOW_NS } from '../../coincidence-window.ts';
 import type { CountBatch } from '../../contract/wire.ts';
@@ -87,9 +88,22 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     for (const n of pass.binsPerPoint) meanBins += n;
     meanBins /= pass.binsPerPoint.length;
     const binS = (pass.dtMs / 1000) * meanBins;
+    // With a dead time set the fit models true counts through it, so its darks are true ones too.
+    const dead = (c: ChannelSettings | undefined): DeadTimeTerm | null =>
+      c?.deadTimeNs ? { perPoint: (c.deadTimeNs * 1e-9) / binS, model: c.deadTimeModel === 'paralyzable' ? 'paralyzable' : 'non-paralyzable' } : null;
+    const trueDark = (c: ChannelSettings, t: DeadTimeTerm | null) => {
+      if (!t || c.darkRate === null) return c.darkRate;
+      const r = correctDeadTime({ value: c.darkRate, err: 0 }, t.perPoint * binS, t.model);
+      return r.ok ? r.rate.value : c.darkRate;
+    };
+    const [dtA, dtB] = [dead(outA), dead(outB)];
+    const darkA = outA ? trueDark(outA, dtA) : null;
+    const darkB = outB ? trueDark(outB, dtB) : null;
     const options: FringeFitOptions = {
-      ...(outA?.darkRate != null ? { darkA: outA.darkRate * binS } : {}),
-      ...(outB?.darkRate != null ? { darkB: outB.darkRate * binS } : {}),
+      ...(darkA != null ? { darkA: darkA * binS } : {}),
+      ...(darkB != null ? { darkB: darkB * binS } : {}),
+      ...(dtA ? { deadTimeA: dtA } : {}),
+      ...(dtB ? { deadTimeB: dtB } : {}),
       // Piezos are nonlinear (common practice): the linear model fails the goodness of fit on
       // full-stroke sweeps, while the quadratic term costs one parameter.
       quadratic: true,
