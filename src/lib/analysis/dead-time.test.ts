@@ -1,6 +1,6 @@
 import { lambertW0 as referenceW0 } from 'lambert-w-function';
 import { describe, expect, it } from 'vitest';
-import { correctDeadTime } from './dead-time.ts';
+import { correctDeadTime, countsThroughDeadTime } from './dead-time.ts';
 
 const TAU = 50e-9; // s: a Si SPAD's dead time (20–50 ns, common practice)
 
@@ -63,5 +63,18 @@ describe('dead-time correction (Knoll, Radiation Detection and Measurement, 4th 
     expect(b.ok).toBe(false);
     if (!b.ok) expect(b.reason).toMatch(/1\/e/);
     expect(correctDeadTime({ value: 0.36 / TAU, err: 0 }, TAU, 'paralyzable').ok).toBe(true);
+  });
+});
+
+describe('counts through a dead time (the forward model a fit curve is drawn with)', () => {
+  it('is undone by the correction, for both models (Knoll, ch. 4: m = n/(1 + nτ), m = n·e^(−nτ))', () => {
+    const tau = 1e-7;
+    for (const model of ['non-paralyzable', 'paralyzable'] as const) {
+      for (const n of [1e3, 1e5, 2e6]) {
+        const m = countsThroughDeadTime(n, tau, model);
+        const back = correctDeadTime({ value: m, err: 0 }, tau, model);
+        expect(back.ok && back.rate.value).toBeCloseTo(n, 6);
+      }
+    }
   });
 });

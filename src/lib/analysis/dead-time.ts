@@ -54,3 +54,11 @@ export function correctDeadTime(m: Measured, tau: number, model: DeadTimeModel):
   }
   return { ok: true, rate: { value: n, err: Math.abs(dndm) * m.err }, lossFraction, warnings };
 }
+
+/**
+ * Counts a detector records from `trueCounts` expected in an interval whose length is `tauOver`
+ * dead times' inverse (τ over the interval), the forward model above: what a fit curve is drawn as.
+ */
+export function countsThroughDeadTime(trueCounts: number, tauOver: number, model: DeadTimeModel): number {
+  return model === 'paralyzable' ? trueCounts * Math.exp(-trueCounts * tauOver) : trueCounts / (1 + trueCounts * tauOver);
+}

@@ -275,7 +275,7 @@ describe('joint Poisson ML fringe fit', () => {
       a[i] = clicks(1e6 * (1 + v * cos));
       b[i] = clicks(1e6 * (1 - v * cos));
     }
-    const dead = { perPoint: tau / dwell, model: 'non-paralyzable' as const };
+    const dead = { tauOver: tau / dwell, model: 'non-paralyzable' as const };
     const through = fit({ x, countsA: a, countsB: b }, { deadTimeA: dead, deadTimeB: dead });
     expect(Math.abs(through.visibility.value - v)).toBeLessThan(3 * through.visibility.err);
     const plain = fit({ x, countsA: a, countsB: b });

@@ -6,7 +6,7 @@
 // minimising Cash's C = 2Σ(m − n ln m) (Cash, ApJ 228, 939 (1979)) by Levenberg–Marquardt on the
 // Fisher-scoring Hessian with analytic derivatives. d_a, d_b are known dark counts per bin: fitted
 // together with A, B and V the model would be degenerate.
-import type { DeadTimeModel } from './dead-time.ts';
+import { countsThroughDeadTime, type DeadTimeModel } from './dead-time.ts';
 import { fft } from './fft.ts';
 import { FIT_WARNING } from './fit-warnings.ts';
 import { inverseSymmetric, solveSymmetric } from './linear-algebra.ts';
@@ -29,9 +29,9 @@ export interface FringeData {
 
 export type IntervalMethod = 'fisher' | 'profile';
 
-/** A detector's dead time as the fit sees it: τ over a point's mean duration, and the model. */
+/** A detector's dead time over an interval: τ over the interval's length (a point's mean duration for the fit), and the model. */
 export interface DeadTimeTerm {
-  perPoint: number;
+  tauOver: number;
   model: DeadTimeModel;
 }
 
@@ -117,6 +117,8 @@ export interface FringeFit {
   outputs: { a: OutputVisibility; b: OutputVisibility };
   counts: { a: number; b: number; bins: number };
   darkPerBin: { a: number; b: number } | null;
+  /** The outputs' dead times the model saw its counts through (per point), as given. */
+  deadTime: { a: DeadTimeTerm | null; b: DeadTimeTerm | null };
   /** Goodness of fit of the shown fit. */
   quality: {
     /** Cash statistic C = 2Σ(m − n ln m). */
@@ -179,17 +181,14 @@ interface Problem {
  */
 function throughDeadTime(r: number, t: DeadTimeTerm | null): [number, number] {
   if (!t) return [r, 1];
-  if (t.model === 'paralyzable') {
-    const x = Math.exp(-r * t.perPoint);
-    return [r * x, x * (1 - r * t.perPoint)];
-  }
-  const q = 1 / (1 + r * t.perPoint);
-  return [r * q, q * q];
+  const k = t.tauOver;
+  const slope = t.model === 'paralyzable' ? Math.exp(-r * k) * (1 - r * k) : 1 / (1 + r * k) ** 2;
+  return [countsThroughDeadTime(r, k, t.model), slope];
 }
 
 /** True counts per unit of exposure from measured ones, for start values: the non-paralyzable inverse, capped. */
 function beforeDeadTime(m: number, t: DeadTimeTerm | null): number {
-  return t ? m / Math.max(1e-3, 1 - m * t.perPoint) : m;
+  return t ? m / Math.max(1e-3, 1 - m * t.tauOver) : m;
 }
 
 /** Smallest amplitude the fit may step to, counts per bin: keeps the model positive. */
@@ -800,7 +799,7 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   }
   const dtA = options.deadTimeA ?? null;
   const dtB = options.deadTimeB ?? null;
-  for (const t of [dtA, dtB]) if (t && !(t.perPoint >= 0 && Number.isFinite(t.perPoint))) return { ok: false, reason: 'dead time per point must be non-negative' };
+  for (const t of [dtA, dtB]) if (t && !(t.tauOver >= 0 && Number.isFinite(t.tauOver))) return { ok: false, reason: 'dead time per point must be non-negative' };
   const A0 = Math.max(beforeDeadTime(sumA / sumE, dtA) - da, 1e-3);
   const B0 = Math.max(beforeDeadTime(sumB / sumE, dtB) - db, 1e-3);
   if (sumA + sumB === 0) return { ok: false, reason: 'no counts in this pass' };
@@ -878,6 +877,7 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
     },
     counts: { a: sumA, b: sumB, bins: len },
     darkPerBin: calibrated ? { a: da, b: db } : null,
+    deadTime: { a: dtA, b: dtB },
     quality: { cash: fit.min.cost, deviance: dev, dof, pValue, iterations: fit.min.iterations, converged: fit.min.converged, fringeDeltaCash, errorScale: k },
     covariance: { names, matrix },
     warnings,

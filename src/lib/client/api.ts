@@ -59,6 +59,9 @@ export function fetchCounts(bench: string, from: number, to: number, step: numbe
  * The stored fit (sweeps-store.ts): the model's parameters with amplitudes and darks in counts per
  * raw bin of `dtMs`; the rest of the stored fit is passed through.
  */
+/** A dead time as a stored fit keeps it: τ over one bin of the fit's `dtMs`, and the model. */
+const deadTimeTerm = z.object({ tauOver: z.number().nonnegative(), model: z.enum(['non-paralyzable', 'paralyzable']) });
+
 export const sweepFitSchema = z
   .object({
     amplitudeA: z.number(),
@@ -68,6 +71,10 @@ export const sweepFitSchema = z
     phase: z.number(),
     quadratic: z.number(),
     darkPerBin: z.object({ a: z.number(), b: z.number() }).nullable(),
+    /** Absent in fits stored before dead time entered the model. */
+    deadTimePerBin: z
+      .object({ a: deadTimeTerm.nullable(), b: deadTimeTerm.nullable() })
+      .optional(),
     shown: z.enum(['raw', 'net']),
     dtMs: z.number().positive(),
     xMin: z.number().optional(),

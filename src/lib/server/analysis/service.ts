@@ -90,10 +90,10 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     const binS = (pass.dtMs / 1000) * meanBins;
     // With a dead time set the fit models true counts through it, so its darks are true ones too.
     const dead = (c: ChannelSettings | undefined): DeadTimeTerm | null =>
-      c?.deadTimeNs ? { perPoint: (c.deadTimeNs * 1e-9) / binS, model: c.deadTimeModel === 'paralyzable' ? 'paralyzable' : 'non-paralyzable' } : null;
+      c?.deadTimeNs ? { tauOver: (c.deadTimeNs * 1e-9) / binS, model: c.deadTimeModel === 'paralyzable' ? 'paralyzable' : 'non-paralyzable' } : null;
     const trueDark = (c: ChannelSettings, t: DeadTimeTerm | null) => {
       if (!t || c.darkRate === null) return c.darkRate;
-      const r = correctDeadTime({ value: c.darkRate, err: 0 }, t.perPoint * binS, t.model);
+      const r = correctDeadTime({ value: c.darkRate, err: 0 }, t.tauOver * binS, t.model);
       return r.ok ? r.rate.value : c.darkRate;
     };
     const [dtA, dtB] = [dead(outA), dead(outB)];

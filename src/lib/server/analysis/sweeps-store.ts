@@ -1,6 +1,6 @@
 // Fitted sweeps in the database: one row per pass (bench, start, direction), written once.
 import { and, asc, desc, eq, gte, inArray, lte, sql } from 'drizzle-orm';
-import type { FringeFit } from '../../analysis/fringe-fit.ts';
+import type { DeadTimeTerm, FringeFit } from '../../analysis/fringe-fit.ts';
 import type { Measured } from '../../analysis/measured.ts';
 import { meanPeriod, piezoCalibration } from '../../analysis/piezo.ts';
 import type { FringeParams } from '../../analysis/fringe-model.ts';
@@ -12,6 +12,8 @@ import type { CompletedPass } from './sweep-tracker.ts';
 /** What a screen needs to draw the fit over per-bin counts, with amplitudes per raw bin. */
 export interface StoredFit extends FringeParams {
   darkPerBin: { a: number; b: number } | null;
+  /** τ over one bin of `dtMs` and the model, per output, where the fit saw counts through a dead time. */
+  deadTimePerBin: { a: DeadTimeTerm | null; b: DeadTimeTerm | null };
   shown: 'raw' | 'net';
   dtMs: number;
   xMin: number;
@@ -36,6 +38,8 @@ export async function storeSweep(benchId: string, pass: CompletedPass, fit: Frin
   let bins = 0;
   for (const n of pass.binsPerPoint) bins += n;
   const binsPerPoint = bins / pass.binsPerPoint.length;
+  // A bin is a point's share: τ over it is binsPerPoint times τ over the point.
+  const perBin = (t: DeadTimeTerm | null): DeadTimeTerm | null => t && { tauOver: t.tauOver * binsPerPoint, model: t.model };
   let xMin = Infinity;
   let xMax = -Infinity;
   for (const v of pass.x) {
@@ -50,6 +54,7 @@ export async function storeSweep(benchId: string, pass: CompletedPass, fit: Frin
     phase: fit.phase.value,
     quadratic: fit.quadratic?.value ?? 0,
     darkPerBin: fit.darkPerBin ? { a: fit.darkPerBin.a / binsPerPoint, b: fit.darkPerBin.b / binsPerPoint } : null,
+    deadTimePerBin: { a: perBin(fit.deadTime.a), b: perBin(fit.deadTime.b) },
     shown: fit.shown,
     dtMs: pass.dtMs,
     xMin,
