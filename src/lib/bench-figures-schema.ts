@@ -23,12 +23,12 @@ export const benchFiguresSchema: z.ZodType<BenchFigures> = z.object({
   windowMs: num,
   channels: z.array(channelFiguresSchema).max(64),
   visibility: valueErr.extend({ source: z.enum(['sweep', 'envelope']), net: z.boolean(), latestPassMs: num.optional() }).nullable(),
-  phase: valueErr.extend({ driftRadPerS: num.nullable() }).nullable(),
+  phase: valueErr.extend({ driftRadPerS: num.nullable(), driftErrRadPerS: num.optional() }).nullable(),
   contrast: num.nullable(),
   g2: valueErr.extend({ accidentals: num }).nullable(),
   coincidenceWindowNs: num.positive().optional(),
   alpha: valueErr.nullable(),
-  shotNoise: z.object({ measuredRad: num, limitRad: num, ratio: num, dB: num, binMs: num.optional(), visibilityLimitRad: num.optional() }).nullable(),
+  shotNoise: z.object({ measuredRad: num, limitRad: num, ratio: num, ratioErr: num.optional(), dB: num, binMs: num.optional(), visibilityLimitRad: num.optional() }).nullable(),
 });
 
 export type { BenchFigures };

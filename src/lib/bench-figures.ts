@@ -34,7 +34,7 @@ export interface BenchFigures {
    */
   visibility: (ValueErr & { source: 'sweep' | 'envelope'; net: boolean; latestPassMs?: number | undefined }) | null;
   /** Phase at hold (rad) with drift rate (rad/s). */
-  phase: (ValueErr & { driftRadPerS: number | null }) | null;
+  phase: (ValueErr & { driftRadPerS: number | null; driftErrRadPerS?: number | undefined }) | null;
   /** (N_a − N_b)/(N_a + N_b) over the last second: the mid-fringe error signal is 0 at quadrature. */
   contrast: number | null;
   /** g2(0) = N_c/N_acc: the coincidences divided by the accidentals uncorrelated light would give (summed bin by bin), not background-subtracted. */
@@ -50,6 +50,8 @@ export interface BenchFigures {
     /** 1/√N for the N signal photons of a bin: the shot-noise limit at visibility 1. */
     limitRad: number;
     ratio: number;
+    /** 1σ of `ratio` from the number of bins the noise was read over (older snapshots lack it). */
+    ratioErr?: number | undefined;
     dB: number;
     binMs?: number | undefined;
     /** 1/(V√N): the floor at the bench's visibility (older snapshots lack it). */

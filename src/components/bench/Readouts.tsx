@@ -80,13 +80,18 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
           label="Phase"
           value={phs?.value ?? '–'}
           unit={ph ? 'rad' : undefined}
-          subs={[phs ? `± ${phs.err} rad` : null, ph?.driftRadPerS != null ? `drift ${formatNumber(ph.driftRadPerS * 1000, 2)} mrad/s` : 'while holding only']}
+          subs={[
+            phs ? `± ${phs.err} rad` : null,
+            ph?.driftRadPerS != null
+              ? `drift ${ph.driftErrRadPerS !== undefined ? formatValueErr({ value: ph.driftRadPerS * 1000, err: ph.driftErrRadPerS * 1000 }) : formatNumber(ph.driftRadPerS * 1000, 2)} mrad/s`
+              : 'while holding only',
+          ]}
         />
         <Tile label="Contrast (A−B)/(A+B)" value={formatNumber(f?.contrast, 3)} subs={['0 at mid-fringe']} />
         <Tile
           label="Phase noise"
           value={sn ? sn.ratio.toFixed(2) : '–'}
-          unit={sn ? '× shot noise' : undefined}
+          unit={sn ? `${sn.ratioErr !== undefined ? `± ${sn.ratioErr.toFixed(2)} ` : ''}× shot noise` : undefined}
           subs={
             sn
               ? [

@@ -127,7 +127,10 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
         phaseReading = { t: to / 1000, theta: theta.value };
         const history = [...input.phaseHistory, phaseReading];
         const drift = history.length >= 5 ? driftRate(history.map((h) => h.t), unfoldPhase(history.map((h) => h.theta))) : null;
-        if (Number.isFinite(theta.err)) phase = { value: theta.value, err: theta.err, driftRadPerS: drift && Number.isFinite(drift.value) ? drift.value : null };
+        const driftOk = drift !== null && Number.isFinite(drift.value);
+        if (Number.isFinite(theta.err)) {
+          phase = { value: theta.value, err: theta.err, driftRadPerS: driftOk ? drift.value : null, ...(driftOk && Number.isFinite(drift.err) ? { driftErrRadPerS: drift.err } : {}) };
+        }
       }
       // Shot-noise comparison near mid-fringe only, where the per-bin phase is linear in the counts.
       const d = normalizedDifference(na, nb, cal);
@@ -140,7 +143,9 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
         if (eps.every(Number.isFinite) && photonsPerBin > 0) {
           const s = phaseSensitivity(phaseNoise(eps), photonsPerBin, v);
           if ([s.measured, s.shotNoiseLimit, s.ratio, s.dB, s.visibilityLimit].every(Number.isFinite)) {
-            shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, dB: s.dB, binMs: la.dtMs, visibilityLimitRad: s.visibilityLimit };
+            // A standard deviation from n bins is good to 1/√(2(n − 1)) (Gaussian noise, common practice).
+            const ratioErr = s.ratio / Math.sqrt(2 * (bins - 1));
+            shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, ratioErr, dB: s.dB, binMs: la.dtMs, visibilityLimitRad: s.visibilityLimit };
           }
         }
       }
