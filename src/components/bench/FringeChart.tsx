@@ -129,7 +129,7 @@ export function FringeChart(props: Props) {
     const gate = new FrameGate('fringe', REDRAW_MS, () => {
       plot.current?.batch(() => plot.current?.setData(data()));
       setClicks(cells.clicks());
-      setDir(cells.direction);
+      setDir(cells.shownDirection());
     });
     props.onReady({ invalidate: () => gate.invalidate() });
     return () => gate.stop();

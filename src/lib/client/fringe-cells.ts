@@ -5,6 +5,13 @@
 export const CELLS = 400;
 /** The drive turning by more than this fraction of the range ends a pass. */
 const TURN_FRACTION = 0.01;
+/**
+ * x unchanged for longer than this (ms) is the drive holding, not dwelling on a sweep step: those
+ * bins are no fringe point, and piled into one cell they would only inflate the pass's clicks.
+ */
+const HOLD_MS = 1_000;
+/** A pass is shown once it covers this many cells: a hold's jump alone starts no pass worth showing. */
+const MIN_SHOWN_CELLS = 10;
 
 export type Direction = 'up' | 'down';
 
@@ -14,10 +21,12 @@ interface PassCells {
   /** ms of bins in each cell */
   ms: Float64Array;
   clicks: number;
+  /** Cells visited. */
+  visited: number;
 }
 
 function newPass(): PassCells {
-  return { a: new Float64Array(CELLS), b: new Float64Array(CELLS), ms: new Float64Array(CELLS), clicks: 0 };
+  return { a: new Float64Array(CELLS), b: new Float64Array(CELLS), ms: new Float64Array(CELLS), clicks: 0, visited: 0 };
 }
 
 export class FringeCells {
@@ -32,6 +41,9 @@ export class FringeCells {
   /** Before the first pass: the range seen so far. */
   private lo = Infinity;
   private hi = -Infinity;
+  /** The last x and how long (ms) it has not changed. */
+  private lastX = Number.NaN;
+  private sameMs = 0;
   /** Output arrays reused by every `view` call. */
   private readonly outX = new Float64Array(CELLS);
   private readonly outA = new Float64Array(CELLS);
@@ -53,6 +65,8 @@ export class FringeCells {
     this.direction = null;
     this.lo = Infinity;
     this.hi = -Infinity;
+    this.lastX = Number.NaN;
+    this.sameMs = 0;
   }
 
   /**
@@ -78,6 +92,9 @@ export class FringeCells {
     const turn = span * TURN_FRACTION;
     for (let i = 0; i < x.length; i++) {
       const xi = x[i]!;
+      this.sameMs = xi === this.lastX ? this.sameMs + dt : 0;
+      this.lastX = xi;
+      if (this.sameMs > HOLD_MS) continue;
       this.track(xi, turn);
       if (!this.direction) continue;
       const cell = Math.floor(((xi - this.xMin) / span) * CELLS);
@@ -85,6 +102,7 @@ export class FringeCells {
       const pass = this.current()!;
       const ca = a[i]!;
       const cb = b[i]!;
+      if (pass.ms[cell] === 0) pass.visited++;
       pass.a[cell]! += ca;
       pass.b[cell]! += cb;
       pass.ms[cell]! += dt;
@@ -103,6 +121,7 @@ export class FringeCells {
       reused.b.fill(0);
       reused.ms.fill(0);
       reused.clicks = 0;
+      reused.visited = 0;
     }
     list.push(reused ?? newPass());
   }
@@ -111,21 +130,35 @@ export class FringeCells {
     return this.direction ? this.passes[this.direction].at(-1) : undefined;
   }
 
-  /** Clicks in the kept passes of the current direction. */
+  /**
+   * The direction on screen: the current one once its pass covers MIN_SHOWN_CELLS cells, else the
+   * other while it holds a pass that does (a hold's jump does not blank the fringes just swept).
+   */
+  shownDirection(): Direction | null {
+    const d = this.direction;
+    if (!d) return null;
+    const other: Direction = d === 'up' ? 'down' : 'up';
+    const covers = (dir: Direction) => this.passes[dir].some((p) => p.visited >= MIN_SHOWN_CELLS);
+    return (this.current()?.visited ?? 0) >= MIN_SHOWN_CELLS || !covers(other) ? d : other;
+  }
+
+  /** Clicks in the kept passes of the direction shown. */
   clicks(): number {
-    if (!this.direction) return 0;
+    const d = this.shownDirection();
+    if (!d) return 0;
     let n = 0;
-    for (const p of this.passes[this.direction]) n += p.clicks;
+    for (const p of this.passes[d]) n += p.clicks;
     return n;
   }
 
   /**
-   * The kept passes of the current direction summed per cell, as rates (counts/s) at the cell
+   * The kept passes of the direction shown summed per cell, as rates (counts/s) at the cell
    * centres; cells never visited are left out. Views into reused arrays.
    */
   view(): { x: Float64Array; a: Float64Array; b: Float64Array; direction: Direction | null } {
     let len = 0;
-    const list = this.direction ? this.passes[this.direction] : [];
+    const direction = this.shownDirection();
+    const list = direction ? this.passes[direction] : [];
     const w = (this.xMax - this.xMin) / CELLS;
     for (let c = 0; c < CELLS; c++) {
       let a = 0;
@@ -142,6 +175,6 @@ export class FringeCells {
       this.outB[len] = (b * 1000) / ms;
       len++;
     }
-    return { x: this.outX.subarray(0, len), a: this.outA.subarray(0, len), b: this.outB.subarray(0, len), direction: this.direction };
+    return { x: this.outX.subarray(0, len), a: this.outA.subarray(0, len), b: this.outB.subarray(0, len), direction };
   }
 }
