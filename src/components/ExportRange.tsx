@@ -5,8 +5,9 @@ import { useState } from 'react';
 import { formatDateTime, parseLocalInput } from '../lib/client/format.ts';
 
 export default function ExportRange({ exportUrl }: { exportUrl: string }) {
-  const [from, setFrom] = useState(() => formatDateTime(Date.now() - 3_600_000));
-  const [to, setTo] = useState(() => formatDateTime(Date.now()));
+  const [from, setFrom] = useState(() => formatDateTime(Date.now() - 3_600_000, true));
+  // To the second: a default cut to the minute left the last seconds out of the file.
+  const [to, setTo] = useState(() => formatDateTime(Date.now(), true));
   const [format, setFormat] = useState<'csv' | 'json'>('csv');
   const [error, setError] = useState<string | null>(null);
 
