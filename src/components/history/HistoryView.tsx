@@ -27,8 +27,25 @@ interface Range {
   to: number;
 }
 
+
+/** `?from=&to=` of the page's address as a range, when both are whole ms and in order. */
+function rangeFromAddress(): Range | null {
+  if (typeof window === 'undefined') return null;
+  const q = new URLSearchParams(window.location.search);
+  const from = Number(q.get('from'));
+  const to = Number(q.get('to'));
+  return q.get('from') && q.get('to') && Number.isSafeInteger(from) && Number.isSafeInteger(to) && from >= 0 && to > from ? { from, to } : null;
+}
+
 export default function HistoryView({ benchId, channels }: { benchId: string; channels: ViewChannel[] }) {
-  const [range, setRange] = useState<Range>(() => ({ from: Date.now() - 3_600_000, to: Date.now() }));
+  // The range lives in the address (?from=&to=, ms), so a reload keeps it and a colleague can be sent it.
+  const [range, setRange] = useState<Range>(() => rangeFromAddress() ?? { from: Date.now() - 3_600_000, to: Date.now() });
+  useEffect(() => {
+    const url = new URL(window.location.href);
+    url.searchParams.set('from', String(range.from));
+    url.searchParams.set('to', String(range.to));
+    window.history.replaceState(null, '', url);
+  }, [range.from, range.to]);
   const [answer, setAnswer] = useState<CountsAnswer | null>(null);
   const [loading, setLoading] = useState(true);
   const [error, setError] = useState<string | null>(null);
