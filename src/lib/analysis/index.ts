@@ -12,7 +12,7 @@ export {
   fitFringes,
   wrapPhase,
   LOW_COUNT_TOTAL,
-  FRINGE_DETECTION_DELTA_C,
+  fringeDetectionThreshold,
   type FringeData,
   type FringeFit,
   type FringeFitOptions,
