@@ -21,6 +21,9 @@ export interface StoredFit extends FringeParams {
   outputs: FringeFit['outputs'];
   quality: FringeFit['quality'];
   visibilityInterval: { lower: number; upper: number; method: string };
+  /** Phase at the pass's middle `center` (x units): what the pass measures well (pass-phase.ts). */
+  phaseAtCenter: Measured;
+  center: number;
   /** Mirror travel per volt over this pass, nm/V, for the bench's wavelength and path geometry. */
   piezoNmPerV: Measured | null;
   warnings: string[];
@@ -62,6 +65,8 @@ export async function storeSweep(benchId: string, pass: CompletedPass, fit: Frin
     outputs: fit.outputs,
     quality: fit.quality,
     visibilityInterval: { lower: shownV.lower, upper: shownV.upper, method: shownV.method },
+    phaseAtCenter: fit.phaseAtCenter,
+    center: fit.center,
     piezoNmPerV: optics && xMax > xMin ? piezoCalibration(meanPeriod(fit, xMin, xMax), optics.wavelengthNm, optics.pathFactor) : null,
     warnings: fit.warnings,
   };
