@@ -45,9 +45,12 @@ describe('runs API', () => {
     expect((await call(obs, `/api/v1/runs/${run.id}/stop`, {})).status).toBe(403);
     expect((await call(op, `/api/v1/runs/${run.id}/stop`, {})).status).toBe(200);
     expect((await call(op, `/api/v1/runs/${run.id}/stop`, {})).status).toBe(409);
-    expect((await call(op, `/api/v1/runs/${run.id}/notes`, { body: 'late' })).status).toBe(409);
-    const list = (await (await call(obs, '/api/v1/benches/mz-633/runs')).json()) as { id: number; noteCount: number }[];
-    expect(list.find((r) => r.id === run.id)?.noteCount).toBe(1);
+    // A stopped run's record still takes notes, timed after its end.
+    const late = await call(op, `/api/v1/runs/${run.id}/notes`, { body: 'Later: the reference arm drifted' });
+    expect(late.status).toBe(201);
+    expect((await call(obs, `/api/v1/runs/${run.id}/notes`, { body: 'no' })).status).toBe(403);
+    const list = (await (await call(obs, '/api/v1/benches/mz-633/runs')).json()) as { id: number; noteCount: number; endMs: number }[];
+    expect(list.find((r) => r.id === run.id)?.noteCount).toBe(2);
   });
 
   it("pushes a run's start, its notes and its stop to everyone watching the bench", async () => {

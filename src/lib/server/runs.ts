@@ -141,11 +141,13 @@ export async function listNotes(runId: number): Promise<NoteView[]> {
   });
 }
 
-/** Notes go into active runs only: a stopped run's record is closed. */
+/**
+ * A note into a run, active or stopped: a stopped run's record takes later notes (what the analysis
+ * showed, a fault found afterwards), each with its own time after the run's end.
+ */
 export async function addNote(runId: number, body: AddNoteBody, userId: string, now = Date.now()): Promise<NoteView> {
   const run = await getRun(runId);
   if (!run) throw new HttpError(404, `no run ${runId}`);
-  if (run.endMs !== null) throw new HttpError(409, 'this run has stopped: notes go into active runs');
   if (body.snapshot && body.snapshot.benchId !== run.benchId) throw new HttpError(422, 'snapshot: figures of another bench');
   const [row] = await getDb()
     .insert(notes)
