@@ -121,6 +121,14 @@ describe('computeFigures on whatever a bench sends', () => {
     expect(figures.channels.find((c) => c.role === 'out_b')!.mandelQ).not.toBeNull();
   });
 
+  it('keeps its figures when a gateway with a clock far ahead sends a batch from the year 2100', () => {
+    const r = recent();
+    r.add(GW, { v: 1, boot: 'b', seq: 9, t0: 4_102_444_800_000, dt: DT, ch: { a: [1, 2], b: [3, 4] } }, end);
+    const { figures } = computeFigures({ ...input(), recent: r });
+    expect(figures.at).toBe(end);
+    expect(figures.channels.find((c) => c.role === 'out_a')!.rateRaw).toBeCloseTo((A * 1000) / DT, 9);
+  });
+
   it('shows no phase from a reading at a bright fringe, whose error is unbounded, but keeps it for the drift', () => {
     const r = new RecentBins();
     // Output b dark: D/V clips at 1, θ = 0 (common practice: arccos of the normalised difference).

@@ -15,14 +15,23 @@ export interface ChannelSeries {
   dtMs: number;
 }
 
+/** How far past the server's clock a batch may end and still feed the live figures, ms. */
+const FUTURE_SLACK_MS = 60_000;
+
 export class RecentBins {
   private batches: HeldBatch[] = [];
   private latest = 0;
 
   constructor(private readonly keepMs = 12_000) {}
 
-  add(gatewayId: string, batch: CountBatch): void {
-    const end = batch.t0 + (batch.ch[Object.keys(batch.ch)[0] ?? '']?.length ?? 0) * batch.dt;
+  /**
+   * Holds a stored batch for the figures, unless it ends more than FUTURE_SLACK_MS past `now`: a
+   * gateway whose clock runs far ahead (the contract takes any t0) would otherwise move every
+   * window to its time, and the bench's figures would go blank until the server restarted.
+   */
+  add(gatewayId: string, batch: CountBatch, now = Date.now()): void {
+    const end = batch.t0 + (Object.values(batch.ch)[0]?.length ?? 0) * batch.dt;
+    if (end > now + FUTURE_SLACK_MS) return;
     this.batches.push({ gatewayId, batch, end });
     if (end > this.latest) this.latest = end;
     // Batches arrive in order per gateway, so the oldest sit at the front; a late (replayed) one
