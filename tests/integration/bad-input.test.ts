@@ -107,6 +107,14 @@ describe('ids that cannot be a bench\'s or a gateway\'s', () => {
 });
 
 describe('request bodies', () => {
+  it('refuses a JSON body that is not UTF-8 with 400 and stores nothing', async () => {
+    const bytes = Buffer.concat([Buffer.from('{"title":"night '), Buffer.from([0xc3, 0x28]), Buffer.from('"}')]);
+    const res = await api(op, `/api/v1/benches/${BENCH}/runs`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: bytes });
+    expect(res.status).toBe(400);
+    expect(((await res.json()) as { error: string }).error).toMatch(/UTF-8/);
+    expect(await getDb().select().from(runs).where(eq(runs.benchId, BENCH))).toEqual([]);
+  });
+
   it('refuses NUL characters in JSON text with 422 and stores nothing', async () => {
     const res = await api(op, `/api/v1/benches/${BENCH}/runs`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ title: 'night\u0000scan' }) });
     expect(res.status).toBe(422);

@@ -56,7 +56,14 @@ async function readCapped(request: Request, max: number): Promise<Uint8Array<Arr
 
 /** Parses a JSON body against a schema; throws HttpError 400/413/422 with a clear reason. */
 export async function readJson<T>(request: Request, schema: z.ZodType<T, z.ZodTypeDef, unknown>): Promise<T> {
-  const text = new TextDecoder().decode(await readCapped(request, MAX_JSON_BODY));
+  let text: string;
+  try {
+    // Fatal: bytes that are no UTF-8 are refused, not stored as U+FFFD in someone's note or title.
+    text = new TextDecoder('utf-8', { fatal: true }).decode(await readCapped(request, MAX_JSON_BODY));
+  } catch (err) {
+    if (err instanceof HttpError) throw err;
+    throw new HttpError(400, 'request body is not valid UTF-8');
+  }
   let body: unknown;
   let nul = false;
   try {
