@@ -803,16 +803,18 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   const da = options.darkA ?? 0;
   const db = options.darkB ?? 0;
   if (!(da >= 0 && db >= 0)) return { ok: false, reason: 'dark counts per bin must be non-negative' };
-  // An output whose mean sits at or below its calibrated dark level has no fringe to fit: its
-  // amplitude would collapse onto MIN_AMPLITUDE and leave V and the period unconstrained.
-  for (const [name, dark, sum] of [['a', options.darkA, sumA], ['b', options.darkB, sumB]] as const) {
-    if (dark !== undefined && sum / sumE <= dark) {
-      return { ok: false, reason: `no net signal above the dark level: output ${name} averages ${(sum / sumE).toPrecision(3)} counts per bin against ${dark.toPrecision(3)} of calibrated dark` };
-    }
-  }
   const dtA = options.deadTimeA ?? null;
   const dtB = options.deadTimeB ?? null;
   for (const t of [dtA, dtB]) if (t && !(t.tauOver >= 0 && Number.isFinite(t.tauOver))) return { ok: false, reason: 'dead time per point must be non-negative' };
+  // An output whose mean sits at or below its calibrated dark level (as its detector records it)
+  // has no fringe to fit: its amplitude would collapse onto MIN_AMPLITUDE and leave V and the
+  // period unconstrained.
+  for (const [name, dark, sum, dt] of [['a', options.darkA, sumA, dtA], ['b', options.darkB, sumB, dtB]] as const) {
+    const seen = dark === undefined ? undefined : throughDeadTime(dark, dt)[0];
+    if (seen !== undefined && sum / sumE <= seen) {
+      return { ok: false, reason: `no net signal above the dark level: output ${name} averages ${(sum / sumE).toPrecision(3)} counts per bin against ${seen.toPrecision(3)} of calibrated dark` };
+    }
+  }
   const A0 = Math.max(beforeDeadTime(sumA / sumE, dtA) - da, 1e-3);
   const B0 = Math.max(beforeDeadTime(sumB / sumE, dtB) - db, 1e-3);
   if (sumA + sumB === 0) return { ok: false, reason: 'no counts in this pass' };
@@ -870,7 +872,9 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   const fringeDeltaCash = flatCash(shownProblem) - fit.min.cost;
   // Periods searched: the pass spans 2 units of u, so 2·(fMax − fMin) cycles' worth of frequencies.
   const fringeThreshold = fringeDetectionThreshold(2 * (fMax - fMin), quadratic);
-  if (fringeDeltaCash < fringeThreshold) warnings.push(FIT_WARNING.noFringe);
+  // Counts that scatter beyond Poisson (k > 1) inflate the ΔC of noise by k² as well: judged on
+  // the same scale as the widened errors, a flat pass on a noisy bench is not called a fringe.
+  if (fringeDeltaCash / (k * k) < fringeThreshold) warnings.push(FIT_WARNING.noFringe);
   const at = (i: number) => scaleMeasured(measuredAt(values, cov, i), k);
   const phase = at(4);
   const output = (pr: Problem, p: Float64Array, o: 'a' | 'b') => scaleMeasured(outputVisibility(pr, p, o), k);
