@@ -54,6 +54,13 @@ describe('envelope visibility while the phase drifts', () => {
     expect(e!.warnings[0]).toMatch(/whole fringe/);
   });
 
+  it('warns when the phase holds still at mid-fringe: the spread is shot noise, not a fringe', () => {
+    const rng = mulberry32(24);
+    const a = Float64Array.from({ length: 1_000 }, () => poisson(rng, 50));
+    const b = Float64Array.from({ length: 1_000 }, () => poisson(rng, 50));
+    expect(envelopeVisibility(a, b, { efficiencyRatio: 1 })?.warnings[0]).toMatch(/whole fringe/);
+  });
+
   it('takes a window whose phase drifted just over one fringe, at high counts', () => {
     const rng = mulberry32(23);
     const n = 1_000;

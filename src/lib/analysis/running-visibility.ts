@@ -78,6 +78,10 @@ function turnsThroughFringe(diff: Float64Array, sum: Float64Array): boolean {
   if (d.length < 5) return false;
   const hi = Math.max(...d);
   const lo = Math.min(...d);
+  // A still phase spreads the smoothed difference by shot noise alone, ~1/√(photons per point):
+  // its quarters are noise visiting them. A fringe spans 2V, far above 8 of those.
+  const perPoint = photons / d.length;
+  if (!(hi - lo > 8 / Math.sqrt(Math.max(perPoint, 1)))) return false;
   const band = (hi - lo) / 4;
   // The order in which the smoothed difference visits its top and bottom quarters, repeats
   // merged: top → bottom → top (or the reverse) is a whole fringe for a drift in one direction.

@@ -121,6 +121,17 @@ describe('computeFigures on whatever a bench sends', () => {
     expect(figures.channels.find((c) => c.role === 'out_b')!.mandelQ).not.toBeNull();
   });
 
+  it('leaves g²(0) out, and keeps every other figure, when the two outputs never click in the same bin', () => {
+    const r = new RecentBins();
+    const a = Array.from({ length: BINS }, (_, i) => (i % 20 === 0 ? 1 : 0));
+    const b = Array.from({ length: BINS }, (_, i) => (i % 20 === 10 ? 1 : 0));
+    r.add(GW, { v: 1, boot: 'b', seq: 0, t0: T0, dt: DT, ch: { a, b }, cc: new Array(BINS).fill(0) });
+    const { figures } = computeFigures({ ...input(), recent: r, now: T0 + BINS * DT });
+    expect(figures.g2).toBeNull();
+    expect(figures.channels).toHaveLength(2);
+    expect(benchFiguresSchema.safeParse(figures).success).toBe(true);
+  });
+
   it('keeps its figures when a gateway with a clock far ahead sends a batch from the year 2100', () => {
     const r = recent();
     r.add(GW, { v: 1, boot: 'b', seq: 9, t0: 4_102_444_800_000, dt: DT, ch: { a: [1, 2], b: [3, 4] } }, end);

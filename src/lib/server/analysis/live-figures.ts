@@ -33,7 +33,7 @@ export interface FiguresInput {
  * usual sweep, hold at mid-fringe, read the phase and its noise: alignment drifts over hours, and
  * the figure says how old its newest pass is.
  */
-const SWEEP_FRESH_MS = 30 * 60_000;
+export const SWEEP_FRESH_MS = 30 * 60_000;
 /** Phase is read over the last second while the drive holds still, ms. */
 const PHASE_WINDOW_MS = 1_000;
 
@@ -167,15 +167,29 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
     // benches, or no triples from a good single-photon source): the Gaussian error collapses to 0
     // at 0 counts, so quote the exact Garwood interval's half-width instead.
     const few = coincidences < 20;
+    // Sparse singles that never click in the same bin leave no accidentals to compare with: the
+    // estimators refuse (RangeError) and the figure stays empty while the rest of the bench reads.
+    const undefinedHere = (err: unknown) => {
+      if (!(err instanceof RangeError)) throw err;
+      return null;
+    };
     if (herald) {
       if (th && th.counts > 0 && aligned(th)) {
-        const r = heraldedAlpha({ gates: th.series, gateTransmitted: ta.series, gateReflected: tb.series, triples: coincidences });
-        alpha = finite({ value: r.alpha.value, err: few ? (r.triplesInterval.upper - r.triplesInterval.lower) / 2 : r.alpha.err });
+        try {
+          const r = heraldedAlpha({ gates: th.series, gateTransmitted: ta.series, gateReflected: tb.series, triples: coincidences });
+          alpha = finite({ value: r.alpha.value, err: few ? (r.triplesInterval.upper - r.triplesInterval.lower) / 2 : r.alpha.err });
+        } catch (err) {
+          alpha = undefinedHere(err);
+        }
       }
     } else {
-      const r = g2FromCoincidences({ counts1: ta.series, counts2: tb.series, binS: cc.dtMs / 1000, coincidences, windowS: input.coincidenceWindowNs * 1e-9 });
-      const err = few ? (r.interval.upper - r.interval.lower) / 2 : r.g2.err;
-      g2 = finite({ value: r.g2.value, err }) && Number.isFinite(r.accidentals) ? { value: r.g2.value, err, accidentals: r.accidentals } : null;
+      try {
+        const r = g2FromCoincidences({ counts1: ta.series, counts2: tb.series, binS: cc.dtMs / 1000, coincidences, windowS: input.coincidenceWindowNs * 1e-9 });
+        const err = few ? (r.interval.upper - r.interval.lower) / 2 : r.g2.err;
+        g2 = finite({ value: r.g2.value, err }) && Number.isFinite(r.accidentals) ? { value: r.g2.value, err, accidentals: r.accidentals } : null;
+      } catch (err) {
+        g2 = undefinedHere(err);
+      }
     }
   }
 

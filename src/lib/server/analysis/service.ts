@@ -12,7 +12,7 @@ import { benchCalibrations } from '../benches.ts';
 import { getDb } from '../db/index.ts';
 import { benches, channels as channelsTable } from '../db/schema.ts';
 import { serverEvents } from '../events.ts';
-import { computeFigures, type ChannelSettings, type SweepPoint } from './live-figures.ts';
+import { computeFigures, SWEEP_FRESH_MS, type ChannelSettings, type SweepPoint } from './live-figures.ts';
 import { RecentBins } from './recent-bins.ts';
 import { SweepTracker, type CompletedPass } from './sweep-tracker.ts';
 import { sweepsBetween, storeSweep } from './sweeps-store.ts';
@@ -77,7 +77,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
 
   async function loadRecentSweeps(benchId: string, s: BenchState) {
     const now = Date.now();
-    const { rows } = await sweepsBetween(benchId, now - 600_000, now).catch(() => ({ rows: [] }));
+    const { rows } = await sweepsBetween(benchId, now - SWEEP_FRESH_MS, now).catch(() => ({ rows: [] }));
     for (const r of rows.slice(-8)) s.sweepPoints.push({ timeMs: (r.startMs + r.endMs) / 2, ...shownVisibility(r) });
   }
 
