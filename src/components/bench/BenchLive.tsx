@@ -55,7 +55,8 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
   const [envelope, setEnvelope] = useState<EnvelopePoint[]>([]);
   const [hasCc, setHasCc] = useState(false);
   const [alarms, setAlarms] = useState<AlarmEventView[]>(props.alarms);
-  const [runPush, setRunPush] = useState<RunPush | null>(null);
+  // Every push kept in order (the last 50): two arriving before one render must both reach the panel.
+  const [runPushes, setRunPushes] = useState<RunPush[]>([]);
   const seenCounts = useRef(false);
   const drive = useMemo(() => new DriveTracker(), []);
 
@@ -98,10 +99,10 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
         if (a.success) setAlarms((list) => applyAlarmMessage(list, a.data));
       } else if (msg.type === 'run') {
         const r = runMessageSchema.safeParse(msg);
-        if (r.success) setRunPush((p) => ({ seq: (p?.seq ?? 0) + 1, run: r.data.run }));
+        if (r.success) setRunPushes((list) => [...list.slice(-49), { seq: (list.at(-1)?.seq ?? 0) + 1, run: r.data.run }]);
       } else if (msg.type === 'note') {
         const n = noteMessageSchema.safeParse(msg);
-        if (n.success) setRunPush((p) => ({ seq: (p?.seq ?? 0) + 1, note: n.data.note }));
+        if (n.success) setRunPushes((list) => [...list.slice(-49), { seq: (list.at(-1)?.seq ?? 0) + 1, note: n.data.note }]);
       }
     },
     [],
@@ -157,7 +158,8 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
     b: bench.channels.find((c) => c.id === bench.outB)?.label ?? 'Output B',
   };
   const lastSweep = sweeps.at(-1) ?? null;
-  const lastPasses = (['up', 'down'] as const).flatMap((way) => sweeps.findLast((s) => s.direction === way) ?? []);
+  // Oldest first: without a pass that approaches the right way, the newest stands.
+  const lastPasses = (['up', 'down'] as const).flatMap((way) => sweeps.findLast((s) => s.direction === way) ?? []).sort((p, q) => p.start - q.start);
   const latestPass = lastSweep ? passWarnings(lastSweep.fit) : null;
 
   return (
@@ -206,7 +208,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
             <p className="figure mt-1 text-xs">limits {bench.drive.min}–{bench.drive.max} V · step ≤ {bench.drive.maxStep} V · dwell ≥ {bench.drive.minDwellMs} ms</p>
           </section>
         )}
-        <RunPanel benchId={bench.id} initialRun={bench.activeRun} canOperate={viewer.canOperate} figures={figures} pushed={runPush} />
+        <RunPanel benchId={bench.id} initialRun={bench.activeRun} canOperate={viewer.canOperate} figures={figures} pushed={runPushes} />
       </div>
       <section id="alarms" className="card scroll-mt-4" aria-labelledby="alarms-h">
         <h2 id="alarms-h" className="mb-2 font-semibold">Alarms</h2>

@@ -1,6 +1,6 @@
 // The bench's active run: start one with a title, stop it, and take timestamped notes during it,
 // optionally with a snapshot of the figures on screen. Observers read the notes only.
-import { useEffect, useState, type FormEvent } from 'react';
+import { useEffect, useRef, useState, type FormEvent } from 'react';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { addNote, errorText, fetchNotes, startRun, stopRun } from '../../lib/client/api.ts';
 import { formatClock, formatDuration, formatSnapshot } from '../../lib/client/format.ts';
@@ -15,7 +15,8 @@ interface Props {
   initialRun: RunView | null;
   canOperate: boolean;
   figures: BenchFigures | null;
-  pushed: RunPush | null;
+  /** Pushes so far, oldest first; the panel applies those it has not seen. */
+  pushed: RunPush[];
 }
 
 export function RunPanel({ benchId, initialRun, canOperate, figures, pushed }: Props) {
@@ -40,18 +41,24 @@ export function RunPanel({ benchId, initialRun, canOperate, figures, pushed }: P
     return () => ctl.abort();
   }, [run?.id]);
 
-  // Another operator's run or note (and the echo of this page's own, which changes nothing).
+  // Another operator's runs and notes (and the echo of this page's own, which changes nothing),
+  // each applied once, in order, against the run as the earlier pushes left it.
+  const seen = useRef(0);
   useEffect(() => {
-    if (!pushed) return;
-    if ('run' in pushed) {
-      const r = pushed.run;
-      if (r.endMs === null) setRun(r);
-      else setRun((cur) => (cur?.id === r.id ? null : cur));
-    } else {
-      const note = pushed.note;
-      if (run?.id === note.runId) setNotes((list) => (list === null || list.some((n) => n.id === note.id) ? list : [...list, note]));
+    let current = run;
+    for (const p of pushed) {
+      if (p.seq <= seen.current) continue;
+      seen.current = p.seq;
+      if ('run' in p) {
+        if (p.run.endMs === null) current = p.run;
+        else if (current?.id === p.run.id) current = null;
+      } else if (current?.id === p.note.runId) {
+        const note = p.note;
+        setNotes((list) => (list === null || list.some((n) => n.id === note.id) ? list : [...list, note]));
+      }
     }
-  }, [pushed?.seq]);
+    if (current !== run) setRun(current);
+  }, [pushed]);
 
   const act = async (fn: () => Promise<void>) => {
     setBusy(true);
