@@ -90,8 +90,10 @@ describe('computeFigures', () => {
     const fresh = computeFigures(input([{ timeMs: end - 5 * 60_000, value: 0.9, err: 0.01, net: false }])).figures;
     expect(fresh.visibility).toMatchObject({ source: 'sweep', value: 0.9, latestPassMs: end - 5 * 60_000 });
     // Two outputs ∝ 1 ± V cos θ (common practice): over the last second, dark counts taken off a,
-    // cos θ = (N_a − D_a − N_b)/(V (N_a − D_a + N_b)).
-    const [na, nb, darkA] = [A * BINS, B * BINS, 100];
+    // cos θ = (N_a − D_a − N_b)/(V (N_a − D_a + N_b)), with N_a the count before a's 50 ns dead time
+    // (Knoll, ch. 4, non-paralyzable: n = m/(1 − mτ) over the second).
+    const [nb, darkA] = [B * BINS, 100];
+    const na = (A * BINS) / (1 - A * BINS * 50e-9);
     expect(fresh.phase?.value).toBeCloseTo(Math.acos((na - darkA - nb) / (0.9 * (na - darkA + nb))), 6);
     expect(fresh.phase?.driftRadPerS).toBeNull(); // fewer than 5 readings yet
   });

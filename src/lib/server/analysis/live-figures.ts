@@ -1,6 +1,7 @@
 // Computes a bench's live figures from its recent bins, channel settings and latest sweep fits.
 // No I/O: the analysis service feeds it and pushes the result.
 import { correctRate, rateFromCounts } from '../../analysis/corrections.ts';
+import { correctDeadTime } from '../../analysis/dead-time.ts';
 import type { DeadTimeModel } from '../../analysis/dead-time.ts';
 import { driftRate, normalizedDifference, phaseAtHold, quadratureError, unfoldPhase } from '../../analysis/phase.ts';
 import { g2FromCoincidences, heraldedAlpha, mandelQ } from '../../analysis/photon-stats.ts';
@@ -38,6 +39,14 @@ export const SWEEP_FRESH_MS = 30 * 60_000;
 const PHASE_WINDOW_MS = 1_000;
 
 const modelName = (m: ChannelSettings['deadTimeModel']): DeadTimeModel => (m === 'paralyzable' ? 'paralyzable' : 'non-paralyzable');
+
+/** True over measured counts of a channel through its dead time at this rate; 1 without one or past saturation. */
+function deadTimeFactor(c: ChannelSettings | undefined, counts: number, seconds: number): number {
+  if (!c?.deadTimeNs || !(counts > 0 && seconds > 0)) return 1;
+  const measured = counts / seconds;
+  const r = correctDeadTime({ value: measured, err: 0 }, c.deadTimeNs * 1e-9, modelName(c.deadTimeModel));
+  return r.ok ? r.rate.value / measured : 1;
+}
 
 /** A figure with its error, or null when either is not a finite number (the live schema refuses those). */
 function finite<T extends { value: number; err: number }>(m: T | null | undefined): T | null {
@@ -119,8 +128,13 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
     const v = visibility?.value;
     if (holding && v && v > 0.05) {
       const bins = la.counts.length;
+      // Fitted V is the true counts' (the fit models the dead time): the phase is read from the
+      // counts the detectors would have given without it, scaled by the second's true/measured.
+      const seconds = (bins * la.dtMs) / 1000;
+      const fa = deadTimeFactor(outA, na, seconds);
+      const fb = deadTimeFactor(outB, nb, seconds);
       const cal = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, la.dtMs) * bins, darkB: perBinDark(outB, lb.dtMs) * bins };
-      const theta = phaseAtHold(na, nb, cal);
+      const theta = phaseAtHold(na * fa, nb * fb, cal);
       if (Number.isFinite(theta.value)) {
         // Readings at a fringe extreme (D/V clipped to ±1) still mark the crossings the drift is
         // unfolded by, but their error is unbounded: no phase figure is shown from them.
@@ -133,11 +147,11 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
         }
       }
       // Shot-noise comparison near mid-fringe only, where the per-bin phase is linear in the counts.
-      const d = normalizedDifference(na, nb, cal);
+      const d = normalizedDifference(na * fa, nb * fb, cal);
       if (Math.abs(d.value) < 0.5 * v && bins >= 10) {
         const perBin = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, la.dtMs), darkB: perBinDark(outB, lb.dtMs) };
         const eps = new Float64Array(bins);
-        for (let i = 0; i < bins; i++) eps[i] = quadratureError(la.counts[i] as number, lb.counts[i] as number, perBin).value;
+        for (let i = 0; i < bins; i++) eps[i] = quadratureError((la.counts[i] as number) * fa, (lb.counts[i] as number) * fb, perBin).value;
         // The limits count signal photons: dark counts are noise of their own, not light.
         const photonsPerBin = (na + nb) / bins - perBin.darkA - perBin.darkB;
         if (eps.every(Number.isFinite) && photonsPerBin > 0) {
