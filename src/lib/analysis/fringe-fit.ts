@@ -572,8 +572,11 @@ function covarianceOf(pr: Problem, p: Float64Array, free: number[]): Float64Arra
   return full;
 }
 
-/** Root of ΔC(V) = 1 between V̂ (ΔC = 0) and `bound` by the Illinois variant of regula falsi. */
-function profileLimit(pr: Problem, best: Minimum, free: number[], bound: number, sigma: number): number {
+/**
+ * Root of ΔC(V) = `level` between V̂ (ΔC = 0) and `bound` by the Illinois variant of regula falsi:
+ * 1 for a 68 % interval, k² when the errors are widened by the Birge factor k.
+ */
+function profileLimit(pr: Problem, best: Minimum, free: number[], bound: number, sigma: number, level: number): number {
   const vHat = best.p[IV] as number;
   const fixed = free.filter((i) => i !== IV);
   let warm = best.p;
@@ -582,7 +585,7 @@ function profileLimit(pr: Problem, best: Minimum, free: number[], bound: number,
     start[IV] = v;
     const m = minimize(pr, start, fixed);
     warm = m.p;
-    return m.cost - best.cost - 1;
+    return m.cost - best.cost - level;
   };
   const fBound = excess(bound);
   if (!(fBound > 0)) return bound;
@@ -644,16 +647,17 @@ function fitProblem(pr: Problem, candidates: Float64Array[], quadratic: boolean)
   return { min, cov: covarianceOf(pr, min.p, free), free };
 }
 
-function visibilityEstimate(pr: Problem, fit: SingleFit, method: 'auto' | IntervalMethod, netCounts: number): VisibilityEstimate {
+/** V with its interval; `k` the fit's Birge factor, which widens the Fisher σ and the profile's ΔC alike. */
+function visibilityEstimate(pr: Problem, fit: SingleFit, method: 'auto' | IntervalMethod, netCounts: number, k: number): VisibilityEstimate {
   const v = fit.min.p[IV] as number;
-  const sigma = fit.cov ? Math.sqrt(Math.max(0, fit.cov[IV * NP + IV] as number)) : Number.NaN;
+  const sigma = fit.cov ? k * Math.sqrt(Math.max(0, fit.cov[IV * NP + IV] as number)) : Number.NaN;
   const useProfile =
     method === 'profile' ||
     (method === 'auto' && (!(sigma > 0) || v + 3 * sigma > 1 || v - 3 * sigma < 0 || netCounts < LOW_COUNT_TOTAL));
   if (!useProfile) return { value: v, err: sigma, lower: Math.max(0, v - sigma), upper: Math.min(1, v + sigma), method: 'fisher' };
   const guess = sigma > 0 ? sigma : 0.01;
-  const upper = v >= 1 ? 1 : profileLimit(pr, fit.min, fit.free, 1, guess);
-  const lower = v <= 0 ? 0 : profileLimit(pr, fit.min, fit.free, 0, guess);
+  const upper = v >= 1 ? 1 : profileLimit(pr, fit.min, fit.free, 1, guess, k * k);
+  const lower = v <= 0 ? 0 : profileLimit(pr, fit.min, fit.free, 0, guess, k * k);
   return { value: v, err: (upper - lower) / 2, lower, upper, method: 'profile' };
 }
 
@@ -759,8 +763,15 @@ function scaleMeasured(m: Measured, k: number): Measured {
   return { value: m.value, err: m.err * k };
 }
 
-function scaleEstimate(e: VisibilityEstimate, k: number): VisibilityEstimate {
-  return { ...e, err: e.err * k, lower: Math.max(0, e.value - k * (e.value - e.lower)), upper: Math.min(1, e.value + k * (e.upper - e.value)) };
+/**
+ * The Birge factor of a fit: √(deviance/dof) when its deviance is improbable (p < ERROR_SCALE_P),
+ * else 1; each model (raw, net) has its own.
+ */
+function birgeFactor(pr: Problem, fit: SingleFit): { k: number; dev: number; dof: number; pValue: number } {
+  const dev = deviance(pr, fit.min.p);
+  const dof = 2 * pr.len - fit.free.length;
+  const pValue = chiSquareSf(dev, dof);
+  return { k: pValue < ERROR_SCALE_P && dev > dof ? Math.sqrt(dev / dof) : 1, dev, dof, pValue };
 }
 
 /** Fit one monotonic pass. Counts must be non-negative; x need not be uniformly spaced. */
@@ -845,8 +856,10 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   }
   const netTotal = sumA + sumB - sumE * (da + db);
   const method = options.interval ?? 'auto';
-  const visibility = visibilityEstimate(raw, rawFit, method, sumA + sumB);
-  const visibilityNet = calibrated ? visibilityEstimate(net, fit, method, netTotal) : null;
+  const { k, dev, dof, pValue } = birgeFactor(shownProblem, fit);
+  const kRaw = calibrated ? birgeFactor(raw, rawFit).k : k;
+  const visibility = visibilityEstimate(raw, rawFit, method, sumA + sumB, kRaw);
+  const visibilityNet = calibrated ? visibilityEstimate(net, fit, method, netTotal, k) : null;
   if ((calibrated ? (visibilityNet as VisibilityEstimate) : visibility).value >= 1) warnings.push(FIT_WARNING.atBound);
 
   const { values, jac } = physical(fit.min.p, sc);
@@ -863,10 +876,6 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
       cov[i * NP + j] = s;
     }
   }
-  const dev = deviance(shownProblem, fit.min.p);
-  const dof = 2 * len - fit.free.length;
-  const pValue = chiSquareSf(dev, dof);
-  const k = pValue < ERROR_SCALE_P && dev > dof ? Math.sqrt(dev / dof) : 1;
   const names = quadratic ? PARAM_NAMES : PARAM_NAMES.slice(0, 5);
   const matrix = names.map((_, i) => names.map((__, j) => k * k * (cov[i * NP + j] as number)));
   const fringeDeltaCash = flatCash(shownProblem) - fit.min.cost;
@@ -877,11 +886,11 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   if (fringeDeltaCash / (k * k) < fringeThreshold) warnings.push(FIT_WARNING.noFringe);
   const at = (i: number) => scaleMeasured(measuredAt(values, cov, i), k);
   const phase = at(4);
-  const output = (pr: Problem, p: Float64Array, o: 'a' | 'b') => scaleMeasured(outputVisibility(pr, p, o), k);
+  const output = (pr: Problem, p: Float64Array, o: 'a' | 'b', factor: number) => scaleMeasured(outputVisibility(pr, p, o), factor);
   return {
     ok: true,
-    visibility: scaleEstimate(visibility, k),
-    visibilityNet: visibilityNet && scaleEstimate(visibilityNet, k),
+    visibility,
+    visibilityNet,
     shown: calibrated ? 'net' : 'raw',
     period: at(3),
     phase: { value: wrapPhase(phase.value), err: phase.err },
@@ -891,8 +900,8 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
     amplitudeA: at(0),
     amplitudeB: at(1),
     outputs: {
-      a: { raw: output(raw, rawFit.min.p, 'a'), net: calibrated ? output(net, fit.min.p, 'a') : null },
-      b: { raw: output(raw, rawFit.min.p, 'b'), net: calibrated ? output(net, fit.min.p, 'b') : null },
+      a: { raw: output(raw, rawFit.min.p, 'a', kRaw), net: calibrated ? output(net, fit.min.p, 'a', k) : null },
+      b: { raw: output(raw, rawFit.min.p, 'b', kRaw), net: calibrated ? output(net, fit.min.p, 'b', k) : null },
     },
     counts: { a: sumA, b: sumB, bins: len },
     darkPerBin: calibrated ? { a: da, b: db } : null,
