@@ -16,3 +16,8 @@ export interface ChannelCalibration {
   /** Detection efficiency relative to the bench's other outputs. */
   efficiency: number;
 }
+
+/** The channel's dead time in s and its model as the analysis names it; null without one. */
+export function channelDeadTime(c: Pick<ChannelCalibration, 'deadTimeNs' | 'deadTimeModel'>): { tau: number; model: 'non-paralyzable' | 'paralyzable' } | null {
+  return c.deadTimeNs ? { tau: c.deadTimeNs * 1e-9, model: c.deadTimeModel === 'paralyzable' ? 'paralyzable' : 'non-paralyzable' } : null;
+}

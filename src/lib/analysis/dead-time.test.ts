@@ -1,6 +1,6 @@
 import { lambertW0 as referenceW0 } from 'lambert-w-function';
 import { describe, expect, it } from 'vitest';
-import { correctDeadTime, countsThroughDeadTime } from './dead-time.ts';
+import { correctDeadTime, countsBeforeDeadTime, countsThroughDeadTime } from './dead-time.ts';
 
 const TAU = 50e-9; // s: a Si SPAD's dead time (20–50 ns, common practice)
 
@@ -74,7 +74,11 @@ describe('counts through a dead time (the forward model a fit curve is drawn wit
         const m = countsThroughDeadTime(n, tau, model);
         const back = correctDeadTime({ value: m, err: 0 }, tau, model);
         expect(back.ok && back.rate.value).toBeCloseTo(n, 6);
+        // The same over an interval of counts: 0.5 s of them, recorded and restored.
+        expect(countsBeforeDeadTime(countsThroughDeadTime(n * 0.5, tau / 0.5, model), 0.5, tau, model)).toBeCloseTo(n * 0.5, 4);
       }
     }
+    // Past a paralyzable detector's maximum there is no true rate: the counts stay as recorded.
+    expect(countsBeforeDeadTime(1e7, 1, 1e-7, 'paralyzable')).toBe(1e7);
   });
 });

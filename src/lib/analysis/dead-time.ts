@@ -62,3 +62,14 @@ export function correctDeadTime(m: Measured, tau: number, model: DeadTimeModel):
 export function countsThroughDeadTime(trueCounts: number, tauOver: number, model: DeadTimeModel): number {
   return model === 'paralyzable' ? trueCounts * Math.exp(-trueCounts * tauOver) : trueCounts / (1 + trueCounts * tauOver);
 }
+
+/**
+ * The counts a detector would have recorded in `seconds` without its dead time `tau` (s): the
+ * correction above applied to their mean rate; the counts as they are where it is refused
+ * (saturated) or there is nothing to correct.
+ */
+export function countsBeforeDeadTime(counts: number, seconds: number, tau: number, model: DeadTimeModel): number {
+  if (!(tau > 0 && counts > 0 && seconds > 0)) return counts;
+  const r = correctDeadTime({ value: counts / seconds, err: 0 }, tau, model);
+  return r.ok ? r.rate.value * seconds : counts;
+}

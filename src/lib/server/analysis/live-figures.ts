@@ -1,14 +1,13 @@
 // Computes a bench's live figures from its recent bins, channel settings and latest sweep fits.
 // No I/O: the analysis service feeds it and pushes the result.
 import { correctRate, rateFromCounts } from '../../analysis/corrections.ts';
-import { correctDeadTime } from '../../analysis/dead-time.ts';
-import type { DeadTimeModel } from '../../analysis/dead-time.ts';
+import { countsBeforeDeadTime } from '../../analysis/dead-time.ts';
 import { driftRate, normalizedDifference, phaseAtHold, quadratureError, unfoldPhase } from '../../analysis/phase.ts';
 import { g2FromCoincidences, heraldedAlpha, mandelQ } from '../../analysis/photon-stats.ts';
 import { envelopeVisibility, runningVisibility, type VisibilityPoint } from '../../analysis/running-visibility.ts';
 import { phaseNoise, phaseSensitivity } from '../../analysis/sensitivity.ts';
 import type { BenchFigures, ChannelFigures } from '../../bench-figures.ts';
-import type { ChannelCalibration } from '../../channel-calibration.ts';
+import { channelDeadTime, type ChannelCalibration } from '../../channel-calibration.ts';
 import type { RecentBins } from './recent-bins.ts';
 
 export type ChannelSettings = ChannelCalibration;
@@ -38,14 +37,11 @@ export const SWEEP_FRESH_MS = 30 * 60_000;
 /** Phase is read over the last second while the drive holds still, ms. */
 const PHASE_WINDOW_MS = 1_000;
 
-const modelName = (m: ChannelSettings['deadTimeModel']): DeadTimeModel => (m === 'paralyzable' ? 'paralyzable' : 'non-paralyzable');
 
 /** True over measured counts of a channel through its dead time at this rate; 1 without one or past saturation. */
 function deadTimeFactor(c: ChannelSettings | undefined, counts: number, seconds: number): number {
-  if (!c?.deadTimeNs || !(counts > 0 && seconds > 0)) return 1;
-  const measured = counts / seconds;
-  const r = correctDeadTime({ value: measured, err: 0 }, c.deadTimeNs * 1e-9, modelName(c.deadTimeModel));
-  return r.ok ? r.rate.value / measured : 1;
+  const dt = c ? channelDeadTime(c) : null;
+  return dt && counts > 0 ? countsBeforeDeadTime(counts, seconds, dt.tau, dt.model) / counts : 1;
 }
 
 /** A figure with its error, or null when either is not a finite number (the live schema refuses those). */
@@ -72,10 +68,11 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
     const counts = sum(s.counts);
     totals.set(c.role === 'aux' ? `aux:${c.gateway}/${c.key}` : c.role, { counts, seconds, dtMs: s.dtMs, series: s.counts });
     const measured = rateFromCounts(counts, seconds);
+    const deadTime = channelDeadTime(c);
     const corr = correctRate({
       measured,
       ...(c.darkRate !== null ? { dark: { value: c.darkRate, err: c.darkRateErr ?? 0 } } : {}),
-      ...(c.deadTimeNs ? { deadTime: { tau: c.deadTimeNs * 1e-9, model: modelName(c.deadTimeModel) } } : {}),
+      ...(deadTime ? { deadTime } : {}),
     });
     // A dark channel (shutter closed, detector off, no heralds) has no Q.
     const q = s.counts.length >= 10 && counts > 0 ? mandelQ(s.counts).q : null;

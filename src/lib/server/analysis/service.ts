@@ -5,6 +5,7 @@ import { eq } from 'drizzle-orm';
 import { correctDeadTime } from '../../analysis/dead-time.ts';
 import type { DeadTimeTerm, FringeFitOptions, FringeFitResult } from '../../analysis/fringe-fit.ts';
 import type { BenchFigures } from '../../bench-figures.ts';
+import { channelDeadTime } from '../../channel-calibration.ts';
 import { DEFAULT_COINCIDENCE_WINDOW_NS } from '../../coincidence-window.ts';
 import type { CountBatch } from '../../contract/wire.ts';
 import { shownVisibility } from '../../sweep-visibility.ts';
@@ -89,8 +90,10 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     meanBins /= pass.binsPerPoint.length;
     const binS = (pass.dtMs / 1000) * meanBins;
     // With a dead time set the fit models true counts through it, so its darks are true ones too.
-    const dead = (c: ChannelSettings | undefined): DeadTimeTerm | null =>
-      c?.deadTimeNs ? { tauOver: (c.deadTimeNs * 1e-9) / binS, model: c.deadTimeModel === 'paralyzable' ? 'paralyzable' : 'non-paralyzable' } : null;
+    const dead = (c: ChannelSettings | undefined): DeadTimeTerm | null => {
+      const dt = c ? channelDeadTime(c) : null;
+      return dt && { tauOver: dt.tau / binS, model: dt.model };
+    };
     const trueDark = (c: ChannelSettings, t: DeadTimeTerm | null) => {
       if (!t || c.darkRate === null) return c.darkRate;
       const r = correctDeadTime({ value: c.darkRate, err: 0 }, t.tauOver * binS, t.model);

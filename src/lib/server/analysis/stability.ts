@@ -3,7 +3,9 @@
 // series is split at missing buckets and the Allan deviation pooled over the stretches, so no
 // difference spans a gap and τ is a true time.
 import { allanDeviation, contiguousStretches } from '../../analysis/allan.ts';
+import { countsBeforeDeadTime } from '../../analysis/dead-time.ts';
 import { heldPhaseStretches } from '../../analysis/held-phase.ts';
+import { channelDeadTime } from '../../channel-calibration.ts';
 import type { RateStability, Stability } from '../../stability.ts';
 import { shownVisibility } from '../../sweep-visibility.ts';
 import { benchCalibrations } from '../benches.ts';
@@ -83,7 +85,12 @@ export async function benchStability(benchId: string, from: number, to: number, 
       darkB: net ? (outB.darkRate ?? 0) * tau0 : 0,
     };
     const held = await heldPositions(outA.gateway, counts.t0, counts.step, a.length);
-    const stretches = heldPhaseStretches({ a, b, held }, cal);
+    // The fitted V is the true counts' where a dead time is set: so are the buckets it reads.
+    const beforeDeadTime = (series: (number | null)[], c: typeof outA) => {
+      const dt = channelDeadTime(c);
+      return dt ? series.map((v) => (v === null ? null : countsBeforeDeadTime(v, tau0, dt.tau, dt.model))) : series;
+    };
+    const stretches = heldPhaseStretches({ a: beforeDeadTime(a, outA), b: beforeDeadTime(b, outB), held }, cal);
     const points = allanDeviation(stretches, tau0);
     if (points.length) phase = { visibility, net, points, heldBuckets: stretches.reduce((n, s) => n + s.length, 0), stretches: stretches.length };
   }
