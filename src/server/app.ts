@@ -88,7 +88,15 @@ export async function startApp(opts: AppOptions): Promise<RunningApp> {
       analysis.close();
       await closeAnalysisPool();
     });
-    const alarms = await startAlarmEngine();
+    // Alarm mails link to bench pages: at the public host name behind a proxy, else where this
+    // server listens (a port of 0, in tests, is not known yet: no links then).
+    const publicHost = process.env['PUBLIC_HOSTNAME'];
+    const linkBase = publicHost
+      ? `${process.env['FRINGEWISE_SECURE_COOKIES'] === '1' ? 'https' : 'http'}://${publicHost}`
+      : opts.port
+        ? `http://${opts.host}:${opts.port}`
+        : null;
+    const alarms = await startAlarmEngine({ mail: { linkBase } });
     stops.push(() => stopAlarmEngine(alarms));
     const retention = startRetentionJob();
     stops.push(() => retention.stop());

@@ -30,6 +30,10 @@ describe('alarm mail policy', () => {
     expect(mail!.text).toContain('2.50 Mc/s');
     expect(mail!.text).toContain('Raises above 2.00 Mc/s, clears below 1.50 Mc/s');
     expect(mail!.text).toContain('at 1970-01-01 00:00:00 UTC');
+    // With the app's address known, the mail links the bench page.
+    const linked = new MailPolicy({ linkBase: 'https://fringewise.lab.example/' });
+    linked.offer(base, 0);
+    expect(linked.due(2_000)[0]!.text).toContain('bench page: https://fringewise.lab.example/benches/mz-1');
   });
 
   it('folds a flapping rule into one digest per quiet period', () => {

@@ -66,6 +66,8 @@ export interface MailPolicyOptions {
   quietMs?: number;
   /** ms to wait for other changes before sending, so simultaneous ones share one mail. */
   gatherMs?: number;
+  /** Where the app is reached (`https://fringewise.lab.example`), for links to bench pages; none without. */
+  linkBase?: string | null;
 }
 
 export const DEFAULT_QUIET_MS = 10 * 60_000;
@@ -75,6 +77,7 @@ export const MAX_LISTED_PER_RULE = 100;
 
 export class MailPolicy {
   private readonly quietMs: number;
+  private readonly linkBase: string | null;
   private readonly gatherMs: number;
   private readonly lastSent = new Map<number, number>();
   private ready: MailItem[] = [];
@@ -83,6 +86,7 @@ export class MailPolicy {
 
   constructor(opts: MailPolicyOptions = {}) {
     this.quietMs = opts.quietMs ?? DEFAULT_QUIET_MS;
+    this.linkBase = opts.linkBase ?? null;
     this.gatherMs = opts.gatherMs ?? DEFAULT_GATHER_MS;
   }
 
@@ -127,7 +131,7 @@ export class MailPolicy {
       const to = key.split(',');
       const only = group[0]!;
       const more = group.reduce((n, g) => n + g.more, 0);
-      return group.length === 1 && !only.folded ? { to, ...formatSingle(only.item) } : { to, ...formatDigest(group.map((g) => g.item), this.quietMs, more) };
+      return group.length === 1 && !only.folded ? { to, ...formatSingle(only.item, this.linkBase) } : { to, ...formatDigest(group.map((g) => g.item), this.quietMs, more, this.linkBase) };
     });
   }
 
@@ -184,15 +188,21 @@ function describe(item: MailItem): string[] {
   ];
 }
 
-export function formatSingle(item: MailItem): { subject: string; text: string } {
+/** A bench page's address, or null without a known base. */
+function benchLink(benchId: string, linkBase: string | null | undefined): string | null {
+  return linkBase ? `${linkBase.replace(/\/$/, '')}/benches/${encodeURIComponent(benchId)}` : null;
+}
+
+export function formatSingle(item: MailItem, linkBase?: string | null): { subject: string; text: string } {
+  const link = benchLink(item.benchId, linkBase);
   return {
     subject: `[Fringewise] ${item.severity.toUpperCase()} ${item.change}: ${item.benchName} - ${item.ruleName}${about(item)}`,
-    text: [...describe(item), '', 'Acknowledge it on the bench page in Fringewise.'].join('\n'),
+    text: [...describe(item), '', link ? `Acknowledge it on the bench page: ${link}` : 'Acknowledge it on the bench page in Fringewise.'].join('\n'),
   };
 }
 
 /** `more`: changes after the listed ones, counted but not listed. */
-export function formatDigest(items: MailItem[], quietMs = DEFAULT_QUIET_MS, more = 0): { subject: string; text: string } {
+export function formatDigest(items: MailItem[], quietMs = DEFAULT_QUIET_MS, more = 0, linkBase?: string | null): { subject: string; text: string } {
   const sorted = [...items].sort((a, b) => a.at - b.at);
   const raised = sorted.filter((i) => i.change === 'raised').length;
   const benches = [...new Set(sorted.map((i) => i.benchName))].join(', ');
@@ -211,6 +221,10 @@ export function formatDigest(items: MailItem[], quietMs = DEFAULT_QUIET_MS, more
       ...(more ? ['', `… and ${more} later changes, not listed here: every one is on the bench pages.`] : []),
       '',
       'Acknowledge them on the bench pages in Fringewise.',
+      ...[...new Map(sorted.map((i) => [i.benchId, i.benchName])).entries()].flatMap(([id, name]) => {
+        const link = benchLink(id, linkBase);
+        return link ? [`  ${name}: ${link}`] : [];
+      }),
     ].join('\n'),
   };
 }
