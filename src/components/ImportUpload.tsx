@@ -6,9 +6,38 @@ import { MAX_IMPORT_BYTES, overlapMessage, type ImportOverlap, type ImportPrevie
 /** A bin time of the file in the reader's local time, as every other time in the app. */
 const when = (ms: number | null) => (ms === null ? '—' : formatDateTime(ms, true));
 
-async function post<T>(url: string, file: File): Promise<T> {
-  const res = await fetch(url, { method: 'POST', headers: { 'content-type': 'text/csv', accept: 'application/json' }, body: file });
-  const body = (await res.json().catch(() => null)) as (T & { error?: string; issues?: Preview['issues']; overlap?: ImportOverlap }) | null;
+/** Where an upload stands: the share of the file sent, then the server at work on it. */
+type Progress = { sent: number } | 'checking' | null;
+
+/**
+ * Posts the file and reads the JSON answer. Through XMLHttpRequest, not fetch: only it reports how
+ * much of a large upload has gone, and a 50 MiB file takes a while.
+ */
+function send(url: string, file: File, onProgress: (p: Progress) => void): Promise<{ ok: boolean; status: number; body: unknown }> {
+  return new Promise((resolve, reject) => {
+    const xhr = new XMLHttpRequest();
+    xhr.open('POST', url);
+    xhr.setRequestHeader('content-type', 'text/csv');
+    xhr.setRequestHeader('accept', 'application/json');
+    xhr.upload.onprogress = (e) => e.lengthComputable && onProgress({ sent: e.loaded / e.total });
+    xhr.upload.onload = () => onProgress('checking');
+    xhr.onload = () => {
+      let body: unknown = null;
+      try {
+        body = JSON.parse(xhr.responseText);
+      } catch {
+        // Not JSON (a proxy's error page): the status says enough.
+      }
+      resolve({ ok: xhr.status >= 200 && xhr.status < 300, status: xhr.status, body });
+    };
+    xhr.onerror = () => reject(new Error('the upload failed: network error'));
+    xhr.send(file);
+  });
+}
+
+async function post<T>(url: string, file: File, onProgress: (p: Progress) => void): Promise<T> {
+  const res = await send(url, file, onProgress);
+  const body = res.body as (T & { error?: string; issues?: Preview['issues']; overlap?: ImportOverlap }) | null;
   if (!res.ok) {
     // A refused overlap is worded here, in local time as the preview shows times; the server's text is in UTC.
     const message = body?.overlap ? overlapMessage(body.overlap, when) : (body?.error ?? `HTTP ${res.status}`);
@@ -25,6 +54,7 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
   const [issues, setIssues] = useState<Preview['issues']>([]);
   const [done, setDone] = useState<Imported | null>(null);
   const [busy, setBusy] = useState(false);
+  const [progress, setProgress] = useState<Progress>(null);
   const base = `/api/v1/benches/${encodeURIComponent(benchId)}/import`;
 
   const run = async <T,>(fn: () => Promise<T>): Promise<T | null> => {
@@ -39,6 +69,7 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
       return null;
     } finally {
       setBusy(false);
+      setProgress(null);
     }
   };
 
@@ -51,7 +82,7 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
           e.preventDefault();
           if (!file) return;
           setDone(null);
-          void run(() => post<Preview>(`${base}/preview`, file)).then((p) => setPreview(p));
+          void run(() => post<Preview>(`${base}/preview`, file, setProgress)).then((p) => setPreview(p));
         }}
       >
         <div>
@@ -83,6 +114,11 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
           Check file
         </button>
       </form>
+      {progress && (
+        <p className="figure text-sm text-muted" role="status" data-testid="import-progress">
+          {progress === 'checking' ? 'Sent; the server is reading the file…' : `Sending the file: ${Math.round(progress.sent * 100)} %`}
+        </p>
+      )}
 
       {error && (
         <p role="alert" className="text-sm text-bad">
@@ -149,7 +185,7 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
             className="btn-primary"
             type="button"
             disabled={busy || !file || !title.trim() || preview.overlap !== null}
-            onClick={() => void run(() => post<Imported>(`${base}?title=${encodeURIComponent(title.trim())}`, file!)).then((r) => r && (setDone(r), setPreview(null)))}
+            onClick={() => void run(() => post<Imported>(`${base}?title=${encodeURIComponent(title.trim())}`, file!, setProgress)).then((r) => r && (setDone(r), setPreview(null)))}
           >
             {preview.overlap ? 'Cannot import into this bench' : title.trim() ? 'Import as a new run' : 'Give the run a title to import'}
           </button>

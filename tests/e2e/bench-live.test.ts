@@ -192,5 +192,11 @@ describe('bench live view', () => {
     const csv = await readFile((await download.path())!, 'utf8');
     expect(csv.split('\n').find((l) => !l.startsWith('#'))).toMatch(/^t_ms,/);
     expect(csv.split('\n').filter((l) => /^\d+,/.test(l)).length).toBeGreaterThan(100);
+    // The same file checked for import into this bench: sent with its progress shown, read, and
+    // refused for its time, which the bench already holds.
+    await page.setInputFiles('#imp-file', (await download.path())!);
+    await page.getByRole('button', { name: 'Check file' }).click();
+    await page.getByRole('button', { name: 'Cannot import into this bench' }).waitFor({ timeout: 30_000 });
+    await expect.poll(() => page.getByTestId('import-progress').count()).toBe(0);
   });
 });
