@@ -49,6 +49,7 @@ export async function storeSweep(benchId: string, pass: CompletedPass, fit: Frin
     if (v < xMin) xMin = v;
     if (v > xMax) xMax = v;
   }
+  const passPeriod = xMax > xMin ? meanPeriod(fit, xMin, xMax) : fit.period;
   const stored: StoredFit = {
     amplitudeA: fit.amplitudeA.value / binsPerPoint,
     amplitudeB: fit.amplitudeB.value / binsPerPoint,
@@ -67,7 +68,7 @@ export async function storeSweep(benchId: string, pass: CompletedPass, fit: Frin
     visibilityInterval: { lower: shownV.lower, upper: shownV.upper, method: shownV.method },
     phaseAtCenter: fit.phaseAtCenter,
     center: fit.center,
-    piezoNmPerV: optics && xMax > xMin ? piezoCalibration(meanPeriod(fit, xMin, xMax), optics.wavelengthNm, optics.pathFactor) : null,
+    piezoNmPerV: optics && xMax > xMin ? piezoCalibration(passPeriod, optics.wavelengthNm, optics.pathFactor) : null,
     warnings: fit.warnings,
   };
   const [row] = await getDb()
@@ -83,8 +84,10 @@ export async function storeSweep(benchId: string, pass: CompletedPass, fit: Frin
       visibilityNetErr: fit.visibilityNet?.err ?? null,
       phase: fit.phase.value,
       phaseErr: fit.phase.err,
-      periodX: fit.period.value,
-      periodXErr: fit.period.err,
+      // The pass's mean period: with the quadratic term, P itself is the slope at x = 0, outside
+      // the scan, and up and down passes of one piezo read 10 and 14 V there.
+      periodX: passPeriod.value,
+      periodXErr: passPeriod.err,
       counts: fit.counts.a + fit.counts.b,
       fit: stored,
     })
