@@ -3,7 +3,7 @@ import { describe, expect, it } from 'vitest';
 import { gaussian, mulberry32, poisson } from '../../../simulators/random.ts';
 import { fitFringes, type FringeData, type FringeFit, type FringeFitOptions } from './fringe-fit.ts';
 import { expectedCounts } from './fringe-model.ts';
-import { simulateSweep, type SimulatedSweep, type SweepSpec } from './test-fixtures.ts';
+import { detectorClicks, simulateSweep, type SimulatedSweep, type SweepSpec } from './test-fixtures.ts';
 
 function fit(s: FringeData, options: FringeFitOptions = {}): FringeFit {
   const r = fitFringes(s, options);
@@ -247,27 +247,18 @@ describe('joint Poisson ML fringe fit', () => {
   });
 
   it("fits through the detectors' dead time: a bright fringe's flattened tops no longer lower V", () => {
-    // Event-level detectors (Knoll, Radiation Detection and Measurement, 4th ed., ch. 4: a click
-    // opens a dead time τ in which arrivals are lost): photons arrive as Poisson events at the
-    // fringe's rate for each point's dwell. At ~17 % loss on the bright side a fit without the
-    // dead time reads V several σ low; with it V lands on the truth.
+    // Event-level detectors (test-fixtures.ts, Knoll's non-paralyzable model) at the fringe's rate
+    // for each point's dwell. At ~17 % loss on the bright side a fit without the dead time reads V
+    // several σ low; with it V lands on the truth.
     const rng = mulberry32(41);
     const [n, dwell, tau, v] = [200, 2e-3, 1e-7, 0.95];
     const x = new Float64Array(n);
     const a = new Float64Array(n);
     const b = new Float64Array(n);
     const clicks = (rate: number) => {
-      let t = 0;
-      let dead = -1;
       let k = 0;
-      for (;;) {
-        t += -Math.log(1 - rng()) / rate;
-        if (t >= dwell) return k;
-        if (t >= dead) {
-          k++;
-          dead = t + tau;
-        }
-      }
+      detectorClicks(rng, rate, dwell, tau, () => k++);
+      return k;
     };
     for (let i = 0; i < n; i++) {
       x[i] = (10 * i) / (n - 1);

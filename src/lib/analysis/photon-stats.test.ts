@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { binomial, mulberry32, poisson } from '../../../simulators/random.ts';
 import { g2FromCoincidences, heraldedAlpha, mandelQ, poissonQThroughDeadTime } from './photon-stats.ts';
+import { detectorClicks } from './test-fixtures.ts';
 
 const BINS = 20_000;
 
@@ -36,23 +37,11 @@ describe('Mandel Q', () => {
 
 describe('Mandel Q of Poisson light through dead time', () => {
   it('matches an event-level non-paralyzable detector: Q ≈ (1 − mτ)² − 1', () => {
-    // Poisson arrivals at rate n; a click opens a dead time τ in which arrivals are lost, across
-    // bin edges too (Knoll, Radiation Detection and Measurement, 4th ed., ch. 4: the
-    // non-paralyzable model).
+    // One run of clicks binned afterwards, so the dead time carries across bin edges.
     const rng = mulberry32(12);
     const [n, tau, binS, bins] = [2e6, 1e-7, 1e-3, 2_000];
     const counts = new Float64Array(bins);
-    let t = 0;
-    let deadUntil = -1;
-    for (;;) {
-      t += -Math.log(1 - rng()) / n;
-      const bin = Math.floor(t / binS);
-      if (bin >= bins) break;
-      if (t >= deadUntil) {
-        counts[bin]!++;
-        deadUntil = t + tau;
-      }
-    }
+    detectorClicks(rng, n, bins * binS, tau, (t) => counts[Math.floor(t / binS)]!++);
     const q = mandelQ(counts);
     const m = q.mean / binS;
     expect(Math.abs(q.q.value - poissonQThroughDeadTime(m * tau))).toBeLessThan(3 * q.q.err);

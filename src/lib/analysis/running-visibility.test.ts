@@ -18,6 +18,19 @@ describe('envelope visibility while the phase drifts', () => {
     return { a, b };
   };
 
+  /** 1,000 bins of two outputs ∝ 1 ± 0.9 cos θ (common practice), 500 counts each on average, θ(fraction of the window). */
+  const drifting = (seed: number, theta: (f: number) => number) => {
+    const rng = mulberry32(seed);
+    const a = new Float64Array(1_000);
+    const b = new Float64Array(1_000);
+    for (let i = 0; i < 1_000; i++) {
+      const c = Math.cos(theta(i / 1_000));
+      a[i] = poisson(rng, 500 * (1 + 0.9 * c));
+      b[i] = poisson(rng, 500 * (1 - 0.9 * c));
+    }
+    return { a, b };
+  };
+
   it('is unbiased at low counts once the shot-noise term is subtracted', () => {
     const { a, b } = simulate(21);
     const e = envelopeVisibility(a, b, { efficiencyRatio: 0.8, darkA: 0.2, darkB: 0.1 });
@@ -39,15 +52,7 @@ describe('envelope visibility while the phase drifts', () => {
   it('warns when the phase drifted through only a slice of a fringe around mid-fringe', () => {
     // A slow drift of ±0.6 rad about mid-fringe: half the bins on each side, yet the spread of the
     // outputs is the slice's (two outputs ∝ 1 ± V cos θ, common practice), far below V = 0.9.
-    const rng = mulberry32(22);
-    const n = 1_000;
-    const a = new Float64Array(n);
-    const b = new Float64Array(n);
-    for (let i = 0; i < n; i++) {
-      const theta = Math.PI / 2 - 0.6 + (1.2 * i) / n;
-      a[i] = poisson(rng, 500 * (1 + 0.9 * Math.cos(theta)));
-      b[i] = poisson(rng, 500 * (1 - 0.9 * Math.cos(theta)));
-    }
+    const { a, b } = drifting(22, (f) => Math.PI / 2 - 0.6 + 1.2 * f);
     const e = envelopeVisibility(a, b, { efficiencyRatio: 1 });
     expect(e!.value).toBeLessThan(0.5);
     expect(e!.warnings).toHaveLength(1);
@@ -62,15 +67,7 @@ describe('envelope visibility while the phase drifts', () => {
   });
 
   it('takes a window whose phase drifted just over one fringe, at high counts', () => {
-    const rng = mulberry32(23);
-    const n = 1_000;
-    const a = new Float64Array(n);
-    const b = new Float64Array(n);
-    for (let i = 0; i < n; i++) {
-      const theta = 0.3 + (2.2 * Math.PI * i) / n;
-      a[i] = poisson(rng, 500 * (1 + 0.9 * Math.cos(theta)));
-      b[i] = poisson(rng, 500 * (1 - 0.9 * Math.cos(theta)));
-    }
+    const { a, b } = drifting(23, (f) => 0.3 + 2.2 * Math.PI * f);
     expect(envelopeVisibility(a, b, { efficiencyRatio: 1 })?.warnings).toEqual([]);
   });
 

@@ -47,3 +47,17 @@ export function simulateSweep(spec: SweepSpec): SimulatedSweep {
   }
   return { x, countsA, countsB };
 }
+
+/**
+ * An event-level non-paralyzable detector (Knoll, Radiation Detection and Measurement, 4th ed.,
+ * ch. 4): photons arrive as Poisson events at `rate` per s for `seconds`; a click opens a dead time
+ * `tau` in which arrivals are lost. Calls `onClick` with each recorded click's time, s.
+ */
+export function detectorClicks(rng: () => number, rate: number, seconds: number, tau: number, onClick: (t: number) => void): void {
+  let deadUntil = -1;
+  for (let t = -Math.log(1 - rng()) / rate; t < seconds; t += -Math.log(1 - rng()) / rate) {
+    if (t < deadUntil) continue;
+    onClick(t);
+    deadUntil = t + tau;
+  }
+}
