@@ -59,21 +59,26 @@ describe('g2(0) from coincidences', () => {
     const r1 = 2e5;
     const r2 = 1.5e5;
     const accidentals = r1 * r2 * window * T;
-    const r = g2FromCoincidences({ counts1: [r1 * T], counts2: [r2 * T], binS: T, coincidences: poisson(rng, accidentals), windowS: window });
+    const r = g2FromCoincidences({ counts1: [r1 * T], counts2: [r2 * T], binS: T, coincidences: poisson(rng, accidentals), windowS: window })!;
     expect(r.accidentals).toBeCloseTo(accidentals, 6);
     expect(Math.abs(r.g2.value - 1)).toBeLessThan(3 * r.g2.err);
     expect(Math.abs(r.excess.value)).toBeLessThan(3 * r.excess.err);
   });
 
   it('goes to 0 for an ideal single-photon source, with a Garwood interval on few coincidences', () => {
-    const r = g2FromCoincidences({ counts1: [1e6], counts2: [1e6], binS: T, coincidences: 0, windowS: window });
+    const r = g2FromCoincidences({ counts1: [1e6], counts2: [1e6], binS: T, coincidences: 0, windowS: window })!;
     expect(r.g2.value).toBe(0);
     expect(r.interval.lower).toBe(0);
     expect(r.interval.upper).toBeCloseTo(1.841 / r.accidentals, 6); // Gehrels (1986) 1σ upper for n = 0
   });
 
+  it('gives none when the two detectors never click in the same bin: no accidentals to compare with', () => {
+    expect(g2FromCoincidences({ counts1: [1, 0, 1, 0], counts2: [0, 1, 0, 1], binS: 1e-3, coincidences: 0, windowS: window })).toBeNull();
+    expect(heraldedAlpha({ gates: [5, 5], gateTransmitted: [1, 0], gateReflected: [0, 1], triples: 0 })).toBeNull();
+  });
+
   it('is 2 for thermal light (twice the accidentals)', () => {
-    const r = g2FromCoincidences({ counts1: [2e6], counts2: [2e6], binS: T, coincidences: 1600, windowS: window });
+    const r = g2FromCoincidences({ counts1: [2e6], counts2: [2e6], binS: T, coincidences: 1600, windowS: window })!;
     expect(r.g2.value).toBeCloseTo(2, 10);
   });
 
@@ -95,10 +100,10 @@ describe('g2(0) from coincidences', () => {
       c2[i] = poisson(rng, r2 * binS);
       cc += poisson(rng, r1 * r2 * window * binS);
     }
-    const perBin = g2FromCoincidences({ counts1: c1, counts2: c2, binS, coincidences: cc, windowS: window });
+    const perBin = g2FromCoincidences({ counts1: c1, counts2: c2, binS, coincidences: cc, windowS: window })!;
     expect(Math.abs(perBin.g2.value - 1)).toBeLessThan(3 * perBin.g2.err);
     const sum = (a: Float64Array) => a.reduce((x, y) => x + y, 0);
-    const totals = g2FromCoincidences({ counts1: [sum(c1)], counts2: [sum(c2)], binS: bins * binS, coincidences: cc, windowS: window });
+    const totals = g2FromCoincidences({ counts1: [sum(c1)], counts2: [sum(c2)], binS: bins * binS, coincidences: cc, windowS: window })!;
     expect(Math.abs(totals.g2.value - (1 - (v * v) / 2))).toBeLessThan(3 * totals.g2.err);
   });
 });
@@ -131,7 +136,7 @@ describe('heralded anticorrelation α', () => {
       if (r) gr++;
       if (t && r) gtr++;
     }
-    return heraldedAlpha({ gates: [gates], gateTransmitted: [gt], gateReflected: [gr], triples: gtr });
+    return heraldedAlpha({ gates: [gates], gateTransmitted: [gt], gateReflected: [gr], triples: gtr })!;
   }
 
   it('is 0 for heralded single photons', () => {
@@ -162,11 +167,11 @@ describe('heralded anticorrelation α', () => {
       r[i] = poisson(rng, gatesPerBin * pr);
       triples += poisson(rng, gatesPerBin * pt * pr);
     }
-    const a = heraldedAlpha({ gates: g, gateTransmitted: t, gateReflected: r, triples });
+    const a = heraldedAlpha({ gates: g, gateTransmitted: t, gateReflected: r, triples })!;
     expect(Math.abs(a.alpha.value - 1)).toBeLessThan(3 * a.alpha.err);
   });
 
   it('computes the published estimator N_GTR·N_G/(N_GT·N_GR) exactly', () => {
-    expect(heraldedAlpha({ gates: [1000], gateTransmitted: [100], gateReflected: [50], triples: 2 }).alpha.value).toBeCloseTo((2 * 1000) / (100 * 50), 12);
+    expect(heraldedAlpha({ gates: [1000], gateTransmitted: [100], gateReflected: [50], triples: 2 })!.alpha.value).toBeCloseTo((2 * 1000) / (100 * 50), 12);
   });
 });

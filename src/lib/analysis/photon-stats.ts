@@ -109,12 +109,13 @@ function binProductSum(a: ArrayLike<number>, b: ArrayLike<number>, c: (i: number
  * bin: with the window totals instead, two outputs of an interferometer that move in antiphase
  * through a fringe read ⟨R₁R₂⟩/(⟨R₁⟩⟨R₂⟩) = 1 − V²/2 for laser light, as if antibunched.
  */
-export function g2FromCoincidences(input: CoincidenceInput): G2Result {
+export function g2FromCoincidences(input: CoincidenceInput): G2Result | null {
   const { counts1, counts2, binS, coincidences, windowS } = input;
   if (!(binS > 0 && windowS > 0)) throw new RangeError('bin width and window must be positive');
   const products = binProductSum(counts1, counts2, () => binS / windowS);
   const accidentals = products.sum;
-  if (!(accidentals > 0)) throw new RangeError('no singles: g2(0) undefined');
+  // Singles that never share a bin give no accidentals to compare with: no g2(0) from these data.
+  if (!(accidentals > 0)) return null;
   const g2 = coincidences / accidentals;
   const relVarAcc = products.variance / (accidentals * accidentals);
   const err = Math.sqrt(coincidences / (accidentals * accidentals) + g2 * g2 * relVarAcc);
@@ -145,7 +146,7 @@ export interface HeraldedInput {
  * the Poisson variances of the counts treated as independent, which slightly overstates it
  * (N_GTR ⊂ N_GT): conservative.
  */
-export function heraldedAlpha(input: HeraldedInput): { alpha: Measured; triplesInterval: { lower: number; upper: number } } {
+export function heraldedAlpha(input: HeraldedInput): { alpha: Measured; triplesInterval: { lower: number; upper: number } } | null {
   const { gates, gateTransmitted, gateReflected, triples } = input;
   if (gates.length !== gateTransmitted.length) throw new RangeError('gate series of unequal length');
   const expected = binProductSum(gateTransmitted, gateReflected, (i) => gates[i] as number);
@@ -155,7 +156,8 @@ export function heraldedAlpha(input: HeraldedInput): { alpha: Measured; triplesI
     const g = gates[i] as number;
     if (g > 0) gateVariance += ((gateTransmitted[i] as number) * (gateReflected[i] as number)) ** 2 / g ** 3;
   }
-  if (!(expected.sum > 0)) throw new RangeError('α needs gate and twofold counts');
+  // No bin with a gate and both twofolds: no expected triples, no α from these data.
+  if (!(expected.sum > 0)) return null;
   const scale = 1 / expected.sum;
   const alpha = triples * scale;
   const relVar = (expected.variance + gateVariance) * scale * scale;

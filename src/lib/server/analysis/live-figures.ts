@@ -179,27 +179,15 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
     // at 0 counts, so quote the exact Garwood interval's half-width instead.
     const few = coincidences < 20;
     // Sparse singles that never click in the same bin leave no accidentals to compare with: the
-    // estimators refuse (RangeError) and the figure stays empty while the rest of the bench reads.
-    const undefinedHere = (err: unknown) => {
-      if (!(err instanceof RangeError)) throw err;
-      return null;
-    };
+    // estimators give none, and the figure stays empty while the rest of the bench reads.
     if (herald) {
-      if (th && th.counts > 0 && aligned(th)) {
-        try {
-          const r = heraldedAlpha({ gates: th.series, gateTransmitted: ta.series, gateReflected: tb.series, triples: coincidences });
-          alpha = finite({ value: r.alpha.value, err: few ? (r.triplesInterval.upper - r.triplesInterval.lower) / 2 : r.alpha.err });
-        } catch (err) {
-          alpha = undefinedHere(err);
-        }
-      }
+      const r = th && th.counts > 0 && aligned(th) ? heraldedAlpha({ gates: th.series, gateTransmitted: ta.series, gateReflected: tb.series, triples: coincidences }) : null;
+      if (r) alpha = finite({ value: r.alpha.value, err: few ? (r.triplesInterval.upper - r.triplesInterval.lower) / 2 : r.alpha.err });
     } else {
-      try {
-        const r = g2FromCoincidences({ counts1: ta.series, counts2: tb.series, binS: cc.dtMs / 1000, coincidences, windowS: input.coincidenceWindowNs * 1e-9 });
+      const r = g2FromCoincidences({ counts1: ta.series, counts2: tb.series, binS: cc.dtMs / 1000, coincidences, windowS: input.coincidenceWindowNs * 1e-9 });
+      if (r) {
         const err = few ? (r.interval.upper - r.interval.lower) / 2 : r.g2.err;
         g2 = finite({ value: r.g2.value, err }) && Number.isFinite(r.accidentals) ? { value: r.g2.value, err, accidentals: r.accidentals } : null;
-      } catch (err) {
-        g2 = undefinedHere(err);
       }
     }
   }
