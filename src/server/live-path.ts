@@ -50,6 +50,7 @@ export async function startLivePath(opts: LivePathOptions): Promise<LivePath> {
     throw err;
   }
   const commands = new BrokerCommandSender(transport, ingest.fanout, opts.prefix);
+  ingest.knownCommand = (gatewayId, id) => commands.sentTo(gatewayId, id);
   const rt = runtime();
   rt.commands = commands;
   rt.live = {

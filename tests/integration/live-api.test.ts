@@ -3,7 +3,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { topicFor } from '../../src/lib/contract/wire.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
-import { auditLog, benches } from '../../src/lib/server/db/schema.ts';
+import { auditLog, benches, gatewayHealth } from '../../src/lib/server/db/schema.ts';
 import { buildIfStale } from '../../src/server/build.ts';
 import { and, eq } from 'drizzle-orm';
 import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
@@ -116,6 +116,35 @@ describe('POST /api/v1/benches/{id}/commands', () => {
     expect(audit!.after).toMatchObject({ op: 'sweep', from: 0, to: 40, bench: gw.benchId, gateway: gw.gatewayId });
     await client.publishAsync(topicFor(gw.gatewayId, 'ack'), JSON.stringify({ v: 1, id, ok: false, error: 'out of scan range' }), { qos: 1 });
     expect(await ws.next((m) => m.type === 'ack')).toEqual({ type: 'ack', bench: gw.benchId, gateway: gw.gatewayId, id, ok: false, error: 'out of scan range' });
+    await client.endAsync();
+    ws.ws.close();
+  });
+
+  it('refuses and counts acks of commands never sent to the gateway; finds those sent before a restart in the audit trail', async () => {
+    const gw = await freshGateway();
+    const other = await freshGateway(gw.benchId);
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    const ws = await openLive(t.baseUrl, gw.benchId, observer);
+    const ack = (id: string) => client.publishAsync(topicFor(gw.gatewayId, 'ack'), JSON.stringify({ v: 1, id, ok: true }), { qos: 1 });
+    // Sent to the other gateway of the bench, then acked by this one; and an id never sent at all.
+    await t.live.commands.publish(other.gatewayId, { v: 1, id: 'for-the-other', op: 'stop' });
+    await ack('for-the-other');
+    await ack('never-sent');
+    // As the server before a restart left it: only the audit entry of the command.
+    await getDb().insert(auditLog).values({ actorId: null, entity: 'command', entityId: 'before-restart', action: 'send', after: { op: 'stop', bench: gw.benchId, gateway: gw.gatewayId } });
+    await ack('before-restart');
+    expect(await ws.next((m) => m.type === 'ack')).toMatchObject({ id: 'before-restart', ok: true });
+    expect(ws.messages.filter((m) => m.type === 'ack').map((m) => (m.type === 'ack' ? m.id : ''))).toEqual(['before-restart']);
+    const health = async () => (await getDb().select().from(gatewayHealth).where(eq(gatewayHealth.gatewayId, gw.gatewayId)))[0];
+    await until(async () => (await health())?.rejected === 2, 10_000, 'two refused acks counted');
+    const h = await health();
+    expect((h!.lastRejects as { reason: string }[]).map((r) => r.reason)).toEqual([
+      'ack: no command "never-sent" was sent to this gateway',
+      'ack: no command "for-the-other" was sent to this gateway',
+    ]);
+    const audited = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, 'command'), eq(auditLog.action, 'ack')));
+    expect(audited.map((a) => a.entityId)).not.toContain('never-sent');
+    expect(audited.map((a) => a.entityId)).not.toContain('for-the-other');
     await client.endAsync();
     ws.ws.close();
   });

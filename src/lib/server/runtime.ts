@@ -8,6 +8,8 @@ export interface CommandSender {
   send(gatewayId: string, command: Command, timeoutMs?: number): Promise<Ack>;
   /** Publishes without waiting for the ack (the ack still reaches the bench's live clients). */
   publish(gatewayId: string, command: Command): Promise<void>;
+  /** Whether command `id` was sent to `gatewayId` (acks of any other id are refused). */
+  sentTo(gatewayId: string, id: string): Promise<boolean>;
 }
 
 export interface LiveService {

@@ -25,6 +25,8 @@ export class Ingest {
   // One writer: a second one (gateways split by hash) measured worse on 2 cores once in-order
   // batches skipped the span read (DEVELOPERS.md, "Ingest benchmark").
   readonly writer = new BatchWriter((e) => this.onStored(e));
+  /** Whether an ack's command was sent to its gateway; set once the command sender exists. */
+  knownCommand: (gatewayId: string, id: string) => Promise<boolean> = () => Promise.resolve(false);
 
   /**
    * Handles one message a gateway published on its own topic. Resolves when the message may be
@@ -59,6 +61,12 @@ export class Ingest {
         this.fanout.emit(benchId, { type: 'status', bench: benchId, gateway: gatewayId, state, at: arrivedAt, ...(channels && { channels }), ...(scan && { scan }), ...(software && { software }) });
       } else {
         const { id, ok, error } = msg.value;
+        if (!(await this.knownCommand(gatewayId, id))) {
+          const reason = `ack: no command ${JSON.stringify(id.slice(0, 40))} was sent to this gateway`;
+          await this.writer.reject(gatewayId, reason);
+          serverEvents().emit('batch-rejected', { benchId, gatewayId, reason, at: arrivedAt });
+          return;
+        }
         this.fanout.emit(benchId, { type: 'ack', bench: benchId, gateway: gatewayId, id, ok, ...(error !== undefined && { error }) });
       }
     } catch (err) {
