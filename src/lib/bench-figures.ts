@@ -17,7 +17,7 @@ export interface ChannelFigures {
   rateCorrected: ValueErr | null;
   /** Fraction of true counts lost to dead time (m·τ for the non-paralyzable model). */
   deadTimeLoss: number | null;
-  /** Mandel Q of the counts per bin over the window. */
+  /** Mandel Q of the counts per bin over the window, its variance from adjacent bins. */
   mandelQ: ValueErr | null;
   warning: string | null;
 }
@@ -33,6 +33,8 @@ export interface BenchFigures {
    * older snapshots), or an envelope estimate while the phase drifts through whole fringes.
    */
   visibility: (ValueErr & { source: 'sweep' | 'envelope'; net: boolean; latestPassMs?: number | undefined }) | null;
+  /** Whether the drive held still over the last second (or sends no positions): phase and phase noise are read only then (older snapshots lack it). */
+  holding?: boolean | undefined;
   /** Phase at hold (rad) with drift rate (rad/s). */
   phase: (ValueErr & { driftRadPerS: number | null; driftErrRadPerS?: number | undefined }) | null;
   /** (N_a − N_b)/(N_a + N_b) over the last second: the mid-fringe error signal is 0 at quadrature. */

@@ -58,6 +58,9 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
   // The tile's value comes from the recent fits: the newest one's warnings qualify it. Without a
   // significant fringe in that pass the value is no confident V ± σ, so it is muted and its ± dropped.
   const passWarning = v?.source === 'sweep' && props.latestPass && props.latestPass.all.length > 0 ? props.latestPass : null;
+  // Why a held drive gives no phase: the reading needs the fringe's V, and loses its sensitivity at
+  // the fringe's top and bottom (the phase noise is read near mid-fringe only).
+  const phaseMissing = !f?.holding ? 'while holding only' : !v || v.value <= 0.05 ? 'needs V: sweep first' : 'hold nearer mid-fringe';
   const ph = f?.phase;
   const phs = ph ? splitErr(ph) : null;
   const sn = f?.shotNoise;
@@ -84,7 +87,9 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
             phs ? `± ${phs.err} rad` : null,
             ph?.driftRadPerS != null
               ? `drift ${ph.driftErrRadPerS !== undefined ? formatValueErr({ value: ph.driftRadPerS * 1000, err: ph.driftErrRadPerS * 1000 }) : formatNumber(ph.driftRadPerS * 1000, 2)} mrad/s`
-              : 'while holding only',
+              : ph
+                ? 'drift after a few seconds held'
+                : phaseMissing,
           ]}
         />
         <Tile label="Contrast (A−B)/(A+B)" value={formatNumber(f?.contrast, 3)} subs={['0 at mid-fringe']} />
@@ -100,7 +105,7 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
                   // At visibility V no phase reading beats 1/(V√N): the floor this bench can reach.
                   sn.visibilityLimitRad !== undefined ? `${(sn.measuredRad / sn.visibilityLimitRad).toFixed(2)} × the floor at this V` : null,
                 ]
-              : ['while holding only']
+              : [phaseMissing]
           }
         />
       </div>

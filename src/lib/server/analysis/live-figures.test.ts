@@ -98,6 +98,16 @@ describe('computeFigures', () => {
     expect(fresh.phase?.driftRadPerS).toBeNull(); // fewer than 5 readings yet
   });
 
+  it('says whether the drive held still, so a page can tell why a phase is missing', () => {
+    // These batches carry no positions: a gateway without a drive counts as holding.
+    expect(figures.holding).toBe(true);
+    const moving = recent();
+    moving.add(GW, { v: 1, boot: 'b', seq: 9, t0: end, dt: DT, ch: { a: new Array(BINS).fill(A), b: new Array(BINS).fill(B) }, x: Array.from({ length: BINS }, (_, i) => i * 0.05) });
+    const swept = computeFigures({ ...input([{ timeMs: end - 60_000, value: 0.9, err: 0.01, net: false }]), now: end + 1_000, recent: moving }).figures;
+    expect(swept.holding).toBe(false);
+    expect(swept.phase).toBeNull();
+  });
+
   it('averages only fits of the newest one\'s kind and says whether they are net of darks', () => {
     const raw = { value: 0.72, err: 0.0034, net: false };
     const net = { value: 0.9, err: 0.0043, net: true };

@@ -193,7 +193,7 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
   }
 
   return {
-    figures: { benchId: input.benchId, at: to || input.now, windowMs, channels, visibility, phase, contrast, g2, alpha, shotNoise },
+    figures: { benchId: input.benchId, at: to || input.now, windowMs, channels, visibility, holding, phase, contrast, g2, alpha, shotNoise },
     phaseReading,
   };
 }
