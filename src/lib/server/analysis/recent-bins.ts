@@ -33,9 +33,17 @@ export interface ChannelSeries {
 /** How far past the server's clock a batch may end and still feed the live figures, ms. */
 const FUTURE_SLACK_MS = 60_000;
 
+/**
+ * Most values held per bench (32 MB): 12 s of 20 gateways × 4 channels at 1 kHz is ~1 M. A flood
+ * beyond that (the ingest benchmark's saturation stores ~7 M bins a second) shortens the window
+ * the figures are read over instead of growing the server by gigabytes.
+ */
+const MAX_HELD_VALUES = 4_000_000;
+
 export class RecentBins {
   private batches: HeldBatch[] = [];
   private latest = 0;
+  private held = 0;
   /** The last key layout per gateway: consecutive batches share one map instead of each building its own. */
   private layouts = new Map<string, ReadonlyMap<string, number>>();
 
@@ -59,12 +67,16 @@ export class RecentBins {
     if (batch.x) values.set(batch.x, xAt);
     if (batch.cc) values.set(batch.cc, ccAt);
     this.batches.push({ gatewayId, t0: batch.t0, dt: batch.dt, n, end, keys, xAt, ccAt, values });
+    this.held += values.length;
     if (end > this.latest) this.latest = end;
     // Batches arrive in order per gateway, so the oldest sit at the front; a late (replayed) one
     // further back ages out once it reaches the front.
     const horizon = this.latest - this.keepMs;
     let drop = 0;
-    while (drop < this.batches.length && (this.batches[drop]?.end ?? 0) < horizon) drop++;
+    while (drop < this.batches.length && ((this.batches[drop]?.end ?? 0) < horizon || this.held > MAX_HELD_VALUES)) {
+      this.held -= this.batches[drop]!.values.length;
+      drop++;
+    }
     if (drop > 0) this.batches.splice(0, drop);
   }
 
