@@ -3,7 +3,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { topicFor } from '../../src/lib/contract/wire.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
-import { auditLog, benches, gatewayHealth } from '../../src/lib/server/db/schema.ts';
+import { auditLog, benches, countBatches, gatewayHealth } from '../../src/lib/server/db/schema.ts';
 import { buildIfStale } from '../../src/server/build.ts';
 import { and, eq } from 'drizzle-orm';
 import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
@@ -86,6 +86,59 @@ describe('GET /api/v1/benches/{id}/counts', () => {
       expect((await res.json()).error, String(step)).toMatch(new RegExp(`step ${step} ms is not a multiple of the stored bin width \\(10 ms`));
     }
     expect((await get(`/api/v1/benches/${gw.benchId}/counts?from=${BASE}&to=${BASE + 3000}&step=30`, observer)).status).toBe(200);
+  });
+});
+
+describe('GET /api/v1/benches/{id}/counts: time covered per bucket', () => {
+  let gw: Awaited<ReturnType<typeof freshGateway>>;
+  // 10 ms bins at 100 counts/s on `a`: recorded over [2.5 s, 7 s), a restart's 15 s gap (a new
+  // boot), then [22 s, 64.5 s) from BASE. Every bucket's rate is 100/s however little of it is recorded.
+  beforeAll(async () => {
+    gw = await freshGateway();
+    const c = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    await publishBatch(c, gw.gatewayId, makeBatch(BASE + 2_500, 450, 0, { value: () => 1 }));
+    await publishBatch(c, gw.gatewayId, makeBatch(BASE + 22_000, 4_250, 0, { boot: 'boot2', value: () => 1 }));
+    await c.endAsync();
+  });
+  const counts = async (from: number, to: number, step: number) => {
+    const res = await get(`/api/v1/benches/${gw.benchId}/counts?from=${BASE + from}&to=${BASE + to}&step=${step}`, observer);
+    expect(res.status).toBe(200);
+    return (await res.json()) as { resolution: string; channels: Record<string, (number | null)[]>; coveredMs: Record<string, number[]> };
+  };
+  const rates = (a: { channels: Record<string, (number | null)[]>; coveredMs: Record<string, number[]> }) =>
+    a.channels[`${gw.gatewayId}/a`]!.map((v, i) => (v === null ? null : (v * 1000) / a.coveredMs[gw.gatewayId]![i]!));
+
+  it('says how much of each raw bucket the bins cover', async () => {
+    const raw = await counts(0, 66_000, 1_500);
+    expect(raw.resolution).toBe('raw');
+    expect(Object.keys(raw.coveredMs)).toEqual([gw.gatewayId]);
+    const cov = raw.coveredMs[gw.gatewayId]!;
+    expect(cov).toHaveLength(44);
+    // [1.5, 3) s holds the recording's first 0.5 s, [6, 7.5) its 1 s before the gap, [21, 22.5) 0.5 s after it.
+    expect(cov.slice(0, 6)).toEqual([0, 500, 1_500, 1_500, 1_000, 0]);
+    expect(cov.slice(13, 16)).toEqual([0, 500, 1_500]);
+    expect(cov.slice(-2)).toEqual([1_500, 0]);
+    expect(rates(raw).filter((r) => r !== null)).toEqual(new Array(cov.filter((ms) => ms > 0).length).fill(100));
+    expect(rates(raw).map((r) => r === null)).toEqual(cov.map((ms) => ms === 0));
+  });
+
+  it('counts the 1 s and 1 min rollups’ bins at the gateway’s bin width', async () => {
+    const sec = await counts(0, 65_000, 5_000);
+    expect(sec.resolution).toBe('1s');
+    expect(sec.coveredMs[gw.gatewayId]).toEqual([2_500, 2_000, 0, 0, 3_000, 5_000, 5_000, 5_000, 5_000, 5_000, 5_000, 5_000, 4_500]);
+    expect(rates(sec)).toEqual([100, 100, null, null, 100, 100, 100, 100, 100, 100, 100, 100, 100]);
+    const min = await counts(0, 120_000, 60_000);
+    expect(min.resolution).toBe('1min');
+    expect(min.coveredMs[gw.gatewayId]).toEqual([42_500, 4_500]);
+    expect(rates(min)).toEqual([100, 100]);
+    // A range holding only a partly recorded slot: its width comes from the stored rows, not the slot.
+    expect((await counts(2_000, 3_000, 1_000)).coveredMs[gw.gatewayId]).toEqual([500]);
+  });
+
+  it('reads the bin width from the rollups once the raw rows are past retention', async () => {
+    await getDb().delete(countBatches).where(eq(countBatches.gatewayId, gw.gatewayId));
+    const sec = await counts(0, 65_000, 5_000);
+    expect(sec.coveredMs[gw.gatewayId]).toEqual([2_500, 2_000, 0, 0, 3_000, 5_000, 5_000, 5_000, 5_000, 5_000, 5_000, 5_000, 4_500]);
   });
 });
 

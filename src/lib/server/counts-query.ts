@@ -4,6 +4,10 @@
 // since the epoch, so two queries with the same step always agree; a bin counts in the bucket
 // holding its start, exact since a raw step must be a multiple of the bin width (the contract's
 // rule, refused with 422 otherwise).
+//
+// Each answer also says how much of every bucket each gateway's stored bins cover (`coveredMs`):
+// a sum alone cannot tell a bucket half recorded (a restart's gap, a recording's first and last
+// bucket) from one where the light halved, and rates drawn as sum/step dipped towards zero there.
 import { getDbHandle } from './db/index.ts';
 import { unpackRow } from './db/packed-counts.ts';
 import { benchChannels, type BenchChannel } from './benches.ts';
@@ -23,6 +27,12 @@ export interface CountsResult {
   resolution: Resolution;
   /** One column per channel, "<gateway>/<key>"; null where no bin was stored. */
   channels: Record<string, (number | null)[]>;
+  /**
+   * Per gateway of the bench: ms of each bucket covered by the bins summed into it (0 where none),
+   * so a channel's rate is its sum over its gateway's covered time. A bin counts in the bucket
+   * holding its start, so with bins longer than a rollup step the time can pass the step.
+   */
+  coveredMs: Record<string, number[]>;
   /** Mean scan coordinate per bucket (raw resolution only: rollups keep no x). */
   x?: (number | null)[];
   /** Summed coincidences per bucket. */
@@ -62,6 +72,29 @@ class Buckets {
   }
 }
 
+/**
+ * Bin width (ms) of each gateway's last raw row starting before `before`, else its first one after:
+ * one primary-key probe each, where reading the widths of every row in a long range would scan it.
+ * Rollups keep no width, so a gateway that changed its bin width inside or after the range has the
+ * slots before the change scaled by the newer width (their rates off by the ratio of the widths);
+ * raw resolution is exact whatever the widths. Gateways without raw rows are missing.
+ */
+async function binWidths(gatewayIds: string[], before: number): Promise<Map<string, number>> {
+  if (!gatewayIds.length) return new Map();
+  const { rows } = await getDbHandle().pool.query<{ gateway_id: string; dt: number }>(
+    `select g.id as gateway_id, w.dt
+       from unnest($1::text[]) as g(id)
+       cross join lateral (
+         (select dt from count_batches c where c.gateway_id = g.id and c.t0 < $2 order by c.t0 desc limit 1)
+         union all
+         (select dt from count_batches c where c.gateway_id = g.id and c.t0 >= $2 order by c.t0 limit 1)
+         limit 1
+       ) w`,
+    [gatewayIds, before],
+  );
+  return new Map(rows.map((r) => [r.gateway_id, r.dt]));
+}
+
 export async function queryCounts(benchId: string, from: number, to: number, step: number): Promise<CountsResult> {
   if (!(to > from)) throw new HttpError(422, 'to must be after from');
   const t0 = Math.floor(from / step) * step;
@@ -75,6 +108,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
   const gatewayIds = [...new Set(channelInfo.map((c) => c.gateway))];
   const b = new Buckets(t0, step, points);
   for (const c of channelInfo) b.column(`${c.gateway}/${c.key}`);
+  const covered = new Map(gatewayIds.map((g) => [g, new Array<number>(points).fill(0)]));
   const end = t0 + points * step;
   let xSum: number[] | null = null;
   let xN: number[] | null = null;
@@ -86,6 +120,10 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
         where gateway_id = any($1::text[]) and step_ms = $2 and block_t0 >= $3 and block_t0 < $4`,
       [gatewayIds, levelMs, Math.floor(t0 / blockMs) * blockMs, end],
     );
+    // Rollups count bins per key; a gateway's bins per slot are the most of any of its keys, since
+    // every key of a stored row has all its bins (a key missing from some rows, such as a channel
+    // added mid-recording, is diluted by the others' time in those slots).
+    const slotBins = new Map<string, Map<number, number[]>>();
     for (const r of rows) {
       const name = r.key === CC_KEY ? null : `${r.gateway_id}/${r.key}`;
       for (let i = 0; i < r.sums.length; i++) {
@@ -93,6 +131,24 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
         const at = b.index(r.block_t0 + i * levelMs);
         if (at < 0) continue;
         b.add(name ?? '#cc', at, r.sums[i]!);
+      }
+      let blocks = slotBins.get(r.gateway_id);
+      if (!blocks) slotBins.set(r.gateway_id, (blocks = new Map()));
+      const most = blocks.get(r.block_t0);
+      if (most) r.bins.forEach((n, i) => (most[i] = Math.max(most[i] ?? 0, n)));
+      else blocks.set(r.block_t0, [...r.bins]);
+    }
+    const widths = await binWidths([...slotBins.keys()], end);
+    for (const [gateway, blocks] of slotBins) {
+      // Past raw retention a gateway has no row to read its width from: a full slot holds level/width
+      // bins (a range without one full slot reads the width too long, and the rates too low).
+      const width = widths.get(gateway) ?? levelMs / [...blocks.values()].reduce((m, bins) => bins.reduce((a, n) => Math.max(a, n), m), 1);
+      const cov = covered.get(gateway)!;
+      for (const [blockT0, bins] of blocks) {
+        bins.forEach((n, i) => {
+          const at = b.index(blockT0 + i * levelMs);
+          if (n && at >= 0) cov[at]! += n * width;
+        });
       }
     }
   } else if (gatewayIds.length) {
@@ -113,6 +169,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
     const misfit = rows.find((r) => step % r.dt !== 0);
     if (misfit) throw new HttpError(422, `step ${step} ms is not a multiple of the stored bin width (${misfit.dt} ms from ${misfit.gateway_id}): use a multiple of ${misfit.dt} ms`);
     for (const r of rows.map(unpackRow)) {
+      const cov = covered.get(r.gateway_id)!;
       r.keys.forEach((key, k) => {
         const name = `${r.gateway_id}/${key}`;
         for (let j = 0; j < r.n; j++) {
@@ -123,6 +180,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
       for (let j = 0; j < r.n; j++) {
         const at = b.index(r.t0 + j * r.dt);
         if (at < 0) continue;
+        cov[at]! += r.dt;
         if (r.cc) b.add('#cc', at, r.cc[j]!);
         if (r.x) {
           xSum ??= new Array<number>(points).fill(0);
@@ -136,7 +194,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
 
   const channels: Record<string, (number | null)[]> = {};
   for (const [name, col] of b.values) if (name !== '#cc') channels[name] = col;
-  const result: CountsResult = { t0, step, resolution, channels, channelInfo };
+  const result: CountsResult = { t0, step, resolution, channels, coveredMs: Object.fromEntries(covered), channelInfo };
   if (xSum && xN) {
     const n = xN;
     result.x = xSum.map((s, i) => (n[i] ? s / n[i]! : null));

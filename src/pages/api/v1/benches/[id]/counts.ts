@@ -15,7 +15,13 @@ const query = z.object({
   format: z.enum(['json', 'csv']).optional(),
 });
 
-/** `?from=&to=&step=` (ms or ISO 8601; step in ms): binned counts, JSON or CSV (`format=csv` or `Accept: text/csv`). */
+/**
+ * `?from=&to=&step=` (ms or ISO 8601; step in ms): binned counts, JSON or CSV (`format=csv` or `Accept: text/csv`).
+ * JSON adds to the contract's fields `resolution` and `coveredMs`: per gateway, the ms of each bucket
+ * its stored bins cover (`{ "<gateway>": [ms, …] }`, 0 where none), since a bucket only partly
+ * recorded (a restart, a recording's ends) sums fewer counts without the light being dimmer; rate
+ * = sum · 1000 / coveredMs of the channel's gateway. The CSV stays the contract's and carries no coverage.
+ */
 export const GET = endpoint('observer', async ({ params, url, request }) => {
   const bench = await getBench(parseOr422(benchIdSchema, params['id']));
   if (!bench) return problem(404, 'no such bench');
