@@ -10,7 +10,7 @@ import { formatDateTime, formatRate, parseLocalInput } from '../../lib/client/fo
 import { timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
 import { channelColour, heraldScale, rateAxes } from '../bench/RatesChart.tsx';
 import { ChartState } from '../charts/ChartState.tsx';
-import { bucketRates, pickStep, wholeBuckets } from './history-range.ts';
+import { channelRates, pickStep, wholeBuckets } from './history-range.ts';
 import { StabilityCard } from './StabilityCard.tsx';
 import { SweepHistory } from './SweepHistory.tsx';
 
@@ -67,8 +67,7 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
     const n = Object.values(a.channels)[0]?.length ?? 0;
     const x = new Float64Array(n);
     for (let i = 0; i < n; i++) x[i] = (a.t0 + (i + 0.5) * a.step) / 1000;
-    // Rates, counts/s; buckets without bins stay null (a gap, not a zero).
-    const ys = channels.map((c) => bucketRates(a.channels[c.id] ?? [], a.t0, a.step, fetchedAt.current));
+    const ys = channels.map((c) => channelRates(a, c.id, fetchedAt.current));
     return [x, ...ys];
   };
 

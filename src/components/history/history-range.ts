@@ -1,3 +1,5 @@
+import type { CountsAnswer } from '../../lib/client/api.ts';
+
 // Steps the history asks the counts API for. Every one is a multiple of the usual bin widths
 // (1, 10, 100 ms), so the server can sum bins into it exactly.
 const NICE_STEPS_MS = [100, 200, 500, 1_000, 2_000, 5_000, 10_000, 30_000, 60_000, 120_000, 300_000, 600_000, 1_800_000, 3_600_000, 86_400_000];
@@ -29,9 +31,18 @@ export function wholeBuckets(from: number, to: number, step: number): { from: nu
 }
 
 /**
- * Rates (counts/s) of bucket sums starting at `t0`. A bucket still filling at `asOf` (its end in
- * the future when the answer came) is left out (null) for the same reason; empty buckets stay null.
+ * Rates (counts/s) of one channel ("<gateway>/<key>") of a counts answer: each bucket's sum over the
+ * time its gateway's stored bins cover there, so a bucket only partly recorded (a restart's gap, the
+ * first and last of a recording) shows the rate it had instead of a dip towards zero. Buckets
+ * without bins stay null (a gap, not a zero). A bucket still filling at `asOf` (its end in the
+ * future when the answer came) is left out too: a later read may add bins, so it is provisional.
  */
-export function bucketRates(sums: (number | null)[], t0: number, step: number, asOf: number): (number | null)[] {
-  return sums.map((v, i) => (v == null || t0 + (i + 1) * step > asOf ? null : (v * 1000) / step));
+export function channelRates(answer: Pick<CountsAnswer, 't0' | 'step' | 'channels' | 'coveredMs'>, channel: string, asOf: number): (number | null)[] {
+  const sums = Object.hasOwn(answer.channels, channel) ? answer.channels[channel]! : [];
+  const gateway = channel.slice(0, channel.indexOf('/'));
+  const covered = Object.hasOwn(answer.coveredMs, gateway) ? answer.coveredMs[gateway]! : [];
+  return sums.map((v, i) => {
+    const ms = covered[i];
+    return v == null || !ms || answer.t0 + (i + 1) * answer.step > asOf ? null : (v * 1000) / ms;
+  });
 }

@@ -9,7 +9,7 @@ import { formatDuration, formatRate, formatValueErr } from '../../lib/client/for
 import { useNow } from '../../lib/client/use-now.ts';
 import { usePolled } from '../../lib/client/use-polled.ts';
 import type { OverviewBench } from '../../lib/overview.ts';
-import { bucketRates, wholeBuckets } from '../history/history-range.ts';
+import { channelRates, wholeBuckets } from '../history/history-range.ts';
 import { Sparkline } from './Sparkline.tsx';
 
 /** Poll period of the figures, ms (the server recomputes them about once a second). */
@@ -30,11 +30,9 @@ type Slow = { counts: CountsAnswer | null; alarms: AlarmEventView[] | null; asOf
 const SEVERITY_RANK: Record<Severity, number> = { info: 0, warning: 1, critical: 2 };
 const SEVERITY_TONE: Record<Severity, string> = { info: 'text-muted', warning: 'text-warn', critical: 'font-semibold text-bad' };
 
-/** Rates (counts/s) of one channel of a counts answer, null in buckets without bins. */
-/** counts/s of a channel's buckets; partial ones at either end left out, as on the history chart. */
+/** counts/s of a channel's buckets over the time its gateway recorded, as on the history chart. */
 function rates(c: CountsAnswer, channel: string | undefined, asOf: number): (number | null)[] {
-  const col = channel ? c.channels[channel] : undefined;
-  return col ? bucketRates(col, c.t0, c.step, asOf) : [];
+  return channel ? channelRates(c, channel, asOf) : [];
 }
 
 /** Open alarms as the card says them: count and the worst severity's colour. */

@@ -5,7 +5,7 @@ import type { ViewChannel } from '../../lib/bench-view.ts';
 import { errorText, fetchCounts, type CountsAnswer } from '../../lib/client/api.ts';
 import { timeAxis, useUPlot } from '../charts/useUPlot.ts';
 import { channelColour, heraldScale, rateAxes } from '../bench/RatesChart.tsx';
-import { bucketRates, pickStep, wholeBuckets } from '../history/history-range.ts';
+import { channelRates, pickStep, wholeBuckets } from '../history/history-range.ts';
 import { VisibilityTrend } from '../bench/VisibilityTrend.tsx';
 import type { Sweep } from '../../lib/client/api.ts';
 
@@ -27,7 +27,7 @@ export default function RunCharts(props: { benchId: string; from: number; to: nu
     if (!a) return [[], ...channels.map(() => [])];
     const n = Object.values(a.channels)[0]?.length ?? 0;
     const x = Array.from({ length: n }, (_, i) => (a.t0 + (i + 0.5) * a.step) / 1000);
-    return [x, ...channels.map((c) => bucketRates(a.channels[c.id] ?? [], a.t0, a.step, fetchedAt.current))];
+    return [x, ...channels.map((c) => channelRates(a, c.id, fetchedAt.current))];
   };
 
   const plot = useUPlot(

@@ -45,6 +45,8 @@ export const countsAnswerSchema = z.object({
   t0: z.number(),
   step: z.number().positive(),
   channels: z.record(z.string(), z.array(z.number().nullable())),
+  /** Per gateway, ms of each bucket its stored bins cover: what a channel's sum is a rate over. */
+  coveredMs: z.record(z.string(), z.array(z.number().nonnegative())),
   x: z.array(z.number().nullable()).optional(),
   cc: z.array(z.number().nullable()).optional(),
 });

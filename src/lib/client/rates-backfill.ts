@@ -20,7 +20,7 @@ export const BACKFILL_CLOCK_SLACK_MS = 60_000;
  * channel's own newest one are provisional (live bins replace them), judged by the data's times
  * rather than this browser's clock. Returns whether any bucket held counts.
  */
-export function backfillRates(ring: RateRing, answer: CountsAnswer): boolean {
+export function backfillRates(ring: RateRing, answer: Pick<CountsAnswer, 't0' | 'step' | 'channels'>): boolean {
   let any = false;
   for (const [key, values] of Object.entries(answer.channels)) {
     let last = values.length - 1;
