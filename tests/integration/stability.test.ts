@@ -49,6 +49,19 @@ it('puts steady Poisson counts on the √(R/τ) line', async () => {
   }
 });
 
+it('leaves out a bucket recorded only in part, as a missing one: its sum is no rate over τ₀', async () => {
+  const { token } = await userWithToken('observer', 'stab');
+  // 300 ms buckets over 400 s of 100 ms bins: the last bucket holds one bin of three.
+  const res = await fetch(new URL(`/api/v1/benches/${BENCH}/stability?from=${T0}&to=${T0 + 400_200}&step=300`, app.url), { headers: { authorization: `Bearer ${token}` } });
+  expect(res.status).toBe(200);
+  const body = (await res.json()) as { missingBuckets: number; rates: { meanRate: number; points: { tau: number; adev: number; err: number; poissonLimit: number }[] }[] };
+  expect(body.missingBuckets).toBe(1);
+  const [rate] = body.rates;
+  expect(rate!.meanRate).toBeGreaterThan(RATE * 0.98);
+  const first = rate!.points[0]!;
+  expect(Math.abs(first.adev - first.poissonLimit)).toBeLessThan(3 * first.err + 0.05 * first.poissonLimit);
+});
+
 // Phase: a two-output bench (model N_a = η_a·(N/2)(1 + V cos θ) + d_a, N_b = η_b·(N/2)(1 − V cos θ)
 // + d_b, Gerry & Knight ch. 6, chapter from memory) that holds at θ₁ for 100 s, sweeps for 50 s,
 // sends nothing for 50 s, then holds at θ₂ for 200 s. Only the two holds may enter the phase's

@@ -119,7 +119,7 @@ export function StabilityCard({ benchId, channels, from, to }: { benchId: string
           <h2 id="stab-h" className="font-semibold">Stability</h2>
           <p className="figure text-xs text-muted">
             overlapping Allan deviation · τ₀ {step >= 1000 ? `${step / 1000} s` : `${step} ms`}
-            {answer && answer.missingBuckets > 0 && ` · ${answer.missingBuckets} buckets without data: series split there`}
+            {answer && answer.missingBuckets > 0 && ` · ${answer.missingBuckets} buckets without a whole τ₀ of data: series split there`}
           </p>
         </div>
         <p className="mt-1 text-sm text-muted">

@@ -47,12 +47,20 @@ async function heldPositions(gatewayId: string, t0: number, step: number, points
 export async function benchStability(benchId: string, from: number, to: number, stepMs: number): Promise<Stability> {
   const counts = await queryCounts(benchId, from, to, stepMs);
   const tau0 = stepMs / 1000;
+  // A bucket recorded only in part (a gap's edge) is no sample over τ₀: its sum would read as a
+  // rate drop, and the Allan deviation needs samples of equal length. It splits the series as a
+  // missing one does.
+  const whole = (col: (number | null)[], gateway: string) => {
+    const covered = Object.hasOwn(counts.coveredMs, gateway) ? counts.coveredMs[gateway]! : [];
+    return col.map((v, i) => (v !== null && (covered[i] ?? 0) >= counts.step ? v : null));
+  };
   let missing = 0;
   const rates: RateStability[] = [];
   for (const info of counts.channelInfo) {
     const name = `${info.gateway}/${info.key}`;
-    const col = counts.channels[name];
-    if (!col) continue;
+    const stored = counts.channels[name];
+    if (!stored) continue;
+    const col = whole(stored, info.gateway);
     const stretches = contiguousStretches(col.map((v) => (v === null ? null : v / tau0)));
     const present = stretches.reduce((n, s) => n + s.length, 0);
     missing = Math.max(missing, col.length - present);
@@ -73,8 +81,10 @@ export async function benchStability(benchId: string, from: number, to: number, 
   const cals = await benchCalibrations(benchId);
   const outA = cals.find((c) => c.role === 'out_a');
   const outB = cals.find((c) => c.role === 'out_b');
-  const a = outA && counts.channels[`${outA.gateway}/${outA.key}`];
-  const b = outB && counts.channels[`${outB.gateway}/${outB.key}`];
+  const storedA = outA && counts.channels[`${outA.gateway}/${outA.key}`];
+  const storedB = outB && counts.channels[`${outB.gateway}/${outB.key}`];
+  const a = outA && storedA && whole(storedA, outA.gateway);
+  const b = outB && storedB && whole(storedB, outB.gateway);
   const fit = await latestSweep(benchId, to);
   if (outA && outB && a && b && fit && outA.efficiency > 0) {
     const { value: visibility, net } = shownVisibility(fit);
