@@ -3,6 +3,7 @@ import { describe, expect, it } from 'vitest';
 import { gaussian, mulberry32, poisson } from '../../../simulators/random.ts';
 import { fitFringes, type FringeData, type FringeFit, type FringeFitOptions } from './fringe-fit.ts';
 import { expectedCounts } from './fringe-model.ts';
+import { chiSquareSf } from './special-functions.ts';
 import { detectorClicks, simulateSweep, type SimulatedSweep, type SweepSpec } from './test-fixtures.ts';
 
 function fit(s: FringeData, options: FringeFitOptions = {}): FringeFit {
@@ -216,6 +217,48 @@ describe('joint Poisson ML fringe fit', () => {
     expect(Math.abs(sd / err - 1)).toBeLessThan(0.2);
     // …and a fit to plain Poisson counts keeps its own errors.
     expect(fit(simulateSweep({ ...BASE, bins: 200, seed: 3 })).quality.errorScale).toBe(1);
+  });
+
+  it('gives calibrated goodness-of-fit p-values at 2 and 0.5 counts per bin as at 1,000, and keeps the Poisson errors there', () => {
+    // Outside check (what a p-value is): for passes drawn from the model itself, p < 0.05 and
+    // p < 0.01 must come in 5 % and 1 % of fits, to within 3 binomial standard deviations; and
+    // with them the Birge widening (p < 0.01) in no more than 1 %. Read against χ²(dof) instead,
+    // these passes gave 15 % and 4 % at 2 counts per bin and none at all at 0.5 (800 each). Fitted
+    // as the service fits them (quadratic term); the Fisher interval only saves time.
+    const calibration = (amplitude: number, runs: number, seed0: number) => {
+      let below5 = 0;
+      let below1 = 0;
+      let widened = 0;
+      let scale = 0;
+      for (let t = 0; t < runs; t++) {
+        const s = simulateSweep({ ...BASE, bins: 200, amplitudeA: amplitude, amplitudeB: 0.9 * amplitude, seed: seed0 + t });
+        const q = fit(s, { quadratic: true, interval: 'fisher' }).quality;
+        if (q.pValue < 0.05) below5++;
+        if (q.pValue < 0.01) below1++;
+        if (q.errorScale > 1) widened++;
+        scale += q.errorScale / runs;
+      }
+      return { below5, below1, widened, scale };
+    };
+    const within = (count: number, runs: number, p: number) => Math.abs(count / runs - p) < 3 * Math.sqrt((p * (1 - p)) / runs);
+    for (const [amplitude, runs, seed0] of [[2, 800, 40_000], [0.5, 800, 50_000], [1000, 1500, 60_000]] as const) {
+      const c = calibration(amplitude, runs, seed0);
+      expect(within(c.below5, runs, 0.05), `${c.below5} of ${runs} below 0.05 at ${amplitude} counts`).toBe(true);
+      expect(within(c.below1, runs, 0.01), `${c.below1} of ${runs} below 0.01 at ${amplitude} counts`).toBe(true);
+      expect(c.widened / runs).toBeLessThan(0.01 + 3 * Math.sqrt(0.0099 / runs));
+      expect(c.scale).toBeLessThan(1.005);
+    }
+  });
+
+  it('reads the deviance against χ²(dof) at high counts', () => {
+    // Every expected count past ASYMPTOTIC_MU (10⁴ counts at the dark fringe): χ²(dof) exactly.
+    const bright = fit(simulateSweep({ ...BASE, bins: 200, amplitudeA: 1e5, amplitudeB: 9e4, seed: 8 })).quality;
+    expect(bright.expectedDeviance).toBe(bright.dof);
+    expect(bright.pValue).toBe(chiSquareSf(bright.deviance, bright.dof));
+    // At 1,000 counts per bin (100 at the dark fringe) within half a percent of it.
+    const q = fit(simulateSweep({ ...BASE, bins: 200, seed: 9 })).quality;
+    expect(Math.abs(q.expectedDeviance - q.dof)).toBeLessThan(0.5);
+    expect(Math.abs(q.pValue / chiSquareSf(q.deviance, q.dof) - 1)).toBeLessThan(0.005);
   });
 
   it('fits points of unequal exposure with the exposure in the model: unbiased V and a deviance near its dof', () => {

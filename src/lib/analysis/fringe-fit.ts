@@ -11,7 +11,8 @@ import { fft } from './fft.ts';
 import { FIT_WARNING } from './fit-warnings.ts';
 import { inverseSymmetric, solveSymmetric } from './linear-algebra.ts';
 import type { Measured } from './measured.ts';
-import { chiSquareQuantile, chiSquareSf } from './special-functions.ts';
+import { binDeviance, devianceSf, devianceTermMoments } from './poisson-deviance.ts';
+import { chiSquareQuantile } from './special-functions.ts';
 
 export interface FringeData {
   /** Scan coordinate per bin (piezo volts, steps, …). */
@@ -76,11 +77,12 @@ export function fringeDetectionThreshold(cycles: number, quadratic: boolean): nu
 
 /**
  * A fit whose goodness of fit has p below this has its uncertainties scaled by the Birge ratio
- * √(deviance/dof) (Birge, Phys. Rev. 40, 207 (1932); the scale factor S of the Particle Data
- * Group's averages): at high counts the model misses structure beyond Poisson noise (drift during
- * the pass, piezo nonlinearity past the quadratic term, dead time), the Poisson errors alone
- * understate how far the result may lie from the truth, and the scatter between passes shows it.
- * An acceptable fit keeps its Poisson errors.
+ * √(deviance/expected deviance) (Birge, Phys. Rev. 40, 207 (1932): √(χ²/dof), the scale factor S
+ * of the Particle Data Group's averages; the expected deviance is the dof at high counts): at high
+ * counts the model misses structure beyond Poisson noise (drift during the pass, piezo
+ * nonlinearity past the quadratic term, dead time), the Poisson errors alone understate how far
+ * the result may lie from the truth, and the scatter between passes shows it. An acceptable fit
+ * keeps its Poisson errors.
  */
 export const ERROR_SCALE_P = 0.01;
 
@@ -137,13 +139,21 @@ export interface FringeFit {
     /** Baker–Cousins deviance 2Σ[m − n + n ln(n/m)], asymptotically χ²(dof). */
     deviance: number;
     dof: number;
-    /** Pr(χ²_dof ≥ deviance). */
+    /**
+     * Mean deviance of a correct model's fit at these expected counts: the dof at high counts,
+     * up to 15 % more near 1–2 counts per bin and less below half a count (poisson-deviance.ts).
+     */
+    expectedDeviance: number;
+    /**
+     * Pr(deviance this large or larger | the model): from the deviance's mean and variance at the
+     * fitted counts, so it holds at low counts; Pr(χ²_dof ≥ deviance) at high counts.
+     */
     pValue: number;
     iterations: number;
     converged: boolean;
     /**
-     * Factor every uncertainty of this fit was multiplied by: √(deviance/dof) when the fit is
-     * poor (p < ERROR_SCALE_P), else 1. See ERROR_SCALE_P.
+     * Factor every uncertainty of this fit was multiplied by: √(deviance/expectedDeviance) when
+     * the fit is poor (p < ERROR_SCALE_P), else 1. See ERROR_SCALE_P.
      */
     errorScale: number;
     /**
@@ -415,20 +425,149 @@ function minimize(pr: Problem, start: Float64Array, free: number[]): Minimum {
   return { p, cost: cur.cost, iterations, converged };
 }
 
-function deviance(pr: Problem, p: Float64Array): number {
+interface Deviance {
+  value: number;
+  /**
+   * A correct model's mean deviance at the true counts, estimated from the fitted ones: the bins'
+   * means at the fitted counts less what taking them there adds on average.
+   */
+  binMean: number;
+  /** Sum of the bins' variances. */
+  binVariance: number;
+  /** ∂(Σ bins' means)/∂parameters, over all NP: how the expected deviance moves with the fit. */
+  meanGradient: Float64Array;
+}
+
+/** vᵀ·M·w for an NP×NP row-major M. */
+function bilinear(v: Float64Array, m: Float64Array, w: Float64Array): number {
+  let s = 0;
+  for (let a = 0; a < NP; a++) {
+    const va = v[a] as number;
+    if (va === 0) continue;
+    for (let b = 0; b < NP; b++) s += va * (m[a * NP + b] as number) * (w[b] as number);
+  }
+  return s;
+}
+
+/**
+ * The Baker–Cousins deviance and what a correct model's would average (poisson-deviance.ts).
+ *
+ * The bins' means are known at the fitted counts m(θ̂), not the true m(θ), and E(θ) = Σ E(m_i(θ))
+ * taken at θ̂ is off on average by (second-order delta method, `cov` the fit's covariance)
+ *   Σ E''(m)·∇mᵀ·Cov·∇m / 2  +  Σ E'(m)·(mean of m(θ̂) − m(θ)),
+ * where m(θ̂) is off through the model's bend, tr(∇²m·Cov)/2, and through θ̂'s own bias, which for
+ * Poisson counts is b = −Cov·Σ ∇m·tr(∇²m·Cov)/(2m) (Cox & Snell, J. R. Stat. Soc. B 30, 248
+ * (1968), worked out for the Poisson likelihood). Left out, the first term left correct models'
+ * deviance 3.6 above the estimate at half a count per bin (200 points, V = 0.9); the other two
+ * nearly cancel there but not where V is near 1 and bins near the dark fringe hold almost nothing
+ * (the estimate 1.6–2 too high at V = 0.98–1 without them). ∇²m leaves out the dead time's own
+ * bend: its share is the counts lost to it, a few % where it matters at all, and at those counts
+ * E' and E'' are nil.
+ */
+function deviance(pr: Problem, p: Float64Array, cov: Float64Array | null): Deviance {
   const A = p[IA] as number;
   const B = p[IB] as number;
   const V = p[IV] as number;
-  let d = 0;
-  const term = (m: number, n: number): number => (n > 0 ? m - n + n * Math.log(n / m) : m);
+  const c = cov ?? new Float64Array(NP * NP);
+  const cAA = c[IA * NP + IA] as number, cBB = c[IB * NP + IB] as number, cVV = c[IV * NP + IV] as number;
+  const cAV = c[IA * NP + IV] as number, cBV = c[IB * NP + IV] as number;
+  // Covariances with the phase θ = ψ + k·u + κ·u², whose gradient in (ψ, k, κ) is (1, u, u²).
+  const row = (i: number): [number, number, number] => [c[i * NP + IPSI] as number, c[i * NP + IK] as number, c[i * NP + IKAPPA] as number];
+  const [cAP, cAK, cAQ] = row(IA);
+  const [cBP, cBK, cBQ] = row(IB);
+  const [cVP, cVK, cVQ] = row(IV);
+  const [cPP, cPK, cPQ] = row(IPSI);
+  const [, cKK, cKQ] = row(IK);
+  const cQQ = c[IKAPPA * NP + IKAPPA] as number;
+  let value = 0;
+  let binMean = 0;
+  let binVariance = 0;
+  let shift = 0;
+  let gA = 0, gB = 0, gV = 0, gPsi = 0, gK = 0, gKap = 0;
+  // Σ ∇m·tr(∇²m·Cov)/m, for θ̂'s bias.
+  let hA = 0, hB = 0, hV = 0, hPsi = 0, hK = 0, hKap = 0;
   for (let i = 0; i < pr.len; i++) {
     const u = pr.u[i] as number;
-    const cs = Math.cos((p[IPSI] as number) + u * ((p[IK] as number) + (p[IKAPPA] as number) * u));
+    const u2 = u * u;
+    const th = (p[IPSI] as number) + u * ((p[IK] as number) + (p[IKAPPA] as number) * u);
+    const cs = Math.cos(th);
+    const sn = Math.sin(th);
     const e = pr.e[i] as number;
-    if (pr.useA) d += term(e * throughDeadTime(A * (1 + V * cs) + pr.da, pr.dtA)[0], pr.na[i] as number);
-    if (pr.useB) d += term(e * throughDeadTime(B * (1 - V * cs) + pr.db, pr.dtB)[0], pr.nb[i] as number);
+    const ctA = cAP + u * cAK + u2 * cAQ;
+    const ctB = cBP + u * cBK + u2 * cBQ;
+    const ctV = cVP + u * cVK + u2 * cVQ;
+    const tct = cPP + 2 * u * cPK + u2 * (2 * cPQ + cKK) + 2 * u2 * u * cKQ + u2 * u2 * cQQ;
+    // The phase parameters share ∂/∂θ: summed over the point's two bins first.
+    let gTh = 0;
+    let hTh = 0;
+    if (pr.useA) {
+      // r = A(1 + V cos θ) + d_a, seen as m = e·f(r): ∇r = (rA, 0, rV, rTh·t), ∇m = e·f'·∇r.
+      const r = A * (1 + V * cs) + pr.da;
+      const [f, fp] = throughDeadTime(r, pr.dtA);
+      const m = e * f;
+      const moments = devianceTermMoments(m);
+      value += binDeviance(pr.na[i] as number, m);
+      binMean += moments.mean;
+      binVariance += moments.variance;
+      const rA = 1 + V * cs;
+      const rV = A * cs;
+      const rTh = -A * V * sn;
+      const ef = e * fp;
+      const w = moments.slope * ef;
+      gA += w * rA;
+      gV += w * rV;
+      gTh += w * rTh;
+      // ∇rᵀ·Cov·∇r, and tr(∇²r·Cov) from ∂²r/∂A∂V = cos θ, ∂A∂θ = −V sin θ, ∂V∂θ = −A sin θ, ∂θ² = −AV cos θ.
+      const q = rA * rA * cAA + 2 * rA * rV * cAV + rV * rV * cVV + 2 * rTh * (rA * ctA + rV * ctV) + rTh * rTh * tct;
+      const trR = 2 * cs * cAV - 2 * V * sn * ctA - 2 * A * sn * ctV - A * V * cs * tct;
+      const trM = e * fp * trR;
+      shift += 0.5 * (moments.curvature * ef * ef * q + moments.slope * trM);
+      if (m > 0) {
+        const z = (ef * trM) / m;
+        hA += z * rA;
+        hV += z * rV;
+        hTh += z * rTh;
+      }
+    }
+    if (pr.useB) {
+      // r = B(1 − V cos θ) + d_b: the same with B for A and the cosine's sign turned.
+      const r = B * (1 - V * cs) + pr.db;
+      const [f, fp] = throughDeadTime(r, pr.dtB);
+      const m = e * f;
+      const moments = devianceTermMoments(m);
+      value += binDeviance(pr.nb[i] as number, m);
+      binMean += moments.mean;
+      binVariance += moments.variance;
+      const rB = 1 - V * cs;
+      const rV = -B * cs;
+      const rTh = B * V * sn;
+      const ef = e * fp;
+      const w = moments.slope * ef;
+      gB += w * rB;
+      gV += w * rV;
+      gTh += w * rTh;
+      const q = rB * rB * cBB + 2 * rB * rV * cBV + rV * rV * cVV + 2 * rTh * (rB * ctB + rV * ctV) + rTh * rTh * tct;
+      const trR = -2 * cs * cBV + 2 * V * sn * ctB + 2 * B * sn * ctV + B * V * cs * tct;
+      const trM = e * fp * trR;
+      shift += 0.5 * (moments.curvature * ef * ef * q + moments.slope * trM);
+      if (m > 0) {
+        const z = (ef * trM) / m;
+        hB += z * rB;
+        hV += z * rV;
+        hTh += z * rTh;
+      }
+    }
+    gPsi += gTh;
+    gK += gTh * u;
+    gKap += gTh * u2;
+    hPsi += hTh;
+    hK += hTh * u;
+    hKap += hTh * u2;
   }
-  return 2 * d;
+  const meanGradient = Float64Array.of(gA, gB, gV, gPsi, gK, gKap);
+  // Σ E'·∇mᵀ·b = −gᵀ·Cov·h/2.
+  shift -= 0.5 * bilinear(meanGradient, c, Float64Array.of(hA, hB, hV, hPsi, hK, hKap));
+  return { value, binMean: binMean - shift, binVariance, meanGradient };
 }
 
 /**
@@ -763,15 +902,42 @@ function scaleMeasured(m: Measured, k: number): Measured {
   return { value: m.value, err: m.err * k };
 }
 
+interface Goodness {
+  /** Birge factor. */
+  k: number;
+  dev: number;
+  dof: number;
+  expected: number;
+  pValue: number;
+}
+
 /**
- * The Birge factor of a fit: √(deviance/dof) when its deviance is improbable (p < ERROR_SCALE_P),
- * else 1; each model (raw, net) has its own.
+ * A fit's goodness of fit and its Birge factor: √(deviance/expected) when its deviance is
+ * improbable (p < ERROR_SCALE_P), else 1; each model (raw, net) has its own.
+ *
+ * The deviance is judged against a correct model's (`deviance`), less what fitting takes:
+ * - each fitted parameter takes one χ²₁ off (mean 1, variance 2), since the log-likelihood stays
+ *   close to quadratic in parameters that the whole pass's counts fix;
+ * - the part of D's spread that moves the fit moves the expected deviance with it, and is no
+ *   spread about it. At a fraction of a count per bin d follows the count almost linearly
+ *   (d(1, 0.1) = 2.8 against d(0, 0.1) = 0.2), so most of D's variance is the pass's total, which
+ *   the amplitudes absorb: with 0.1 counts in each of 200 bins of a flat pass, the deviance's
+ *   variance about its expected value was 7 against ΣV = 172 (Monte Carlo). That part is the
+ *   delta-method variance gᵀ·Cov·g of the expected deviance, g its gradient in the parameters
+ *   (g is also Cov(D, score), since ∂E/∂μ = Cov(d, n)/μ).
+ * A V pinned at its bound does not move with the counts: the covariance is then the other
+ * parameters' (with V's in it the expected deviance of V = 1 fits came out 3 too high).
+ * At high counts every bin's d has mean 1 and variance 2 and g vanishes, so p is χ²(dof)'s.
  */
-function birgeFactor(pr: Problem, fit: SingleFit): { k: number; dev: number; dof: number; pValue: number } {
-  const dev = deviance(pr, fit.min.p);
-  const dof = 2 * pr.len - fit.free.length;
-  const pValue = chiSquareSf(dev, dof);
-  return { k: pValue < ERROR_SCALE_P && dev > dof ? Math.sqrt(dev / dof) : 1, dev, dof, pValue };
+function goodnessOfFit(pr: Problem, fit: SingleFit): Goodness {
+  const v = fit.min.p[IV] as number;
+  const cov = v >= 1 || v <= 0 ? covarianceOf(pr, fit.min.p, fit.free.filter((i) => i !== IV)) : fit.cov;
+  const { value: dev, binMean, binVariance, meanGradient: g } = deviance(pr, fit.min.p, cov);
+  const nFree = fit.free.length;
+  const dof = 2 * pr.len - nFree;
+  const expected = binMean - nFree;
+  const pValue = devianceSf(dev, expected, binVariance - 2 * nFree - (cov ? bilinear(g, cov, g) : 0));
+  return { k: pValue < ERROR_SCALE_P && dev > expected ? Math.sqrt(dev / expected) : 1, dev, dof, expected, pValue };
 }
 
 /** Fit one monotonic pass. Counts must be non-negative; x need not be uniformly spaced. */
@@ -856,8 +1022,8 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
   }
   const netTotal = sumA + sumB - sumE * (da + db);
   const method = options.interval ?? 'auto';
-  const { k, dev, dof, pValue } = birgeFactor(shownProblem, fit);
-  const kRaw = calibrated ? birgeFactor(raw, rawFit).k : k;
+  const { k, dev, dof, expected, pValue } = goodnessOfFit(shownProblem, fit);
+  const kRaw = calibrated ? goodnessOfFit(raw, rawFit).k : k;
   const visibility = visibilityEstimate(raw, rawFit, method, sumA + sumB, kRaw);
   const visibilityNet = calibrated ? visibilityEstimate(net, fit, method, netTotal, k) : null;
   if ((calibrated ? (visibilityNet as VisibilityEstimate) : visibility).value >= 1) warnings.push(FIT_WARNING.atBound);
@@ -906,7 +1072,7 @@ export function fitFringes(data: FringeData, options: FringeFitOptions = {}): Fr
     counts: { a: sumA, b: sumB, bins: len },
     darkPerBin: calibrated ? { a: da, b: db } : null,
     deadTime: { a: dtA, b: dtB },
-    quality: { cash: fit.min.cost, deviance: dev, dof, pValue, iterations: fit.min.iterations, converged: fit.min.converged, fringeDeltaCash, fringeThreshold, errorScale: k },
+    quality: { cash: fit.min.cost, deviance: dev, dof, expectedDeviance: expected, pValue, iterations: fit.min.iterations, converged: fit.min.converged, fringeDeltaCash, fringeThreshold, errorScale: k },
     covariance: { names, matrix },
     warnings,
   };
