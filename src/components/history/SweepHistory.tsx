@@ -35,7 +35,7 @@ interface Summary {
   /** Median of the fits' own 1σ: scatter well above it means the visibility moved. */
   medianErr: number | null;
   piezo: { value: number; err: number } | null;
-  medianDevPerDof: number | null;
+  medianDevRatio: number | null;
   /** Passes whose fit carries a warning. */
   flagged: number;
 }
@@ -72,9 +72,14 @@ function summarise(label: string, list: Sweep[]): Summary {
     v: meanSd(fringes.map((s) => shownVisibility(s).value)),
     medianErr: median(fringes.map((s) => shownVisibility(s).err)),
     piezo: meanSd(fits.flatMap((f) => (f?.piezoNmPerV ? [f.piezoNmPerV.value] : []))),
-    // Deviance per degree of freedom says how far a fit is from Poisson-limited (1) where p, at
-    // the counts of a bright bench, reads 0 for any small misfit.
-    medianDevPerDof: median(fits.flatMap((f) => (f?.quality?.deviance !== undefined && f.quality.dof ? [f.quality.deviance / f.quality.dof] : []))),
+    // Deviance over what a Poisson-limited fit averages at its counts says how far a fit is from
+    // Poisson-limited (1) where p, at the counts of a bright bench, reads 0 for any small misfit.
+    // That average is the dof at high counts but not at a few counts per bin or fewer
+    // (`expectedDeviance`); passes fitted before it was stored have only the dof.
+    medianDevRatio: median(fits.flatMap((f) => {
+      const expected = f?.quality?.expectedDeviance ?? f?.quality?.dof;
+      return f?.quality?.deviance !== undefined && expected ? [f.quality.deviance / expected] : [];
+    })),
     flagged: list.filter((s) => passWarnings(s.fit).all.length > 0).length,
   };
 }
@@ -208,7 +213,7 @@ export function SweepHistory({ benchId, from, to }: Props) {
                 <th scope="col" className="text-right">Mean V ± spread</th>
                 <th scope="col" className="text-right">Median fit error</th>
                 <th scope="col" className="text-right">Piezo nm/V ± spread</th>
-                <th scope="col" className="text-right" title="Deviance per degree of freedom: 1 for a fit limited by Poisson noise; above it, errors are widened by its square root">Median dev./dof</th>
+                <th scope="col" className="text-right" title="Deviance over what a fit limited by Poisson noise averages at its counts (the degrees of freedom at high counts): 1 for such a fit; above it, errors are widened by its square root">Median dev./expected</th>
                 <th scope="col" className="text-right">With warnings</th>
               </tr>
             </thead>
@@ -220,7 +225,7 @@ export function SweepHistory({ benchId, from, to }: Props) {
                   <td className="text-right">{meanText(r.v, 4)}</td>
                   <td className="text-right">{formatNumber(r.medianErr, 4)}</td>
                   <td className="text-right">{meanText(r.piezo)}</td>
-                  <td className="text-right">{r.medianDevPerDof !== null ? r.medianDevPerDof.toPrecision(2) : '–'}</td>
+                  <td className="text-right">{r.medianDevRatio !== null ? r.medianDevRatio.toPrecision(2) : '–'}</td>
                   <td className={`text-right ${r.flagged > 0 ? 'text-warn' : ''}`}>{r.flagged}</td>
                 </tr>
               ))}

@@ -83,7 +83,10 @@ export const sweepFitSchema = z
     xMax: z.number().optional(),
     /** Mirror travel per volt over the pass, nm/V; null when the bench's optics are unknown (older fits lack it). */
     piezoNmPerV: z.object({ value: z.number(), err: z.number() }).nullable().optional(),
-    quality: z.object({ pValue: z.number(), deviance: z.number().optional(), dof: z.number().optional(), errorScale: z.number().optional() }).passthrough().optional(),
+    quality: z
+      .object({ pValue: z.number(), deviance: z.number().optional(), dof: z.number().optional(), expectedDeviance: z.number().optional(), errorScale: z.number().optional() })
+      .passthrough()
+      .optional(),
   })
   .passthrough();
 export type SweepFit = z.infer<typeof sweepFitSchema>;
