@@ -8,13 +8,18 @@ import type { InterferometerSim } from '../../simulators/interferometer.ts';
 import { MAX_BATCH_BINS } from '../counter.ts';
 import type { CommandResult, Counter, CounterInfo, CounterSink } from '../counter.ts';
 
+/** Bin width, ms: 10 ms resolves sweeps with 20 ms dwell and keeps a demo's database small. */
+export const SIM_DT_MS = 10;
+/** How often a batch is drawn, ms: 100 ms puts 10 bins of 10 ms in each message. */
+export const SIM_BATCH_MS = 100;
+
 export interface SimDriverOptions {
   bench: DemoBench;
   /** The simulator's seed; the bench's own by default, so the demo looks the same on every start. */
   seed?: number;
-  /** Bin width, ms; 10 ms resolves sweeps with 20 ms dwell and keeps a demo's database small. */
+  /** Bin width, ms; SIM_DT_MS by default. */
   dtMs?: number;
-  /** How often a batch is drawn, ms: 100 ms puts 10 bins of 10 ms in each message. */
+  /** How often a batch is drawn, ms; SIM_BATCH_MS by default. */
   batchMs?: number;
   /** Wall clock, ms since the epoch (tests pass their own). */
   now?: () => number;
@@ -38,8 +43,8 @@ export class SimCounter implements Counter {
 
   constructor(private readonly opts: SimDriverOptions) {
     this.sim = createDemoSimulator(opts.bench, opts.seed);
-    this.dt = opts.dtMs ?? 10;
-    this.batchMs = opts.batchMs ?? 100;
+    this.dt = opts.dtMs ?? SIM_DT_MS;
+    this.batchMs = opts.batchMs ?? SIM_BATCH_MS;
     this.now = opts.now ?? Date.now;
   }
 
