@@ -1,6 +1,6 @@
 // Starts every part of Fringewise in one process, in order, and stops them in reverse:
-// database → migrations → demo seed → mail catcher → live path (broker, ingest, hub) → alarms and
-// retention → simulated gateways → web server.
+// database → migrations → demo seed → mail catcher → live path (broker, ingest, hub) → analysis →
+// alarms and retention → the demo's recorded past → simulated gateways → web server.
 import path from 'node:path';
 import { startAlarmEngine, stopAlarmEngine } from '../lib/server/alarms/engine.ts';
 import { closeAnalysisPool, fitFringesAsync } from '../lib/server/analysis-worker.ts';
@@ -101,6 +101,14 @@ export async function startApp(opts: AppOptions): Promise<RunningApp> {
     const retention = startRetentionJob();
     stops.push(() => retention.stop());
     console.log(live.transport.port === null ? '[mqtt] connected to the external broker' : `[mqtt] broker listening on ${opts.live.mqttHost}:${live.transport.port}`);
+    if (opts.seed && opts.simulate) {
+      // The simulated gateways carry on from the demo benches' recorded past, so it is written (and
+      // fitted, which needs the analysis) before they start: their first bin comes after its last.
+      const { seedDemoPast } = await import('../lib/server/seed-past.ts');
+      const began = performance.now();
+      const seeded = await seedDemoPast({ analysis });
+      if (seeded.length) console.log(`[demo] recorded past of ${seeded.join(', ')} written in ${((performance.now() - began) / 1000).toFixed(1)} s`);
+    }
     if (opts.simulate) {
       // The demo benches' simulated gateways, once the broker is up; stopped before it, so they
       // deliver what they hold and sign off.

@@ -47,7 +47,7 @@ const FIGURES_EVERY_MS = 1_000;
 /** Phase readings kept for the drift rate, s. */
 const PHASE_HISTORY_S = 60;
 /** Live window for rates and photon statistics, ms. */
-const WINDOW_MS = 10_000;
+export const FIGURES_WINDOW_MS = 10_000;
 
 export interface AnalysisService {
   figures(benchId: string): BenchFigures | null;
@@ -197,7 +197,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
         computed = computeFigures({
         benchId,
         now,
-        windowMs: WINDOW_MS,
+        windowMs: FIGURES_WINDOW_MS,
         channels: s.settings.channels,
         coincidenceWindowNs: s.settings.coincidenceWindowNs,
         recent: s.recent,

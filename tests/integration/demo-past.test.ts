@@ -1,0 +1,137 @@
+// The demo lab's recorded past: `npm start` on a fresh database writes each demo bench's recent
+// past under its gateway's own id (rows and rollups), fits its sweeps and adds the finished runs
+// with their notes, all ending before the simulated gateways' first bin; a second start adds nothing.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { findDemoBench } from '../../simulators/demo-benches.ts';
+import { DEMO_PAST, minutesBefore } from '../../simulators/demo-past.ts';
+import { getDbHandle } from '../../src/lib/server/db/index.ts';
+import { listNotes, listRuns } from '../../src/lib/server/runs.ts';
+import { DEMO_PAST_BOOT } from '../../src/lib/server/seed-past.ts';
+import type { RunningApp } from '../../src/server/app.ts';
+import { useFreshDatabase, type FreshDatabase } from '../helpers/fresh-db.ts';
+import { startWebApp, userWithToken } from '../helpers/web-app.ts';
+
+let db: FreshDatabase;
+let app: RunningApp | undefined;
+
+beforeAll(async () => {
+  db = await useFreshDatabase('demopast');
+  app = await startWebApp({ simulate: true });
+});
+afterAll(async () => {
+  await app?.close();
+  await db?.restore();
+});
+
+const query = async <T extends Record<string, unknown>>(text: string, values: unknown[]) => (await getDbHandle().pool.query<T>(text, values)).rows;
+
+/** The recorded rows of a gateway: how many, their span and their bins. */
+async function recorded(gateway: string) {
+  const [r] = await query<{ rows: string; t0: string; t1: string; bins: string }>(
+    'select count(*) as rows, min(t0) as t0, max(t1) as t1, sum(n) as bins from count_batches where gateway_id = $1 and boot = $2',
+    [gateway, DEMO_PAST_BOOT],
+  );
+  return { rows: Number(r!.rows), t0: Number(r!.t0), t1: Number(r!.t1), bins: Number(r!.bins) };
+}
+
+/** What the past consists of, to compare after a second start. */
+async function everything() {
+  const out: Record<string, unknown> = {};
+  for (const past of DEMO_PAST) {
+    const bench = findDemoBench(past.benchId)!;
+    const runs = await listRuns({ benchId: bench.id });
+    out[bench.id] = {
+      recorded: await recorded(bench.gateway),
+      runs: await Promise.all(runs.map(async (r) => ({ ...r, notes: (await listNotes(r.id)).map((n) => [n.atMs, n.body]) }))),
+      sweeps: (await query('select id from sweeps where bench_id = $1 and end_ms <= (select max(t1) from count_batches where gateway_id = $2 and boot = $3) order by id', [bench.id, bench.gateway, DEMO_PAST_BOOT])).length,
+    };
+  }
+  return out;
+}
+
+describe('the demo lab on a fresh database', () => {
+  it('holds each demo bench’s recent past, with rollups, ending before its live bins begin', async () => {
+    for (const past of DEMO_PAST) {
+      const bench = findDemoBench(past.benchId)!;
+      const r = await recorded(bench.gateway);
+      expect(r.t1 - r.t0, bench.id).toBe(minutesBefore(past.minutes));
+      // Every 10 ms bin of the span, once.
+      expect(r.bins, bench.id).toBe(minutesBefore(past.minutes) / 10);
+      // Buckets wholly inside the recording: the live bins may already share its last minute.
+      for (const step of [1_000, 60_000]) {
+        const [roll] = await query<{ bins: string }>(
+          `select sum(u.b) as bins from rollups r, unnest(r.bins) with ordinality as u(b, i)
+            where r.gateway_id = $1 and r.key = 'a' and r.step_ms = $2 and r.block_t0 + (u.i - 1) * $2 >= $3 and r.block_t0 + u.i * $2 <= $4`,
+          [bench.gateway, step, r.t0, r.t1],
+        );
+        expect(Number(roll!.bins), `${bench.id} ${step} ms`).toBe((Math.floor(r.t1 / step) - Math.ceil(r.t0 / step)) * (step / 10));
+      }
+      // The simulated gateway carries on after the recording, never inside it.
+      await expect.poll(async () => (await query('select 1 from count_batches where gateway_id = $1 and boot <> $2 limit 1', [bench.gateway, DEMO_PAST_BOOT])).length, { timeout: 20_000 }).toBe(1);
+      const [live] = await query<{ t0: string }>('select min(t0) as t0 from count_batches where gateway_id = $1 and boot <> $2', [bench.gateway, DEMO_PAST_BOOT]);
+      expect(Number(live!.t0), bench.id).toBeGreaterThanOrEqual(r.t1);
+    }
+  });
+
+  it('has fitted the recorded sweeps at the optics’ visibility', async () => {
+    for (const benchId of ['mz-633', 'mz-810']) {
+      const bench = findDemoBench(benchId)!;
+      const r = await recorded(bench.gateway);
+      const fits = await query<{ visibility: number }>('select visibility from sweeps where bench_id = $1 and start_ms >= $2 and end_ms <= $3', [benchId, r.t0, r.t1]);
+      expect(fits.length, benchId).toBeGreaterThanOrEqual(8);
+      // The best alignment of the morning, raw (no darks calibrated), a little under the optics' own.
+      const best = Math.max(...fits.map((f) => f.visibility));
+      expect(best, benchId).toBeGreaterThan(bench.model.optics.visibility - 0.03);
+      expect(best, benchId).toBeLessThan(bench.model.optics.visibility + 0.01);
+    }
+  });
+
+  it('has the finished runs with their notes and snapshots, one kept', async () => {
+    const all = DEMO_PAST.flatMap((p) => p.runs.map((r) => ({ benchId: p.benchId, ...r })));
+    expect(all.length).toBeGreaterThanOrEqual(2);
+    let kept = 0;
+    for (const want of all) {
+      const [run] = (await listRuns({ benchId: want.benchId })).filter((r) => r.title === want.title);
+      expect(run, want.title).toBeDefined();
+      expect(run!.endMs! - run!.startMs).toBe(minutesBefore(want.start - want.end));
+      expect(run!.startedBy?.name).toBe('Tomasz Eberle');
+      if (run!.keep) kept++;
+      const notes = await listNotes(run!.id);
+      expect(notes.map((n) => n.body)).toEqual(want.notes.map((n) => n.body));
+      for (const [i, n] of notes.entries()) {
+        if (!want.notes[i]!.snapshot) continue;
+        expect(n.snapshot?.benchId, n.body).toBe(want.benchId);
+        expect(n.snapshot!.channels.find((c) => c.role === 'out_a')!.rateRaw, n.body).toBeGreaterThan(0);
+        expect(n.snapshot!.visibility?.source, n.body).toBe('sweep');
+      }
+    }
+    expect(kept).toBe(1);
+  });
+
+  it('serves the past to the history: counts from the rollups and the stability of a hold', async () => {
+    const { token } = await userWithToken('observer', 'past');
+    const get = async (path: string) => {
+      const res = await fetch(new URL(path, app!.url), { headers: { authorization: `Bearer ${token}` } });
+      expect(res.status, path).toBe(200);
+      return (await res.json()) as Record<string, unknown>;
+    };
+    const r = await recorded('gw-633');
+    // Whole minutes: the API's buckets lie on multiples of the step.
+    const [from, to] = [Math.ceil(r.t0 / 60_000) * 60_000, Math.floor(r.t1 / 60_000) * 60_000];
+    const counts = (await get(`/api/v1/benches/mz-633/counts?from=${from}&to=${to}&step=60000`)) as { channels: Record<string, (number | null)[]> };
+    const perMinute = counts.channels['gw-633/a']!;
+    expect(perMinute).toHaveLength((to - from) / 60_000);
+    expect(perMinute.every((v) => v !== null && v > 0)).toBe(true);
+    // The last ten minutes of the recording: the drive held at mid-fringe.
+    const stability = (await get(`/api/v1/benches/mz-633/stability?from=${r.t1 - 600_000}&to=${r.t1}&step=1000`)) as { rates: unknown[]; phase: { points: unknown[] } | null };
+    expect(stability.rates.length).toBe(2);
+    expect(stability.phase?.points.length).toBeGreaterThan(3);
+  });
+
+  it('adds nothing on a later start', async () => {
+    const before = await everything();
+    await app!.close();
+    app = await startWebApp({ simulate: true });
+    expect(await everything()).toEqual(before);
+  });
+});
