@@ -36,6 +36,15 @@ export function rateAxes(p: ChartPalette, channels: Pick<ViewChannel, 'role'>[])
   ];
 }
 
+/**
+ * Linear rate scales from zero, the herald's too: left to autoscale, a steady herald's axis spanned
+ * its shot noise alone (199–201 k, the labels repeating) and drew it as wild swings.
+ */
+export function rateScales(channels: Pick<ViewChannel, 'role'>[]): Record<string, uPlot.Scale> {
+  const fromZero = (): uPlot.Scale => ({ range: (_u, _min, max) => [0, max > 0 ? max * 1.08 : 1] });
+  return { y: fromZero(), ...(hasHerald(channels) ? { herald: fromZero() } : {}) };
+}
+
 /** The scale a channel's series is drawn on (see rateAxes). */
 export const heraldScale = (c: Pick<ViewChannel, 'role'>): { scale?: string } => (c.role === 'herald' ? { scale: 'herald' } : {});
 
@@ -57,7 +66,6 @@ export function RatesChart(props: { ring: RateRing; channels: ViewChannel[]; onR
     return [v.x, ...v.y];
   };
 
-  const yScale = (): uPlot.Scale => (log ? { distr: 3, log: 10 } : { range: (_u, _min, max) => [0, max > 0 ? max * 1.08 : 1] });
 
   const plot = useUPlot(
     box,
@@ -66,8 +74,7 @@ export function RatesChart(props: { ring: RateRing; channels: ViewChannel[]; onR
       cursor: { drag: { x: false, y: false } },
       scales: {
         x: { time: true, range: () => { const now = Date.now() / 1000; return [now - settings.current.windowS, now]; } },
-        y: yScale(),
-        ...(hasHerald(channels) ? { herald: yScale() } : {}),
+        ...(log ? { y: { distr: 3, log: 10 }, ...(hasHerald(channels) ? { herald: { distr: 3, log: 10 } } : {}) } : rateScales(channels)),
       },
       axes: [
         timeAxis(p),

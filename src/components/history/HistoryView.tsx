@@ -8,7 +8,7 @@ import type { ViewChannel } from '../../lib/bench-view.ts';
 import { errorText, fetchCounts, type CountsAnswer } from '../../lib/client/api.ts';
 import { formatDateTime, formatRate, parseLocalInput } from '../../lib/client/format.ts';
 import { timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
-import { channelColour, heraldScale, rateAxes } from '../bench/RatesChart.tsx';
+import { channelColour, heraldScale, rateAxes, rateScales } from '../bench/RatesChart.tsx';
 import { ChartState } from '../charts/ChartState.tsx';
 import { channelRates, pickStep, wholeBuckets } from './history-range.ts';
 import { StabilityCard } from './StabilityCard.tsx';
@@ -77,7 +77,7 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
       legend: { show: true, live: true },
       cursor: { drag: { x: true, y: false, setScale: false } },
       select: { show: true, left: 0, top: 0, width: 0, height: 0 },
-      scales: { x: { time: true, range: () => [rangeRef.current.from / 1000, rangeRef.current.to / 1000] } },
+      scales: { x: { time: true, range: () => [rangeRef.current.from / 1000, rangeRef.current.to / 1000] }, ...rateScales(channels) },
       axes: [timeAxis(p), ...rateAxes(p, channels)],
       series: [
         { label: 'time', value: timeLegendValue },

@@ -4,7 +4,7 @@ import type uPlot from 'uplot';
 import type { ViewChannel } from '../../lib/bench-view.ts';
 import { errorText, fetchCounts, type CountsAnswer } from '../../lib/client/api.ts';
 import { timeAxis, useUPlot } from '../charts/useUPlot.ts';
-import { channelColour, heraldScale, rateAxes } from '../bench/RatesChart.tsx';
+import { channelColour, heraldScale, rateAxes, rateScales } from '../bench/RatesChart.tsx';
 import { channelRates, pickStep, wholeBuckets } from '../history/history-range.ts';
 import { VisibilityTrend } from '../bench/VisibilityTrend.tsx';
 import type { Sweep } from '../../lib/client/api.ts';
@@ -34,7 +34,7 @@ export default function RunCharts(props: { benchId: string; from: number; to: nu
     box,
     (p) => ({
       legend: { show: true, live: false },
-      scales: { x: { time: true } },
+      scales: { x: { time: true }, ...rateScales(channels) },
       axes: [timeAxis(p), ...rateAxes(p, channels)],
       series: [{ label: 'time' }, ...channels.map((c, i) => ({ label: c.label, stroke: channelColour(p, c.role, i), width: 1.25, points: { show: false }, ...heraldScale(c) }))],
     }),
