@@ -18,6 +18,7 @@ import { runtime } from '../runtime.ts';
 import { formatUtcDateTime } from '../../client/format.ts';
 import { IMPORT_GATEWAY_PREFIX, importGatewayOf, isImportGateway, MAX_IMPORT_BYTES, overlapMessage, type ImportIssue, type ImportOverlap, type ImportPreview, type ImportResult } from '../../import-shapes.ts';
 import { CountsCsvReader, type ChannelInfo } from './import-parser.ts';
+import { csvParseOptions, splitHead, whereInBody } from './csv-head.ts';
 
 /** Batches buffered before a write inside the import's transaction. */
 const WRITE_EVERY = 20;
@@ -72,28 +73,36 @@ async function* csvOnly(chunks: AsyncGenerator<Uint8Array>): AsyncGenerator<Uint
 
 /** Feeds every record to the reader; `afterRecord` may await (writes), which pauses the parse. */
 async function readAll(body: ReadableStream<Uint8Array>, reader: CountsCsvReader, maxBytes: number, afterRecord?: (fields: string[], isData: boolean) => Promise<void> | void): Promise<void> {
-  const source = Readable.from(csvOnly(capped(body, maxBytes)));
-  const parser = source.pipe(parse({ relax_column_count: true, relax_quotes: true, raw: true, info: true, skip_empty_lines: true, bom: true }));
+  const { head, lines, rest } = await splitHead(csvOnly(capped(body, maxBytes)));
+  const source = Readable.from(rest);
+  const parser = source.pipe(parse(csvParseOptions(head === null)));
   // pipe() does not forward errors: the size cap (413) must end the parse, not hang it.
   source.on('error', (err) => parser.destroy(err));
   let line = 0;
   let headerSeen = false;
+  const take = (fields: string[], raw: string): Promise<void> | void => {
+    reader.record(fields, line, raw);
+    const isComment = (fields[0] ?? '').trim().startsWith('#');
+    const isData = headerSeen && !isComment;
+    if (!isComment) headerSeen = true;
+    return afterRecord?.(fields, isData);
+  };
   try {
-    for await (const rec of parser as AsyncIterable<{ record: string[]; raw: string; info: { lines: number } }>) {
-      line = rec.info.lines;
-      reader.record(rec.record, line, rec.raw);
-      const isComment = (rec.record[0] ?? '').trim().startsWith('#');
-      const isData = headerSeen && !isComment;
-      if (!isComment) headerSeen = true;
-      await afterRecord?.(rec.record, isData);
+    for (const h of head ?? []) {
+      line = h.line;
+      await take(h.fields, h.raw);
+    }
+    for await (const rec of parser as AsyncIterable<{ record: string[]; raw?: string; info: { lines: number } }>) {
+      line = lines + rec.info.lines;
+      await take(rec.record, rec.raw ?? '');
       if (reader.full) break;
     }
   } catch (err) {
     // Only the CSV parser's own errors describe the file; a database error or a bug is not the
     // uploader's to read (and its message may hold the database's internals): it stays a 500.
     if (!(err instanceof CsvError)) throw err;
-    const where = (err as { lines?: number }).lines ?? line + 1;
-    throw new ImportError([...reader.issues, { line: where, message: `not readable as CSV: ${err instanceof Error ? err.message : String(err)}`.slice(0, 200) }]);
+    const at = whereInBody(err, lines, line + 1);
+    throw new ImportError([...reader.issues, { line: at.line, message: `not readable as CSV: ${at.message}`.slice(0, 200) }]);
   } finally {
     parser.destroy();
     source.destroy();
