@@ -36,10 +36,13 @@ const MAX_ISSUES = 20;
 
 const num = (s: string | undefined) => (s === undefined || s === '' ? null : Number.isFinite(Number(s)) ? Number(s) : null);
 
+const DIGITS = /^\d+$/;
+
 /** The batch being built: contiguous rows with the same channels, x and cc present. */
 interface OpenBatch {
   t0: number;
-  shape: string;
+  /** Per channel, whether this batch holds its counts; `present` lists those channels. */
+  has: boolean[];
   /** Indices into `channels` of the keys with counts, and their counts bin by bin. */
   present: number[];
   counts: number[][];
@@ -66,6 +69,8 @@ export class CountsCsvReader {
   private ccCol = -1;
   /** Per channel, its columns in the file. */
   private chanCols: number[][] = [];
+  /** The row being read, a count or null per channel: one array for every row, its counts copied into the batch. */
+  private values: (number | null)[] = [];
   private cur: OpenBatch | null = null;
 
   /** `onBatch` receives each completed batch (≤ 10,000 bins, contiguous). */
@@ -132,44 +137,54 @@ export class CountsCsvReader {
     });
     this.hasX = this.xCol > 0;
     this.hasCc = this.ccCol > 0;
+    this.values = this.chanCols.map(() => null);
     if (this.chanCols.length === 0) this.issue(line, 'no channel columns after t_ms');
   }
 
   private readRow(fields: string[], line: number): void {
     const cols = this.header!;
     if (fields.length !== cols.length) return this.issue(line, `${fields.length} cells, the header has ${cols.length}`);
-    const cell = (i: number) => (fields[i] ?? '').trim();
-    const t = Number(cell(0));
-    if (!/^\d+$/.test(cell(0)) || !Number.isSafeInteger(t)) return this.issue(line, `t_ms "${cell(0).slice(0, 30)}" is not a whole number of ms`);
+    const tCell = fields[0]!.trim();
+    const t = Number(tCell);
+    if (!DIGITS.test(tCell) || !Number.isSafeInteger(t)) return this.issue(line, `t_ms "${tCell.slice(0, 30)}" is not a whole number of ms`);
     // Room for one bin of the contract's widest (60 s) after it: its end must still be a date.
     if (t > MAX_EPOCH_MS - 60_000) return this.issue(line, `t_ms ${t} is past the last representable date`);
-    const counts: (number | null)[] = [];
-    for (const [k, chCols] of this.chanCols.entries()) {
+    const values = this.values;
+    let anyCount = false;
+    for (let k = 0; k < this.chanCols.length; k++) {
+      const chCols = this.chanCols[k]!;
       let value: number | null = null;
       let from = -1;
-      for (const i of chCols) {
-        const s = cell(i);
+      for (let c = 0; c < chCols.length; c++) {
+        const i = chCols[c]!;
+        const s = fields[i]!.trim();
         if (s === '') continue;
-        if (!/^\d+$/.test(s) || Number(s) > MAX_COUNT) return this.issue(line, `${cols[i]}: "${s.slice(0, 30)}" is not a count (integer 0…2^31−1)`);
+        const v = Number(s);
+        if (!DIGITS.test(s) || v > MAX_COUNT) return this.issue(line, `${cols[i]}: "${s.slice(0, 30)}" is not a count (integer 0…2^31−1)`);
         if (value !== null) return this.issue(line, `columns "${cols[from]}" and "${cols[i]}" both have a count for the channel key "${this.channels[k]!.key}": rename one`);
-        value = Number(s);
+        value = v;
         from = i;
       }
-      counts.push(value);
+      values[k] = value;
+      if (value !== null) anyCount = true;
     }
-    if (counts.every((v) => v === null)) return this.issue(line, 'no channel has a count in this row');
+    if (!anyCount) return this.issue(line, 'no channel has a count in this row');
     let x: number | null = null;
-    if (this.hasX && cell(this.xCol) !== '') {
-      x = Number(cell(this.xCol));
-      if (!Number.isFinite(x)) return this.issue(line, `x: "${cell(this.xCol).slice(0, 30)}" is not a number`);
+    if (this.hasX) {
+      const s = fields[this.xCol]!.trim();
+      if (s !== '') {
+        x = Number(s);
+        if (!Number.isFinite(x)) return this.issue(line, `x: "${s.slice(0, 30)}" is not a number`);
+      }
     }
     let cc: number | null = null;
-    if (this.hasCc && cell(this.ccCol) !== '') {
-      cc = Number(cell(this.ccCol));
-      if (!/^\d+$/.test(cell(this.ccCol)) || cc > MAX_COUNT) return this.issue(line, `cc: "${cell(this.ccCol).slice(0, 30)}" is not a count`);
+    if (this.hasCc) {
+      const s = fields[this.ccCol]!.trim();
+      if (s !== '') {
+        cc = Number(s);
+        if (!DIGITS.test(s) || cc > MAX_COUNT) return this.issue(line, `cc: "${s.slice(0, 30)}" is not a count`);
+      }
     }
-    // A batch holds the same channels (and x, cc) in every bin: a change of shape starts a new one.
-    const shape = counts.map((v) => (v === null ? '-' : '+')).join('') + (x === null ? '' : 'x') + (cc === null ? '' : 'c');
     if (this.lastT !== null) {
       const step = t - this.lastT;
       if (step <= 0) return this.issue(line, `t_ms ${t} is not after the previous row's ${this.lastT}`);
@@ -180,7 +195,7 @@ export class CountsCsvReader {
       } else if (step % this.dt !== 0) {
         return this.issue(line, `t_ms ${t} is ${step} ms after the previous row, not a multiple of the bin width ${this.dt} ms`);
       }
-      if (step !== this.dt || shape !== this.cur?.shape || this.cur.n >= MAX_BINS) this.flush();
+      if (step !== this.dt || !this.cur || !this.sameShape(this.cur, x, cc) || this.cur.n >= MAX_BINS) this.flush();
     } else {
       this.firstT = t;
     }
@@ -188,14 +203,22 @@ export class CountsCsvReader {
     this.rows++;
     if (this.failed) return; // keep validating, stop building
     if (!this.cur) {
-      const present = counts.flatMap((v, k) => (v === null ? [] : [k]));
-      this.cur = { t0: t, shape, present, counts: present.map(() => []), x: x === null ? null : [], cc: cc === null ? null : [], n: 0 };
+      const has = values.map((v) => v !== null);
+      const present = has.flatMap((h, k) => (h ? [k] : []));
+      this.cur = { t0: t, has, present, counts: present.map(() => []), x: x === null ? null : [], cc: cc === null ? null : [], n: 0 };
     }
     const open = this.cur;
-    open.present.forEach((k, j) => open.counts[j]!.push(counts[k]!));
+    for (let j = 0; j < open.present.length; j++) open.counts[j]!.push(values[open.present[j]!]!);
     if (x !== null) open.x!.push(x);
     if (cc !== null) open.cc!.push(cc);
     open.n++;
+  }
+
+  /** A batch holds the same channels (and x, cc) in every bin: a row of another shape starts a new one. */
+  private sameShape(open: OpenBatch, x: number | null, cc: number | null): boolean {
+    if ((x === null) !== (open.x === null) || (cc === null) !== (open.cc === null)) return false;
+    for (let k = 0; k < open.has.length; k++) if ((this.values[k] !== null) !== open.has[k]) return false;
+    return true;
   }
 
   private flush(): void {
