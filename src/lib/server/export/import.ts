@@ -19,7 +19,7 @@ import { runtime } from '../runtime.ts';
 import { formatUtcDateTime } from '../../client/format.ts';
 import { IMPORT_GATEWAY_PREFIX, importGatewayOf, isImportGateway, MAX_IMPORT_BYTES, overlapMessage, type ImportIssue, type ImportOverlap, type ImportPreview, type ImportResult } from '../../import-shapes.ts';
 import { CountsCsvReader, type ChannelInfo } from './import-parser.ts';
-import { csvParseOptions, splitHead, whereInBody } from './csv-head.ts';
+import { CSV_PARSE_OPTIONS, RecordLines, splitHead, whereInBody } from './csv-records.ts';
 
 /** Batches buffered before a write inside the import's transaction. */
 const WRITE_EVERY = 20;
@@ -72,11 +72,10 @@ async function* csvOnly(chunks: AsyncGenerator<Uint8Array>): AsyncGenerator<Uint
   }
 }
 
-/** A record as csv-parse hands it on with `info` (and `raw` when it reads the whole body). */
+/** A record as csv-parse hands it on with `raw`. */
 interface ParsedRecord {
   record: string[];
-  raw?: string;
-  info: { lines: number };
+  raw: string;
 }
 
 /** Feeds every record to the reader; `afterRecord` may return a promise (writes), which pauses the parse until it settles. */
@@ -98,18 +97,19 @@ async function readAll(body: ReadableStream<Uint8Array>, reader: CountsCsvReader
   // Records go to a writable, one call each, rather than through an async iterator: a promise per
   // record, with the async hooks the server runs under, was about a sixth of a check's profile.
   const enough = new AbortController();
+  const lineOf = new RecordLines();
   const sink = new Writable({
     objectMode: true,
     write(rec: ParsedRecord, _encoding, done) {
-      line = lines + rec.info.lines;
-      const pending = take(rec.record, rec.raw ?? '');
+      line = lines + lineOf.next(rec.raw);
+      const pending = take(rec.record, rec.raw);
       if (reader.full) enough.abort();
       if (pending) pending.then(() => done(), done);
       else done();
     },
   });
   try {
-    await pipeline(Readable.from(rest), parse(csvParseOptions(head === null)), sink, { signal: enough.signal });
+    await pipeline(Readable.from(rest), parse(CSV_PARSE_OPTIONS), sink, { signal: enough.signal });
   } catch (err) {
     // Aborted once the reader holds 20 problems: the rest of the file is not parsed.
     if (enough.signal.aborted) return reader.end(line);

@@ -1,13 +1,13 @@
-// The lines ahead of a counts CSV's header (the export's `#` metadata), read apart from csv-parse.
+// How the import reads a counts CSV's records, and the line of each, with csv-parse.
 //
-// csv-parse takes its first record's number of fields as every record's, and under
-// relax_column_count builds a CsvError (two stack traces, JSON copies of the record) for each
-// record with another number. After the export's one-field `# fringewise counts csv v1` line that
-// was every data row: most of the time a check or an import took. So the head is taken off the
-// body and csv-parse begins at the header. Only plain lines are taken, which csv-parse would split
-// at every comma, up to a plain header: no quote, each ended as the first line is (csv-parse keeps
-// the first line end it meets for the whole body); otherwise csv-parse reads the whole body, as
-// it always did.
+// The lines ahead of the header (the export's `#` metadata) are read apart: csv-parse takes its
+// first record's number of fields as every record's, and under relax_column_count builds a
+// CsvError (two stack traces, JSON copies of the record) for each record with another number.
+// After the export's one-field `# fringewise counts csv v1` line that was every data row: most of
+// the time a check or an import took. So the head is taken off the body and csv-parse begins at
+// the header. Only plain lines are taken, which csv-parse would split at every comma, up to a
+// plain header: no quote, each ended as the first line is (csv-parse keeps the first line end it
+// meets for the whole body); otherwise csv-parse reads the whole body, as it always did.
 import type { CsvError, Options } from 'csv-parse';
 
 /** Lines ahead of the header are split off up to this many bytes (an export's are about 1 kB). */
@@ -20,12 +20,30 @@ export interface HeadRecord {
   raw: string;
 }
 
+/** How the import reads CSV: each record with its text (`raw`), which gives its line (RecordLines). */
+export const CSV_PARSE_OPTIONS: Options = { relax_column_count: true, relax_quotes: true, raw: true, skip_empty_lines: true, bom: true };
+
 /**
- * How the import reads CSV. A record's text (`raw`) is read only for `#` lines ahead of the
- * header, which reach csv-parse only when the head could not be split off.
+ * The line csv-parse gives each record (its `info.lines`), counted from the records' text instead:
+ * the `info` option builds two objects per record, a third of a check's profile. csv-parse
+ * counts a line at each character it reads after a \r or a \n. A record's text holds every
+ * character it read for the record, skipped empty lines included, and ends with the character
+ * that ended it (a line end's first, or the body's last); the record's line is the count reached
+ * before that last character.
  */
-export function csvParseOptions(wholeBody: boolean): Options {
-  return { relax_column_count: true, relax_quotes: true, raw: wholeBody, info: true, skip_empty_lines: true, bom: true };
+export class RecordLines {
+  private breaks = 0;
+
+  /** The line of the next record, from its text; call once per record, in order. */
+  next(raw: string): number {
+    let n = 0;
+    for (let i = raw.indexOf('\n'); i >= 0; i = raw.indexOf('\n', i + 1)) n++;
+    for (let i = raw.indexOf('\r'); i >= 0; i = raw.indexOf('\r', i + 1)) n++;
+    const last = raw.charCodeAt(raw.length - 1);
+    const line = 1 + this.breaks + n - (last === 0x0a || last === 0x0d ? 1 : 0);
+    this.breaks += n;
+    return line;
+  }
 }
 
 async function* restOf(first: Uint8Array, chunks: AsyncGenerator<Uint8Array>): AsyncGenerator<Uint8Array> {

@@ -2,7 +2,7 @@ import { Readable } from 'node:stream';
 import { CsvError, parse } from 'csv-parse';
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { csvParseOptions, splitHead, whereInBody } from './csv-head.ts';
+import { CSV_PARSE_OPTIONS, RecordLines, splitHead, whereInBody } from './csv-records.ts';
 
 type Read = { records: { fields: string[]; line: number; raw: string }[]; error: { line: number; message: string } | null };
 
@@ -15,10 +15,12 @@ async function* chunked(body: Buffer, cuts: number[]): AsyncGenerator<Uint8Array
   if (from < body.length) yield body.subarray(from);
 }
 
-async function parseAll(chunks: AsyncIterable<Uint8Array>, wholeBody: boolean, linesTaken: number, into: Read): Promise<void> {
+/** Records with csv-parse's own `info.lines`, or with RecordLines when `counted`. */
+async function parseAll(chunks: AsyncIterable<Uint8Array>, counted: boolean, linesTaken: number, into: Read): Promise<void> {
+  const lines = new RecordLines();
   try {
-    for await (const rec of Readable.from(chunks).pipe(parse(csvParseOptions(wholeBody))) as AsyncIterable<{ record: string[]; raw?: string; info: { lines: number } }>) {
-      into.records.push({ fields: rec.record, line: linesTaken + rec.info.lines, raw: rec.raw ?? '' });
+    for await (const rec of Readable.from(chunks).pipe(parse({ ...CSV_PARSE_OPTIONS, info: !counted })) as AsyncIterable<{ record: string[]; raw: string; info?: { lines: number } }>) {
+      into.records.push({ fields: rec.record, line: linesTaken + (counted ? lines.next(rec.raw) : rec.info!.lines), raw: rec.raw });
     }
   } catch (err) {
     if (!(err instanceof CsvError)) throw err;
@@ -26,17 +28,17 @@ async function parseAll(chunks: AsyncIterable<Uint8Array>, wholeBody: boolean, l
   }
 }
 
-/** What the import read before: csv-parse over the whole body. */
+/** What the import read before: csv-parse over the whole body, lines from its `info`. */
 async function whole(body: Buffer): Promise<Read> {
   const out: Read = { records: [], error: null };
-  await parseAll(chunked(body, []), true, 0, out);
+  await parseAll(chunked(body, []), false, 0, out);
   return out;
 }
 
 async function split(body: Buffer, cuts: number[]): Promise<Read> {
   const { head, lines, rest } = await splitHead(chunked(body, cuts));
   const out: Read = { records: [...(head ?? [])], error: null };
-  await parseAll(rest, head === null, lines, out);
+  await parseAll(rest, true, lines, out);
   return out;
 }
 
@@ -50,10 +52,10 @@ function asReaderSees(r: Read): Read {
 }
 
 const HEAD = ['# fringewise counts csv v1', '# bench: mz-810 (Heralded MZ, 810 nm)', '# channel gw-1/a: role=out_a; label=Port A, left; efficiency=1', '', '   ', ',,', ' # spaced', '#quoted,"a, b"', '# "open', '#\rlone'];
-const ROWS = ['t_ms,gw-1/a,x,cc', '1000,5,0.5,1', '1010,,0.6,', '1020,"7",0.7,0', '1030,8', '', '1040,"9\n9",1,1', '1050,"1"0,1,1', '1060,"unclosed', '#late,comment', '\uFEFFt_ms'];
+const ROWS = ['t_ms,gw-1/a,x,cc', '1000,5,0.5,1', '1010,,0.6,', '1020,"7",0.7,0', '1030,8', '', '1040,"9\n9",1,1', '1045,"9\r\n9",1,1', '1050,"1"0,1,1', '1055,5\r,1', '\r', '1060,"unclosed', '#late,comment', '\uFEFFt_ms'];
 
 describe('splitHead', () => {
-  it('gives the records, lines and errors csv-parse gives reading the whole body', async () => {
+  it('gives the records, lines and errors csv-parse gives reading the whole body with its own line numbers', async () => {
     await fc.assert(
       fc.asyncProperty(
         fc.array(fc.constantFrom(...HEAD), { maxLength: 6 }),
@@ -96,5 +98,22 @@ describe('splitHead', () => {
     const read = await split(body, []);
     expect(read.error).toEqual({ line: 5, message: 'Quote Not Closed: the parsing is finished with an opening quote at line 5' });
     expect(read.error).toEqual((await whole(body)).error);
+  });
+});
+
+describe('RecordLines', () => {
+  it('gives every record the line csv-parse reports, whatever its line ends, quotes and empty lines', async () => {
+    const pieces = ['t_ms,a', '1,2', '', ' ', '"q"', '"a\nb"', '"a\r\nb"', 'x\ry', '\r', '\r\n', '"', 'a"b', '"x"y', ',,', '\uFEFF'];
+    await fc.assert(
+      fc.asyncProperty(fc.array(fc.constantFrom(...pieces), { maxLength: 12 }), fc.constantFrom('\n', '\r\n', '\r'), fc.boolean(), fc.array(fc.nat(200), { maxLength: 4 }), async (lines, end, endLast, cuts) => {
+        const body = Buffer.from(lines.join(end) + (endLast ? end : ''));
+        const own: Read = { records: [], error: null };
+        const counted: Read = { records: [], error: null };
+        await parseAll(chunked(body, cuts), false, 0, own);
+        await parseAll(chunked(body, cuts), true, 0, counted);
+        expect(counted).toEqual(own);
+      }),
+      { numRuns: 2000 },
+    );
   });
 });
