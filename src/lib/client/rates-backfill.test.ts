@@ -27,6 +27,13 @@ describe('rates backfill', () => {
     expect(rate(ring)).toEqual([...Array<number>(10).fill(100), 150, ...Array<number>(20).fill(200)]);
   });
 
+  it('divides a bucket recorded only in part by the time recorded in it, so a restart leaves no dip', () => {
+    const ring = new RateRing(['gw/a']);
+    // 100 /s throughout; the third bucket holds 40 ms of bins before a restart's gap.
+    backfillRates(ring, { t0: 0, step: 100, channels: { 'gw/a': [10, 10, 4, null, 10, 10, 10] }, coveredMs: { gw: [100, 100, 40, 0, 100, 100, 100] } });
+    expect(rate(ring)).toEqual(Array<number>(6).fill(100));
+  });
+
   it('takes each channel by itself: one with no bins, one with gaps, one that lags', () => {
     const ring = new RateRing(['gw-a/a', 'gw-b/a', 'gw-c/a']);
     const got = backfillRates(ring, {

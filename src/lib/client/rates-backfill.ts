@@ -20,9 +20,13 @@ export const BACKFILL_CLOCK_SLACK_MS = 60_000;
  * channel's own newest one are provisional (live bins replace them), judged by the data's times
  * rather than this browser's clock. Returns whether any bucket held counts.
  */
-export function backfillRates(ring: RateRing, answer: Pick<CountsAnswer, 't0' | 'step' | 'channels'>): boolean {
+export function backfillRates(ring: RateRing, answer: Pick<CountsAnswer, 't0' | 'step' | 'channels'> & Partial<Pick<CountsAnswer, 'coveredMs'>>): boolean {
   let any = false;
   for (const [key, values] of Object.entries(answer.channels)) {
+    // A bucket its gateway recorded only in part (a restart's gap) goes in as bins of the time
+    // recorded, so the ring divides by that instead of drawing a dip over the whole bucket.
+    const gateway = key.slice(0, key.indexOf('/'));
+    const covered = answer.coveredMs && Object.hasOwn(answer.coveredMs, gateway) ? answer.coveredMs[gateway]! : [];
     let last = values.length - 1;
     while (last >= 0 && values[last] == null) last--;
     if (last < 0) continue;
@@ -32,7 +36,8 @@ export function backfillRates(ring: RateRing, answer: Pick<CountsAnswer, 't0' | 
       const v = values[i];
       if (v == null) continue;
       const t0 = answer.t0 + i * answer.step;
-      ring.add(t0, answer.step, { [key]: [v] }, true, t0 + answer.step > settledBefore);
+      const ms = covered[i];
+      ring.add(t0, ms && ms < answer.step ? ms : answer.step, { [key]: [v] }, true, t0 + answer.step > settledBefore);
     }
   }
   return any;
