@@ -6,7 +6,7 @@ import { mulberry32, poisson } from '../../simulators/random.ts';
 import { phaseAtHold } from '../../src/lib/analysis/phase.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
 import { packCounts } from '../../src/lib/server/db/packed-counts.ts';
-import { channels, countBatches, sweeps } from '../../src/lib/server/db/schema.ts';
+import { channels, countBatches, rollups, sweeps } from '../../src/lib/server/db/schema.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import type { RunningApp } from '../../src/server/app.ts';
 import { startWebApp, userWithToken } from '../helpers/web-app.ts';
@@ -60,6 +60,35 @@ it('leaves out a bucket recorded only in part, as a missing one: its sum is no r
   expect(rate!.meanRate).toBeGreaterThan(RATE * 0.98);
   const first = rate!.points[0]!;
   expect(Math.abs(first.adev - first.poissonLimit)).toBeLessThan(3 * first.err + 0.05 * first.poissonLimit);
+});
+
+it('keeps whole rollup buckets of a bin width that does not divide the step (3 ms bins in 1 s: 334, 333, 333 bins)', async () => {
+  const bench = `stab3-${tag}`;
+  const gw = `stab3-${tag}-gw`;
+  await createBench({ id: bench, name: 'Stability 3 ms', wavelengthNm: 633 });
+  await createGateway(gw, bench);
+  await getDb().insert(channels).values([{ gatewayId: gw, key: 'a', benchId: bench }]);
+  // One raw row gives the width; ten minutes of 1 s rollup slots hold the bins starting in each
+  // second, as the ingest sums them (slot k starts at 1000k ms; 3 ms bins start on multiples of 3).
+  const start = 1_796_300_040_000; // a multiple of 60,000 and of 3
+  await getDb().insert(countBatches).values({ gatewayId: gw, t0: start, t1: start + 3, dt: 3, n: 1, keys: ['a'], counts: packCounts([6]), boot: 'b', seq: 0 });
+  const rng = mulberry32(8);
+  const blocks = [];
+  for (let block = 0; block < 10; block++) {
+    const binsPer = Array.from({ length: 60 }, (_, k) => {
+      const t = start + (block * 60 + k) * 1000;
+      return Math.ceil((t + 1000) / 3) - Math.ceil(t / 3);
+    });
+    blocks.push({ gatewayId: gw, key: 'a', stepMs: 1000, blockT0: start + block * 60_000, sums: binsPer.map((n) => poisson(rng, n * 6)), bins: binsPer });
+  }
+  expect(new Set(blocks[0]!.bins)).toEqual(new Set([333, 334]));
+  await getDb().insert(rollups).values(blocks);
+  const { token } = await userWithToken('observer', 'stab');
+  const res = await fetch(new URL(`/api/v1/benches/${bench}/stability?from=${start}&to=${start + 600_000}&step=1000`, app.url), { headers: { authorization: `Bearer ${token}` } });
+  expect(res.status).toBe(200);
+  const body = (await res.json()) as { missingBuckets: number; rates: { points: unknown[] }[] };
+  expect(body.missingBuckets).toBe(0);
+  expect(body.rates[0]!.points.length).toBeGreaterThan(5);
 });
 
 // Phase: a two-output bench (model N_a = η_a·(N/2)(1 + V cos θ) + d_a, N_b = η_b·(N/2)(1 − V cos θ)

@@ -33,6 +33,12 @@ export interface CountsResult {
    * holding its start, so with bins longer than a rollup step the time can pass the step.
    */
   coveredMs: Record<string, number[]>;
+  /**
+   * Per gateway with bins in the range, the bin width (ms) its coverage was counted in: a rollup
+   * slot holds the bins starting in it, so with a width that does not divide the step a whole
+   * bucket's coverage is off the step by up to one bin (1002, 999, 999 ms for 3 ms bins in 1 s).
+   */
+  binMs: Record<string, number>;
   /** Mean scan coordinate per bucket (raw resolution only: rollups keep no x). */
   x?: (number | null)[];
   /** Summed coincidences per bucket. */
@@ -109,6 +115,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
   const b = new Buckets(t0, step, points);
   for (const c of channelInfo) b.column(`${c.gateway}/${c.key}`);
   const covered = new Map(gatewayIds.map((g) => [g, new Array<number>(points).fill(0)]));
+  const binMs = new Map<string, number>();
   const end = t0 + points * step;
   let xSum: number[] | null = null;
   let xN: number[] | null = null;
@@ -143,6 +150,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
       // Past raw retention a gateway has no row to read its width from: a full slot holds level/width
       // bins (a range without one full slot reads the width too long, and the rates too low).
       const width = widths.get(gateway) ?? levelMs / [...blocks.values()].reduce((m, bins) => bins.reduce((a, n) => Math.max(a, n), m), 1);
+      binMs.set(gateway, width);
       const cov = covered.get(gateway)!;
       for (const [blockT0, bins] of blocks) {
         bins.forEach((n, i) => {
@@ -170,6 +178,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
     if (misfit) throw new HttpError(422, `step ${step} ms is not a multiple of the stored bin width (${misfit.dt} ms from ${misfit.gateway_id}): use a multiple of ${misfit.dt} ms`);
     for (const r of rows.map(unpackRow)) {
       const cov = covered.get(r.gateway_id)!;
+      binMs.set(r.gateway_id, r.dt);
       r.keys.forEach((key, k) => {
         const name = `${r.gateway_id}/${key}`;
         for (let j = 0; j < r.n; j++) {
@@ -194,7 +203,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
 
   const channels: Record<string, (number | null)[]> = {};
   for (const [name, col] of b.values) if (name !== '#cc') channels[name] = col;
-  const result: CountsResult = { t0, step, resolution, channels, coveredMs: Object.fromEntries(covered), channelInfo };
+  const result: CountsResult = { t0, step, resolution, channels, coveredMs: Object.fromEntries(covered), binMs: Object.fromEntries(binMs), channelInfo };
   if (xSum && xN) {
     const n = xN;
     result.x = xSum.map((s, i) => (n[i] ? s / n[i]! : null));

@@ -49,10 +49,12 @@ export async function benchStability(benchId: string, from: number, to: number, 
   const tau0 = stepMs / 1000;
   // A bucket recorded only in part (a gap's edge) is no sample over τ₀: its sum would read as a
   // rate drop, and the Allan deviation needs samples of equal length. It splits the series as a
-  // missing one does.
+  // missing one does. Whole within one bin: a width that does not divide the step leaves rollup
+  // buckets a bin over or under it (CountsResult.binMs).
   const whole = (col: (number | null)[], gateway: string) => {
     const covered = Object.hasOwn(counts.coveredMs, gateway) ? counts.coveredMs[gateway]! : [];
-    return col.map((v, i) => (v !== null && (covered[i] ?? 0) >= counts.step ? v : null));
+    const slack = Object.hasOwn(counts.binMs, gateway) ? counts.binMs[gateway]! : 0;
+    return col.map((v, i) => (v !== null && (covered[i] ?? 0) > counts.step - slack ? v : null));
   };
   let missing = 0;
   const rates: RateStability[] = [];

@@ -29,6 +29,6 @@ export const GET = endpoint('observer', async ({ params, url, request }) => {
   const result = await queryCounts(bench.id, q.from, q.to, q.step);
   const csv = q.format === 'csv' || (!q.format && (request.headers.get('accept') ?? '').includes('text/csv'));
   if (csv) return new Response(await countsCsv(bench, q.from, q.to, result), { headers: { 'content-type': 'text/csv; charset=utf-8', 'cache-control': 'no-store' } });
-  const { channelInfo: _info, ...body } = result;
+  const { channelInfo: _info, binMs: _widths, ...body } = result;
   return json(body);
 });
