@@ -323,16 +323,21 @@ export const alarmEvents = pgTable(
   (t) => [index('alarm_events_bench_idx').on(t.benchId, t.raisedAt)],
 );
 
-export const auditLog = pgTable('audit_log', {
-  id: bigint('id', { mode: 'number' }).primaryKey().generatedAlwaysAsIdentity(),
-  at: timestamp('at', { withTimezone: true }).notNull().defaultNow(),
-  actorId: text('actor_id').references(() => users.id, { onDelete: 'set null' }),
-  entity: text('entity').notNull(),
-  entityId: text('entity_id').notNull(),
-  action: text('action').notNull(),
-  before: jsonb('before'),
-  after: jsonb('after'),
-});
+export const auditLog = pgTable(
+  'audit_log',
+  {
+    id: bigint('id', { mode: 'number' }).primaryKey().generatedAlwaysAsIdentity(),
+    at: timestamp('at', { withTimezone: true }).notNull().defaultNow(),
+    actorId: text('actor_id').references(() => users.id, { onDelete: 'set null' }),
+    entity: text('entity').notNull(),
+    entityId: text('entity_id').notNull(),
+    action: text('action').notNull(),
+    before: jsonb('before'),
+    after: jsonb('after'),
+  },
+  // An ack is matched to its command's entry after a restart (commands/sender.ts): one probe, not a scan of the trail.
+  (t) => [index('audit_log_entity_idx').on(t.entity, t.entityId)],
+);
 
 // Lab-wide settings as named JSON documents (retention, defaults), validated by zod on read.
 export const settings = pgTable('settings', {
