@@ -34,6 +34,15 @@ describe('rates backfill', () => {
     expect(rate(ring)).toEqual(Array<number>(6).fill(100));
   });
 
+  it('puts the recorded part of a bucket after a gap at the bucket\'s end, where the stream resumed', () => {
+    // 1 s buckets (the fallback step) against the ring's 100 ms: where the part lands shows.
+    const ring = new RateRing(['gw/a']);
+    backfillRates(ring, { t0: 0, step: 1_000, channels: { 'gw/a': [100, null, 30] }, coveredMs: { gw: [1_000, 0, 300] } });
+    const starts = [...ring.view(0).x].map((s) => Math.round(s * 1000));
+    expect(starts.slice(10)).toEqual([2_700, 2_800, 2_900]);
+    expect(rate(ring)).toEqual(Array<number>(13).fill(100));
+  });
+
   it('takes each channel by itself: one with no bins, one with gaps, one that lags', () => {
     const ring = new RateRing(['gw-a/a', 'gw-b/a', 'gw-c/a']);
     const got = backfillRates(ring, {

@@ -37,7 +37,11 @@ export function backfillRates(ring: RateRing, answer: Pick<CountsAnswer, 't0' | 
       if (v == null) continue;
       const t0 = answer.t0 + i * answer.step;
       const ms = covered[i];
-      ring.add(t0, ms && ms < answer.step ? ms : answer.step, { [key]: [v] }, true, t0 + answer.step > settledBefore);
+      if (ms && ms < answer.step) {
+        // After a gap the recorded part is the bucket's end (the stream resumed in it), else its start.
+        const at = i > 0 && values[i - 1] == null ? t0 + answer.step - ms : t0;
+        ring.add(at, ms, { [key]: [v] }, true, t0 + answer.step > settledBefore);
+      } else ring.add(t0, answer.step, { [key]: [v] }, true, t0 + answer.step > settledBefore);
     }
   }
   return any;
