@@ -33,6 +33,17 @@ describe('Mandel Q', () => {
     expect(Math.abs(mean)).toBeLessThan((4 * spread) / Math.sqrt(qs.length));
   });
 
+  it('leaves out the differences across gaps, where the level may have moved while no bins came', () => {
+    // Ten stretches of 100 bins of Poisson counts, the level switching between 470 and 100 across
+    // each gap (demo-like numbers): across a gap two bins are no neighbours in time.
+    const rng = mulberry32(22);
+    const counts = Float64Array.from({ length: 1_000 }, (_, i) => poisson(rng, Math.floor(i / 100) % 2 ? 100 : 470));
+    const gaps = Array.from({ length: 9 }, (_, k) => (k + 1) * 100);
+    expect(mandelQ(counts).q.value).toBeGreaterThan(0.5);
+    const q = mandelQ(counts, gaps);
+    expect(Math.abs(q.q.value)).toBeLessThan(3 * q.q.err);
+  });
+
   it('stays 0 for laser light whose fringe drifts over the window, where the variance over the window reads bunching', () => {
     // 10 s of 10 ms bins at ~470 counts per bin, the phase drifting through a fifth of a fringe:
     // the rate changes by tens of per cent, slowly from bin to bin. (Demo-like numbers.)

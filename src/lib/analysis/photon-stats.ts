@@ -26,40 +26,52 @@ export interface MandelQ {
  * alone (E[(n_i − (n_{i−1} + n_{i+1})/2)³] = ¾μ₃ for independent bins). About √(3/bins) for
  * Poisson counts; checked by Monte Carlo in the tests.
  */
-export function mandelQ(counts: ArrayLike<number>): MandelQ {
+export function mandelQ(counts: ArrayLike<number>, gapsBefore: readonly number[] = []): MandelQ {
   const n = counts.length;
   if (n < 4) throw new RangeError('Mandel Q needs at least 4 bins');
   let mean = 0;
   for (let i = 0; i < n; i++) mean += counts[i] as number;
   mean /= n;
   if (!(mean > 0)) throw new RangeError('Mandel Q is undefined without counts');
-  const m = n - 1;
+  // Bins i and i + 1 are neighbours in time unless a gap falls between them (`gapsBefore` holds the
+  // index of each bin that follows one): those pairs are no difference over one bin.
+  const follows = new Uint8Array(n).fill(1);
+  for (const g of gapsBefore) if (g > 0 && g < n) follows[g] = 0;
+  let pairs = 0;
   let variance = 0;
-  for (let i = 0; i < m; i++) {
+  for (let i = 0; i + 1 < n; i++) {
+    if (!follows[i + 1]) continue;
     const d = (counts[i + 1] as number) - (counts[i] as number);
     variance += (d * d) / 2;
+    pairs++;
   }
-  variance /= m;
+  if (pairs < 3) throw new RangeError('Mandel Q needs at least 3 pairs of adjacent bins');
+  variance /= pairs;
   // Autocovariances of y_i = (n_{i+1} − n_i)²/2 at lags 0 and 1 (further lags share no bin).
   let g0 = 0;
   let g1 = 0;
-  let prev = NaN;
-  for (let i = 0; i < m; i++) {
+  for (let i = 0; i + 1 < n; i++) {
+    if (!follows[i + 1]) continue;
     const d = (counts[i + 1] as number) - (counts[i] as number);
     const y = (d * d) / 2 - variance;
     g0 += y * y;
-    if (i > 0) g1 += y * prev;
-    prev = y;
+    if (i > 0 && follows[i]) {
+      const e = (counts[i] as number) - (counts[i - 1] as number);
+      g1 += y * ((e * e) / 2 - variance);
+    }
   }
-  g0 /= m;
-  g1 /= m;
+  g0 /= pairs;
+  g1 /= pairs;
   let third = 0;
-  for (let i = 1; i < m; i++) {
+  let triplets = 0;
+  for (let i = 1; i + 1 < n; i++) {
+    if (!follows[i] || !follows[i + 1]) continue;
     const e = (counts[i] as number) - ((counts[i - 1] as number) + (counts[i + 1] as number)) / 2;
     third += e * e * e;
+    triplets++;
   }
-  const mu3 = n > 2 ? (4 / 3) * (third / (n - 2)) : 0;
-  const varS = Math.max(0, g0 + 2 * g1) / m;
+  const mu3 = triplets > 0 ? (4 / 3) * (third / triplets) : 0;
+  const varS = Math.max(0, g0 + 2 * g1) / pairs;
   const varMean = variance / n;
   const covSMean = mu3 / n;
   // Q + 1 = s²/n̄.

@@ -75,7 +75,8 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
       ...(deadTime ? { deadTime } : {}),
     });
     // A dark channel (shutter closed, detector off, no heralds) has no Q.
-    const q = s.counts.length >= 10 && counts > 0 ? mandelQ(s.counts).q : null;
+    // Q needs pairs of bins adjacent in time; a window broken by gaps into single bins has none.
+    const q = s.counts.length - 1 - s.gapsBefore.length >= 10 && counts > 0 ? mandelQ(s.counts, s.gapsBefore).q : null;
     channels.push({
       channel: `${c.gateway}/${c.key}`,
       role: c.role,

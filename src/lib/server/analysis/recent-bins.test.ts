@@ -15,6 +15,10 @@ describe('RecentBins', () => {
     expect([...r.scan('g', 1_000)!.counts]).toEqual([0, 0.05, 0.1, 0.2]);
     expect([...r.coincidences('g', 1_000)!.counts]).toEqual([0, 1, 1, 0]);
     expect(r.series('g', 'c', 1_000)).toBeNull();
+    expect(r.series('g', 'a', 1_000)!.gapsBefore).toEqual([]);
+    // A batch lost in transit: the bins after it follow a gap.
+    r.add('g', { v: 1, boot: 'b', seq: 3, t0: T0 + 30, dt: 5, ch: { a: [7, 8], b: [70, 80] } }, T0);
+    expect(r.series('g', 'a', 1_000)!.gapsBefore).toEqual([4]);
     expect(r.series('other', 'a', 1_000)).toBeNull();
   });
 

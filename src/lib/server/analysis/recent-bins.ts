@@ -28,6 +28,8 @@ export interface ChannelSeries {
   /** Counts per bin, oldest first, within the window. */
   counts: Float64Array;
   dtMs: number;
+  /** Indices of the bins that follow a gap (a batch missing or late): their predecessor is not their neighbour in time. */
+  gapsBefore: number[];
 }
 
 /** How far past the server's clock a batch may end and still feed the live figures, ms. */
@@ -118,13 +120,18 @@ export class RecentBins {
     parts.sort((p, q) => p.held.t0 - q.held.t0);
     const dt = parts[0]!.held.dt;
     const out: number[] = [];
+    const gapsBefore: number[] = [];
+    let next = NaN;
     for (const { held, at } of parts) {
       if (held.dt !== dt) continue;
       for (let i = 0; i < held.n; i++) {
         const t = held.t0 + i * dt;
-        if (t >= from && t + dt <= to) out.push(held.values[at + i] as number);
+        if (t < from || t + dt > to) continue;
+        if (out.length > 0 && t !== next) gapsBefore.push(out.length);
+        out.push(held.values[at + i] as number);
+        next = t + dt;
       }
     }
-    return out.length ? { counts: Float64Array.from(out), dtMs: dt } : null;
+    return out.length ? { counts: Float64Array.from(out), dtMs: dt, gapsBefore } : null;
   }
 }
