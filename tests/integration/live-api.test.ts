@@ -140,6 +140,20 @@ describe('GET /api/v1/benches/{id}/counts: time covered per bucket', () => {
     const sec = await counts(0, 65_000, 5_000);
     expect(sec.coveredMs[gw.gatewayId]).toEqual([2_500, 2_000, 0, 0, 3_000, 5_000, 5_000, 5_000, 5_000, 5_000, 5_000, 5_000, 4_500]);
   });
+
+  it('reads bins longer than a rollup slot (2 s at the 1 s level) from the slots\' spacing past retention', async () => {
+    const long = await freshGateway();
+    const c = await connectGateway(t.mqttPort, long.gatewayId, long.token);
+    // 30 bins of 2 s from BASE (a multiple of 2 s), 200 counts each: 100/s.
+    await publishBatch(c, long.gatewayId, makeBatch(BASE, 30, 0, { dt: 2_000, keys: ['a'], value: () => 200 }));
+    await c.endAsync();
+    await until(async () => (await getDb().select().from(countBatches).where(eq(countBatches.gatewayId, long.gatewayId))).length > 0, 10_000, 'the batch stored');
+    await getDb().delete(countBatches).where(eq(countBatches.gatewayId, long.gatewayId));
+    const res = await get(`/api/v1/benches/${long.benchId}/counts?from=${BASE}&to=${BASE + 60_000}&step=10000`, observer);
+    const body = (await res.json()) as { resolution: string; coveredMs: Record<string, number[]> };
+    expect(body.resolution).toBe('1s');
+    expect(body.coveredMs[long.gatewayId]).toEqual(new Array(6).fill(10_000));
+  });
 });
 
 describe('POST /api/v1/benches/{id}/commands', () => {

@@ -101,6 +101,31 @@ async function binWidths(gatewayIds: string[], before: number): Promise<Map<stri
   return new Map(rows.map((r) => [r.gateway_id, r.dt]));
 }
 
+/**
+ * A gateway's bin width read from its rollup slots alone, past raw retention. A full slot holds
+ * level/width bins (a range without one full slot reads the width too long, and the rates too
+ * low). Bins as long as a slot or longer leave one bin in every k-th slot: the mean spacing of the
+ * slots holding one (a gap inside the range lengthens it).
+ */
+function widthFromSlots(blocks: Map<number, number[]>, levelMs: number): number {
+  let most = 0;
+  let first = Infinity;
+  let last = -Infinity;
+  let filled = 0;
+  for (const [blockT0, bins] of blocks) {
+    bins.forEach((n, i) => {
+      if (!n) return;
+      most = Math.max(most, n);
+      const t = blockT0 + i * levelMs;
+      first = Math.min(first, t);
+      last = Math.max(last, t);
+      filled++;
+    });
+  }
+  if (most > 1 || filled < 2) return levelMs / Math.max(most, 1);
+  return Math.max(levelMs, (last - first) / (filled - 1));
+}
+
 export async function queryCounts(benchId: string, from: number, to: number, step: number): Promise<CountsResult> {
   if (!(to > from)) throw new HttpError(422, 'to must be after from');
   const t0 = Math.floor(from / step) * step;
@@ -147,9 +172,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
     }
     const widths = await binWidths([...slotBins.keys()], end);
     for (const [gateway, blocks] of slotBins) {
-      // Past raw retention a gateway has no row to read its width from: a full slot holds level/width
-      // bins (a range without one full slot reads the width too long, and the rates too low).
-      const width = widths.get(gateway) ?? levelMs / [...blocks.values()].reduce((m, bins) => bins.reduce((a, n) => Math.max(a, n), m), 1);
+      const width = widths.get(gateway) ?? widthFromSlots(blocks, levelMs);
       binMs.set(gateway, width);
       const cov = covered.get(gateway)!;
       for (const [blockT0, bins] of blocks) {
