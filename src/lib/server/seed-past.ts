@@ -17,7 +17,7 @@ import { RecentBins } from './analysis/recent-bins.ts';
 import { FIGURES_WINDOW_MS, type AnalysisService } from './analysis/service.ts';
 import { sweepsBetween } from './analysis/sweeps-store.ts';
 import { benchCalibrations } from './benches.ts';
-import { getDb, getDbHandle } from './db/index.ts';
+import { getDb, getDbHandle, inTransaction } from './db/index.ts';
 import { benches } from './db/schema.ts';
 import { gatewayBatches } from './export/export.ts';
 import type { Slice } from './ingest/coverage.ts';
@@ -79,10 +79,7 @@ export async function seedDemoPast(opts: { analysis: Pick<AnalysisService, 'fitS
 
 /** The bench's recording, in one transaction, when its gateway has no bins and the bench no runs; false when it was not fresh. */
 async function recordIfFresh(past: DemoPast, bench: DemoBench, endMs: number): Promise<boolean> {
-  const client = await getDbHandle().pool.connect();
-  let broken = false;
-  try {
-    await client.query('begin');
+  return await inTransaction(async (client) => {
     // Two instances starting on one fresh database would each see it empty.
     await client.query('select pg_advisory_xact_lock(hashtext($1))', [`demo-past:${bench.id}`]);
     const { rows } = await client.query(
@@ -92,10 +89,7 @@ async function recordIfFresh(past: DemoPast, bench: DemoBench, endMs: number): P
           and not exists (select 1 from runs r where r.bench_id = $2)`,
       [bench.gateway, bench.id],
     );
-    if (rows.length === 0) {
-      await client.query('rollback');
-      return false;
-    }
+    if (rows.length === 0) return false;
     const start = pastStart(past, endMs);
     let pending: StoredSlice[] = [];
     const write = async () => {
@@ -109,15 +103,8 @@ async function recordIfFresh(past: DemoPast, bench: DemoBench, endMs: number): P
       if (pending.length >= WRITE_EVERY) await write();
     }
     if (pending.length) await write();
-    await client.query('commit');
     return true;
-  } catch (err) {
-    broken = true;
-    await client.query('rollback').catch(() => undefined);
-    throw err;
-  } finally {
-    client.release(broken);
-  }
+  });
 }
 
 /** The finished runs over the recording, through runs.ts as an operator's would go. */

@@ -42,6 +42,28 @@ export function getDb(): Db {
   return getDbHandle().db;
 }
 
+/**
+ * Runs `fn` in one transaction on a pooled client of its own, for work that streams many raw
+ * statements (imports, the demo's recorded past): committed when `fn` resolves, rolled back when it
+ * throws. A client whose statement failed may hold a dead socket: it is discarded, not pooled.
+ */
+export async function inTransaction<T>(fn: (client: pg.PoolClient) => Promise<T>): Promise<T> {
+  const client = await getDbHandle().pool.connect();
+  let broken = false;
+  try {
+    await client.query('begin');
+    const result = await fn(client);
+    await client.query('commit');
+    return result;
+  } catch (err) {
+    broken = true;
+    await client.query('rollback').catch(() => undefined);
+    throw err;
+  } finally {
+    client.release(broken);
+  }
+}
+
 export async function closeDb(): Promise<void> {
   const holder = globalThis as Holder;
   const handle = holder[KEY];

@@ -9,7 +9,7 @@ import type pg from 'pg';
 import { z } from 'zod';
 import { recordAudit } from '../audit.ts';
 import { getBench } from '../benches.ts';
-import { getDbHandle } from '../db/index.ts';
+import { getDbHandle, inTransaction } from '../db/index.ts';
 import { drizzle } from 'drizzle-orm/node-postgres';
 import { HttpError } from '../http/responses.ts';
 import type { Slice } from '../ingest/coverage.ts';
@@ -232,11 +232,7 @@ async function findOverlap(
 /** Stores the file as a new run, or nothing at all (422 with line-numbered issues, 413 past the size limit). */
 export async function importCounts(benchId: string, body: ReadableStream<Uint8Array>, opts: { title: string; userId: string | null; maxBytes?: number }): Promise<ImportResult> {
   if (!(await getBench(benchId))) throw new HttpError(404, 'no such bench');
-  const client = await getDbHandle().pool.connect();
-  let broken = false;
-  let result: ImportResult;
-  try {
-    await client.query('begin');
+  const result = await inTransaction(async (client) => {
     const run = await client.query<{ id: number }>(
       `insert into runs (bench_id, title, start_ms, end_ms, started_by, source) values ($1, $2, 0, 0, $3, 'import') returning id`,
       [benchId, opts.title, opts.userId],
@@ -266,16 +262,10 @@ export async function importCounts(benchId: string, body: ReadableStream<Uint8Ar
     if (overlap) throw new OverlapError(overlap);
     await client.query('update runs set start_ms = $2, end_ms = $3 where id = $1', [runId, fromMs, toMs]);
     await insertChannels(client, benchId, gatewayId, reader.channels);
-    result = { runId, gatewayId, bins, batches, fromMs, toMs, channels: reader.channels.map((c) => `${gatewayId}/${c.key}`) };
-    await recordAudit({ actorId: opts.userId, entity: 'run', entityId: String(runId), action: 'import', after: result }, drizzle(client));
-    await client.query('commit');
-  } catch (err) {
-    broken = true;
-    await client.query('rollback').catch(() => undefined);
-    throw err;
-  } finally {
-    client.release(broken);
-  }
+    const stored: ImportResult = { runId, gatewayId, bins, batches, fromMs, toMs, channels: reader.channels.map((c) => `${gatewayId}/${c.key}`) };
+    await recordAudit({ actorId: opts.userId, entity: 'run', entityId: String(runId), action: 'import', after: stored }, drizzle(client));
+    return stored;
+  });
   await analyse(benchId, result);
   return result;
 }
