@@ -37,6 +37,21 @@ export function binDeviance(n: number, mu: number): number {
 }
 
 /**
+ * Adds the term of count n (relative probability w) to the sums of w, w·d, w·d², w·d·(n − μ) and
+ * w·d·[(n − μ)² − n]; returns its d, for the stopping rule. Top level rather than a closure per
+ * call: the table is built from thousands of these sums.
+ */
+function addTerm(sums: Float64Array, n: number, mu: number, w: number): number {
+  const d = binDeviance(n, mu);
+  sums[0]! += w;
+  sums[1]! += w * d;
+  sums[2]! += w * d * d;
+  sums[3]! += w * d * (n - mu);
+  sums[4]! += w * d * ((n - mu) ** 2 - n);
+  return d;
+}
+
+/**
  * Moments of d(n, μ) under n ~ Poisson(μ), summed outward from the mode (where d is smallest)
  * until d passes D_STOP on each side. Probabilities are kept relative to the mode's and normalised
  * by their sum, so no factorial or ln Γ enters.
@@ -44,33 +59,13 @@ export function binDeviance(n: number, mu: number): number {
 export function devianceTermMomentsExact(mu: number): DevianceMoments {
   if (!(mu > 0)) return { mean: 0, variance: 0, slope: 0, curvature: 0 };
   const mode = Math.floor(mu);
-  let s0 = 0;
-  let s1 = 0;
-  let s2 = 0;
-  let sn = 0;
-  let sc = 0;
-  let w = 1;
-  for (let n = mode; ; n++) {
-    const d = binDeviance(n, mu);
-    s0 += w;
-    s1 += w * d;
-    s2 += w * d * d;
-    sn += w * d * (n - mu);
-    sc += w * d * ((n - mu) ** 2 - n);
-    if (d > D_STOP) break;
-    w *= mu / (n + 1);
-  }
-  w = 1;
-  for (let n = mode - 1; n >= 0; n--) {
+  const sums = new Float64Array(5);
+  for (let n = mode, w = 1; addTerm(sums, n, mu, w) <= D_STOP; n++) w *= mu / (n + 1);
+  for (let n = mode - 1, w = 1; n >= 0; n--) {
     w *= (n + 1) / mu;
-    const d = binDeviance(n, mu);
-    s0 += w;
-    s1 += w * d;
-    s2 += w * d * d;
-    sn += w * d * (n - mu);
-    sc += w * d * ((n - mu) ** 2 - n);
-    if (d > D_STOP) break;
+    if (addTerm(sums, n, mu, w) > D_STOP) break;
   }
+  const [s0, s1, s2, sn, sc] = sums as unknown as [number, number, number, number, number];
   // With ∂P/∂μ = P·(n/μ − 1) and ∂d/∂μ = 2(1 − n/μ), whose mean is 0:
   // E' = Σ P·d·(n − μ)/μ and E'' = Σ P·d·[(n − μ)² − n]/μ² − 2/μ.
   const mean = s1 / s0;
