@@ -1,4 +1,4 @@
-import type { CountsAnswer } from '../../lib/client/api.ts';
+import { coveredFor, type CountsAnswer } from '../../lib/client/api.ts';
 
 // Steps the history asks the counts API for. Every one is a multiple of the usual bin widths
 // (1, 10, 100 ms), so the server can sum bins into it exactly.
@@ -39,8 +39,7 @@ export function wholeBuckets(from: number, to: number, step: number): { from: nu
  */
 export function channelRates(answer: Pick<CountsAnswer, 't0' | 'step' | 'channels' | 'coveredMs'>, channel: string, asOf: number): (number | null)[] {
   const sums = Object.hasOwn(answer.channels, channel) ? answer.channels[channel]! : [];
-  const gateway = channel.slice(0, channel.indexOf('/'));
-  const covered = Object.hasOwn(answer.coveredMs, gateway) ? answer.coveredMs[gateway]! : [];
+  const covered = coveredFor(answer.coveredMs, channel);
   return sums.map((v, i) => {
     const ms = covered[i];
     return v == null || !ms || answer.t0 + (i + 1) * answer.step > asOf ? null : (v * 1000) / ms;

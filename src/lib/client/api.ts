@@ -52,6 +52,12 @@ export const countsAnswerSchema = z.object({
 });
 export type CountsAnswer = z.infer<typeof countsAnswerSchema>;
 
+/** Ms of each bucket recorded by the gateway of `channel` ("<gateway>/<key>"); empty when the answer says nothing of it. */
+export function coveredFor(coveredMs: CountsAnswer['coveredMs'] | undefined, channel: string): number[] {
+  const gateway = channel.slice(0, channel.indexOf('/'));
+  return coveredMs && Object.hasOwn(coveredMs, gateway) ? coveredMs[gateway]! : [];
+}
+
 export function fetchCounts(bench: string, from: number, to: number, step: number, signal?: AbortSignal): Promise<CountsAnswer> {
   const q = new URLSearchParams({ from: String(Math.floor(from)), to: String(Math.ceil(to)), step: String(step) });
   return call(`/api/v1/benches/${encodeURIComponent(bench)}/counts?${q}`, countsAnswerSchema, undefined, signal);

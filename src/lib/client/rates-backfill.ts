@@ -1,5 +1,5 @@
 // The live page's rates history, read once when it opens, into the rate ring.
-import type { CountsAnswer } from './api.ts';
+import { coveredFor, type CountsAnswer } from './api.ts';
 import type { RateRing } from './rate-ring.ts';
 
 /**
@@ -25,8 +25,7 @@ export function backfillRates(ring: RateRing, answer: Pick<CountsAnswer, 't0' | 
   for (const [key, values] of Object.entries(answer.channels)) {
     // A bucket its gateway recorded only in part (a restart's gap) goes in as bins of the time
     // recorded, so the ring divides by that instead of drawing a dip over the whole bucket.
-    const gateway = key.slice(0, key.indexOf('/'));
-    const covered = answer.coveredMs && Object.hasOwn(answer.coveredMs, gateway) ? answer.coveredMs[gateway]! : [];
+    const covered = coveredFor(answer.coveredMs, key);
     let last = values.length - 1;
     while (last >= 0 && values[last] == null) last--;
     if (last < 0) continue;
