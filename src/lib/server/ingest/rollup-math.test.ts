@@ -28,9 +28,7 @@ function byDefinition(items: { gatewayId: string; slice: Slice }[]) {
 function flatten(deltas: ReturnType<typeof rollupDeltas>) {
   const sums = new Map<string, { sum: number; bins: number }>();
   for (const d of deltas) {
-    d.sums.forEach((sum, i) => {
-      if (d.bins[i]) sums.set(`${d.gatewayId}|${d.key}|${d.stepMs}|${d.blockT0 + i * d.stepMs}`, { sum, bins: d.bins[i]! });
-    });
+    d.slots.forEach((slot, j) => sums.set(`${d.gatewayId}|${d.key}|${d.stepMs}|${d.blockT0 + slot * d.stepMs}`, { sum: d.sums[j]!, bins: d.bins[j]! }));
   }
   return sums;
 }
@@ -51,12 +49,17 @@ describe('rollupDeltas', () => {
     ['1 ms bins across a second and a minute boundary', [slice(1_796_000_059_950, 1, 100, ['a'], true)]],
     ['bins of 300 ms (not a divisor of 1 s)', [slice(1_796_000_000_000, 300, 500, ['a', 'b'])]],
     ['bins of 5 s', [slice(1_796_000_000_000, 5_000, 100, ['a'])]],
+    ['a late slice written after a later one of the same write', [slice(1_796_000_001_500, 10, 150, ['a']), slice(1_796_000_000_000, 10, 150, ['a'])]],
     ['two gateways and adjacent slices merged', [slice(1_796_000_000_000, 10, 150, ['a']), slice(1_796_000_001_500, 10, 150, ['a']), { ...slice(1_796_000_000_000, 10, 80, ['h'], true) }]],
   ])('%s: sums and bin counts per bucket as by definition', (_name, slices) => {
     const items = slices.map((s, i) => ({ gatewayId: i === 2 ? 'gw-2' : 'gw-1', slice: s }));
     const deltas = rollupDeltas(items);
     expect(flatten(deltas)).toEqual(byDefinition(items));
-    for (const d of deltas) expect(d.blockT0 % (d.stepMs * BLOCK_LEN)).toBe(0);
+    for (const d of deltas) {
+      expect(d.blockT0 % (d.stepMs * BLOCK_LEN)).toBe(0);
+      // Slots once each, ascending, inside the block.
+      expect(d.slots.every((s, j) => s >= 0 && s < BLOCK_LEN && (j === 0 || s > d.slots[j - 1]!))).toBe(true);
+    }
     expect(new Set(deltas.map((d) => `${d.gatewayId}|${d.key}|${d.stepMs}|${d.blockT0}`)).size).toBe(deltas.length);
   });
 });

@@ -12,9 +12,9 @@
 import type { Slice } from './coverage.ts';
 import type { HealthDelta } from './health-delta.ts';
 import { countWidth, packedLength, writePacked, writePackedAll, type CountWidth } from '../db/packed-counts.ts';
-import { keyArrayLiteral, numericArrayLiteral, textArrayLiteral } from './pg-arrays.ts';
+import { blocksLiteral, keyArrayLiteral, numericArrayLiteral, textArrayLiteral } from './pg-arrays.ts';
 import { mergeContiguous, type Row } from './row-merge.ts';
-import type { RollupDelta } from './rollup-math.ts';
+import { BLOCK_LEN, type RollupDelta } from './rollup-math.ts';
 
 export interface StoredSlice {
   gatewayId: string;
@@ -133,8 +133,8 @@ export function writeStatement(stored: StoredSlice[], deltas: RollupDelta[], new
       textArrayLiteral(deltas.map((d) => d.key)),
       numericArrayLiteral(deltas.map((d) => d.stepMs)),
       numericArrayLiteral(deltas.map((d) => d.blockT0)),
-      textArrayLiteral(deltas.map((d) => numericArrayLiteral(d.sums))),
-      textArrayLiteral(deltas.map((d) => numericArrayLiteral(d.bins))),
+      blocksLiteral(deltas.map((d) => ({ slots: d.slots, values: d.sums })), BLOCK_LEN),
+      blocksLiteral(deltas.map((d) => ({ slots: d.slots, values: d.bins })), BLOCK_LEN),
       newChannels.map((c) => c[0]),
       newChannels.map((c) => c[1]),
       hs.map(([g]) => g),
