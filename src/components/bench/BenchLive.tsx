@@ -20,6 +20,7 @@ import { RatesChart, type RatesHandle } from './RatesChart.tsx';
 import { PhotonStats, Readouts } from './Readouts.tsx';
 import { RunPanel, type RunPush } from './RunPanel.tsx';
 import { DriveStateLine } from './DriveStateLine.tsx';
+import { DriveStrip } from './DriveStrip.tsx';
 import { SweepControl } from './SweepControl.tsx';
 import { VisibilityTrend, type EnvelopePoint } from './VisibilityTrend.tsx';
 import { LiveBanner } from './LiveBanner.tsx';
@@ -166,6 +167,8 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
     <div className="space-y-4">
       <LiveBanner state={live} />
       <AlarmBanner events={alarms} />
+      {/* Pinned while the page scrolls, so the drive can be stopped from anywhere on it. */}
+      <DriveStrip benchId={bench.id} tracker={drive} canOperate={viewer.canOperate} />
       <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} corrections={corrections} latestPass={latestPass} />
       <div className="grid gap-4 xl:grid-cols-2">
         <RatesChart ring={ring} channels={bench.channels} onReady={(h) => (rates.current = h)} hasData={hasCounts} error={hasCounts ? null : countsError} />
@@ -180,14 +183,8 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
           }}
         />
       </div>
-      {/* Side by side only from xl: at tablet width a third is too narrow for the statistics' values. */}
-      <div className="grid gap-4 xl:grid-cols-3">
-        <div className="xl:col-span-2">
-          <VisibilityTrend sweeps={sweeps} envelope={envelope} limit={bench.visibilityLimit} loading={sweepsLoading} error={sweepsError} span={{ from: null, to: null }} />
-        </div>
-        <PhotonStats figures={figures} hasCoincidences={hasCc} />
-      </div>
-      {/* The drive's five fields need the full width of a tablet. */}
+      {/* Right under the fringes it moves: an operator aligning the bench has both on one screen.
+          The drive's five fields need the full width of a tablet. */}
       <div className="grid gap-4 xl:grid-cols-2">
         {viewer.canOperate ? (
           <SweepControl
@@ -201,7 +198,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
             }}
           />
         ) : (
-          <section className="card text-sm text-muted" aria-label="Drive">
+          <section id="drive" className="card scroll-mt-16 text-sm text-muted" aria-label="Drive">
             <h2 className="mb-1 font-semibold text-ink">Drive</h2>
             <div className="mb-2 text-ink"><DriveStateLine tracker={drive} /></div>
             <p>You are following this bench read-only ({viewer.role}). Operators drive scans and runs.</p>
@@ -210,7 +207,14 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
         )}
         <RunPanel benchId={bench.id} initialRun={bench.activeRun} canOperate={viewer.canOperate} figures={figures} pushed={runPushes} />
       </div>
-      <section id="alarms" className="card scroll-mt-4" aria-labelledby="alarms-h">
+      {/* Side by side only from xl: at tablet width a third is too narrow for the statistics' values. */}
+      <div className="grid gap-4 xl:grid-cols-3">
+        <div className="xl:col-span-2">
+          <VisibilityTrend sweeps={sweeps} envelope={envelope} limit={bench.visibilityLimit} loading={sweepsLoading} error={sweepsError} span={{ from: null, to: null }} />
+        </div>
+        <PhotonStats figures={figures} hasCoincidences={hasCc} />
+      </div>
+      <section id="alarms" className="card scroll-mt-16" aria-labelledby="alarms-h">
         <h2 id="alarms-h" className="mb-2 font-semibold">Alarms</h2>
         {/* The list keeps its own copy from the same socket, so an acknowledgement made here also clears the banner through the server's message. */}
         <AlarmList benchId={bench.id} initial={props.alarms} canAck={viewer.canOperate} />

@@ -1,9 +1,11 @@
 // Drive control for operators: a sweep (from/to/step/dwell/sweeps), hold at a point, hold at
 // mid-fringe from the latest fit, stop. The admin's drive limits are shown here and enforced by the
-// server; the laser safety caution sits where the scan is started.
+// server; the laser safety caution sits where the scan is started. The drive strip at the top of the
+// page (DriveStrip) links here by the section's id.
 import { useState, type FormEvent } from 'react';
 import type { BenchViewData } from '../../lib/bench-view.ts';
-import { errorText, sendCommand, sweepFit, type Sweep } from '../../lib/client/api.ts';
+import { sweepFit, type Sweep } from '../../lib/client/api.ts';
+import { sendDriveCommand } from '../../lib/client/drive-command.ts';
 import type { CommandBody } from '../../lib/contract/wire.ts';
 import { midFringeHold } from './mid-fringe.ts';
 import { DriveStateLine } from './DriveStateLine.tsx';
@@ -48,20 +50,10 @@ export function SweepControl({ bench, lastSweep, lastPasses, onSweepStarted, dri
   const send = async (cmd: CommandBody, what: string) => {
     setBusy(true);
     setMessage(null);
-    try {
-      const sent = await sendCommand(bench.id, cmd);
-      if (!sent.gatewayOnline) {
-        // The broker keeps nothing for an offline gateway (clean sessions): the command is lost.
-        setMessage({ ok: false, text: `${what} not delivered: gateway ${sent.gateway} is offline. Send it again once it is back.` });
-        return;
-      }
-      setMessage({ ok: true, text: `${what}: sent to the gateway.` });
-      if (cmd.op === 'sweep') onSweepStarted();
-    } catch (err) {
-      setMessage({ ok: false, text: `${what} refused: ${errorText(err)}` });
-    } finally {
-      setBusy(false);
-    }
+    const outcome = await sendDriveCommand(bench.id, cmd, what);
+    setMessage(outcome);
+    setBusy(false);
+    if (outcome.ok && cmd.op === 'sweep') onSweepStarted();
   };
 
   const startSweep = (e: FormEvent) => {
@@ -92,7 +84,7 @@ export function SweepControl({ bench, lastSweep, lastPasses, onSweepStarted, dri
   const estSeconds = (2 * Math.abs(Number(to) - Number(from)) / Math.max(Number(step), 1e-9)) * Number(dwell) * Number(sweeps) / 1000;
 
   return (
-    <section className="card" aria-labelledby="drive-h">
+    <section id="drive" className="card scroll-mt-16" aria-labelledby="drive-h">
       <div className="mb-3 flex items-baseline justify-between gap-2">
         <h2 id="drive-h" className="font-semibold">Drive</h2>
         <p className="figure text-right text-xs text-muted" data-testid="drive-limits">
