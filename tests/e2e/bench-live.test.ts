@@ -13,8 +13,8 @@ import { startWebApp } from '../helpers/web-app.ts';
 const BENCH = 'mz-810';
 const DEMO = findDemoBench(BENCH)!;
 // Gated on the herald, the outputs carry almost no dark counts (250/s × 2 ns × 2·10⁵ heralds/s
-// ≈ 0.1/s) and < 0.1% dead-time loss at ≈ 36 kc/s, so the fitted raw visibility estimates the
-// optics' visibility itself.
+// ≈ 0.1/s, the seeded calibration) and < 0.1% dead-time loss at ≈ 36 kc/s, so the fitted
+// visibility (net of those darks, hardly above the raw one) estimates the optics' visibility itself.
 const TRUTH = DEMO.model.optics.visibility;
 
 let app: RunningApp;

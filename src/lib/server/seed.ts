@@ -1,5 +1,6 @@
 // The demo lab, seeded once: people of each role, the simulated benches, their gateways and
-// labelled channels. Idempotent, so a restart keeps data and never duplicates it.
+// labelled channels, with their corrections and alarm rules (seed-lab-settings.ts). Idempotent, so
+// a restart keeps data and never duplicates it.
 import { chmodSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { eq } from 'drizzle-orm';
@@ -10,6 +11,7 @@ import { getDb } from './db/index.ts';
 import { benches, channels, gateways, users } from './db/schema.ts';
 import type { Role } from './auth/roles.ts';
 import { createBench, createGateway, rotateGatewayToken, verifyGatewayToken } from './provisioning.ts';
+import { seedLabSettings } from './seed-lab-settings.ts';
 import { createUser } from './users.ts';
 
 // Local demo only: these passwords are printed at start and belong to no real account.
@@ -77,6 +79,9 @@ export async function seedDemo(opts: { dataDir?: string } = {}): Promise<void> {
       .insert(channels)
       .values(b.channels.map((c) => ({ gatewayId: b.gateway, key: c.key, benchId: b.id, label: c.label, role: c.role })))
       .onConflictDoNothing();
+    // Corrections and alarm rules, on a fresh bench only, before its recorded past is fitted with
+    // them (app.ts writes that later).
+    await seedLabSettings(b);
   }
   if (opts.dataDir && JSON.stringify(tokens) !== before) {
     const file = path.join(opts.dataDir, DEMO_GATEWAY_TOKENS_FILE);
