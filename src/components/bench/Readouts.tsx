@@ -71,10 +71,15 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
       <div className="grid grid-cols-2 gap-3 sm:grid-cols-3 xl:grid-cols-6">
         {rateTile(a, a?.label ?? 'Output A', 'text-ember', 'rate-a', props.corrections)}
         {rateTile(b, b?.label ?? 'Output B', 'text-tide', 'rate-b', props.corrections)}
+        {/* "net of darks" under the value, not in the label, which a six-tile row truncates to "net of dar…". */}
         <Tile
-          label={`Visibility${v?.net ? ', net of darks' : ''}`}
+          label="Visibility"
           value={vs?.value ?? '–'}
-          subs={[vs && !passWarning?.noFringe ? `± ${vs.err}` : null, !v ? 'needs a sweep, or a drift over a whole fringe' : v.source === 'envelope' ? 'fringe envelope (drift)' : v.latestPassMs !== undefined && f ? `newest pass ${formatDuration(f.at - v.latestPassMs)} ago` : 'mean of recent fits']}
+          subs={[
+            vs && !passWarning?.noFringe ? `± ${vs.err}` : null,
+            v?.net ? 'net of darks' : null,
+            !v ? 'needs a sweep, or a drift over a whole fringe' : v.source === 'envelope' ? 'fringe envelope (drift)' : v.latestPassMs !== undefined && f ? `newest pass ${formatDuration(f.at - v.latestPassMs)} ago` : 'mean of recent fits',
+          ]}
           tone={passWarning?.noFringe ? 'text-muted' : ''}
           warning={passWarning && { short: `last pass: ${passWarning.noFringe ? 'no fringe' : warningsLine(passWarning)}`, full: passWarning.all.join('\n') }}
           testId="visibility"
