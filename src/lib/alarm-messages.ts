@@ -8,15 +8,23 @@ export type AlarmMetric = (typeof ALARM_METRICS)[number];
 export const SEVERITIES = ['info', 'warning', 'critical'] as const;
 export type Severity = (typeof SEVERITIES)[number];
 
-/** Human wording and the unit of each metric's value, for forms, lists and e-mails. */
-export const METRIC_INFO: Record<AlarmMetric, { label: string; unit: string; direction: 'high' | 'low'; subject: 'channel' | 'gateway' | 'bench' }> = {
-  rate_high: { label: 'Channel rate above a limit (detector overexposure)', unit: 'counts/s', direction: 'high', subject: 'channel' },
-  rate_low: { label: 'Channel rate below a floor', unit: 'counts/s', direction: 'low', subject: 'channel' },
-  dark_high: { label: 'Dark rate high (aux channels kept dark)', unit: 'counts/s', direction: 'high', subject: 'channel' },
-  visibility_low: { label: 'Fringe visibility low', unit: '', direction: 'low', subject: 'bench' },
-  phase_drift: { label: 'Phase drifting too fast', unit: 'rad/s', direction: 'high', subject: 'bench' },
-  gateway_silent: { label: 'Gateway silent', unit: 's', direction: 'high', subject: 'gateway' },
-  rejected_batches: { label: 'Rejected batches (per minute)', unit: 'batches/min', direction: 'high', subject: 'gateway' },
+/**
+ * Human wording and the unit of each metric's value, for forms, lists and e-mails. `noun` names the
+ * value in a sentence ("a channel rate is never negative"); `min`/`max` bound what the value can be
+ * (metrics.ts says how each is measured), so a rule's limits outside them could never raise or clear.
+ */
+export const METRIC_INFO: Record<
+  AlarmMetric,
+  { label: string; unit: string; direction: 'high' | 'low'; subject: 'channel' | 'gateway' | 'bench'; noun: string; min: number; max: number | null }
+> = {
+  rate_high: { label: 'Channel rate above a limit (detector overexposure)', unit: 'counts/s', direction: 'high', subject: 'channel', noun: 'a channel rate', min: 0, max: null },
+  rate_low: { label: 'Channel rate below a floor', unit: 'counts/s', direction: 'low', subject: 'channel', noun: 'a channel rate', min: 0, max: null },
+  dark_high: { label: 'Dark rate high (aux channels kept dark)', unit: 'counts/s', direction: 'high', subject: 'channel', noun: 'a dark rate', min: 0, max: null },
+  visibility_low: { label: 'Fringe visibility low', unit: '', direction: 'low', subject: 'bench', noun: 'visibility', min: 0, max: 1 },
+  // |drift|: the rule watches its size, whichever way the phase runs.
+  phase_drift: { label: 'Phase drifting too fast', unit: 'rad/s', direction: 'high', subject: 'bench', noun: 'the phase drift', min: 0, max: null },
+  gateway_silent: { label: 'Gateway silent', unit: 's', direction: 'high', subject: 'gateway', noun: 'a gateway’s silence', min: 0, max: null },
+  rejected_batches: { label: 'Rejected batches (per minute)', unit: 'batches/min', direction: 'high', subject: 'gateway', noun: 'the count of rejected batches', min: 0, max: null },
 };
 
 export const alarmEventViewSchema = z.object({

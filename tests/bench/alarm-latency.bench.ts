@@ -6,6 +6,8 @@
 import { pathToFileURL } from 'node:url';
 import { createRule, ruleInputSchema } from '../../src/lib/server/alarms/rules.ts';
 import type { AlarmMessage } from '../../src/lib/alarm-messages.ts';
+import { getDb } from '../../src/lib/server/db/index.ts';
+import { channels } from '../../src/lib/server/db/schema.ts';
 import { runtime } from '../../src/lib/server/runtime.ts';
 import { startApp } from '../../src/server/app.ts';
 import { livePathOptionsFromEnv } from '../../src/server/live-path.ts';
@@ -21,6 +23,8 @@ export async function run(): Promise<Record<string, number>> {
   const app = await startApp({ port: 0, host: '127.0.0.1', seed: false, simulate: false, build: false, web: false, live: { ...livePathOptionsFromEnv(), mqttUrl: null, mqttPort: 0 } });
   try {
     const { benchId, gatewayId, token } = await freshGateway();
+    // The channels its status would announce: a rule names one the bench has.
+    await getDb().insert(channels).values(['a', 'b'].map((key) => ({ gatewayId, key, benchId })));
     // 1e6 counts/s raises, below 4e5 clears: a detector about to saturate.
     await createRule(benchId, ruleInputSchema.parse({ name: 'Overexposure', metric: 'rate_high', channel: `${gatewayId}/a`, threshold: 5e5, clearThreshold: 4e5 }), null);
     await (runtime()['alarms'] as { reload(): Promise<void> }).reload();

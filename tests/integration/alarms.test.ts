@@ -7,7 +7,7 @@ import { AlarmEngine } from '../../src/lib/server/alarms/engine.ts';
 import { acknowledge, listEvents } from '../../src/lib/server/alarms/event-store.ts';
 import { createRule, deleteRule, ruleInputSchema, updateRule } from '../../src/lib/server/alarms/rules.ts';
 import { closeDb, getDb } from '../../src/lib/server/db/index.ts';
-import { alarmEvents, auditLog, caughtMail } from '../../src/lib/server/db/schema.ts';
+import { alarmEvents, auditLog, caughtMail, channels } from '../../src/lib/server/db/schema.ts';
 import { serverEvents } from '../../src/lib/server/events.ts';
 import { startMailCatcher, type MailCatcher } from '../../src/lib/server/mail/catcher.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
@@ -54,6 +54,8 @@ beforeAll(async () => {
   process.env['FRINGEWISE_CATCHER_URL'] = catcher.url;
   await createBench({ id: BENCH, name: `Alarm bench ${tag}`, wavelengthNm: 810 });
   await createGateway(GW, BENCH);
+  // The channels the gateway's status would announce: rules name channels the bench has.
+  await getDb().insert(channels).values(['a', 'b', 'c', 'd'].map((key) => ({ gatewayId: GW, key, benchId: BENCH })));
   operatorId = (await userWithToken('operator', 'alarm-op')).id;
   runtime().live = { publish: (_b, m) => void pushed.push(m as unknown as AlarmMessage), subscribe: () => () => undefined, clientCount: () => 0 };
   // Gather 150 ms, quiet 60 s: the test sees the first mail at once and no second one within its run.

@@ -2,14 +2,13 @@
 // the partial unique index runs_one_active_idx refuses a second, and we turn that into a 409.
 import { and, asc, count, desc, eq, inArray, isNull } from 'drizzle-orm';
 import { getDb } from './db/index.ts';
+import { isUniqueViolation } from './db/unique-violation.ts';
 import { benches, notes, runs, users } from './db/schema.ts';
 import { HttpError } from './http/responses.ts';
 import { runtime } from './runtime.ts';
 import { recordAudit } from './audit.ts';
 import type { AddNoteBody, NoteView, RunView, StartRunBody } from '../runs.ts';
 import { benchFiguresSchema } from '../bench-figures-schema.ts';
-
-const UNIQUE_VIOLATION = '23505';
 
 function person(id: string | null, name: string | null, email: string | null): { id: string; name: string } | null {
   return id ? { id, name: name || email || id } : null;
@@ -81,17 +80,9 @@ export async function startRun(benchId: string, body: StartRunBody, userId: stri
     publishRun(run);
     return run;
   } catch (err) {
-    if (isUniqueViolation(err)) throw new HttpError(409, 'this bench already has an active run: stop it first');
+    if (isUniqueViolation(err, 'runs_one_active_idx')) throw new HttpError(409, 'this bench already has an active run: stop it first');
     throw err;
   }
-}
-
-function isUniqueViolation(err: unknown): boolean {
-  // drizzle wraps the driver error; the pg code sits on the error or its cause.
-  for (let e: unknown = err; e && typeof e === 'object'; e = (e as { cause?: unknown }).cause) {
-    if ((e as { code?: unknown }).code === UNIQUE_VIOLATION) return true;
-  }
-  return false;
 }
 
 export async function stopRun(id: number, now = Date.now()): Promise<RunView> {

@@ -295,7 +295,12 @@ export const alarmRules = pgTable(
     createdAt: createdAt(),
     updatedAt: timestamp('updated_at', { withTimezone: true }).notNull().defaultNow(),
   },
-  (t) => [index('alarm_rules_bench_idx').on(t.benchId)],
+  (t) => [
+    index('alarm_rules_bench_idx').on(t.benchId),
+    // A rule's name is what lists, alarms and e-mails call it: two of one bench named alike (in any
+    // letter case) could not be told apart there.
+    uniqueIndex('alarm_rules_bench_name_idx').on(t.benchId, sql`lower(${t.name})`),
+  ],
 );
 
 export const alarmEvents = pgTable(
