@@ -158,6 +158,32 @@ describe('people', () => {
   });
 });
 
+describe('bench and gateway ids', () => {
+  const RULE_IN_WORDS = 'use 1–40 lower-case letters, digits or hyphens, starting with a letter or digit';
+
+  it('a refused gateway id is said in words under its box, which is marked', async () => {
+    for (const gatewayId of ['GW_1', '-gw', 'g'.repeat(41)]) {
+      const res = await admin.postForm(`/admin/benches/${BENCH}`, { intent: 'gateway-add', gatewayId });
+      expect(res.status, gatewayId).toBe(422);
+      expect(fieldError(res.text, 'gatewayId')).toBe(RULE_IN_WORDS);
+      expect(res.text).toMatch(/id="gatewayId"[^>]*aria-invalid="true"[^>]*aria-describedby="gatewayId-hint gatewayId-error"/);
+      expect(res.text).toContain(`Gateway id: ${RULE_IN_WORDS}`);
+      expect(inputValue(res.text, 'gatewayId')).toBe(gatewayId);
+      expect(res.text).not.toContain('must match');
+      expect(await getDb().select().from(gateways).where(eq(gateways.id, gatewayId))).toEqual([]);
+    }
+  });
+
+  it('so is a refused bench id', async () => {
+    const res = await admin.postForm('/admin/benches', { id: 'Bench 1', name: 'Wrong id', wavelengthNm: '633' });
+    expect(res.status).toBe(422);
+    expect(fieldError(res.text, 'id')).toBe(RULE_IN_WORDS);
+    expect(res.text).toMatch(/id="id"[^>]*aria-invalid="true"/);
+    expect(res.text).toContain(`Id: ${RULE_IN_WORDS}`);
+    expect(res.text).not.toContain('must match');
+  });
+});
+
 describe('alarm rules', () => {
   const rule = {
     intent: 'create',

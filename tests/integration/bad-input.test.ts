@@ -80,7 +80,7 @@ describe('ids that cannot be a bench\'s or a gateway\'s', () => {
       for (const path of gets) {
         const res = await api(op, path);
         expect(res.status, path).toBe(422);
-        expect(((await res.json()) as { error: string }).error, path).toMatch(/id must match/);
+        expect(((await res.json()) as { error: string }).error, path).toMatch(/id must be 1–40 lower-case letters, digits or hyphens/);
       }
       const post = await api(op, `/api/v1/benches/${id}/commands`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ op: 'stop' }) });
       expect(post.status, id).toBe(422);

@@ -26,7 +26,10 @@ const hasNoNul = (s: string) => !s.includes('\0');
 /** A stored string of `min`–`max` characters, without NUL. */
 const text = (min: number, max: number) => z.string().min(min).max(max).refine(hasNoNul, NUL_REASON);
 
-export const gatewayIdSchema = z.string().regex(/^[a-z0-9][a-z0-9-]{0,39}$/, 'id must match [a-z0-9][a-z0-9-]{0,39}');
+/** Bench and gateway ids (they name MQTT topics and URLs), and the rule in words for messages. */
+export const ID_PATTERN = /^[a-z0-9][a-z0-9-]{0,39}$/;
+export const ID_RULE = '1–40 lower-case letters, digits or hyphens, starting with a letter or digit';
+export const gatewayIdSchema = z.string().regex(ID_PATTERN, `id must be ${ID_RULE}`);
 export const benchIdSchema = gatewayIdSchema;
 export const channelKeySchema = z.string().regex(CHANNEL_KEY, 'channel key must match [a-z0-9_]{1,16}');
 

@@ -4,7 +4,7 @@ import { timingSafeEqual } from 'node:crypto';
 import { eq } from 'drizzle-orm';
 import { z } from 'zod';
 import { IMPORT_GATEWAY_PREFIX, isImportGateway } from '../import-shapes.ts';
-import { benchIdSchema, gatewayIdSchema } from '../contract/wire.ts';
+import { gatewayIdSchema, ID_PATTERN, ID_RULE } from '../contract/wire.ts';
 import { getDb } from './db/index.ts';
 import { benches, gatewayHealth, gateways, type Bench } from './db/schema.ts';
 import { hashSecret, newSecret } from './auth/secrets.ts';
@@ -13,8 +13,11 @@ import { DuplicateError } from './users.ts';
 
 export const GATEWAY_TOKEN_PREFIX = 'fwg_';
 
+/** A new bench's or gateway's id as a form or the CLI takes it: the message goes under its box. */
+const newIdSchema = z.string().regex(ID_PATTERN, `use ${ID_RULE}`);
+
 export const benchInputSchema = z.object({
-  id: benchIdSchema,
+  id: newIdSchema,
   name: z.string().trim().min(1, 'a name is needed').max(100),
   wavelengthNm: z.coerce.number().finite().min(100, 'wavelength below 100 nm?').max(20_000, 'wavelength above 20 µm?'),
   description: z.string().trim().max(2000).default(''),
@@ -31,7 +34,10 @@ export async function createBench(input: BenchInput): Promise<Bench> {
 export class NotFoundError extends Error {}
 
 export async function createGateway(id: string, benchId: string): Promise<{ token: string }> {
-  gatewayIdSchema.refine((g) => !isImportGateway(g), `gateway ids starting with ${IMPORT_GATEWAY_PREFIX} are kept for imported runs`).parse(id);
+  // As a field, so a form shows the refusal under the gateway id's box.
+  z.object({
+    gatewayId: newIdSchema.refine((g) => !isImportGateway(g), `gateway ids starting with ${IMPORT_GATEWAY_PREFIX} are kept for imported runs`),
+  }).parse({ gatewayId: id });
   const db = getDb();
   const [bench] = await db.select({ id: benches.id }).from(benches).where(eq(benches.id, benchId)).limit(1);
   if (!bench) throw new NotFoundError(`bench ${benchId} does not exist`);
