@@ -16,6 +16,8 @@ export interface BrowserOptions {
   init?: string;
   /** IANA time zone the pages see (the machine's when unset). */
   timezoneId?: string;
+  /** false: pages run no scripts, as for someone who turned them off (plain forms must still work). */
+  javaScriptEnabled?: boolean;
 }
 
 export interface Browser {
@@ -31,6 +33,7 @@ export async function launchBrowser(opts: BrowserOptions = {}): Promise<Browser>
     executablePath: CHROMIUM,
     viewport: { width: opts.width ?? 1280, height: opts.height ?? 820 },
     ...(opts.timezoneId && { timezoneId: opts.timezoneId }),
+    ...(opts.javaScriptEnabled === false && { javaScriptEnabled: false }),
     args: [
       '--headless',
       '--no-sandbox',

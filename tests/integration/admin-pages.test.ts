@@ -158,7 +158,14 @@ describe('people', () => {
     const c = new HttpClient(app.url);
     await c.signIn(u.email, u.password);
     expect((await c.get('/')).status).toBe(200);
-    await admin.postForm('/admin/users', { intent: 'deactivate', userId: u.id });
+    // Asked first: the post without the confirmation changes nothing and says what would happen.
+    const asked = await admin.postForm('/admin/users', { intent: 'deactivate', userId: u.id });
+    expect(asked.status).toBe(200);
+    expect(asked.text).toContain(`Deactivate ${u.email}?`);
+    expect(asked.text).toContain('signed out everywhere at once');
+    expect(asked.text).toMatch(/<input type="hidden" name="confirmed" value="yes"/);
+    expect((await c.get('/')).status).toBe(200);
+    await admin.postForm('/admin/users', { intent: 'deactivate', userId: u.id, confirmed: 'yes' });
     expect((await c.get('/')).status).toBe(302);
     expect((await fetch(new URL('/api/v1/benches', app.url), { headers: { authorization: `Bearer ${u.token}` } })).status).toBe(401);
     expect((await new HttpClient(app.url).signIn(u.email, u.password)).status).toBe(401);
@@ -205,16 +212,30 @@ describe('benches and gateways', () => {
     expect(await verifyGatewayToken(gw, first!)).toEqual({ benchId: id });
     expect((await admin.get(`/admin/benches/${id}`)).text).not.toContain(first!);
 
-    const rotated = await admin.postForm(`/admin/benches/${id}`, { intent: 'gateway-rotate', gatewayId: gw });
+    // Both drop the gateway at once: asked first, and nothing changes until confirmed.
+    const askRotate = await admin.postForm(`/admin/benches/${id}`, { intent: 'gateway-rotate', gatewayId: gw });
+    expect(askRotate.text).toContain(`Rotate the token of ${gw}?`);
+    expect(inputValue(askRotate.text, 'gw-token')).toBeNull();
+    expect(await verifyGatewayToken(gw, first!)).toEqual({ benchId: id });
+    const rotated = await admin.postForm(`/admin/benches/${id}`, { intent: 'gateway-rotate', gatewayId: gw, confirmed: 'yes' });
     const second = inputValue(rotated.text, 'gw-token');
     expect(second).toMatch(/^fwg_/);
     secrets.push(first!, second!);
     expect(await verifyGatewayToken(gw, first!)).toBeNull();
     expect(await verifyGatewayToken(gw, second!)).toEqual({ benchId: id });
 
-    await admin.postForm(`/admin/benches/${id}`, { intent: 'gateway-revoke', gatewayId: gw });
+    const askRevoke = await admin.postForm(`/admin/benches/${id}`, { intent: 'gateway-revoke', gatewayId: gw });
+    expect(askRevoke.text).toContain(`Revoke ${gw}?`);
+    expect(askRevoke.text).toContain('The gateway is disconnected at once and its token stops working.');
+    expect(await verifyGatewayToken(gw, second!)).toEqual({ benchId: id });
+    await admin.postForm(`/admin/benches/${id}`, { intent: 'gateway-revoke', gatewayId: gw, confirmed: 'yes' });
     expect(await verifyGatewayToken(gw, second!)).toBeNull();
-    expect((await audits('gateway', gw)).map((r) => r.action)).toEqual(['provision', 'rotate_token', 'revoke']);
+    // A revoked gateway has nothing to lose: its new token is issued at once.
+    const reissued = await admin.postForm(`/admin/benches/${id}`, { intent: 'gateway-rotate', gatewayId: gw });
+    const third = inputValue(reissued.text, 'gw-token');
+    expect(third).toMatch(/^fwg_/);
+    secrets.push(third!);
+    expect((await audits('gateway', gw)).map((r) => r.action)).toEqual(['provision', 'rotate_token', 'revoke', 'rotate_token']);
   });
 
   it('shows the reach the drive reports, warns when the limits go beyond it, and links each gateway to its health', async () => {

@@ -66,4 +66,20 @@ describe('alarm and data pages', () => {
     expect(bad.status).toBe(422);
     expect(await bad.text()).toContain('clear threshold must be at or below');
   });
+
+  it('deleting a rule asks first, and deletes only once confirmed', async () => {
+    const [rule] = await getDb().select().from(alarmRules).where(eq(alarmRules.benchId, BENCH));
+    const fields = { intent: 'delete', benchId: BENCH, ruleId: String(rule!.id) };
+    const asked = await page(admin, '/admin/alarms', fields);
+    expect(asked.status).toBe(200);
+    const html = await asked.text();
+    expect(html).toContain('Delete the rule “Night overexposure”?');
+    expect(html).toContain('deleted with it');
+    expect(await getDb().select().from(alarmRules).where(eq(alarmRules.id, rule!.id))).toHaveLength(1);
+    // Anything but the confirm button's own value asks again.
+    expect(await (await page(admin, '/admin/alarms', { ...fields, confirmed: 'true' })).text()).toContain('Delete the rule “Night overexposure”?');
+    const done = await page(admin, '/admin/alarms', { ...fields, confirmed: 'yes' });
+    expect(await done.text()).toContain('Rule deleted.');
+    expect(await getDb().select().from(alarmRules).where(eq(alarmRules.id, rule!.id))).toEqual([]);
+  });
 });

@@ -3,6 +3,8 @@
 import { useEffect, useRef, useState, type FormEvent } from 'react';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { addNote, errorText, fetchNotes, startRun, stopRun } from '../../lib/client/api.ts';
+import { askToConfirm } from '../../lib/client/confirm-dialog.ts';
+import { confirmStopRun } from '../../lib/confirmations.ts';
 import { formatClock, formatDuration, formatSnapshot } from '../../lib/client/format.ts';
 import { useNow } from '../../lib/client/use-now.ts';
 import type { NoteView, RunView } from '../../lib/runs.ts';
@@ -81,6 +83,16 @@ export function RunPanel({ benchId, initialRun, canOperate, figures, pushed }: P
     });
   };
 
+  // Asked in the browser only: the stop route is the script API's (the contract), where a script means what it sends.
+  const onStop = async (current: RunView) => {
+    if (await askToConfirm(confirmStopRun(current.title))) {
+      await act(async () => {
+        await stopRun(current.id);
+        setRun(null);
+      });
+    }
+  };
+
   const onNote = (e: FormEvent) => {
     e.preventDefault();
     if (!run) return;
@@ -103,7 +115,7 @@ export function RunPanel({ benchId, initialRun, canOperate, figures, pushed }: P
             </p>
           </div>
           {canOperate && (
-            <button type="button" className="btn-danger" disabled={busy} onClick={() => void act(async () => { await stopRun(run.id); setRun(null); })}>
+            <button type="button" className="btn-danger" disabled={busy} onClick={() => void onStop(run)}>
               Stop run
             </button>
           )}

@@ -24,7 +24,7 @@ export async function listPeople() {
   return rows.map((u) => ({ id: u.id, ...publicUser(u), invited: u.passwordHash === null, createdAt: u.createdAt }));
 }
 
-async function loadUser(id: string): Promise<User> {
+export async function loadUser(id: string): Promise<User> {
   const [row] = await getDb().select().from(users).where(eq(users.id, id)).limit(1);
   if (!row) throw new HttpError(404, 'no such user');
   return row;

@@ -166,6 +166,12 @@ export async function provisionGateway(actor: SessionUser, benchId: string, gate
   return res;
 }
 
+/** Whether the gateway has a token that works (not revoked, not an import): a new one ends it and drops its connection. */
+export async function gatewayHasToken(gatewayId: string): Promise<boolean> {
+  const [row] = await getDb().select({ tokenHash: gateways.tokenHash }).from(gateways).where(eq(gateways.id, gatewayId)).limit(1);
+  return Boolean(row?.tokenHash);
+}
+
 export async function rotateGateway(actor: SessionUser, gatewayId: string): Promise<{ token: string }> {
   const res = await rotateGatewayToken(gatewayId);
   await recordAudit({ actorId: actor.id, entity: 'gateway', entityId: gatewayId, action: 'rotate_token' });

@@ -140,6 +140,15 @@ function reloadEngine(): void {
   engine?.reload().catch((err: unknown) => console.warn('[alarms] reload failed:', err));
 }
 
+export async function getRule(benchId: string, id: number): Promise<AlarmRule> {
+  const [row] = await getDb()
+    .select()
+    .from(alarmRules)
+    .where(and(eq(alarmRules.id, id), eq(alarmRules.benchId, benchId)));
+  if (!row) throw new HttpError(404, 'no such alarm rule on this bench');
+  return row;
+}
+
 export async function listRules(benchId?: string): Promise<AlarmRule[]> {
   const q = getDb().select().from(alarmRules);
   return await (benchId ? q.where(eq(alarmRules.benchId, benchId)) : q).orderBy(asc(alarmRules.benchId), asc(alarmRules.id));
