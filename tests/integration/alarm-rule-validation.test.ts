@@ -256,13 +256,15 @@ describe('rule names', () => {
       const res = await admin.postForm('/admin/alarms', { ...rule, name });
       expect(res.status, name).toBe(409);
       const id = `name-${BENCH}-0`;
-      expect(decode(fieldError(res.text, id))).toBe(`this bench already has a rule named “${name.trim()}”`);
+      // Named as the bench spells it, whatever was typed.
+      expect(decode(fieldError(res.text, id))).toBe('this bench already has a rule named “B overexposure”');
       expect(markedInvalid(res.text, id)).toBe(true);
-      expect(res.text).toContain(`Name: this bench already has a rule named “${name.trim()}”`);
+      expect(res.text).toContain('Name: this bench already has a rule named “B overexposure”');
+      expect(res.text).toContain(`value="${name}"`);
     }
     const api409 = await api('POST', `/api/v1/benches/${BENCH}/alarms/rules`, { name: 'B Overexposure', metric: 'rate_high', threshold: 10, clearThreshold: 5 });
     expect(api409.status).toBe(409);
-    expect(((await api409.json()) as { error: string }).error).toBe('this bench already has a rule named “B Overexposure”');
+    expect(((await api409.json()) as { error: string }).error).toBe('this bench already has a rule named “B overexposure”');
     expect(await stored()).toEqual(before);
     expect(await named(BENCH, 'B overexposure')).toHaveLength(1);
   });
@@ -281,7 +283,7 @@ describe('rule names', () => {
     const { id } = (await created.json()) as { id: number };
     const form = await admin.postForm('/admin/alarms', { ...rule, intent: 'update', ruleId: String(id), name: 'B OVEREXPOSURE' });
     expect(form.status).toBe(409);
-    expect(decode(fieldError(form.text, `name-${BENCH}-${id}`))).toBe('this bench already has a rule named “B OVEREXPOSURE”');
+    expect(decode(fieldError(form.text, `name-${BENCH}-${id}`))).toBe('this bench already has a rule named “B overexposure”');
     const put = await api('PUT', `/api/v1/benches/${BENCH}/alarms/rules/${id}`, { name: 'B overexposure', metric: 'rate_high', threshold: 10, clearThreshold: 5 });
     expect(put.status).toBe(409);
     expect((await getDb().select().from(alarmRules).where(eq(alarmRules.id, id)))[0]!.name).toBe('A overexposure, spare');

@@ -1,6 +1,6 @@
 // Alarm rules: validation (zod) and admin CRUD. Every change writes an audit row in the same
 // transaction (who, when, before, after) and tells the running engine to reload.
-import { and, asc, desc, eq } from 'drizzle-orm';
+import { and, asc, desc, eq, sql } from 'drizzle-orm';
 import { z } from 'zod';
 import { ALARM_METRICS, METRIC_INFO, SEVERITIES, type AlarmMetric } from '../../alarm-messages.ts';
 import { channelKeySchema, gatewayIdSchema } from '../../contract/wire.ts';
@@ -181,20 +181,24 @@ async function checkSubject(benchId: string, input: RuleInput): Promise<void> {
   throw new HttpError(422, `${input.channel} is not a channel of this bench; ${known}`, 'channel');
 }
 
-/** The rule's write, with a taken name said on the name's box rather than as a failed insert. */
-async function uniquelyNamed<T>(input: RuleInput, write: () => Promise<T>): Promise<T> {
+/** The rule's write, with a taken name said on the name's box (as the bench spells it) rather than as a failed insert. */
+async function uniquelyNamed<T>(benchId: string, input: RuleInput, write: () => Promise<T>): Promise<T> {
   try {
     return await write();
   } catch (err) {
-    if (isUniqueViolation(err, 'alarm_rules_bench_name_idx')) throw new HttpError(409, `this bench already has a rule named “${input.name}”`, 'name');
-    throw err;
+    if (!isUniqueViolation(err, 'alarm_rules_bench_name_idx')) throw err;
+    const [taken] = await getDb()
+      .select({ name: alarmRules.name })
+      .from(alarmRules)
+      .where(and(eq(alarmRules.benchId, benchId), sql`lower(${alarmRules.name}) = lower(${input.name})`));
+    throw new HttpError(409, `this bench already has a rule named “${taken?.name ?? input.name}”`, 'name');
   }
 }
 
 export async function createRule(benchId: string, input: RuleInput, actorId: string | null): Promise<AlarmRule> {
   if (!(await getBench(benchId))) throw new HttpError(404, 'no such bench');
   await checkSubject(benchId, input);
-  const row = await uniquelyNamed(input, () =>
+  const row = await uniquelyNamed(benchId, input, () =>
     getDb().transaction(async (tx) => {
       const [created] = await tx
         .insert(alarmRules)
@@ -209,7 +213,7 @@ export async function createRule(benchId: string, input: RuleInput, actorId: str
 }
 
 export async function updateRule(benchId: string, id: number, input: RuleInput, actorId: string | null): Promise<AlarmRule> {
-  const row = await uniquelyNamed(input, () =>
+  const row = await uniquelyNamed(benchId, input, () =>
     getDb().transaction(async (tx) => {
       const [before] = await tx
         .select()
