@@ -175,7 +175,7 @@ export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidenc
           )}
         </dl>
       )}
-      <p className="mt-2 text-xs text-muted">Q from how the counts change from one bin to the next over the last {f ? (f.windowMs / 1000).toFixed(0) : '–'} s, so a slowly drifting fringe does not read as bunching: 0 Poissonian, &lt; 0 sub-Poissonian, below what dead time alone gives.{f?.alpha ? '' : ' g²(0) = 1 coherent, 0 single photon.'} While the drive sweeps, these figures measure the fringes, not the light.</p>
+      <p className="mt-2 text-xs text-muted">Q from how the counts change from one bin to the next over the last {f ? (f.windowMs / 1000).toFixed(0) : '–'} s, so a slowly drifting fringe does not read as bunching. Poissonian light reads 0, or with dead time the value given under the channel's name; only a Q below that means sub-Poissonian light.{f?.alpha ? '' : ' g²(0) = 1 coherent, 0 single photon.'} While the drive sweeps, these figures measure the fringes, not the light.</p>
     </section>
   );
 }
