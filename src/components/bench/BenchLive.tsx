@@ -210,7 +210,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
       {/* Side by side only from xl: at tablet width a third is too narrow for the statistics' values. */}
       <div className="grid gap-4 xl:grid-cols-3">
         <div className="xl:col-span-2">
-          <VisibilityTrend sweeps={sweeps} envelope={envelope} limit={bench.visibilityLimit} loading={sweepsLoading} error={sweepsError} span={{ from: null, to: null }} />
+          <VisibilityTrend sweeps={sweeps} envelope={envelope} limit={bench.visibilityLimit} loading={sweepsLoading} error={sweepsError} span={{ from: null, to: null }} windowMs={TREND_MS} />
         </div>
         <PhotonStats figures={figures} hasCoincidences={hasCc} />
       </div>

@@ -8,9 +8,8 @@ import { shownVisibility, visibilityBasis } from '../../lib/sweep-visibility.ts'
 import { withAlpha } from '../../lib/client/chart-theme.ts';
 import { axis, timeAxis, useUPlot } from '../charts/useUPlot.ts';
 import { useNow } from '../../lib/client/use-now.ts';
+import { trendXRange, trendYRange, trendYSplits, trendYTicks } from './visibility-axes.ts';
 
-/** Narrowest time span drawn, s: two sweeps seconds apart would otherwise get millisecond ticks. */
-const MIN_SPAN_S = 120;
 /** The pass line breaks where passes stop for longer than this or five usual spacings, s. */
 const TREND_GAP_MIN_S = 120;
 
@@ -33,20 +32,8 @@ interface Props {
    * visibility is seen to be old. Without it the axis fits the points.
    */
   span?: { from: number | null; to: number | null };
-}
-
-/** The x range in s: the asked span where given (its open end now), else the points, at least MIN_SPAN_S wide. */
-function xRange(span: Props['span'], dataMin: number | null, dataMax: number | null): [number, number] {
-  const nowS = Date.now() / 1000;
-  const to = span ? (span.to === null ? nowS : span.to / 1000) : (dataMax ?? nowS);
-  const from = span?.from != null ? span.from / 1000 : (dataMin ?? to);
-  if (to - from >= MIN_SPAN_S) return [from, to];
-  // Too short to read: widen it, around its middle when both ends are fixed (a short run), else back from now.
-  if (span && span.from !== null && span.to !== null) {
-    const mid = (from + to) / 2;
-    return [mid - MIN_SPAN_S / 2, mid + MIN_SPAN_S / 2];
-  }
-  return [to - MIN_SPAN_S, to + 5];
+  /** The live view's window, ms: with no pass to draw, the axis spans it up to now and the message names it. */
+  windowMs?: number;
 }
 
 export function VisibilityTrend(props: Props) {
@@ -88,9 +75,11 @@ export function VisibilityTrend(props: Props) {
     (p) => ({
       legend: { show: true, live: false },
       cursor: { drag: { x: false, y: false } },
-      // Without points uPlot hands an empty span (null or 0): show the useful 0.8–1 rather than 0–0.01.
-      scales: { x: { time: true, range: (_u, dataMin, dataMax) => xRange(ref.current.span, dataMin, dataMax) }, y: { range: (_u, min, max) => (min == null || max == null || !(max > 0) ? [0.8, 1] : [Math.max(0, Math.min(min, ref.current.limit ?? 1) - 0.02), Math.min(1.0, max + 0.01)]) } },
-      axes: [timeAxis(p), axis(p, { size: 56, label: 'visibility' })],
+      scales: {
+        x: { time: true, range: (_u, dataMin, dataMax) => trendXRange(ref.current.span, dataMin, dataMax, Date.now() / 1000, ref.current.windowMs && ref.current.windowMs / 1000) },
+        y: { range: (_u, min, max) => trendYRange(min, max, ref.current.limit) },
+      },
+      axes: [timeAxis(p), axis(p, { size: 56, label: 'visibility', splits: (_u, _i, min, max, step) => trendYSplits(min, max, step), values: (_u, ticks, _i, _space, step) => trendYTicks(ticks, step) })],
       bands: [{ series: [3, 2], fill: withAlpha(p.accent, 0.18) }],
       series: [
         { label: 'time' },
@@ -132,7 +121,7 @@ export function VisibilityTrend(props: Props) {
       <div ref={box} className="relative min-h-[200px]" role="img" aria-label="Visibility of each fitted pass over time, with the alarm limit">
         {(props.loading || props.error || empty) && (
           <p className={`pointer-events-none absolute left-1/2 top-[40%] z-10 -translate-x-1/2 -translate-y-1/2 rounded-md border border-line bg-panel px-3 py-1.5 text-center text-sm ${props.error ? 'text-bad' : 'text-muted'}`}>
-            {props.error ?? (props.loading ? 'Loading passes…' : props.emptyText ?? 'No fitted passes in the last 30 minutes.')}
+            {props.error ?? (props.loading ? 'Loading passes…' : (props.emptyText ?? (props.windowMs ? `No fitted passes in the last ${Math.round(props.windowMs / 60_000)} minutes.` : 'No fitted passes.')))}
           </p>
         )}
       </div>
