@@ -6,11 +6,12 @@ import { formatWindow } from '../../lib/coincidence-window.ts';
 import { formatDuration, formatNumber, formatRateErr, formatValueErr, PLUS_MINUS, rateParts } from '../../lib/client/format.ts';
 import { poissonQThroughDeadTime } from '../../lib/analysis/photon-stats.ts';
 import { warningsLine, type PassWarnings } from '../../lib/pass-warnings.ts';
+import { phaseNoiseText } from './phase-noise-text.ts';
 
 /** A number read from across the bench: the value large, its unit and uncertainty smaller beside it, never wrapping. */
-function Tile(props: { label: string; value: string; unit?: string | undefined; subs?: (string | null)[]; tone?: string; testId?: string; warning?: { short: string; full: string } | null }) {
+function Tile(props: { label: string; title?: string; value: string; unit?: string | undefined; subs?: (string | null)[]; tone?: string; testId?: string; warning?: { short: string; full: string } | null }) {
   return (
-    <div className="card min-w-0 !p-3">
+    <div className="card min-w-0 !p-3" title={props.title}>
       <p className="label truncate" title={props.label}>{props.label}</p>
       {/* Value and unit each stay whole; a long unit moves under the value on a narrow tile instead of running off it. */}
       <p className="figure flex flex-wrap items-baseline gap-x-1 leading-tight" data-testid={props.testId}>
@@ -64,6 +65,7 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
   const ph = f?.phase;
   const phs = ph ? splitErr(ph) : null;
   const sn = f?.shotNoise;
+  const noise = sn ? phaseNoiseText(sn) : null;
   const warnings = f?.channels.filter((c) => c.warning) ?? [];
   return (
     <section aria-label="Live figures" aria-busy={props.loading}>
@@ -100,18 +102,11 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
         <Tile label="Contrast (A−B)/(A+B)" value={formatNumber(f?.contrast, 3)} subs={['0 at mid-fringe']} />
         <Tile
           label="Phase noise"
-          value={sn ? sn.ratio.toFixed(2) : '–'}
-          unit={sn ? `${sn.ratioErr !== undefined ? `± ${sn.ratioErr.toFixed(2)} ` : ''}× shot noise` : undefined}
-          subs={
-            sn
-              ? [
-                  `${(sn.measuredRad * 1000).toFixed(2)} mrad${sn.binMs ? ` per ${sn.binMs} ms bin` : ''} · ${sn.dB >= 0 ? '+' : ''}${sn.dB.toFixed(1)} dB`,
-                  `shot-noise limit ${(sn.limitRad * 1000).toFixed(2)} mrad`,
-                  // At visibility V no phase reading beats 1/(V√N): the floor this bench can reach.
-                  sn.visibilityLimitRad !== undefined ? `${(sn.measuredRad / sn.visibilityLimitRad).toFixed(2)} × the floor at this V` : null,
-                ]
-              : [phaseMissing]
-          }
+          title="Shot noise: 1/√N for the N signal photons of a bin, a perfect fringe's limit. Floor: 1/(V√N), the best phase noise at this visibility. Alignment can close the gap between the two; noise above the floor comes from the bench (vibration, laser phase noise, air)."
+          value={noise?.value ?? '–'}
+          unit={noise?.unit}
+          subs={noise?.lines ?? [phaseMissing]}
+          testId="phase-noise"
         />
       </div>
       {warnings.length > 0 && (

@@ -1,0 +1,49 @@
+import { describe, expect, it } from 'vitest';
+import { decimalsForError, phaseNoiseText } from './phase-noise-text.ts';
+
+describe('decimalsForError (Particle Data Group rounding)', () => {
+  it('keeps two digits of an uncertainty starting 100–354, one of 355–949, and rounds 950–999 up', () => {
+    expect(decimalsForError(0.0032)).toBe(4); // 0.0032
+    expect(decimalsForError(9.0)).toBe(0); // 9
+    expect(decimalsForError(0.09)).toBe(2); // 0.09
+    expect(decimalsForError(0.6)).toBe(1); // 0.6
+    expect(decimalsForError(0.098)).toBe(2); // 0.10
+    expect(decimalsForError(12)).toBe(0); // 12
+    expect(decimalsForError(0)).toBe(2);
+  });
+});
+
+describe('phaseNoiseText', () => {
+  // The reviewed reading: 128.60 mrad per 10 ms bin against a shot-noise limit of 99.94 mrad, at
+  // V = 0.78, read over 100 bins (ratio error ratio/√(2·99) ≈ 7 %).
+  const measured = 0.1286;
+  const limit = 0.09994;
+  const v = 0.78;
+  const ratio = measured / limit;
+  const sn = { measuredRad: measured, limitRad: limit, ratio, ratioErr: ratio / Math.sqrt(2 * 99), dB: 20 * Math.log10(ratio), binMs: 10, visibilityLimitRad: limit / v };
+  const t = phaseNoiseText(sn);
+
+  it('rounds every figure to what the 7 % uncertainty supports', () => {
+    expect(t.value).toBe('1.29');
+    expect(t.unit).toBe('±\u00a00.09 × shot noise');
+    expect(t.lines[0]).toBe('129\u00a0±\u00a09 mrad per 10 ms bin');
+    expect(t.lines[1]).toBe('shot noise 100 · floor 128 mrad (V 0.78)');
+  });
+
+  it('splits the excess over shot noise into what alignment can gain and the noise above the floor', () => {
+    // 20·log₁₀(1/0.78) = 2.16 dB; 20·log₁₀(1.2868) − 2.16 = 0.03 dB, ± (20/ln 10)·7.1 % = 0.6 dB:
+    // the bench is at its floor for this V, and only alignment can make it quieter.
+    expect(t.lines[2]).toBe('alignment can gain 2.2 dB');
+    expect(t.lines[3]).toBe('noise above floor 0.0\u00a0±\u00a00.6 dB');
+  });
+
+  it('writes a negative dB with the minus sign', () => {
+    const below = phaseNoiseText({ ...sn, measuredRad: 0.124, ratio: 0.124 / limit, ratioErr: 0.124 / limit / Math.sqrt(198), dB: 20 * Math.log10(0.124 / limit) });
+    expect(below.lines[3]).toBe('noise above floor −0.3\u00a0±\u00a00.6 dB');
+  });
+
+  it('gives the shot-noise limit alone for a snapshot without the floor', () => {
+    const old = phaseNoiseText({ measuredRad: measured, limitRad: limit, ratio, dB: 20 * Math.log10(ratio) });
+    expect(old).toEqual({ value: '1.29', unit: '× shot noise', lines: ['128.6 mrad', 'shot-noise limit 99.9 mrad'] });
+  });
+});

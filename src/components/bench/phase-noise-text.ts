@@ -1,0 +1,69 @@
+// The phase-noise tile's words and numbers. The measured noise per bin is compared with two limits
+// for the N signal photons of a bin: the shot-noise limit 1/√N (a perfect fringe, V = 1) and the
+// floor 1/(V√N) at the bench's visibility (the phase Fisher information per photon at mid-fringe is
+// V², phaseFisherPerPhoton in analysis/sensitivity.ts). So, in dB, the excess over shot noise is the
+// sum of what the visibility costs, 20·log₁₀(1/V), which alignment can gain back, and the noise
+// above the floor (vibration, laser phase noise, air currents), which it cannot. Pure.
+import type { BenchFigures } from '../../lib/bench-figures.ts';
+import { formatNumber, PLUS_MINUS } from '../../lib/client/format.ts';
+
+type ShotNoise = NonNullable<BenchFigures['shotNoise']>;
+
+export interface PhaseNoiseText {
+  value: string;
+  unit: string;
+  lines: string[];
+}
+
+/** dB per relative change, for a small error: d(20·log₁₀ x) = (20/ln 10)·dx/x. */
+const DB_PER_RELATIVE = 20 / Math.LN10;
+
+/**
+ * Decimals that round a value to its uncertainty: the uncertainty to two significant digits when
+ * its first three lie in 100–354, else to one (Particle Data Group, Review of Particle Physics,
+ * "Introduction": rounding). The spread of a noise read over ~100 bins is some 7 %, so its value
+ * keeps two or three digits, not five.
+ */
+export function decimalsForError(err: number): number {
+  if (!(err > 0) || !Number.isFinite(err)) return 2;
+  const exp = Math.floor(Math.log10(err));
+  const lead = Math.round(err / 10 ** (exp - 2));
+  const digits = lead <= 354 ? 2 : lead < 950 ? 1 : 2;
+  // 950–999 round up to 1000: one decade more, two digits of it.
+  const e = lead >= 950 ? exp + 1 : exp;
+  return Math.max(0, digits - 1 - e);
+}
+
+/** A signed figure with a true minus sign, and no sign on zero: "+2.2", "−0.3", "0.0". */
+function signed(v: number, decimals: number): string {
+  const text = formatNumber(v, decimals);
+  return Number(text.replace('−', '-')) === 0 ? (0).toFixed(decimals) : v > 0 ? `+${text}` : text;
+}
+
+export function phaseNoiseText(sn: ShotNoise): PhaseNoiseText {
+  const rel = sn.ratioErr !== undefined && sn.ratio > 0 ? sn.ratioErr / sn.ratio : null;
+  const ratioDecimals = rel !== null ? decimalsForError(sn.ratioErr!) : 2;
+  const mrad = sn.measuredRad * 1000;
+  // Both limits are known far better than the noise: shown to the noise's own last digit.
+  const mradDecimals = rel !== null ? decimalsForError(mrad * rel) : 1;
+  const perBin = sn.binMs ? ` per ${sn.binMs} ms bin` : '';
+  const measured = rel !== null ? `${mrad.toFixed(mradDecimals)}${PLUS_MINUS}${(mrad * rel).toFixed(mradDecimals)}` : mrad.toFixed(mradDecimals);
+  const lines = [`${measured} mrad${perBin}`];
+  const value = sn.ratio.toFixed(ratioDecimals);
+  const unit = `${rel !== null ? `±\u00a0${sn.ratioErr!.toFixed(ratioDecimals)} ` : ''}× shot noise`;
+  const limit = (sn.limitRad * 1000).toFixed(mradDecimals);
+  if (sn.visibilityLimitRad === undefined || !(sn.visibilityLimitRad > 0)) {
+    lines.push(`shot-noise limit ${limit} mrad`);
+    return { value, unit, lines };
+  }
+  const v = sn.limitRad / sn.visibilityLimitRad;
+  // Exactly additive: the headline's dB is the visibility's share plus the rest.
+  const alignmentDb = Math.max(0, -20 * Math.log10(v));
+  const aboveFloorDb = sn.dB - alignmentDb;
+  const dbDecimals = rel !== null ? Math.min(2, decimalsForError(DB_PER_RELATIVE * rel)) : 1;
+  // Short lines: the tile is a sixth of the page wide. The tile's tooltip says what each limit is.
+  lines.push(`shot noise ${limit} · floor ${(sn.visibilityLimitRad * 1000).toFixed(mradDecimals)} mrad (V ${v.toFixed(2)})`);
+  lines.push(`alignment can gain ${alignmentDb.toFixed(1)} dB`);
+  lines.push(`noise above floor ${signed(aboveFloorDb, dbDecimals)}${rel !== null ? `${PLUS_MINUS}${(DB_PER_RELATIVE * rel).toFixed(dbDecimals)}` : ''} dB`);
+  return { value, unit, lines };
+}
