@@ -22,7 +22,9 @@ export const benchFiguresSchema: z.ZodType<BenchFigures> = z.object({
   at: num,
   windowMs: num,
   channels: z.array(channelFiguresSchema).max(64),
-  visibility: valueErr.extend({ source: z.enum(['sweep', 'envelope']), net: z.boolean(), latestPassMs: num.optional() }).nullable(),
+  visibility: valueErr
+    .extend({ source: z.enum(['sweep', 'envelope']), net: z.boolean(), latestPassMs: num.optional(), newest: valueErr.optional(), passes: z.number().int().positive().optional() })
+    .nullable(),
   holding: z.boolean().optional(),
   phase: valueErr.extend({ driftRadPerS: num.nullable(), driftErrRadPerS: num.optional() }).nullable(),
   contrast: num.nullable(),

@@ -29,10 +29,13 @@ export interface BenchFigures {
   windowMs: number;
   channels: ChannelFigures[];
   /**
-   * Latest visibility: from the last fitted passes (`latestPassMs` the newest one's time, absent in
-   * older snapshots), or an envelope estimate while the phase drifts through whole fringes.
+   * Latest visibility: the inverse-variance mean of the last fitted passes (`passes` of them, the
+   * newest at `latestPassMs` with its own V as `newest`; older snapshots lack all three), or an
+   * envelope estimate while the phase drifts through whole fringes.
    */
-  visibility: (ValueErr & { source: 'sweep' | 'envelope'; net: boolean; latestPassMs?: number | undefined }) | null;
+  visibility:
+    | (ValueErr & { source: 'sweep' | 'envelope'; net: boolean; latestPassMs?: number | undefined; newest?: ValueErr | undefined; passes?: number | undefined })
+    | null;
   /** Whether the drive held still over the last second (or sends no positions): phase and phase noise are read only then (older snapshots lack it). */
   holding?: boolean | undefined;
   /** Phase at hold (rad) with drift rate (rad/s). */

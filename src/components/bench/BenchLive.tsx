@@ -26,6 +26,7 @@ import { VisibilityTrend, type EnvelopePoint } from './VisibilityTrend.tsx';
 import { LiveBanner } from './LiveBanner.tsx';
 import { AlarmBanner } from './AlarmBanner.tsx';
 import { useLiveFeed } from './useLiveFeed.ts';
+import { useNow } from '../../lib/client/use-now.ts';
 
 /** The trend shows this much history, ms. */
 const TREND_MS = 30 * 60_000;
@@ -110,6 +111,8 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
   );
 
   const live = useLiveFeed(bench.id, { onCounts, onMessage });
+  // Ticks so the ages on the tiles count while nothing arrives.
+  const now = useNow(1000);
 
   // Backfill what the page missed before the socket opened: rates, sweeps, the latest figures.
   useEffect(() => {
@@ -169,7 +172,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
       <AlarmBanner events={alarms} />
       {/* Pinned while the page scrolls, so the drive can be stopped from anywhere on it. */}
       <DriveStrip benchId={bench.id} tracker={drive} canOperate={viewer.canOperate} />
-      <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} corrections={corrections} latestPass={latestPass} />
+      <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} corrections={corrections} latestPass={latestPass} now={now} />
       <div className="grid gap-4 xl:grid-cols-2">
         <RatesChart ring={ring} channels={bench.channels} onReady={(h) => (rates.current = h)} hasData={hasCounts} error={hasCounts ? null : countsError} />
         <FringeChart

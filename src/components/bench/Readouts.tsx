@@ -47,18 +47,44 @@ function splitErr(v: { value: number; err: number }, decimals?: number): { value
 }
 
 /**
+ * The visibility tile's lines. It leads with the newest pass rather than the running mean: an
+ * operator aligning wants the effect of the last touch, which one pass shows as soon as it is
+ * fitted, while the mean of the last few passes (up to 4 in 30 min, `runningVisibility`) still
+ * holds passes from before the touch and follows it only pass by pass. The mean, steadier, stays
+ * beside it, named with the number of passes it combines; the alarm judges each pass too.
+ */
+function visibilityLines(f: BenchFigures, now: number, noFringe: boolean): { value: string; subs: (string | null)[] } {
+  const v = f.visibility!;
+  const main = splitErrTile(v.newest ?? v, noFringe);
+  if (v.source === 'envelope') return { value: main.value, subs: [main.sub, 'fringe envelope (drift)'] };
+  const age = v.latestPassMs !== undefined ? formatDuration(now - v.latestPassMs) : null;
+  if (!v.newest) return { value: main.value, subs: [main.sub, age ? `mean of recent passes, newest ${age} ago` : 'mean of recent passes'] };
+  return {
+    value: main.value,
+    subs: [main.sub, `newest pass, ${age} ago`, v.passes && v.passes > 1 ? `mean of ${v.passes} passes ${formatValueErr(v)}` : null],
+  };
+}
+
+/** A V ± σ for a tile: the value, and its ± line unless the pass measured no fringe. */
+function splitErrTile(v: { value: number; err: number }, noFringe: boolean): { value: string; sub: string | null } {
+  const s = splitErr(v);
+  return { value: s.value, sub: noFringe ? null : `± ${s.err}` };
+}
+
+/**
  * `corrections`: ids ("gateway/key") of the channels with a dark rate or a dead time set.
  * `latestPass`: the warnings of the newest fitted pass, or null before one.
+ * `now`: the reader's clock for ages (null before mount).
  */
-export function Readouts(props: { figures: BenchFigures | null; loading: boolean; error: string | null; corrections: Set<string>; latestPass: PassWarnings | null }) {
+export function Readouts(props: { figures: BenchFigures | null; loading: boolean; error: string | null; corrections: Set<string>; latestPass: PassWarnings | null; now: number | null }) {
   const f = props.figures;
   const a = f?.channels.find((c) => c.role === 'out_a');
   const b = f?.channels.find((c) => c.role === 'out_b');
   const v = f?.visibility;
-  const vs = v ? splitErr(v) : null;
-  // The tile's value comes from the recent fits: the newest one's warnings qualify it. Without a
-  // significant fringe in that pass the value is no confident V ± σ, so it is muted and its ± dropped.
+  // The tile leads with the newest pass: its warnings qualify it. Without a significant fringe in
+  // that pass the value is no confident V ± σ, so it is muted and its ± dropped.
   const passWarning = v?.source === 'sweep' && props.latestPass && props.latestPass.all.length > 0 ? props.latestPass : null;
+  const vis = f && v ? visibilityLines(f, props.now ?? f.at, !!passWarning?.noFringe) : null;
   // Why a held drive gives no phase: the reading needs the fringe's V, and loses its sensitivity at
   // the fringe's top and bottom (the phase noise is read near mid-fringe only).
   const phaseMissing = !f?.holding ? 'while holding only' : !v || v.value <= 0.05 ? 'needs V: sweep first' : 'hold nearer mid-fringe';
@@ -76,12 +102,8 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
         {/* "net of darks" under the value, not in the label, which a six-tile row truncates to "net of dar…". */}
         <Tile
           label="Visibility"
-          value={vs?.value ?? '–'}
-          subs={[
-            vs && !passWarning?.noFringe ? `± ${vs.err}` : null,
-            v?.net ? 'net of darks' : null,
-            !v ? 'needs a sweep, or a drift over a whole fringe' : v.source === 'envelope' ? 'fringe envelope (drift)' : v.latestPassMs !== undefined && f ? `newest pass ${formatDuration(f.at - v.latestPassMs)} ago` : 'mean of recent fits',
-          ]}
+          value={vis?.value ?? '–'}
+          subs={vis ? [vis.subs[0] ?? null, v?.net ? 'net of darks' : null, ...vis.subs.slice(1)] : ['needs a sweep, or a drift over a whole fringe']}
           tone={passWarning?.noFringe ? 'text-muted' : ''}
           warning={passWarning && { short: `last pass: ${passWarning.noFringe ? 'no fringe' : warningsLine(passWarning)}`, full: passWarning.all.join('\n') }}
           testId="visibility"

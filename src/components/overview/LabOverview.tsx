@@ -100,6 +100,9 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
         const stale = f && now !== null ? now - f.at > STALE_MS : false;
         const online = b.gatewaysOnline > 0;
         const v = f?.visibility ?? null;
+        // The newest pass, as the bench page leads with it, and how old it is: a pass from before the last touch or drift is seen to be.
+        const shownV = v?.newest ?? v;
+        const passAge = v?.source === 'sweep' && v.latestPassMs !== undefined && now !== null ? formatDuration(now - v.latestPassMs) : null;
         const sl = slow.get(b.id);
         const alarm = alarmSummary(b, sl?.alarms ?? null);
         return (
@@ -140,8 +143,10 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
                 <dt className="label">Visibility{v?.net ? ', net of darks' : ''}</dt>
                 {/* The figure stays whole (no-break spaces); its source note wraps under it on a narrow card. */}
                 <dd className="flex flex-wrap items-baseline gap-x-2" data-testid={`bench-visibility-${b.id}`}>
-                  <span className="figure text-lg">{v ? formatValueErr(v) : '–'}</span>
-                  <span className="text-xs text-muted">{!v ? 'needs a sweep or drift' : v.source === 'sweep' ? 'sweep fit' : 'fringe envelope'}</span>
+                  <span className="figure text-lg" title={v?.newest && v.passes && v.passes > 1 ? `mean of ${v.passes} passes ${formatValueErr(v)}` : undefined}>{shownV ? formatValueErr(shownV) : '–'}</span>
+                  <span className="text-xs text-muted">
+                    {!v ? 'needs a sweep or drift' : v.source === 'envelope' ? 'fringe envelope' : v.newest ? `newest pass${passAge ? `, ${passAge} ago` : ''}` : `mean of recent passes${passAge ? `, newest ${passAge} ago` : ''}`}
+                  </span>
                 </dd>
               </div>
             </dl>

@@ -102,7 +102,12 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
   // darks, and a calibration set or cleared in between leaves both kinds in the window.
   const newest = fresh.reduce<SweepPoint | null>((a, p) => (!a || p.timeMs >= a.timeMs ? p : a), null);
   const fitted = newest ? finite(runningVisibility(fresh.filter((p) => p.net === newest.net))) : null;
-  if (fitted && newest) visibility = { value: fitted.value, err: fitted.err, source: 'sweep', net: newest.net, latestPassMs: newest.timeMs };
+  if (fitted && newest) {
+    // The mean steadies the phase reading below; the newest pass alone is what the screens lead
+    // with, since it shows the last touch of an alignment at once (visibilityLines in Readouts.tsx).
+    const own = finite(newest);
+    visibility = { value: fitted.value, err: fitted.err, source: 'sweep', net: newest.net, latestPassMs: newest.timeMs, passes: fitted.n, ...(own && { newest: { value: own.value, err: own.err } }) };
+  }
   const sa = outA ? recent.series(outA.gateway, outA.key, windowMs, to) : null;
   const sb = outB ? recent.series(outB.gateway, outB.key, windowMs, to) : null;
   const scan = outA ? recent.scan(outA.gateway, PHASE_WINDOW_MS, to) : null;
