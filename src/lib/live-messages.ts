@@ -2,7 +2,7 @@
 // socket module. Pure: no I/O, safe to bundle into islands. The `counts` shape is fixed by the wire
 // contract; the other message types are ours.
 import { z } from 'zod';
-import { MAX_EPOCH_MS } from './contract/wire.ts';
+import { gatewayIdSchema, MAX_EPOCH_MS } from './contract/wire.ts';
 
 /** One stored batch (or several contiguous ones merged), as the contract's count message. */
 export interface CountsMessage {
@@ -73,6 +73,16 @@ export interface FeatureMessage {
   bench: string;
   [field: string]: unknown;
 }
+
+/**
+ * The fields of a `status` message an island acts on, checked before use like every other pushed
+ * message (the rest of it is the gateway's own announcement).
+ */
+export const statusMessageSchema = z.object({
+  type: z.literal('status'),
+  gateway: gatewayIdSchema,
+  state: z.enum(['online', 'offline']),
+});
 
 export type LiveMessage = CountsMessage | StatusMessage | AckMessage | DroppedMessage | ResumedMessage | ErrorMessage;
 

@@ -26,6 +26,8 @@ import { VisibilityTrend, type EnvelopePoint } from './VisibilityTrend.tsx';
 import { LiveBanner } from './LiveBanner.tsx';
 import { AlarmBanner } from './AlarmBanner.tsx';
 import { useLiveFeed } from './useLiveFeed.ts';
+import { useGatewayPresence } from './useGatewayPresence.ts';
+import { figuresStaleness } from '../../lib/figures-age.ts';
 import { useNow } from '../../lib/client/use-now.ts';
 
 /** The trend shows this much history, ms. */
@@ -111,8 +113,11 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
   );
 
   const live = useLiveFeed(bench.id, { onCounts, onMessage });
-  // Ticks so the ages on the tiles count while nothing arrives.
+  const gateways = useGatewayPresence(bench.id, bench.gateways);
+  // Ticks so the figures turn stale, and their ages count, while nothing arrives.
   const now = useNow(1000);
+  const online = gateways.filter((g) => g.online).length;
+  const stale = figures && now !== null ? figuresStaleness(figures.at, now, online, gateways.length) : null;
 
   // Backfill what the page missed before the socket opened: rates, sweeps, the latest figures.
   useEffect(() => {
@@ -172,7 +177,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
       <AlarmBanner events={alarms} />
       {/* Pinned while the page scrolls, so the drive can be stopped from anywhere on it. */}
       <DriveStrip benchId={bench.id} tracker={drive} canOperate={viewer.canOperate} />
-      <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} corrections={corrections} latestPass={latestPass} now={now} />
+      <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} corrections={corrections} latestPass={latestPass} stale={stale} offline={gateways.length > 0 && online === 0} now={now} />
       <div className="grid gap-4 xl:grid-cols-2">
         <RatesChart ring={ring} channels={bench.channels} onReady={(h) => (rates.current = h)} hasData={hasCounts} error={hasCounts ? null : countsError} />
         <FringeChart
@@ -215,7 +220,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
         <div className="xl:col-span-2">
           <VisibilityTrend sweeps={sweeps} envelope={envelope} limit={bench.visibilityLimit} loading={sweepsLoading} error={sweepsError} span={{ from: null, to: null }} windowMs={TREND_MS} />
         </div>
-        <PhotonStats figures={figures} hasCoincidences={hasCc} />
+        <PhotonStats figures={figures} hasCoincidences={hasCc} stale={stale} />
       </div>
       <section id="alarms" className="card scroll-mt-16" aria-labelledby="alarms-h">
         <h2 id="alarms-h" className="mb-2 font-semibold">Alarms</h2>

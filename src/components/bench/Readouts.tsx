@@ -1,12 +1,17 @@
 // Large readouts an operator reads from across the bench: both output rates (raw and corrected),
 // V ± σ (with the latest pass's fit warnings), phase, contrast and the phase noise against the
-// shot-noise limit.
+// shot-noise limit. Figures that no longer stand for the bench (too old, or no gateway online) are
+// greyed out and say how old they are.
 import type { BenchFigures, ChannelFigures } from '../../lib/bench-figures.ts';
 import { formatWindow } from '../../lib/coincidence-window.ts';
 import { formatDuration, formatNumber, formatRateErr, formatValueErr, PLUS_MINUS, rateParts } from '../../lib/client/format.ts';
 import { poissonQThroughDeadTime } from '../../lib/analysis/photon-stats.ts';
+import type { FiguresStaleness } from '../../lib/figures-age.ts';
 import { warningsLine, type PassWarnings } from '../../lib/pass-warnings.ts';
 import { phaseNoiseText } from './phase-noise-text.ts';
+
+/** Stale figures: greyed (colour and contrast both, so it reads from across the room and in either theme). */
+const STALE_LOOK = 'opacity-60 grayscale';
 
 /** A number read from across the bench: the value large, its unit and uncertainty smaller beside it, never wrapping. */
 function Tile(props: { label: string; title?: string; value: string; unit?: string | undefined; subs?: (string | null)[]; tone?: string; testId?: string; warning?: { short: string; full: string } | null }) {
@@ -46,6 +51,24 @@ function splitErr(v: { value: number; err: number }, decimals?: number): { value
   return { value, err };
 }
 
+/** What the page says of figures that no longer stand for the bench: why, and how old they are. */
+function StaleNotice(props: { stale: FiguresStaleness | null; offline: boolean }) {
+  const age = props.stale ? formatDuration(props.stale.ageMs) : null;
+  if (props.offline) {
+    return (
+      <p className="mb-2 text-sm text-warn" role="status" data-testid="figures-stale">
+        No gateway of this bench is online: the figures below stop at its last batch{age ? ` and are ${age} old` : ''}.
+      </p>
+    );
+  }
+  if (!age) return null;
+  return (
+    <p className="mb-2 text-sm text-warn" role="status" data-testid="figures-stale">
+      Figures are {age} old: no newer counts have arrived.
+    </p>
+  );
+}
+
 /**
  * The visibility tile's lines. It leads with the newest pass rather than the running mean: an
  * operator aligning wants the effect of the last touch, which one pass shows as soon as it is
@@ -74,9 +97,19 @@ function splitErrTile(v: { value: number; err: number }, noFringe: boolean): { v
 /**
  * `corrections`: ids ("gateway/key") of the channels with a dark rate or a dead time set.
  * `latestPass`: the warnings of the newest fitted pass, or null before one.
- * `now`: the reader's clock for ages (null before mount).
+ * `stale`: why and how the figures are stale, null while current (or before there are any).
+ * `offline`: every gateway of the bench is offline. `now`: the reader's clock for ages (null before mount).
  */
-export function Readouts(props: { figures: BenchFigures | null; loading: boolean; error: string | null; corrections: Set<string>; latestPass: PassWarnings | null; now: number | null }) {
+export function Readouts(props: {
+  figures: BenchFigures | null;
+  loading: boolean;
+  error: string | null;
+  corrections: Set<string>;
+  latestPass: PassWarnings | null;
+  stale: FiguresStaleness | null;
+  offline: boolean;
+  now: number | null;
+}) {
   const f = props.figures;
   const a = f?.channels.find((c) => c.role === 'out_a');
   const b = f?.channels.find((c) => c.role === 'out_b');
@@ -96,7 +129,8 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
   return (
     <section aria-label="Live figures" aria-busy={props.loading}>
       {props.error && <p className="mb-2 text-sm text-bad" role="alert">Figures unavailable: {props.error}</p>}
-      <div className="grid grid-cols-2 gap-3 sm:grid-cols-3 xl:grid-cols-6">
+      <StaleNotice stale={props.stale} offline={props.offline} />
+      <div className={`grid grid-cols-2 gap-3 sm:grid-cols-3 xl:grid-cols-6 ${props.stale ? STALE_LOOK : ''}`} data-stale={props.stale ? 'true' : undefined}>
         {rateTile(a, a?.label ?? 'Output A', 'text-ember', 'rate-a', props.corrections)}
         {rateTile(b, b?.label ?? 'Output B', 'text-tide', 'rate-b', props.corrections)}
         {/* "net of darks" under the value, not in the label, which a six-tile row truncates to "net of dar…". */}
@@ -142,15 +176,19 @@ export function Readouts(props: { figures: BenchFigures | null; loading: boolean
   );
 }
 
-export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidences: boolean }) {
+export function PhotonStats(props: { figures: BenchFigures | null; hasCoincidences: boolean; stale: FiguresStaleness | null }) {
   const f = props.figures;
+  const stale = f ? props.stale : null;
   return (
     <section className="card" aria-labelledby="stats-h">
-      <h2 id="stats-h" className="mb-2 font-semibold">Photon statistics</h2>
+      <h2 id="stats-h" className="mb-2 font-semibold">
+        Photon statistics
+        {stale && <span className="ml-2 text-xs font-normal text-warn">{formatDuration(stale.ageMs)} old{stale.offline ? ', gateway offline' : ''}</span>}
+      </h2>
       {!f ? (
         <p className="text-sm text-muted">Waiting for figures…</p>
       ) : (
-        <dl className="grid grid-cols-[1fr_auto] gap-x-4 gap-y-1.5 text-sm [&>dd]:whitespace-nowrap">
+        <dl className={`grid grid-cols-[1fr_auto] gap-x-4 gap-y-1.5 text-sm [&>dd]:whitespace-nowrap ${stale ? STALE_LOOK : ''}`}>
           {f.channels.map((c) => (
             <div key={c.channel} className="contents">
               <dt className="text-muted">

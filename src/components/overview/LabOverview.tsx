@@ -4,6 +4,7 @@
 // one socket per bench for a summary card would cost more than it shows.
 import type { AlarmEventView, Severity } from '../../lib/alarm-messages.ts';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
+import { figuresStaleness } from '../../lib/figures-age.ts';
 import { errorText, fetchCounts, fetchFigures, fetchOpenAlarms, type CountsAnswer } from '../../lib/client/api.ts';
 import { formatDuration, formatRate, formatValueErr } from '../../lib/client/format.ts';
 import { useNow } from '../../lib/client/use-now.ts';
@@ -19,8 +20,6 @@ const SLOW_POLL_MS = 5000;
 /** The sparkline's span and bucket, ms: 120 points, served from the 1 s rollups. */
 const SPARK_SPAN_MS = 10 * 60_000;
 const SPARK_STEP_MS = 5000;
-/** Figures older than this are shown as stale, ms. */
-const STALE_MS = 10_000;
 
 type Live = { figures: BenchFigures | null; error: string | null; loaded: boolean };
 /** Counts and open alarms of a bench from the slower poll; null while not (yet) loaded. */
@@ -97,7 +96,7 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
         const f = l?.figures ?? null;
         const a = f?.channels.find((c) => c.role === 'out_a');
         const o = f?.channels.find((c) => c.role === 'out_b');
-        const stale = f && now !== null ? now - f.at > STALE_MS : false;
+        const stale = f && now !== null ? figuresStaleness(f.at, now, b.gatewaysOnline, b.gatewaysTotal) : null;
         const online = b.gatewaysOnline > 0;
         const v = f?.visibility ?? null;
         // The newest pass, as the bench page leads with it, and how old it is: a pass from before the last touch or drift is seen to be.
@@ -153,7 +152,7 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
             {!l?.loaded && <p className="text-xs text-muted">Loading figures…</p>}
             {l?.error && <p className="text-xs text-bad">Figures unavailable: {l.error}</p>}
             {l?.loaded && !l.error && !f && <p className="text-xs text-muted">No counts yet.</p>}
-            {stale && <p className="text-xs text-warn">Figures are {formatDuration(now! - f!.at)} old.</p>}
+            {stale && <p className="text-xs text-warn">Figures are {formatDuration(stale.ageMs)} old.</p>}
             <div className="mt-auto flex flex-wrap items-center justify-between gap-x-3 gap-y-1 border-t border-line pt-2 text-xs">
               <a href={`/benches/${b.id}#alarms`} className={`hover:underline ${alarm.tone}`} title={alarm.title}>{alarm.text}</a>
               <span className="min-w-0 text-muted">

@@ -146,6 +146,12 @@ export async function fetchFigures(bench: string, signal?: AbortSignal): Promise
   return answer.figures;
 }
 
+/** Whether a gateway is online now (its retained status, and not revoked), from its health answer. */
+export async function fetchGatewayOnline(gateway: string, signal?: AbortSignal): Promise<boolean> {
+  const answer = await call(`/api/v1/gateways/${encodeURIComponent(gateway)}/health`, z.object({ online: z.boolean() }), undefined, signal);
+  return answer.online;
+}
+
 export function sendCommand(bench: string, cmd: CommandBody): Promise<{ id: string; gateway: string; gatewayOnline: boolean }> {
   return call(`/api/v1/benches/${encodeURIComponent(bench)}/commands`, z.object({ id: z.string(), gateway: z.string(), gatewayOnline: z.boolean() }), { method: 'POST', body: JSON.stringify(cmd) });
 }
