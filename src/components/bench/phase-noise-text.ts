@@ -15,6 +15,9 @@ export interface PhaseNoiseText {
   lines: string[];
 }
 
+/** Binds a number to its unit where the tile wraps. */
+const NBSP = '\u00a0';
+
 /** dB per relative change, for a small error: d(20·log₁₀ x) = (20/ln 10)·dx/x. */
 const DB_PER_RELATIVE = 20 / Math.LN10;
 
@@ -46,14 +49,14 @@ export function phaseNoiseText(sn: ShotNoise): PhaseNoiseText {
   const mrad = sn.measuredRad * 1000;
   // Both limits are known far better than the noise: shown to the noise's own last digit.
   const mradDecimals = rel !== null ? decimalsForError(mrad * rel) : 1;
-  const perBin = sn.binMs ? ` per ${sn.binMs} ms bin` : '';
+  const perBin = sn.binMs ? ` per ${sn.binMs}${NBSP}ms bin` : '';
   const measured = rel !== null ? `${mrad.toFixed(mradDecimals)}${PLUS_MINUS}${(mrad * rel).toFixed(mradDecimals)}` : mrad.toFixed(mradDecimals);
-  const lines = [`${measured} mrad${perBin}`];
+  const lines = [`${measured}${NBSP}mrad${perBin}`];
   const value = sn.ratio.toFixed(ratioDecimals);
   const unit = `${rel !== null ? `±\u00a0${sn.ratioErr!.toFixed(ratioDecimals)} ` : ''}× shot noise`;
   const limit = (sn.limitRad * 1000).toFixed(mradDecimals);
   if (sn.visibilityLimitRad === undefined || !(sn.visibilityLimitRad > 0)) {
-    lines.push(`shot-noise limit ${limit} mrad`);
+    lines.push(`shot-noise limit ${limit}${NBSP}mrad`);
     return { value, unit, lines };
   }
   const v = sn.limitRad / sn.visibilityLimitRad;
@@ -61,9 +64,10 @@ export function phaseNoiseText(sn: ShotNoise): PhaseNoiseText {
   const alignmentDb = Math.max(0, -20 * Math.log10(v));
   const aboveFloorDb = sn.dB - alignmentDb;
   const dbDecimals = rel !== null ? Math.min(2, decimalsForError(DB_PER_RELATIVE * rel)) : 1;
-  // Short lines: the tile is a sixth of the page wide. The tile's tooltip says what each limit is.
-  lines.push(`shot noise ${limit} · floor ${(sn.visibilityLimitRad * 1000).toFixed(mradDecimals)} mrad (V ${v.toFixed(2)})`);
-  lines.push(`alignment can gain ${alignmentDb.toFixed(1)} dB`);
-  lines.push(`noise above floor ${signed(aboveFloorDb, dbDecimals)}${rel !== null ? `${PLUS_MINUS}${(DB_PER_RELATIVE * rel).toFixed(dbDecimals)}` : ''} dB`);
+  // Short lines, each number bound to its unit: the tile is a sixth of the page wide and wraps them.
+  // The tile's tooltip says what each limit is.
+  lines.push(`shot noise ${limit} · floor ${(sn.visibilityLimitRad * 1000).toFixed(mradDecimals)}${NBSP}mrad (V${NBSP}${v.toFixed(2)})`);
+  lines.push(`alignment can gain ${alignmentDb.toFixed(1)}${NBSP}dB`);
+  lines.push(`noise above floor ${signed(aboveFloorDb, dbDecimals)}${rel !== null ? `${PLUS_MINUS}${(DB_PER_RELATIVE * rel).toFixed(dbDecimals)}` : ''}${NBSP}dB`);
   return { value, unit, lines };
 }
