@@ -23,7 +23,7 @@ export const benchFiguresSchema: z.ZodType<BenchFigures> = z.object({
   windowMs: num,
   channels: z.array(channelFiguresSchema).max(64),
   visibility: valueErr
-    .extend({ source: z.enum(['sweep', 'envelope']), net: z.boolean(), latestPassMs: num.optional(), newest: valueErr.optional(), passes: z.number().int().positive().optional() })
+    .extend({ source: z.enum(['sweep', 'envelope']), net: z.boolean(), latestPassMs: num.optional(), newest: valueErr.extend({ endMs: num.optional() }).optional(), passes: z.number().int().positive().optional() })
     .nullable(),
   holding: z.boolean().optional(),
   phase: valueErr.extend({ driftRadPerS: num.nullable(), driftErrRadPerS: num.optional() }).nullable(),

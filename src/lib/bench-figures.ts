@@ -30,11 +30,17 @@ export interface BenchFigures {
   channels: ChannelFigures[];
   /**
    * Latest visibility: the inverse-variance mean of the last fitted passes (`passes` of them, the
-   * newest at `latestPassMs` with its own V as `newest`; older snapshots lack all three), or an
-   * envelope estimate while the phase drifts through whole fringes.
+   * newest centred on `latestPassMs`, with its own V and its end as `newest`; older snapshots lack
+   * all three), or an envelope estimate while the phase drifts through whole fringes.
    */
   visibility:
-    | (ValueErr & { source: 'sweep' | 'envelope'; net: boolean; latestPassMs?: number | undefined; newest?: ValueErr | undefined; passes?: number | undefined })
+    | (ValueErr & {
+        source: 'sweep' | 'envelope';
+        net: boolean;
+        latestPassMs?: number | undefined;
+        newest?: (ValueErr & { endMs?: number | undefined }) | undefined;
+        passes?: number | undefined;
+      })
     | null;
   /** Whether the drive held still over the last second (or sends no positions): phase and phase noise are read only then (older snapshots lack it). */
   holding?: boolean | undefined;

@@ -80,7 +80,9 @@ function visibilityLines(f: BenchFigures, now: number, noFringe: boolean): { val
   const v = f.visibility!;
   const main = splitErrTile(v.newest ?? v, noFringe);
   if (v.source === 'envelope') return { value: main.value, subs: [main.sub, 'fringe envelope (drift)'] };
-  const age = v.latestPassMs !== undefined ? formatDuration(now - v.latestPassMs) : null;
+  // From the pass's end, as the fringe card counts its last fit (snapshots before it from its middle).
+  const passTime = v.newest?.endMs ?? v.latestPassMs;
+  const age = passTime !== undefined ? formatDuration(now - passTime) : null;
   if (!v.newest) return { value: main.value, subs: [main.sub, age ? `mean of recent passes, newest ${age} ago` : 'mean of recent passes'] };
   return {
     value: main.value,

@@ -101,7 +101,8 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
         const v = f?.visibility ?? null;
         // The newest pass, as the bench page leads with it, and how old it is: a pass from before the last touch or drift is seen to be.
         const shownV = v?.newest ?? v;
-        const passAge = v?.source === 'sweep' && v.latestPassMs !== undefined && now !== null ? formatDuration(now - v.latestPassMs) : null;
+        const passTime = v?.source === 'sweep' ? (v.newest?.endMs ?? v.latestPassMs) : undefined;
+        const passAge = passTime !== undefined && now !== null ? formatDuration(now - passTime) : null;
         const sl = slow.get(b.id);
         const alarm = alarmSummary(b, sl?.alarms ?? null);
         return (

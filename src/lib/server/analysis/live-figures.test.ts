@@ -126,10 +126,10 @@ describe('computeFigures', () => {
   it('gives the newest pass beside the mean, and how many passes the mean combines', () => {
     // Inverse-variance weights (common practice): (0.80/0.01² + 0.90/0.02²)/(1/0.01² + 1/0.02²) = 0.82,
     // error 1/√(1/0.01² + 1/0.02²) scaled by √(χ²/dof) = √20, since the two disagree by 0.1/√(0.01² + 0.02²) ≈ 4.5σ.
-    const v = computeFigures(input([{ timeMs: end - 60_000, value: 0.8, err: 0.01, net: false }, { timeMs: end - 20_000, value: 0.9, err: 0.02, net: false }])).figures.visibility!;
+    const v = computeFigures(input([{ timeMs: end - 60_000, value: 0.8, err: 0.01, net: false }, { timeMs: end - 20_000, endMs: end - 18_000, value: 0.9, err: 0.02, net: false }])).figures.visibility!;
     expect(v.value).toBeCloseTo(0.82, 12);
     expect(v.err).toBeCloseTo(Math.sqrt(20 / (1 / 0.01 ** 2 + 1 / 0.02 ** 2)), 12);
-    expect(v.newest).toEqual({ value: 0.9, err: 0.02 });
+    expect(v.newest).toEqual({ value: 0.9, err: 0.02, endMs: end - 18_000 });
     expect(v.passes).toBe(2);
     expect(v.latestPassMs).toBe(end - 20_000);
     expect(benchFiguresSchema.safeParse(computeFigures(input([{ timeMs: end - 20_000, value: 0.9, err: 0.02, net: false }])).figures).success).toBe(true);

@@ -12,8 +12,8 @@ import type { RecentBins } from './recent-bins.ts';
 
 export type ChannelSettings = ChannelCalibration;
 
-/** One fitted pass's visibility, and whether it is net of darks. */
-export type SweepPoint = VisibilityPoint & { net: boolean };
+/** One fitted pass's visibility, whether it is net of darks, and when the pass ended (ms; the age the pages give it, as the fringe card does). */
+export type SweepPoint = VisibilityPoint & { net: boolean; endMs?: number };
 
 export interface FiguresInput {
   benchId: string;
@@ -106,7 +106,8 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
     // The mean steadies the phase reading below; the newest pass alone is what the screens lead
     // with, since it shows the last touch of an alignment at once (visibilityLines in Readouts.tsx).
     const own = finite(newest);
-    visibility = { value: fitted.value, err: fitted.err, source: 'sweep', net: newest.net, latestPassMs: newest.timeMs, passes: fitted.n, ...(own && { newest: { value: own.value, err: own.err } }) };
+    const shown = own && { value: own.value, err: own.err, ...(own.endMs !== undefined && { endMs: own.endMs }) };
+    visibility = { value: fitted.value, err: fitted.err, source: 'sweep', net: newest.net, latestPassMs: newest.timeMs, passes: fitted.n, ...(shown && { newest: shown }) };
   }
   const sa = outA ? recent.series(outA.gateway, outA.key, windowMs, to) : null;
   const sb = outB ? recent.series(outB.gateway, outB.key, windowMs, to) : null;

@@ -79,7 +79,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
   async function loadRecentSweeps(benchId: string, s: BenchState) {
     const now = Date.now();
     const { rows } = await sweepsBetween(benchId, now - SWEEP_FRESH_MS, now).catch(() => ({ rows: [] }));
-    for (const r of rows.slice(-8)) s.sweepPoints.push({ timeMs: (r.startMs + r.endMs) / 2, ...shownVisibility(r) });
+    for (const r of rows.slice(-8)) s.sweepPoints.push({ timeMs: (r.startMs + r.endMs) / 2, endMs: r.endMs, ...shownVisibility(r) });
   }
 
   /** Fits one pass with the outputs' dark calibration and stores it; null when the fit failed or the pass was stored before. */
@@ -123,7 +123,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     const fitted = await fitPass(benchId, pass, settings.channels.find((c) => c.role === 'out_a'), settings.channels.find((c) => c.role === 'out_b'));
     if (!fitted) return;
     const { summary, fit } = fitted;
-    s.sweepPoints.push({ timeMs: (pass.startMs + pass.endMs) / 2, ...shownVisibility(summary) });
+    s.sweepPoints.push({ timeMs: (pass.startMs + pass.endMs) / 2, endMs: pass.endMs, ...shownVisibility(summary) });
     if (s.sweepPoints.length > 32) s.sweepPoints.splice(0, s.sweepPoints.length - 32);
     serverEvents().emit('sweep-fitted', { benchId, sweep: summary });
     opts.publish(benchId, { type: 'sweep', bench: benchId, sweep: { ...summary, fit } });
