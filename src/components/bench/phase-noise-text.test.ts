@@ -26,20 +26,21 @@ describe('phaseNoiseText', () => {
   it('rounds every figure to what the 7 % uncertainty supports', () => {
     expect(t.value).toBe('1.29');
     expect(t.unit).toBe('±\u00a00.09 × shot noise');
-    expect(t.lines[0]).toBe('129\u00a0±\u00a09\u00a0mrad per 10\u00a0ms bin');
-    expect(t.lines[1]).toBe('shot noise 100 · floor 128\u00a0mrad (V\u00a00.78)');
+    expect(t.lines[0]).toBe('129\u00a0±\u00a09\u00a0mrad per\u00a010\u00a0ms\u00a0bin');
+    expect(t.lines[1]).toBe('shot noise 100\u00a0mrad');
+    expect(t.lines[2]).toBe('floor 128 at V\u00a00.78');
   });
 
   it('splits the excess over shot noise into what alignment can gain and the noise above the floor', () => {
     // 20·log₁₀(1/0.78) = 2.16 dB; 20·log₁₀(1.2868) − 2.16 = 0.03 dB, ± (20/ln 10)·7.1 % = 0.6 dB:
     // the bench is at its floor for this V, and only alignment can make it quieter.
-    expect(t.lines[2]).toBe('alignment can gain 2.2\u00a0dB');
-    expect(t.lines[3]).toBe('noise above floor 0.0\u00a0±\u00a00.6\u00a0dB');
+    expect(t.lines[3]).toBe('alignment can gain 2.2\u00a0dB');
+    expect(t.lines[4]).toBe('noise above floor 0.0\u00a0±\u00a00.6\u00a0dB');
   });
 
   it('writes a negative dB with the minus sign', () => {
     const below = phaseNoiseText({ ...sn, measuredRad: 0.124, ratio: 0.124 / limit, ratioErr: 0.124 / limit / Math.sqrt(198), dB: 20 * Math.log10(0.124 / limit) });
-    expect(below.lines[3]).toBe('noise above floor −0.3\u00a0±\u00a00.6\u00a0dB');
+    expect(below.lines[4]).toBe('noise above floor −0.3\u00a0±\u00a00.6\u00a0dB');
   });
 
   it('gives the shot-noise limit alone for a snapshot without the floor', () => {

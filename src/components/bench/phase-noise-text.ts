@@ -49,7 +49,7 @@ export function phaseNoiseText(sn: ShotNoise): PhaseNoiseText {
   const mrad = sn.measuredRad * 1000;
   // Both limits are known far better than the noise: shown to the noise's own last digit.
   const mradDecimals = rel !== null ? decimalsForError(mrad * rel) : 1;
-  const perBin = sn.binMs ? ` per ${sn.binMs}${NBSP}ms bin` : '';
+  const perBin = sn.binMs ? ` per${NBSP}${sn.binMs}${NBSP}ms${NBSP}bin` : '';
   const measured = rel !== null ? `${mrad.toFixed(mradDecimals)}${PLUS_MINUS}${(mrad * rel).toFixed(mradDecimals)}` : mrad.toFixed(mradDecimals);
   const lines = [`${measured}${NBSP}mrad${perBin}`];
   const value = sn.ratio.toFixed(ratioDecimals);
@@ -64,9 +64,10 @@ export function phaseNoiseText(sn: ShotNoise): PhaseNoiseText {
   const alignmentDb = Math.max(0, -20 * Math.log10(v));
   const aboveFloorDb = sn.dB - alignmentDb;
   const dbDecimals = rel !== null ? Math.min(2, decimalsForError(DB_PER_RELATIVE * rel)) : 1;
-  // Short lines, each number bound to its unit: the tile is a sixth of the page wide and wraps them.
-  // The tile's tooltip says what each limit is.
-  lines.push(`shot noise ${limit} · floor ${(sn.visibilityLimitRad * 1000).toFixed(mradDecimals)}${NBSP}mrad (V${NBSP}${v.toFixed(2)})`);
+  // Short lines, each number bound to its unit: the tile is a sixth of the page wide (some 20
+  // characters) and wraps them. The tile's tooltip says what each limit is.
+  lines.push(`shot noise ${limit}${NBSP}mrad`);
+  lines.push(`floor ${(sn.visibilityLimitRad * 1000).toFixed(mradDecimals)} at V${NBSP}${v.toFixed(2)}`);
   lines.push(`alignment can gain ${alignmentDb.toFixed(1)}${NBSP}dB`);
   lines.push(`noise above floor ${signed(aboveFloorDb, dbDecimals)}${rel !== null ? `${PLUS_MINUS}${(DB_PER_RELATIVE * rel).toFixed(dbDecimals)}` : ''}${NBSP}dB`);
   return { value, unit, lines };
