@@ -5,7 +5,7 @@ import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { addNote, errorText, fetchNotes, startRun, stopRun } from '../../lib/client/api.ts';
 import { askToConfirm } from '../../lib/client/confirm-dialog.ts';
 import { confirmStopRun } from '../../lib/confirmations.ts';
-import { formatClock, formatDuration, formatSnapshot } from '../../lib/client/format.ts';
+import { formatClock, formatDuration, snapshotLines } from '../../lib/client/format.ts';
 import { useNow } from '../../lib/client/use-now.ts';
 import type { NoteView, RunView } from '../../lib/runs.ts';
 
@@ -146,7 +146,7 @@ export function RunPanel({ benchId, initialRun, canOperate, figures, pushed }: P
                 <li key={n.id} className="border-l-2 border-accent pl-2">
                   <p className="text-xs text-muted"><span className="figure">{formatClock(n.atMs)}</span> · {n.author?.name ?? 'someone'}</p>
                   <p className="whitespace-pre-wrap [overflow-wrap:anywhere]">{n.body}</p>
-                  {n.snapshot && <p className="figure text-xs text-muted">{formatSnapshot(n.snapshot)}</p>}
+                  {n.snapshot && snapshotLines(n.snapshot).map((line, i) => <p key={i} className="figure text-xs text-muted">{line}</p>)}
                 </li>
               ))}
             </ol>

@@ -2,6 +2,7 @@
 // for rates, and a value with its uncertainty rounded to the uncertainty's precision. Pure, so
 // server-rendered pages (run report, runs list) format exactly as the islands do.
 import type { BenchFigures } from '../bench-figures.ts';
+import { formatWindow } from '../coincidence-window.ts';
 
 const DASH = '–';
 
@@ -109,11 +110,30 @@ export function formatDuration(ms: number): string {
   return `${s} s`;
 }
 
-/** One line of the figures attached to a note: "Output A 36.21 kc/s · Output B … · V 0.9712 ± 0.0031". */
-export function formatSnapshot(s: BenchFigures): string {
-  const parts = s.channels.filter((c) => c.role === 'out_a' || c.role === 'out_b').map((c) => `${c.label} ${formatRate(c.rateRaw)}`);
-  if (s.visibility) parts.push(`V ${formatValueErr(s.visibility)}`);
-  if (s.phase) parts.push(`φ ${formatValueErr(s.phase)} rad`);
-  if (s.g2) parts.push(`g²(0) ${formatValueErr(s.g2)}`);
-  return parts.join(' · ');
+/**
+ * The figures attached to a note, as the bench page showed them when it was taken, in two lines:
+ * the fringe (output rates, V, φ) and the light and the phase noise (α with a herald, else
+ * g²(0); each output's Mandel Q; the phase noise against the shot-noise limit while the drive
+ * held). A figure the snapshot lacks (none then, or stored before it existed) is left out, and so
+ * is a line with none.
+ */
+export function snapshotLines(s: BenchFigures): string[] {
+  const outputs = s.channels.filter((c) => c.role === 'out_a' || c.role === 'out_b');
+  const fringe = outputs.map((c) => `${c.label} ${formatRate(c.rateRaw)}`);
+  if (s.visibility) fringe.push(`V ${formatValueErr(s.visibility)}${s.visibility.net ? ' net' : ''}`);
+  if (s.phase) fringe.push(`φ ${formatValueErr(s.phase)} rad`);
+  // Why φ and the phase noise are missing: they are read only while the drive holds still.
+  if (s.holding === false) fringe.push('drive moving');
+  const light: string[] = [];
+  // A heralded bench is judged by α (its figures carry no g²(0)); a laser bench by g²(0).
+  if (s.alpha) light.push(`heralded α ${formatValueErr(s.alpha)}`);
+  if (s.g2) light.push(`g²(0) ${formatValueErr(s.g2)}${s.coincidenceWindowNs !== undefined ? ` (${formatWindow(s.coincidenceWindowNs)})` : ''}`);
+  const q = outputs.filter((c) => c.mandelQ);
+  if (q.length) light.push(`Mandel Q ${q.map((c) => `${c.label} ${formatValueErr(c.mandelQ)}`).join(', ')}`);
+  const sn = s.shotNoise;
+  if (sn && s.holding !== false) {
+    const ratio = sn.ratioErr !== undefined ? formatValueErr({ value: sn.ratio, err: sn.ratioErr }) : sn.ratio.toFixed(2);
+    light.push(`phase noise ${ratio} × shot noise (${(sn.measuredRad * 1000).toFixed(2)} against ${(sn.limitRad * 1000).toFixed(2)} mrad${sn.binMs ? ` per ${sn.binMs} ms bin` : ''})`);
+  }
+  return [fringe, light].filter((l) => l.length > 0).map((l) => l.join(' · '));
 }
