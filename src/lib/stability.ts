@@ -3,13 +3,29 @@
 import { z } from 'zod';
 import type { AllanPoint } from './analysis/allan.ts';
 
+/** An Allan point beside the floor counting noise alone gives at its τ (in the series' unit). */
+export type FlooredPoint = AllanPoint & { poissonLimit: number };
+
+/**
+ * A channel's rate over the buckets where its gateway's drive held still (the phase's stretches),
+ * split where it moved or settled elsewhere: a sweep runs the rate over the fringe's whole depth.
+ * `covers` says which: 'held', or 'whole' where no raw bin of the range is left to tell (rollups
+ * keep no drive positions), split only at missing buckets, sweeps included. A gateway whose raw
+ * bins carry no positions has no drive: all its buckets hold.
+ */
 export interface RateStability {
   channel: string;
   role: string;
-  /** Mean rate over the range, counts/s. */
+  covers: 'held' | 'whole';
+  /** Mean rate over the buckets the curve covers, counts/s. */
   meanRate: number;
-  /** `poissonLimit`: √(R/τ), counts/s, the white counting-noise floor the rate cannot beat. */
-  points: (AllanPoint & { poissonLimit: number })[];
+  /** Buckets the curve covers, in `stretches` stretches. */
+  buckets: number;
+  stretches: number;
+  /** The channel has a dead time set, which thins the counting noise: the floor is √(R/τ)·(1 − Rτ_d) (Müller 1973). */
+  deadTime: boolean;
+  /** `poissonLimit`: the Poisson counting noise of the covered buckets' rates, √(R/τ) at a steady rate R, counts/s. */
+  points: FlooredPoint[];
 }
 
 export interface Stability {
@@ -22,20 +38,21 @@ export interface Stability {
    * Allan deviation of the phase (rad) over the buckets where the drive held still, pooled over the
    * `stretches` of consecutive such buckets at one position; null without a visibility to scale
    * by or without enough held buckets. `net`: the visibility is net of darks (shownVisibility), and
-   * the darks were taken off the counts to match.
+   * the darks were taken off the counts to match. `poissonLimit`: 1/(V√N) of each bucket's N signal
+   * counts carried to τ, the least noise a phase reading of the counts can have (at mid-fringe).
    */
-  phase: { visibility: number; net: boolean; points: AllanPoint[]; heldBuckets: number; stretches: number } | null;
+  phase: { visibility: number; net: boolean; points: FlooredPoint[]; heldBuckets: number; stretches: number } | null;
   /** Most buckets with no stored bins in any one channel; each series is split at them, never joined across. */
   missingBuckets: number;
 }
 
-const allanPoint = z.object({ tau: z.number(), adev: z.number(), err: z.number(), lo: z.number(), hi: z.number(), edf: z.number(), terms: z.number() });
+const flooredPoint = z.object({ tau: z.number(), adev: z.number(), err: z.number(), lo: z.number(), hi: z.number(), edf: z.number(), terms: z.number(), poissonLimit: z.number() });
 
 export const stabilitySchema: z.ZodType<Stability> = z.object({
   from: z.number(),
   to: z.number(),
   tau0: z.number().positive(),
-  rates: z.array(z.object({ channel: z.string(), role: z.string(), meanRate: z.number(), points: z.array(allanPoint.extend({ poissonLimit: z.number() })) })),
-  phase: z.object({ visibility: z.number(), net: z.boolean(), points: z.array(allanPoint), heldBuckets: z.number(), stretches: z.number() }).nullable(),
+  rates: z.array(z.object({ channel: z.string(), role: z.string(), covers: z.enum(['held', 'whole']), meanRate: z.number(), buckets: z.number(), stretches: z.number(), deadTime: z.boolean(), points: z.array(flooredPoint) })),
+  phase: z.object({ visibility: z.number(), net: z.boolean(), points: z.array(flooredPoint), heldBuckets: z.number(), stretches: z.number() }).nullable(),
   missingBuckets: z.number(),
 });

@@ -86,9 +86,30 @@ it('keeps whole rollup buckets of a bin width that does not divide the step (3 m
   const { token } = await userWithToken('observer', 'stab');
   const res = await fetch(new URL(`/api/v1/benches/${bench}/stability?from=${start}&to=${start + 600_000}&step=1000`, app.url), { headers: { authorization: `Bearer ${token}` } });
   expect(res.status).toBe(200);
-  const body = (await res.json()) as { missingBuckets: number; rates: { points: unknown[] }[] };
+  const body = (await res.json()) as { missingBuckets: number; rates: { covers: string; points: unknown[] }[] };
   expect(body.missingBuckets).toBe(0);
   expect(body.rates[0]!.points.length).toBeGreaterThan(5);
+  // Its one raw bin carries no drive position: a gateway without a drive holds in every bucket.
+  expect(body.rates[0]!.covers).toBe('held');
+});
+
+it('reads a range whole, and says so, where no raw bin is left to tell the holds (rollups keep no positions)', async () => {
+  const bench = `stabr-${tag}`;
+  const gw = `stabr-${tag}-gw`;
+  await createBench({ id: bench, name: 'Stability rollups', wavelengthNm: 633 });
+  await createGateway(gw, bench);
+  await getDb().insert(channels).values([{ gatewayId: gw, key: 'a', benchId: bench }]);
+  const start = 1_796_400_000_000; // a multiple of 60,000
+  const rng = mulberry32(9);
+  const blocks = Array.from({ length: 10 }, (_, block) => ({ gatewayId: gw, key: 'a', stepMs: 1000, blockT0: start + block * 60_000, sums: Array.from({ length: 60 }, () => poisson(rng, RATE)), bins: new Array<number>(60).fill(10) }));
+  await getDb().insert(rollups).values(blocks);
+  const { token } = await userWithToken('observer', 'stab');
+  const res = await fetch(new URL(`/api/v1/benches/${bench}/stability?from=${start}&to=${start + 600_000}&step=1000`, app.url), { headers: { authorization: `Bearer ${token}` } });
+  expect(res.status).toBe(200);
+  const body = (await res.json()) as { rates: { covers: string; buckets: number; points: unknown[] }[]; phase: unknown };
+  expect(body.rates.map((r) => [r.covers, r.buckets])).toEqual([['whole', 600]]);
+  expect(body.rates[0]!.points.length).toBeGreaterThan(5);
+  expect(body.phase).toBeNull();
 });
 
 // Phase: a two-output bench (model N_a = η_a·(N/2)(1 + V cos θ) + d_a, N_b = η_b·(N/2)(1 − V cos θ)
@@ -143,7 +164,7 @@ it('takes the phase only where the drive held still, split at sweeps and gaps, w
   const step = 200; // ms: two bins a bucket, so a bucket in the sweep sees its drive move
   const res = await fetch(new URL(`/api/v1/benches/${PH}/stability?from=${PH_T0}&to=${PH_T0 + 400_000}&step=${step}`, app.url), { headers: { authorization: `Bearer ${token}` } });
   expect(res.status).toBe(200);
-  const body = (await res.json()) as { missingBuckets: number; phase: { visibility: number; net: boolean; heldBuckets: number; stretches: number; points: { tau: number; adev: number; err: number; lo: number; hi: number }[] } | null };
+  const body = (await res.json()) as { missingBuckets: number; phase: { visibility: number; net: boolean; heldBuckets: number; stretches: number; points: { tau: number; adev: number; err: number; lo: number; hi: number; poissonLimit: number }[] } | null };
   expect(body.missingBuckets).toBe(250);
   expect(body.phase).not.toBeNull();
   const phase = body.phase!;
@@ -163,7 +184,47 @@ it('takes the phase only where the drive held still, split at sweeps and gaps, w
   const first = phase.points[0]!;
   expect(first.tau).toBeCloseTo(step / 1000, 9);
   expect(Math.abs(first.adev - expected)).toBeLessThan(3 * first.err);
+  // The floor 1/(V√N) for the N signal counts of a bucket, pooled the same way: at θ = 1.2 rad,
+  // near mid-fringe, counting noise reads only a little above it (Fisher information per photon
+  // V²sin²θ/(1 − V²cos²θ) against V²: 1.1% more noise).
+  const floors = THETA.map((t) => {
+    const m = meanCounts(t, step / 1000);
+    return 1 / (V * V * (m.a + m.b - cal.darkA - cal.darkB));
+  });
+  expect(first.poissonLimit / Math.sqrt((499 * floors[0]! + 999 * floors[1]!) / 1498)).toBeCloseTo(1, 2);
+  expect(first.adev).toBeGreaterThan(first.poissonLimit * (1 - 3 * first.err / first.adev));
   // The longest τ fits in the longer hold (1000 buckets): m = 256 at most, never the 1750-bucket span joined.
   expect(phase.points.at(-1)!.tau).toBeLessThanOrEqual((256 * step) / 1000);
   for (const p of phase.points) expect(p.lo).toBeLessThan(p.adev);
+});
+
+// The same bench's rates: the sweep between the holds runs both outputs over the fringe's whole
+// depth. Read whole, it put the rate curves far above √(R/τ) and the caption blamed drift; over
+// the buckets where the drive held still, Poisson counts at steady rates sit on their floor.
+it('takes the rates over the same held stretches as the phase, and puts steady holds on their Poisson floor', async () => {
+  const { token } = await userWithToken('observer', 'stabph');
+  const step = 200;
+  const res = await fetch(new URL(`/api/v1/benches/${PH}/stability?from=${PH_T0}&to=${PH_T0 + 400_000}&step=${step}`, app.url), { headers: { authorization: `Bearer ${token}` } });
+  expect(res.status).toBe(200);
+  type Rate = { channel: string; covers: string; meanRate: number; buckets: number; stretches: number; points: { tau: number; adev: number; err: number; poissonLimit: number }[] };
+  const body = (await res.json()) as { rates: Rate[]; phase: { heldBuckets: number; stretches: number } };
+  expect(body.rates.map((r) => r.channel).sort()).toEqual([`${PH_GW}/a`, `${PH_GW}/b`]);
+  for (const r of body.rates) {
+    expect(r.covers).toBe('held');
+    expect([r.buckets, r.stretches]).toEqual([body.phase.heldBuckets, body.phase.stretches]);
+    // Counting noise of two steady rates, the held buckets' mean rate between them.
+    const key = r.channel.endsWith('/a') ? 'a' : 'b';
+    const rates = THETA.map((t) => meanCounts(t, 1)[key]);
+    expect(r.meanRate).toBeGreaterThan(Math.min(...rates));
+    expect(r.meanRate).toBeLessThan(Math.max(...rates));
+    expect(r.points.length).toBeGreaterThan(5);
+    for (const p of r.points) {
+      // The floor: the two holds' rates weighted by their terms at this τ (499 − 2m + 1 + 999 − 2m + 1 of them, or the longer hold's alone).
+      const m = Math.round(p.tau / (step / 1000));
+      const terms = [Math.max(0, 500 - 2 * m + 1), 1000 - 2 * m + 1];
+      const meanR = (terms[0]! * rates[0]! + terms[1]! * rates[1]!) / (terms[0]! + terms[1]!);
+      expect(p.poissonLimit / Math.sqrt(meanR / p.tau)).toBeCloseTo(1, 2);
+      expect(Math.abs(p.adev - p.poissonLimit)).toBeLessThan(3 * p.err + 0.02 * p.poissonLimit);
+    }
+  }
 });

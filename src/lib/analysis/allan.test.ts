@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { gaussian, mulberry32, poisson } from '../../../simulators/random.ts';
-import { allanAt, allanDeviation, contiguousStretches, MIN_EDF, whiteFmEdf } from './allan.ts';
+import { allanAt, allanDeviation, MIN_EDF, whiteFmEdf, whiteNoiseFloor } from './allan.ts';
 
 // Riley, Handbook of Frequency Stability Analysis, NIST SP 1065 (2008), sec. 12.3 test data.
 const NIST = [892, 809, 823, 798, 671, 644, 883, 903, 677];
@@ -97,11 +97,6 @@ describe('error bars from the equivalent degrees of freedom', () => {
 });
 
 describe('gaps', () => {
-  it('splits a bucketed series at missing buckets', () => {
-    expect(contiguousStretches([1, 2, null, null, 3, null, 4, 5, 6])).toEqual([[1, 2], [3], [4, 5, 6]]);
-    expect(contiguousStretches([null])).toEqual([]);
-  });
-
   it('never differences across a gap: a level step between two stretches leaves white noise white', () => {
     const rng = mulberry32(3);
     const first = Array.from({ length: 512 }, () => gaussian(rng));
@@ -113,5 +108,30 @@ describe('gaps', () => {
     expect(joined.at(-1)!.adev).toBeGreaterThan(10 * apart.at(-1)!.adev);
     // Two independent stretches add their degrees of freedom.
     expect(apart[0]!.edf).toBeCloseTo(2 * whiteFmEdf(513, 1), 6);
+  });
+});
+
+describe('the white-noise floor from each value’s variance', () => {
+  it('is √(v/m) for one variance v throughout, and null where no term fits', () => {
+    const v = [Float64Array.from({ length: 100 }, () => 4), Float64Array.from({ length: 7 }, () => 4)];
+    for (const m of [1, 2, 4, 32]) expect(whiteNoiseFloor(v, m)).toBeCloseTo(Math.sqrt(4 / m), 12);
+    expect(whiteNoiseFloor(v, 51)).toBeNull();
+  });
+
+  // Poisson counts n at rate R in bins τ₀: variance = mean, so a rate n/τ₀ has variance R/τ₀ and
+  // σ(τ) = √(R/τ) (white FM: the Allan variance is the variance of the τ-averages, NIST SP 1065).
+  // Two holds at different rates, taken as separate stretches: the measured Allan deviation sits on
+  // the floor of the rates' counting noise, √(((R₁ + R₂)/2)/τ) for stretches of equal length.
+  it('is what Poisson counts at two different steady rates give', () => {
+    const rng = mulberry32(21);
+    const tau0 = 0.01;
+    const rates = [2_000, 8_000]; // counts/s
+    const stretches = rates.map((r) => Float64Array.from({ length: 2 ** 14 }, () => poisson(rng, r * tau0) / tau0));
+    const variances = stretches.map((s) => s.map((y) => y / tau0));
+    for (const p of allanDeviation(stretches, tau0).filter((q) => q.edf >= 20)) {
+      const floor = whiteNoiseFloor(variances, Math.round(p.tau / tau0))!;
+      expect(Math.abs(floor / Math.sqrt(5_000 / p.tau) - 1)).toBeLessThan(0.02);
+      expect(Math.abs(p.adev / floor - 1)).toBeLessThan(3 * (p.err / p.adev));
+    }
   });
 });

@@ -97,16 +97,31 @@ export function allanDeviation(stretches: readonly ArrayLike<number>[], tau0: nu
   return out;
 }
 
-/** The runs of consecutive non-null values of a bucketed series: a missing bucket ends a stretch. */
-export function contiguousStretches(values: readonly (number | null)[]): number[][] {
-  const out: number[][] = [];
-  let run: number[] = [];
-  for (const v of values) {
-    if (v === null) {
-      if (run.length) out.push(run);
-      run = [];
-    } else run.push(v);
+/**
+ * The Allan deviation at averaging factor m that white noise alone gives, from each value's own
+ * variance (`variances`, stretch by stretch as the values went to allanDeviation; overlapping
+ * terms, as allanAt's default): a term's second difference (S₂ − S₁)/m of two adjacent sums of m
+ * independent values has variance Σv_j/m² over its 2m values, so E[AVAR] = ⟨Σ_{2m} v_j⟩/(2m²)
+ * over the terms. With one variance v throughout that is v/m: for white FM noise the Allan
+ * variance is the ordinary variance of the τ-averages (Riley, NIST SP 1065 (2008), sec. 5.2 and
+ * its table of τ slopes, section from memory; Barnes et al., NBS Tech. Note 394 (1971)).
+ * For Poisson counts n_j read as rates n_j/τ₀ the variance is the mean (Poisson), v_j = R_j/τ₀,
+ * so at a steady rate R this is √(R/τ); at a rate that differs from stretch to stretch (two holds
+ * on different slopes of the fringe) it is what the counting noise of those rates gives. Null
+ * without a term.
+ */
+export function whiteNoiseFloor(variances: readonly ArrayLike<number>[], m: number): number | null {
+  let sum = 0;
+  let terms = 0;
+  for (const v of variances) {
+    const n = v.length;
+    if (n < 2 * m) continue;
+    const x = new Float64Array(n + 1);
+    for (let i = 0; i < n; i++) x[i + 1] = (x[i] as number) + (v[i] as number);
+    for (let i = 0; i + 2 * m <= n; i++) {
+      sum += (x[i + 2 * m] as number) - (x[i] as number);
+      terms++;
+    }
   }
-  if (run.length) out.push(run);
-  return out;
+  return terms === 0 ? null : Math.sqrt(sum / (2 * m * m * terms));
 }

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { heldPhaseStretches } from './held-phase.ts';
+import { heldPhaseStretches, heldStretches } from './held-phase.ts';
 
 // Two-output model N_a = η_a·(N/2)(1 + V cos θ) + d_a, N_b = η_b·(N/2)(1 − V cos θ) + d_b (Gerry &
 // Knight, Introductory Quantum Optics, ch. 6, from memory for the chapter): noiseless counts give
@@ -21,10 +21,10 @@ describe('phase while the drive held still', () => {
     const thetas = [0.6, 0.7, 0.8, 0.9];
     const c = thetas.map(countsAt);
     const [stretch] = heldPhaseStretches({ a: c.map((v) => v.a), b: c.map((v) => v.b), held: [5, 5, 5, 5] }, cal);
-    thetas.forEach((t, i) => expect(stretch![i]).toBeCloseTo(t, 9));
+    thetas.forEach((t, i) => expect(stretch!.phase[i]).toBeCloseTo(t, 9));
     // Without them the same counts read as another phase.
     const [naive] = heldPhaseStretches({ a: c.map((v) => v.a), b: c.map((v) => v.b), held: [5, 5, 5, 5] }, { visibility: V, efficiencyRatio: 1 });
-    expect(Math.abs(naive![0]! - 0.6)).toBeGreaterThan(0.1);
+    expect(Math.abs(naive!.phase[0]! - 0.6)).toBeGreaterThan(0.1);
   });
 
   it('ends a stretch where the drive moved, where it settled elsewhere and where either output is missing, keeping a and b on one time grid', () => {
@@ -32,6 +32,14 @@ describe('phase while the drive held still', () => {
     const a: (number | null)[] = [c.a, c.a, c.a, c.a, c.a, c.a, c.a, null, c.a, c.a];
     const b: (number | null)[] = [c.b, c.b, c.b, c.b, c.b, c.b, c.b, c.b, null, c.b];
     const held: (number | null)[] = [5, 5, null, 5, 5, 7, 7, 7, 7, 7];
-    expect(heldPhaseStretches({ a, b, held }, cal).map((s) => s.length)).toEqual([2, 2, 2, 1]);
+    expect(heldPhaseStretches({ a, b, held }, cal).map((s) => [s.run.start, s.phase.length])).toEqual([[0, 2], [3, 2], [5, 2], [9, 1]]);
+  });
+
+  it('gives a rate the same stretches: sweeps, moves between holds and gaps split it, and a still drive without positions (0) holds throughout', () => {
+    const values = [10, 11, 12, 13, null, 14, 15, 16, 17, 18];
+    const held = [5, 5, null, 5, 5, 5, 7, 7, 0, 0];
+    const { runs, stretches } = heldStretches(values, held);
+    expect(runs).toEqual([{ start: 0, end: 2 }, { start: 3, end: 4 }, { start: 5, end: 6 }, { start: 6, end: 8 }, { start: 8, end: 10 }]);
+    expect(stretches).toEqual([[10, 11], [13], [14], [15, 16], [17, 18]]);
   });
 });

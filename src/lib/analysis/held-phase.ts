@@ -1,7 +1,43 @@
-// The interferometer phase bucket by bucket while the drive held still, as contiguous stretches for
-// the Allan deviation: a bucket where the drive moved, one missing either output, or a new hold
-// position ends a stretch, so no difference spans a sweep or a gap and τ stays a true time.
+// The stretches of a bucketed series where the drive held still, for the Allan deviation: a bucket
+// where the drive moved, one without a value, or a new hold position ends a stretch, so no
+// difference spans a sweep, a gap or a move between holds and τ stays a true time. The phase takes
+// these stretches of the buckets with both outputs; each output's rate the same stretches of its own.
 import { phaseAtHold, unfoldPhase, type HoldCalibration } from './phase.ts';
+
+/** A stretch of consecutive usable buckets at one hold position: indices [start, end). */
+export interface HeldRun {
+  start: number;
+  end: number;
+}
+
+/**
+ * The runs of consecutive buckets that are `usable` and where the drive held through the bucket
+ * (`held`: its position there, null where it moved or is unknown), one position per run.
+ */
+export function heldRuns(usable: (i: number) => boolean, held: readonly (number | null)[]): HeldRun[] {
+  const out: HeldRun[] = [];
+  let start = -1;
+  let at: number | null = null;
+  for (let i = 0; i <= held.length; i++) {
+    const x = i < held.length ? (held[i] ?? null) : null;
+    const ok = x !== null && usable(i);
+    if (start >= 0 && (!ok || x !== at)) {
+      out.push({ start, end: i });
+      start = -1;
+    }
+    if (ok && start < 0) {
+      start = i;
+      at = x;
+    }
+  }
+  return out;
+}
+
+/** The held runs of a series with a value in every bucket of a run, as the values of each run. */
+export function heldStretches(values: readonly (number | null)[], held: readonly (number | null)[]): { runs: HeldRun[]; stretches: number[][] } {
+  const runs = heldRuns((i) => values[i] != null, held);
+  return { runs, stretches: runs.map((r) => values.slice(r.start, r.end) as number[]) };
+}
 
 export interface PhaseBuckets {
   /** Counts per bucket of each output on one time grid; null where nothing was stored. */
@@ -12,27 +48,15 @@ export interface PhaseBuckets {
 }
 
 /**
- * Unfolded phase (rad) of each stretch of consecutive usable buckets at one hold position. `cal`
- * carries the per-bucket dark counts. Unfolding runs within a stretch only: across a gap the phase
- * may have moved by any amount.
+ * Unfolded phase (rad) of each stretch of consecutive buckets with both outputs at one hold
+ * position, with the run of buckets it covers. `cal` carries the per-bucket dark counts.
+ * Unfolding runs within a stretch only: across a gap the phase may have moved by any amount.
  */
-export function heldPhaseStretches(buckets: PhaseBuckets, cal: HoldCalibration): Float64Array[] {
-  const out: Float64Array[] = [];
-  let run: number[] = [];
-  let at: number | null = null;
-  const close = () => {
-    if (run.length) out.push(unfoldPhase(run));
-    run = [];
-  };
-  for (let i = 0; i < buckets.held.length; i++) {
+export function heldPhaseStretches(buckets: PhaseBuckets, cal: HoldCalibration): { run: HeldRun; phase: Float64Array }[] {
+  const theta = buckets.held.map((_, i) => {
     const a = buckets.a[i] ?? null;
     const b = buckets.b[i] ?? null;
-    const x = buckets.held[i] ?? null;
-    const theta = a !== null && b !== null && x !== null ? phaseAtHold(a, b, cal).value : Number.NaN;
-    if (!Number.isFinite(theta) || x !== at) close();
-    at = x;
-    if (Number.isFinite(theta)) run.push(theta);
-  }
-  close();
-  return out;
+    return a !== null && b !== null ? phaseAtHold(a, b, cal).value : Number.NaN;
+  });
+  return heldRuns((i) => Number.isFinite(theta[i]), buckets.held).map((run) => ({ run, phase: unfoldPhase(theta.slice(run.start, run.end)) }));
 }

@@ -1,10 +1,14 @@
 // Stability of a bench over a time range: overlapping Allan deviation of each channel's rate and of
-// the interferometer phase, beside the white-Poisson reference √(R/τ) a rate cannot beat. Every
-// series is split at missing buckets and the Allan deviation pooled over the stretches, so no
-// difference spans a gap and τ is a true time.
-import { allanDeviation, contiguousStretches } from '../../analysis/allan.ts';
+// the interferometer phase, each beside the floor its counting noise alone gives (√(R/τ) for a
+// rate). Only buckets where the drive held still count, for the rates as for the phase: a sweep or
+// a move to a new hold changes the rates by the fringe's whole depth, and read as drift it put the
+// rate curves some 50× above their floor. Every series is split at missing buckets, moves and new
+// hold positions, and the Allan deviation pooled over the stretches, so no difference spans a gap
+// and τ is a true time.
+import { allanDeviation, whiteNoiseFloor, type AllanPoint } from '../../analysis/allan.ts';
 import { countsBeforeDeadTime } from '../../analysis/dead-time.ts';
-import { heldPhaseStretches } from '../../analysis/held-phase.ts';
+import { heldPhaseStretches, heldStretches } from '../../analysis/held-phase.ts';
+import { poissonQThroughDeadTime } from '../../analysis/photon-stats.ts';
 import { channelDeadTime } from '../../channel-calibration.ts';
 import type { RateStability, Stability } from '../../stability.ts';
 import { shownVisibility } from '../../sweep-visibility.ts';
@@ -18,9 +22,10 @@ import { latestSweep } from './sweeps-store.ts';
  * same, the live figures' test), else null; 0 stands for a gateway that sends no `x`, which has no
  * drive to move. Read from the raw bins whatever the step, since rollups keep no `x`; aggregated
  * in the database so a long range sends one row per bucket. Buckets without raw bins (past their
- * retention) are unknown, hence null.
+ * retention) are unknown, hence null, unless no raw bin of the range carries an `x`: a gateway
+ * without positions holds throughout. Null when the range has no raw bin of the gateway at all.
  */
-async function heldPositions(gatewayId: string, t0: number, step: number, points: number): Promise<(number | null)[]> {
+async function heldPositions(gatewayId: string, t0: number, step: number, points: number): Promise<(number | null)[] | null> {
   const end = t0 + points * step;
   const { rows } = await getDbHandle().pool.query<{ bucket: number; lo: number | null; hi: number | null; withx: number; bins: number }>(
     `with c as (
@@ -34,16 +39,26 @@ async function heldPositions(gatewayId: string, t0: number, step: number, points
       group by 1`,
     [gatewayId, t0, end, step],
   );
+  const inRange = rows.filter((r) => r.bucket >= 0 && r.bucket < points);
+  if (inRange.length === 0) return null;
+  if (inRange.every((r) => r.withx === 0)) return new Array<number | null>(points).fill(0);
   const held = new Array<number | null>(points).fill(null);
-  for (const r of rows) {
-    if (r.bucket < 0 || r.bucket >= points) continue;
+  for (const r of inRange) {
     if (r.withx === 0) held[r.bucket] = 0;
     else if (r.withx === r.bins && r.lo === r.hi) held[r.bucket] = r.lo;
   }
   return held;
 }
 
-/** Reads the range at `stepMs` and computes the Allan deviations (τ = step·2^k). */
+/** Each point with the floor white noise of the given variances gives at its τ. */
+function withFloor(points: AllanPoint[], variances: ArrayLike<number>[], tau0: number): (AllanPoint & { poissonLimit: number })[] {
+  return points.flatMap((p) => {
+    const floor = whiteNoiseFloor(variances, Math.round(p.tau / tau0));
+    return floor === null ? [] : [{ ...p, poissonLimit: floor }];
+  });
+}
+
+/** Reads the range at `stepMs` and computes the Allan deviations (τ = step·2^k) over the buckets where the drive held still. */
 export async function benchStability(benchId: string, from: number, to: number, stepMs: number): Promise<Stability> {
   const counts = await queryCounts(benchId, from, to, stepMs);
   const tau0 = stepMs / 1000;
@@ -56,31 +71,46 @@ export async function benchStability(benchId: string, from: number, to: number, 
     const slack = Object.hasOwn(counts.binMs, gateway) ? counts.binMs[gateway]! : 0;
     return col.map((v, i) => (v !== null && (covered[i] ?? 0) > counts.step - slack ? v : null));
   };
+  // Where each gateway's drive held still, read once per gateway.
+  const heldBy = new Map<string, Promise<(number | null)[] | null>>();
+  const heldOf = (gateway: string, points: number) => {
+    if (!heldBy.has(gateway)) heldBy.set(gateway, heldPositions(gateway, counts.t0, counts.step, points));
+    return heldBy.get(gateway)!;
+  };
+  const cals = await benchCalibrations(benchId);
   let missing = 0;
   const rates: RateStability[] = [];
   for (const info of counts.channelInfo) {
     const name = `${info.gateway}/${info.key}`;
+    const cal = cals.find((c) => c.gateway === info.gateway && c.key === info.key);
     const stored = counts.channels[name];
     if (!stored) continue;
     const col = whole(stored, info.gateway);
-    const stretches = contiguousStretches(col.map((v) => (v === null ? null : v / tau0)));
-    const present = stretches.reduce((n, s) => n + s.length, 0);
-    missing = Math.max(missing, col.length - present);
-    if (present < 4) continue;
-    const meanRate = stretches.reduce((sum, s) => s.reduce((a, b) => a + b, sum), 0) / present;
-    rates.push({
-      channel: name,
-      role: info.role,
-      meanRate,
-      points: allanDeviation(stretches, tau0).map((p) => ({ ...p, poissonLimit: Math.sqrt(meanRate / p.tau) })),
-    });
+    missing = Math.max(missing, col.filter((v) => v === null).length);
+    // Past raw retention the drive's state is unknown (rollups keep no positions): a range with no
+    // raw bin of the gateway left is read whole, sweeps and all, and says so; one with some reads
+    // the buckets whose holding is known.
+    const held = await heldOf(info.gateway, col.length);
+    const covers = held ? 'held' : 'whole';
+    const { runs, stretches } = heldStretches(col, held ?? col.map(() => 0));
+    const buckets = stretches.reduce((n, s) => n + s.length, 0);
+    if (buckets < 4) continue;
+    const rateStretches = stretches.map((s) => s.map((v) => v / tau0));
+    const meanRate = rateStretches.reduce((sum, s) => s.reduce((a, b) => a + b, sum), 0) / buckets;
+    // Poisson counts: the variance of a bucket's count is its mean, so its rate n/τ₀ has variance
+    // rate/τ₀ (the measured count standing for its mean). Through a dead time τ_d the counts are
+    // sub-Poissonian, variance n(1 − mτ_d)² at measured rate m (poissonQThroughDeadTime): 10 % less
+    // noise at an InGaAs detector's 10 kc/s behind 10 µs, so the floor takes it where one is set.
+    const dt = cal ? channelDeadTime(cal) : null;
+    const variances = rateStretches.map((s) => s.map((r) => (r / tau0) * (dt && r * dt.tau < 1 ? 1 + poissonQThroughDeadTime(r * dt.tau) : 1)));
+    const points = withFloor(allanDeviation(rateStretches, tau0), variances, tau0);
+    rates.push({ channel: name, role: info.role, covers, meanRate, buckets, stretches: runs.length, deadTime: dt !== null, points });
   }
 
   // Phase: both outputs on the same buckets, with the channel calibration the live figures use and
   // the visibility of the latest sweep fit before the range's end; dark counts come off exactly
   // when that visibility is the net (dark-subtracted) one, so the two agree.
   let phase: Stability['phase'] = null;
-  const cals = await benchCalibrations(benchId);
   const outA = cals.find((c) => c.role === 'out_a');
   const outB = cals.find((c) => c.role === 'out_b');
   const storedA = outA && counts.channels[`${outA.gateway}/${outA.key}`];
@@ -96,15 +126,29 @@ export async function benchStability(benchId: string, from: number, to: number, 
       darkA: net ? (outA.darkRate ?? 0) * tau0 : 0,
       darkB: net ? (outB.darkRate ?? 0) * tau0 : 0,
     };
-    const held = await heldPositions(outA.gateway, counts.t0, counts.step, a.length);
     // The fitted V is the true counts' where a dead time is set: so are the buckets it reads.
     const beforeDeadTime = (series: (number | null)[], c: typeof outA) => {
       const dt = channelDeadTime(c);
       return dt ? series.map((v) => (v === null ? null : countsBeforeDeadTime(v, tau0, dt.tau, dt.model))) : series;
     };
-    const stretches = heldPhaseStretches({ a: beforeDeadTime(a, outA), b: beforeDeadTime(b, outB), held }, cal);
-    const points = allanDeviation(stretches, tau0);
-    if (points.length) phase = { visibility, net, points, heldBuckets: stretches.reduce((n, s) => n + s.length, 0), stretches: stretches.length };
+    const trueA = beforeDeadTime(a, outA);
+    const trueB = beforeDeadTime(b, outB);
+    const held = await heldOf(outA.gateway, a.length);
+    const stretches = held ? heldPhaseStretches({ a: trueA, b: trueB, held }, cal) : [];
+    // The floor: 1/(V√N) per bucket for its N signal counts, the least phase noise any reading
+    // of two outputs at visibility V reaches (Cramér–Rao, the Fisher information per photon
+    // V²sin²φ/(1 − V²cos²φ) at its largest, V², at mid-fringe; references.md), and the live
+    // figures' "floor at this V". Away from mid-fringe counting noise alone reads above it. A
+    // bucket whose counts do not clear the darks counts as one signal count.
+    const variances = stretches.map(({ run }) =>
+      Float64Array.from({ length: run.end - run.start }, (_, k) => {
+        const i = run.start + k;
+        const signal = Math.max(1, trueA[i]! + trueB[i]! - cal.darkA - cal.darkB);
+        return 1 / (visibility * visibility * signal);
+      }),
+    );
+    const points = withFloor(allanDeviation(stretches.map((s) => s.phase), tau0), variances, tau0);
+    if (points.length) phase = { visibility, net, points, heldBuckets: stretches.reduce((n, s) => n + s.phase.length, 0), stretches: stretches.length };
   }
   return { from, to, tau0, rates, phase, missingBuckets: missing };
 }
