@@ -11,6 +11,21 @@ export const isImportGateway = (gatewayId: string): boolean => gatewayId.startsW
 /** The pseudo-gateway of a run; only an imported run has one. */
 export const importGatewayOf = (runId: number): string => `${IMPORT_GATEWAY_PREFIX}${runId}`;
 
+/** The imported run a pseudo-gateway stores; null for any other gateway. */
+export function importRunOf(gatewayId: string): number | null {
+  const id = gatewayId.slice(IMPORT_GATEWAY_PREFIX.length);
+  return isImportGateway(gatewayId) && /^\d{1,15}$/.test(id) ? Number(id) : null;
+}
+
+/**
+ * A channel's name where series of several recordings are drawn together (the history): an
+ * imported run's channels take the same labels as the live ones ("Output A"), so they name their run.
+ */
+export function seriesLabel(c: { gateway: string; label: string }): string {
+  const run = importRunOf(c.gateway);
+  return run === null ? c.label : `${c.label} (imported run ${run})`;
+}
+
 /** 50 MiB: about 2–3 million bins of a two-channel table, an afternoon at 10 ms bins. */
 export const MAX_IMPORT_BYTES = 50 * 1024 * 1024;
 

@@ -10,6 +10,7 @@ import { formatDateTime, formatRate, parseLocalInput } from '../../lib/client/fo
 import { timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
 import { channelColour, heraldScale, rateAxes, rateScales } from '../bench/RatesChart.tsx';
 import { ChartState } from '../charts/ChartState.tsx';
+import { seriesLabel } from '../../lib/import-shapes.ts';
 import { channelRates, pickStep, wholeBuckets } from './history-range.ts';
 import { StabilityCard } from './StabilityCard.tsx';
 import { SweepHistory } from './SweepHistory.tsx';
@@ -81,7 +82,8 @@ export default function HistoryView({ benchId, channels }: { benchId: string; ch
       axes: [timeAxis(p), ...rateAxes(p, channels)],
       series: [
         { label: 'time', value: timeLegendValue },
-        ...channels.map((c, i) => ({ label: c.label, stroke: channelColour(p, c.role, i), width: 1.25, points: { show: false }, value: (_u: uPlot, v: number | null) => formatRate(v), ...heraldScale(c) })),
+        // An imported run's channels share the live ones' labels: they name their run.
+        ...channels.map((c, i) => ({ label: seriesLabel(c), stroke: channelColour(p, c.role, i), width: 1.25, points: { show: false }, value: (_u: uPlot, v: number | null) => formatRate(v), ...heraldScale(c) })),
       ],
       hooks: {
         setSelect: [
