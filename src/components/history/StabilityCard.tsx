@@ -1,6 +1,8 @@
-// How steady a bench was over the history range: the overlapping Allan deviation of each output's
-// rate beside its white counting-noise floor √(R/τ), and of the phase when the server can derive
-// it, on log–log axes where white noise is a straight τ^(−1/2) line and drift turns the curve up.
+// How steady a bench was over a range (the history's, or a run's in its report): the overlapping
+// Allan deviation of each output's rate beside its white counting-noise floor √(R/τ), and of the
+// phase beside its floor 1/(V√N) when the server can derive it, on log–log axes where white noise
+// is a straight τ^(−1/2) line and drift turns the curve up. Both over the buckets where the drive
+// held still.
 import { useEffect, useMemo, useRef } from 'react';
 import type uPlot from 'uplot';
 import type { ViewChannel } from '../../lib/bench-view.ts';
@@ -8,8 +10,9 @@ import { fetchStability } from '../../lib/client/api.ts';
 import { useFetched } from '../../lib/client/use-fetched.ts';
 import { withAlpha, type ChartPalette } from '../../lib/client/chart-theme.ts';
 import { formatRate, formatRateTick } from '../../lib/client/format.ts';
-import { MIN_EDF, type AllanPoint } from '../../lib/analysis/allan.ts';
-import type { Stability } from '../../lib/stability.ts';
+import { MIN_EDF } from '../../lib/analysis/allan.ts';
+import { seriesLabel } from '../../lib/import-shapes.ts';
+import type { FlooredPoint, Stability } from '../../lib/stability.ts';
 import { ChartState } from '../charts/ChartState.tsx';
 import { errorBars } from '../charts/error-bars.ts';
 import { axis, useUPlot } from '../charts/useUPlot.ts';
@@ -90,40 +93,71 @@ function AllanChart(props: { curves: Curve[]; yLabel: string; yTick: (v: number)
   return <div ref={box} className="relative" style={{ minHeight: HEIGHT }} role="img" aria-label={props.label} data-testid={props.testId} />;
 }
 
-function measured(points: AllanPoint[]): Curve['points'] {
+function measured(points: FlooredPoint[]): Curve['points'] {
   return points.map((p) => ({ tau: p.tau, y: p.adev, lo: p.lo, hi: p.hi }));
 }
 
+function floor(points: FlooredPoint[]): Curve['points'] {
+  return points.map((p) => ({ tau: p.tau, y: p.poissonLimit }));
+}
+
+/** "1,234 buckets in 3 stretches". */
+function buckets(n: number, stretches: number): string {
+  return `${n.toLocaleString('en')} buckets in ${stretches} ${stretches === 1 ? 'stretch' : 'stretches'}`;
+}
+
+/** What the rate curves cover: one line when the outputs share their held buckets, else one per output. */
+function rateCover(outputs: Stability['rates'], channels: ViewChannel[]): string {
+  const texts = outputs.map((r) => buckets(r.buckets, r.stretches));
+  if (texts.every((t) => t === texts[0])) return texts[0] ?? '';
+  return outputs.map((r, i) => `${channels.find((c) => c.id === r.channel)?.label ?? r.channel} ${texts[i]}`).join('; ');
+}
+
+/** The history's stability card: reads the range's stability and draws it. */
 export function StabilityCard({ benchId, channels, from, to }: { benchId: string; channels: ViewChannel[]; from: number; to: number }) {
   const step = stabilityStep(to - from);
-  const { data: answer, loading, error } = useFetched<Stability>((signal) => fetchStability(benchId, from, to, step, signal), [benchId, from, to, step]);
+  const { data, loading, error } = useFetched<Stability>((signal) => fetchStability(benchId, from, to, step, signal), [benchId, from, to, step]);
+  return <StabilityView answer={data} loading={loading} error={error} channels={channels} title="Stability" />;
+}
 
+/**
+ * A stability answer as a card of two Allan charts (the output rates, the phase) with what they
+ * cover. `title` heads the card; the run report passes the answer it computed for the run.
+ */
+export function StabilityView(props: { answer: Stability | null; loading: boolean; error: string | null; channels: ViewChannel[]; title: string }) {
+  const { answer, loading, error, channels } = props;
+  const step = answer ? answer.tau0 * 1000 : null;
   // The two outputs only: their floors are what the interferometer's counting noise is judged by.
   const outputs = useMemo(() => (answer?.rates ?? []).filter((r) => r.role === 'out_a' || r.role === 'out_b'), [answer]);
   const rateCurves = useMemo((): Curve[] => outputs.flatMap((r, i): Curve[] => {
-    const label = channels.find((c) => c.id === r.channel)?.label ?? r.channel;
+    const c = channels.find((ch) => ch.id === r.channel);
+    const label = c ? seriesLabel(c) : r.channel;
     const colour = (p: ChartPalette) => channelColour(p, r.role as ViewChannel['role'], i);
     return [
-      { label, colour, points: measured(r.points) },
-      { label: `${label} floor √(R/τ)`, colour, floor: true, points: r.points.map((p) => ({ tau: p.tau, y: p.poissonLimit })) },
+      { label: r.covers === 'whole' ? `${label}, sweeps included` : label, colour, points: measured(r.points) },
+      { label: `${label} floor √(R/τ)${r.deadTime ? '·(1 − Rτ_d)' : ''}`, colour, floor: true, points: floor(r.points) },
     ];
   }), [outputs, channels]);
   const phase = answer?.phase ?? null;
-  const phaseCurves = useMemo((): Curve[] => (phase ? [{ label: 'phase', colour: (p) => p.accent, points: measured(phase.points) }] : []), [phase]);
+  const phaseCurves = useMemo((): Curve[] => (phase ? [
+    { label: 'phase', colour: (p) => p.accent, points: measured(phase.points) },
+    { label: 'floor 1/(V√N)', colour: (p) => p.accent, floor: true, points: floor(phase.points) },
+  ] : []), [phase]);
   const empty = !loading && !error && outputs.length === 0;
+  const whole = outputs.some((r) => r.covers === 'whole');
 
   return (
     <section className="card space-y-3" aria-labelledby="stab-h" data-testid="history-stability">
       <div>
         <div className="flex flex-wrap items-baseline justify-between gap-2">
-          <h2 id="stab-h" className="font-semibold">Stability</h2>
+          <h2 id="stab-h" className="font-semibold">{props.title}</h2>
           <p className="figure text-xs text-muted">
-            overlapping Allan deviation · τ₀ {step >= 1000 ? `${step / 1000} s` : `${step} ms`}
+            overlapping Allan deviation · τ₀ {step === null ? '–' : step >= 1000 ? `${step / 1000} s` : `${step} ms`}
             {answer && answer.missingBuckets > 0 && ` · ${answer.missingBuckets} buckets without a whole τ₀ of data: series split there`}
           </p>
         </div>
         <p className="mt-1 text-sm text-muted">
-          White counting noise falls as τ<sup>−½</sup> along the dashed floor √(R/τ); where a curve leaves the floor and turns up at long τ, the bench drifted (alignment, temperature, source power).
+          Only the buckets where the drive held still count, for the rates as for the phase: a sweep or a move to another hold runs the rates over the fringe's whole depth. White counting noise falls as τ<sup>−½</sup> along each dashed floor; where a curve leaves its floor at long τ, something changed during a hold: the phase drifting (at mid-fringe the rates follow it), alignment or source power.
         </p>
         <p className="mt-1 text-xs text-muted" data-testid="stability-bars">
           Bars: 68% χ² interval from the equivalent degrees of freedom for white noise (narrower than the truth where drift dominates). Averaging times with fewer than {MIN_EDF} degrees of freedom are left out, among them half the range, which rests on a single independent difference.
@@ -131,12 +165,19 @@ export function StabilityCard({ benchId, channels, from, to }: { benchId: string
       </div>
       <div className="grid gap-4 xl:grid-cols-2">
         <div>
-          <h3 className="mb-1 text-sm font-medium">Output rates</h3>
+          <h3 className="mb-1 text-sm font-medium">
+            Output rates
+            {outputs.length > 0 && (
+              <span className="figure font-normal text-muted" data-testid="stability-rates-cover">
+                {' '}· {whole ? 'no raw bins left to tell the holds: the whole range, sweeps included' : `drive held still: ${rateCover(outputs, channels)}`}
+              </span>
+            )}
+          </h3>
           <div className="relative">
             <AllanChart curves={rateCurves} yLabel="σ(τ), counts/s" yTick={formatRateTick} yValue={formatRate} label="Allan deviation of each output's rate against averaging time, with its shot-noise floor" testId="stability-rates-chart" />
             {(loading || error || empty) && (
               <ChartState error={!!error} testId="stability-state">
-                {error ? `Could not load stability: ${error}` : loading ? 'Loading…' : 'Too few counts in this range for a stability curve.'}
+                {error ? `Could not load stability: ${error}` : loading ? 'Loading…' : 'No output held still long enough in this range for a stability curve.'}
               </ChartState>
             )}
           </div>
@@ -146,15 +187,16 @@ export function StabilityCard({ benchId, channels, from, to }: { benchId: string
             Phase
             {phase && (
               <span className="figure font-normal text-muted">
-                {' '}· scaled by V = {phase.visibility.toFixed(3)} ({phase.net ? 'net of darks' : 'raw'}) · {phase.heldBuckets} buckets with the drive held still, in {phase.stretches} {phase.stretches === 1 ? 'stretch' : 'stretches'}
+                {' '}· scaled by V = {phase.visibility.toFixed(3)} ({phase.net ? 'net of darks' : 'raw'}) · drive held still: {buckets(phase.heldBuckets, phase.stretches)}
               </span>
             )}
           </h3>
           {phase ? (
-            <AllanChart curves={phaseCurves} yLabel="σ(τ), rad" yTick={(v) => String(Number(v.toPrecision(2)))} yValue={(v) => (v == null ? '–' : `${v.toPrecision(3)} rad`)} label="Allan deviation of the interferometer phase against averaging time" testId="stability-phase-chart" />
+            <AllanChart curves={phaseCurves} yLabel="σ(τ), rad" yTick={(v) => String(Number(v.toPrecision(2)))} yValue={(v) => (v == null ? '–' : `${v.toPrecision(3)} rad`)} label="Allan deviation of the interferometer phase against averaging time, with its counting-noise floor" testId="stability-phase-chart" />
           ) : (
             <p className="text-sm text-muted">{loading || error ? '–' : 'No phase for this range: it needs both outputs, a fitted pass for the visibility and the drive held still long enough.'}</p>
           )}
+          {phase && <p className="mt-1 text-xs text-muted">Floor: 1/(V√N) for the N signal counts of each bucket, the least noise a phase read from the two outputs can have (at mid-fringe; further from it counting noise alone reads higher). The shot-noise limit 1/√N lies lower by V.</p>}
         </div>
       </div>
     </section>
