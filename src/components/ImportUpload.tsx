@@ -194,7 +194,11 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
 
       {done && (
         <p role="status" className="rounded-md border border-good px-3 py-2 text-sm text-good">
-          Imported <span className="figure">{done.bins.toLocaleString('en')}</span> bins into run {done.runId} ({when(done.fromMs)} to {when(done.toMs)}).
+          Imported <span className="figure">{done.bins.toLocaleString('en')}</span> bins into{' '}
+          <a className="font-medium underline" href={`/runs/${done.runId}`} data-testid="imported-run">
+            run {done.runId}
+          </a>{' '}
+          ({when(done.fromMs)} to {when(done.toMs)}).
         </p>
       )}
     </div>

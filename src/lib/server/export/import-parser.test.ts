@@ -39,4 +39,9 @@ describe('CountsCsvReader', () => {
       { line: 4, message: 'no channel has a count in this row' },
     ]);
   });
+
+  it('after a refused row says only why it was refused, not also that the file has no data rows', () => {
+    expect(read(['t_ms,a,b', '1000,3,x']).reader.issues).toEqual([{ line: 2, message: 'b: "x" is not a count (integer 0…2^31−1)' }]);
+    expect(read(['t_ms,a,b']).reader.issues).toEqual([{ line: 1, message: 'no data rows' }]);
+  });
 });

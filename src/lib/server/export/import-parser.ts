@@ -59,7 +59,10 @@ export class CountsCsvReader {
   dt: number | null = null;
   firstT: number | null = null;
   lastT: number | null = null;
+  /** Rows read into the recording. */
   rows = 0;
+  /** Data rows in the file, refused ones too: a file whose rows were all refused is not one without rows. */
+  private dataRows = 0;
   /** From the export's `# wavelength_nm:` and `# bench:` lines; null in a plain table. */
   wavelengthNm: number | null = null;
   sourceBench: string | null = null;
@@ -98,6 +101,7 @@ export class CountsCsvReader {
     }
     if (fields.every((f) => f.trim() === '')) return;
     if (!this.header) return this.readHeader(fields.map((f) => f.trim()), line);
+    this.dataRows++;
     this.readRow(fields, line);
   }
 
@@ -233,7 +237,7 @@ export class CountsCsvReader {
   /** Call once after the last record. */
   end(lastLine: number): void {
     if (!this.header) this.issue(lastLine, 'no header row (t_ms,<channel>,…) found');
-    else if (this.rows === 0) this.issue(lastLine, 'no data rows');
+    else if (this.dataRows === 0) this.issue(lastLine, 'no data rows');
     else if (this.rows === 1 && !this.failed) this.issue(lastLine, 'one row only: the bin width needs at least two adjacent rows');
     else this.flush();
   }
