@@ -11,7 +11,8 @@ import { timeAxis, timeLegendValue, useUPlot } from '../charts/useUPlot.ts';
 import { channelColour, heraldScale, rateAxes, rateScales } from '../bench/RatesChart.tsx';
 import { ChartState } from '../charts/ChartState.tsx';
 import { seriesLabel } from '../../lib/import-shapes.ts';
-import { channelRates, pickStep, wholeBuckets } from './history-range.ts';
+import { channelRates, wholeBuckets } from './history-range.ts';
+import { pickStep } from '../../lib/time-steps.ts';
 import { StabilityCard } from './StabilityCard.tsx';
 import { SweepHistory } from './SweepHistory.tsx';
 

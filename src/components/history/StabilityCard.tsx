@@ -17,7 +17,7 @@ import { ChartState } from '../charts/ChartState.tsx';
 import { errorBars } from '../charts/error-bars.ts';
 import { axis, useUPlot } from '../charts/useUPlot.ts';
 import { channelColour } from '../bench/RatesChart.tsx';
-import { stabilityStep } from './history-range.ts';
+import { stabilityStep } from '../../lib/time-steps.ts';
 
 const HEIGHT = 260;
 

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { channelRates, pickStep, wholeBuckets } from './history-range.ts';
+import { channelRates, wholeBuckets } from './history-range.ts';
 
 // Rate = counts in a bucket / the time recorded in it (common practice for binned counting: counts over live time).
 describe('history buckets', () => {
@@ -33,9 +33,5 @@ describe('history buckets', () => {
     expect(channelRates(answer, 'gw/a', 5_000)).toEqual([null]);
     expect(channelRates(answer, 'other/a', 5_000)).toEqual([null]);
     expect(channelRates(answer, 'gw/b', 5_000)).toEqual([]);
-  });
-
-  it('keeps at most about one point per pixel', () => {
-    expect(pickStep(3_600_000, 1_200)).toBe(5_000);
   });
 });

@@ -5,7 +5,8 @@ import type { ViewChannel } from '../../lib/bench-view.ts';
 import { errorText, fetchCounts, type CountsAnswer } from '../../lib/client/api.ts';
 import { timeAxis, useUPlot } from '../charts/useUPlot.ts';
 import { channelColour, heraldScale, rateAxes, rateScales } from '../bench/RatesChart.tsx';
-import { channelRates, pickStep, wholeBuckets } from '../history/history-range.ts';
+import { channelRates, wholeBuckets } from '../history/history-range.ts';
+import { pickStep } from '../../lib/time-steps.ts';
 import { VisibilityTrend } from '../bench/VisibilityTrend.tsx';
 import type { Sweep } from '../../lib/client/api.ts';
 
