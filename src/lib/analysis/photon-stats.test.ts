@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { binomial, mulberry32, poisson } from '../../../simulators/random.ts';
-import { g2FromCoincidences, heraldedAlpha, mandelQ, poissonQThroughDeadTime } from './photon-stats.ts';
+import { alphaFromSums, BinProductSum, g2FromCoincidences, g2FromSums, heraldedAlpha, mandelQ, MandelQSums, poissonQThroughDeadTime } from './photon-stats.ts';
 import { detectorClicks } from './test-fixtures.ts';
 
 const BINS = 20_000;
@@ -214,5 +214,66 @@ describe('heralded anticorrelation α', () => {
 
   it('computes the published estimator N_GTR·N_G/(N_GT·N_GR) exactly', () => {
     expect(heraldedAlpha({ gates: [1000], gateTransmitted: [100], gateReflected: [50], triples: 2 })!.alpha.value).toBeCloseTo((2 * 1000) / (100 * 50), 12);
+  });
+});
+
+// A run's bins are read batch by batch: the sums taken bin by bin give what the whole series does.
+describe('photon statistics summed bin by bin', () => {
+  /** Mandel Q's estimate and error computed in two passes from the definitions (centred moments). */
+  function twoPassQ(counts: number[], follows: boolean[]): { q: number; err: number } {
+    const n = counts.length;
+    const mean = counts.reduce((a, b) => a + b, 0) / n;
+    const u: (number | null)[] = counts.map((c, i) => (i > 0 && follows[i] ? (c - counts[i - 1]!) ** 2 / 2 : null));
+    const us = u.filter((v): v is number => v !== null);
+    const s = us.reduce((a, b) => a + b, 0) / us.length;
+    const g0 = us.reduce((a, v) => a + (v - s) ** 2, 0) / us.length;
+    let g1 = 0;
+    let third = 0;
+    let triplets = 0;
+    for (let i = 2; i < n; i++) {
+      if (u[i] === null || u[i - 1] === null) continue;
+      g1 += (u[i]! - s) * (u[i - 1]! - s);
+      third += (counts[i - 1]! - (counts[i - 2]! + counts[i]!) / 2) ** 3;
+      triplets++;
+    }
+    g1 /= us.length;
+    const mu3 = (4 / 3) * (third / triplets);
+    const ratio = s / mean;
+    const varQ = (Math.max(0, g0 + 2 * g1) / us.length - (2 * ratio * mu3) / n + (ratio * ratio * s) / n) / (mean * mean);
+    return { q: ratio - 1, err: Math.sqrt(varQ) };
+  }
+
+  it('gives Mandel Q and its error as the two-pass definitions do, gaps included', () => {
+    const rng = mulberry32(31);
+    const counts = Array.from({ length: 5_000 }, (_, i) => poisson(rng, i < 2_500 ? 40 : 900));
+    const follows = counts.map((_, i) => i > 0 && i % 700 !== 0 && i !== 2_500);
+    const sums = new MandelQSums();
+    counts.forEach((c, i) => sums.add(c, follows[i]!));
+    const ref = twoPassQ(counts, follows);
+    const q = sums.result().q;
+    expect(q.value).toBeCloseTo(ref.q, 10);
+    expect(q.err / ref.err).toBeCloseTo(1, 9);
+    expect(sums.pairCount).toBe(follows.filter(Boolean).length);
+  });
+
+  it('adds g2(0)’s accidentals and α’s expected triples batch by batch', () => {
+    const rng = mulberry32(32);
+    const a = Array.from({ length: 400 }, () => poisson(rng, 30));
+    const b = Array.from({ length: 400 }, () => poisson(rng, 20));
+    const g = Array.from({ length: 400 }, () => poisson(rng, 300));
+    const whole = g2FromCoincidences({ counts1: a, counts2: b, binS: 0.01, coincidences: 17, windowS: 2e-9 })!;
+    const acc = new BinProductSum();
+    const expected = new BinProductSum();
+    for (const half of [[0, 200], [200, 400]] as const) {
+      for (let i = half[0]; i < half[1]; i++) {
+        acc.add(a[i]!, b[i]!, 0.01 / 2e-9);
+        expected.add(a[i]!, b[i]!, g[i]!);
+      }
+    }
+    const parts = g2FromSums(acc, 17)!;
+    expect(parts.g2.value / whole.g2.value).toBeCloseTo(1, 12);
+    expect(parts.g2.err / whole.g2.err).toBeCloseTo(1, 12);
+    const alpha = heraldedAlpha({ gates: g, gateTransmitted: a, gateReflected: b, triples: 3 })!;
+    expect(alphaFromSums(expected, 3)!.alpha.err / alpha.alpha.err).toBeCloseTo(1, 12);
   });
 });

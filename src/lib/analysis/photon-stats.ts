@@ -27,57 +27,91 @@ export interface MandelQ {
  * Poisson counts; checked by Monte Carlo in the tests.
  */
 export function mandelQ(counts: ArrayLike<number>, gapsBefore: readonly number[] = []): MandelQ {
-  const n = counts.length;
-  if (n < 4) throw new RangeError('Mandel Q needs at least 4 bins');
-  let mean = 0;
-  for (let i = 0; i < n; i++) mean += counts[i] as number;
-  mean /= n;
-  if (!(mean > 0)) throw new RangeError('Mandel Q is undefined without counts');
   // Bins i and i + 1 are neighbours in time unless a gap falls between them (`gapsBefore` holds the
   // index of each bin that follows one): those pairs are no difference over one bin.
-  const follows = new Uint8Array(n).fill(1);
-  for (const g of gapsBefore) if (g > 0 && g < n) follows[g] = 0;
-  let pairs = 0;
-  let variance = 0;
-  for (let i = 0; i + 1 < n; i++) {
-    if (!follows[i + 1]) continue;
-    const d = (counts[i + 1] as number) - (counts[i] as number);
-    variance += (d * d) / 2;
-    pairs++;
-  }
-  if (pairs < 3) throw new RangeError('Mandel Q needs at least 3 pairs of adjacent bins');
-  variance /= pairs;
-  // Autocovariances of y_i = (n_{i+1} − n_i)²/2 at lags 0 and 1 (further lags share no bin).
-  let g0 = 0;
-  let g1 = 0;
-  for (let i = 0; i + 1 < n; i++) {
-    if (!follows[i + 1]) continue;
-    const d = (counts[i + 1] as number) - (counts[i] as number);
-    const y = (d * d) / 2 - variance;
-    g0 += y * y;
-    if (i > 0 && follows[i]) {
-      const e = (counts[i] as number) - (counts[i - 1] as number);
-      g1 += y * ((e * e) / 2 - variance);
+  const gaps = new Set(gapsBefore);
+  const sums = new MandelQSums();
+  for (let i = 0; i < counts.length; i++) sums.add(counts[i] as number, i > 0 && !gaps.has(i));
+  return sums.result();
+}
+
+/**
+ * mandelQ's sums, taken bin by bin, so a run's millions of bins need not be held at once (the run
+ * report reads them batch by batch). `add` each bin in time order, saying whether it follows the
+ * previous one as its neighbour in time (no gap, and for a run the drive at the same position).
+ * The centred moments are expanded into plain sums (Σ(u − s)² = Σu² − 2sΣu + k·s²), which
+ * loses nothing here: the terms are of one size and their spread is of the order of their mean.
+ */
+export class MandelQSums {
+  private bins = 0;
+  private total = 0;
+  private pairs = 0;
+  private sumU = 0;
+  private sumU2 = 0;
+  /** Adjacent pairs of differences (they share a bin): their count, Σ u·u′ and Σ(u + u′). */
+  private lagPairs = 0;
+  private sumUU = 0;
+  private sumULag = 0;
+  private third = 0;
+  private triplets = 0;
+  /** The last two bins, whether the last followed its predecessor, and its difference's u. */
+  private last = 0;
+  private beforeLast = 0;
+  private lastFollows = false;
+  private lastU = 0;
+
+  /** One bin's count; `follows`: it is the previous bin's neighbour in time. */
+  add(count: number, follows: boolean): void {
+    const pair = follows && this.bins > 0;
+    if (pair) {
+      const d = count - this.last;
+      const u = (d * d) / 2;
+      this.pairs++;
+      this.sumU += u;
+      this.sumU2 += u * u;
+      if (this.lastFollows) {
+        this.lagPairs++;
+        this.sumUU += u * this.lastU;
+        this.sumULag += u + this.lastU;
+        const e = this.last - (this.beforeLast + count) / 2;
+        this.third += e * e * e;
+        this.triplets++;
+      }
+      this.lastU = u;
     }
+    this.lastFollows = pair;
+    this.beforeLast = this.last;
+    this.last = count;
+    this.bins++;
+    this.total += count;
   }
-  g0 /= pairs;
-  g1 /= pairs;
-  let third = 0;
-  let triplets = 0;
-  for (let i = 1; i + 1 < n; i++) {
-    if (!follows[i] || !follows[i + 1]) continue;
-    const e = (counts[i] as number) - ((counts[i - 1] as number) + (counts[i + 1] as number)) / 2;
-    third += e * e * e;
-    triplets++;
+
+  /** Q of the bins added so far (mandelQ's estimate and error); throws where mandelQ would. */
+  result(): MandelQ {
+    const n = this.bins;
+    if (n < 4) throw new RangeError('Mandel Q needs at least 4 bins');
+    const mean = this.total / n;
+    if (!(mean > 0)) throw new RangeError('Mandel Q is undefined without counts');
+    const pairs = this.pairs;
+    if (pairs < 3) throw new RangeError('Mandel Q needs at least 3 pairs of adjacent bins');
+    const variance = this.sumU / pairs;
+    // Autocovariances of y_i = (n_{i+1} − n_i)²/2 at lags 0 and 1 (further lags share no bin).
+    const g0 = (this.sumU2 - 2 * variance * this.sumU + pairs * variance * variance) / pairs;
+    const g1 = (this.sumUU - variance * this.sumULag + this.lagPairs * variance * variance) / pairs;
+    const mu3 = this.triplets > 0 ? (4 / 3) * (this.third / this.triplets) : 0;
+    const varS = Math.max(0, g0 + 2 * g1) / pairs;
+    const varMean = variance / n;
+    const covSMean = mu3 / n;
+    // Q + 1 = s²/n̄.
+    const ratio = variance / mean;
+    const varQ = (varS - 2 * ratio * covSMean + ratio * ratio * varMean) / (mean * mean);
+    return { q: { value: ratio - 1, err: Math.sqrt(Math.max(0, varQ)) }, mean, variance, bins: n };
   }
-  const mu3 = triplets > 0 ? (4 / 3) * (third / triplets) : 0;
-  const varS = Math.max(0, g0 + 2 * g1) / pairs;
-  const varMean = variance / n;
-  const covSMean = mu3 / n;
-  // Q + 1 = s²/n̄.
-  const ratio = variance / mean;
-  const varQ = (varS - 2 * ratio * covSMean + ratio * ratio * varMean) / (mean * mean);
-  return { q: { value: ratio - 1, err: Math.sqrt(Math.max(0, varQ)) }, mean, variance, bins: n };
+
+  /** Pairs of neighbouring bins so far: at least 3 give a Q. */
+  get pairCount(): number {
+    return this.pairs;
+  }
 }
 
 /**
@@ -122,22 +156,22 @@ export interface G2Result {
 }
 
 /**
- * Σᵢ aᵢbᵢ/cᵢ over bins with cᵢ > 0, and its variance with every count an independent Poisson
- * variable (which overstates it a little where the counts are correlated: conservative).
+ * Σᵢ aᵢbᵢ/cᵢ over bins with cᵢ > 0, taken bin by bin (a run's bins batch by batch), with its
+ * variance with every count an independent Poisson variable (which overstates it a little where the
+ * counts are correlated: conservative), and Σ(aᵢbᵢ)²/cᵢ³, the variance the cᵢ add where they are
+ * counts too (∂(ab/c)/∂c = −ab/c²).
  */
-function binProductSum(a: ArrayLike<number>, b: ArrayLike<number>, c: (i: number) => number): { sum: number; variance: number } {
-  if (a.length !== b.length) throw new RangeError('singles series of unequal length');
-  let sum = 0;
-  let variance = 0;
-  for (let i = 0; i < a.length; i++) {
-    const ci = c(i);
-    if (!(ci > 0)) continue;
-    const ai = a[i] as number;
-    const bi = b[i] as number;
-    sum += (ai * bi) / ci;
-    variance += (bi * bi * ai + ai * ai * bi) / (ci * ci);
+export class BinProductSum {
+  sum = 0;
+  variance = 0;
+  divisorVariance = 0;
+
+  add(a: number, b: number, c: number): void {
+    if (!(c > 0)) return;
+    this.sum += (a * b) / c;
+    this.variance += (b * b * a + a * a * b) / (c * c);
+    this.divisorVariance += (a * b) ** 2 / (c * c * c);
   }
-  return { sum, variance };
 }
 
 /**
@@ -149,7 +183,14 @@ function binProductSum(a: ArrayLike<number>, b: ArrayLike<number>, c: (i: number
 export function g2FromCoincidences(input: CoincidenceInput): G2Result | null {
   const { counts1, counts2, binS, coincidences, windowS } = input;
   if (!(binS > 0 && windowS > 0)) throw new RangeError('bin width and window must be positive');
-  const products = binProductSum(counts1, counts2, () => binS / windowS);
+  if (counts1.length !== counts2.length) throw new RangeError('singles series of unequal length');
+  const accidentals = new BinProductSum();
+  for (let i = 0; i < counts1.length; i++) accidentals.add(counts1[i] as number, counts2[i] as number, binS / windowS);
+  return g2FromSums(accidentals, coincidences);
+}
+
+/** g2FromCoincidences from the accidentals summed bin by bin (each bin's n₁n₂ over Δt/τ_c). */
+export function g2FromSums(products: BinProductSum, coincidences: number): G2Result | null {
   const accidentals = products.sum;
   // Singles that never share a bin give no accidentals to compare with: no g2(0) from these data.
   if (!(accidentals > 0)) return null;
@@ -183,22 +224,31 @@ export interface HeraldedInput {
  * the Poisson variances of the counts treated as independent, which slightly overstates it
  * (N_GTR ⊂ N_GT): conservative.
  */
-export function heraldedAlpha(input: HeraldedInput): { alpha: Measured; triplesInterval: { lower: number; upper: number } } | null {
+export function heraldedAlpha(input: HeraldedInput): HeraldedAlpha | null {
   const { gates, gateTransmitted, gateReflected, triples } = input;
-  if (gates.length !== gateTransmitted.length) throw new RangeError('gate series of unequal length');
-  const expected = binProductSum(gateTransmitted, gateReflected, (i) => gates[i] as number);
-  // The gates' own Poisson variance: ∂(tr/g)/∂g = −tr/g².
-  let gateVariance = 0;
-  for (let i = 0; i < gates.length; i++) {
-    const g = gates[i] as number;
-    if (g > 0) gateVariance += ((gateTransmitted[i] as number) * (gateReflected[i] as number)) ** 2 / g ** 3;
-  }
+  if (gates.length !== gateTransmitted.length || gates.length !== gateReflected.length) throw new RangeError('gate series of unequal length');
+  const expected = new BinProductSum();
+  for (let i = 0; i < gates.length; i++) expected.add(gateTransmitted[i] as number, gateReflected[i] as number, gates[i] as number);
+  return alphaFromSums(expected, triples);
+}
+
+export interface HeraldedAlpha {
+  alpha: Measured;
+  /** Garwood 1σ interval on α from the triples alone. */
+  triplesInterval: { lower: number; upper: number };
+  /** Triples expected without anticorrelation, Σᵢ N_GT,ᵢN_GR,ᵢ/N_G,ᵢ. */
+  expected: number;
+}
+
+/** heraldedAlpha from the expected triples summed bin by bin (each bin's N_GT·N_GR over N_G). */
+export function alphaFromSums(expected: BinProductSum, triples: number): HeraldedAlpha | null {
   // No bin with a gate and both twofolds: no expected triples, no α from these data.
   if (!(expected.sum > 0)) return null;
   const scale = 1 / expected.sum;
   const alpha = triples * scale;
-  const relVar = (expected.variance + gateVariance) * scale * scale;
+  // The gates' own Poisson variance adds to the twofolds'.
+  const relVar = (expected.variance + expected.divisorVariance) * scale * scale;
   const err = Math.sqrt(triples * scale * scale + alpha * alpha * relVar);
   const ci = garwoodInterval(Math.round(triples));
-  return { alpha: { value: alpha, err }, triplesInterval: { lower: ci.lower * scale, upper: ci.upper * scale } };
+  return { alpha: { value: alpha, err }, triplesInterval: { lower: ci.lower * scale, upper: ci.upper * scale }, expected: expected.sum };
 }
