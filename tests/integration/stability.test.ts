@@ -139,6 +139,8 @@ async function seedPhaseBench() {
     .values([
       { gatewayId: PH_GW, key: 'a', benchId: PH, role: 'out_a', efficiency: ETA_A, darkRate: DARK_A, darkRateErr: 5 },
       { gatewayId: PH_GW, key: 'b', benchId: PH, role: 'out_b', efficiency: ETA_B, darkRate: DARK_B, darkRateErr: 5 },
+      // A channel with no bins in the range (as an import's is outside its run): no series, so no missing buckets.
+      { gatewayId: PH_GW, key: 'z', benchId: PH, role: 'aux' },
     ]);
   const rng = mulberry32(11);
   const rows = [];

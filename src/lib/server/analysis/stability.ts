@@ -86,7 +86,10 @@ export async function benchStability(benchId: string, from: number, to: number, 
     const stored = counts.channels[name];
     if (!stored) continue;
     const col = whole(stored, info.gateway);
-    missing = Math.max(missing, col.filter((v) => v === null).length);
+    // A channel with nothing in the range (an import's, another recording's) is not a series with gaps.
+    const absent = col.filter((v) => v === null).length;
+    if (absent === col.length) continue;
+    missing = Math.max(missing, absent);
     // Past raw retention the drive's state is unknown (rollups keep no positions): a range with no
     // raw bin of the gateway left is read whole, sweeps and all, and says so; one with some reads
     // the buckets whose holding is known.
