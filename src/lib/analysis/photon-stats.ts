@@ -112,6 +112,11 @@ export class MandelQSums {
   get pairCount(): number {
     return this.pairs;
   }
+
+  /** Mean count per bin so far (0 before any): a Q needs it above 0. */
+  get mean(): number {
+    return this.bins > 0 ? this.total / this.bins : 0;
+  }
 }
 
 /**

@@ -9,7 +9,7 @@ import { allanDeviation, whiteNoiseFloor, type AllanPoint } from '../../analysis
 import { countsBeforeDeadTime } from '../../analysis/dead-time.ts';
 import { heldPhaseStretches, heldStretches } from '../../analysis/held-phase.ts';
 import { poissonQThroughDeadTime } from '../../analysis/photon-stats.ts';
-import { channelDeadTime } from '../../channel-calibration.ts';
+import { channelDeadTime, type ChannelCalibration } from '../../channel-calibration.ts';
 import type { RateStability, Stability } from '../../stability.ts';
 import { shownVisibility } from '../../sweep-visibility.ts';
 import { benchCalibrations } from '../benches.ts';
@@ -58,8 +58,12 @@ function withFloor(points: AllanPoint[], variances: ArrayLike<number>[], tau0: n
   });
 }
 
-/** Reads the range at `stepMs` and computes the Allan deviations (τ = step·2^k) over the buckets where the drive held still. */
-export async function benchStability(benchId: string, from: number, to: number, stepMs: number): Promise<Stability> {
+/**
+ * Reads the range at `stepMs` and computes the Allan deviations (τ = step·2^k) over the buckets
+ * where the drive held still. `channels`: the calibrations and roles to read by, the bench's own
+ * when unset (a run report passes its run's, where an imported run's channels are its outputs).
+ */
+export async function benchStability(benchId: string, from: number, to: number, stepMs: number, opts: { channels?: ChannelCalibration[] } = {}): Promise<Stability> {
   const counts = await queryCounts(benchId, from, to, stepMs);
   const tau0 = stepMs / 1000;
   // A bucket recorded only in part (a gap's edge) is no sample over τ₀: its sum would read as a
@@ -77,7 +81,7 @@ export async function benchStability(benchId: string, from: number, to: number, 
     if (!heldBy.has(gateway)) heldBy.set(gateway, heldPositions(gateway, counts.t0, counts.step, points));
     return heldBy.get(gateway)!;
   };
-  const cals = await benchCalibrations(benchId);
+  const cals = opts.channels ?? (await benchCalibrations(benchId));
   let missing = 0;
   const rates: RateStability[] = [];
   for (const info of counts.channelInfo) {
@@ -107,7 +111,7 @@ export async function benchStability(benchId: string, from: number, to: number, 
     const dt = cal ? channelDeadTime(cal) : null;
     const variances = rateStretches.map((s) => s.map((r) => (r / tau0) * (dt && r * dt.tau < 1 ? 1 + poissonQThroughDeadTime(r * dt.tau) : 1)));
     const points = withFloor(allanDeviation(rateStretches, tau0), variances, tau0);
-    rates.push({ channel: name, role: info.role, covers, meanRate, buckets, stretches: runs.length, deadTime: dt !== null, points });
+    rates.push({ channel: name, role: cal?.role ?? info.role, covers, meanRate, buckets, stretches: runs.length, deadTime: dt !== null, points });
   }
 
   // Phase: both outputs on the same buckets, with the channel calibration the live figures use and
