@@ -44,14 +44,16 @@ describe('a note’s snapshot', () => {
   it('shows α with its error on a heralded bench, the outputs’ Mandel Q and the phase noise against shot noise', () => {
     expect(snapshotLines(base)).toEqual([
       'Output A 23.80 kc/s · Output B 13.29 kc/s · V 0.96990 ± 0.00051 · φ 1.2085 ± 0.0054 rad',
-      'heralded α 0.01368 ± 0.00093 · Mandel Q Output A -0.038 ± 0.051, Output B -0.113 ± 0.051 · phase noise 0.889 ± 0.063 × shot noise (46.19 against 51.95 mrad per 10 ms bin)',
+      'heralded α 0.01368 ± 0.00093 · Mandel Q: Output A -0.038 ± 0.051, Output B -0.113 ± 0.051',
+      'phase noise 0.889 ± 0.063 × shot noise: 46.19 against 51.95 mrad per 10 ms bin',
     ].map((l) => l.replaceAll(' ± ', PLUS_MINUS)));
   });
 
   it('shows g²(0) and its window on a laser bench, and says why φ and the phase noise are missing while the drive moves', () => {
     const lines = snapshotLines({ ...base, alpha: null, g2: { value: 0.989, err: 0.058, accidentals: 298 }, holding: false, phase: null, shotNoise: null });
     expect(lines[0]).toMatch(/V 0\.96990.*· drive moving$/);
-    expect(lines[1]).toBe(`g²(0) 0.989${PLUS_MINUS}0.058 (window 2.0 ns) · Mandel Q Output A -0.038${PLUS_MINUS}0.051, Output B -0.113${PLUS_MINUS}0.051`);
+    expect(lines).toHaveLength(2);
+    expect(lines[1]).toBe(`g²(0) 0.989${PLUS_MINUS}0.058 (window 2.0 ns) · Mandel Q: Output A -0.038${PLUS_MINUS}0.051, Output B -0.113${PLUS_MINUS}0.051`);
   });
 
   it('formats an older snapshot without the later fields, and leaves out an empty line', () => {

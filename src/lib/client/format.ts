@@ -111,11 +111,10 @@ export function formatDuration(ms: number): string {
 }
 
 /**
- * The figures attached to a note, as the bench page showed them when it was taken, in two lines:
- * the fringe (output rates, V, φ) and the light and the phase noise (α with a herald, else
- * g²(0); each output's Mandel Q; the phase noise against the shot-noise limit while the drive
- * held). A figure the snapshot lacks (none then, or stored before it existed) is left out, and so
- * is a line with none.
+ * The figures attached to a note, as the bench page showed them when it was taken, a line each for
+ * the fringe (output rates, V, φ), the light (α with a herald, else g²(0); each output's Mandel
+ * Q) and the phase noise against the shot-noise limit while the drive held. A figure the snapshot
+ * lacks (none then, or stored before it existed) is left out, and so is a line with none.
  */
 export function snapshotLines(s: BenchFigures): string[] {
   const outputs = s.channels.filter((c) => c.role === 'out_a' || c.role === 'out_b');
@@ -129,11 +128,12 @@ export function snapshotLines(s: BenchFigures): string[] {
   if (s.alpha) light.push(`heralded α ${formatValueErr(s.alpha)}`);
   if (s.g2) light.push(`g²(0) ${formatValueErr(s.g2)}${s.coincidenceWindowNs !== undefined ? ` (${formatWindow(s.coincidenceWindowNs)})` : ''}`);
   const q = outputs.filter((c) => c.mandelQ);
-  if (q.length) light.push(`Mandel Q ${q.map((c) => `${c.label} ${formatValueErr(c.mandelQ)}`).join(', ')}`);
+  if (q.length) light.push(`Mandel Q: ${q.map((c) => `${c.label} ${formatValueErr(c.mandelQ)}`).join(', ')}`);
+  const noise: string[] = [];
   const sn = s.shotNoise;
   if (sn && s.holding !== false) {
     const ratio = sn.ratioErr !== undefined ? formatValueErr({ value: sn.ratio, err: sn.ratioErr }) : sn.ratio.toFixed(2);
-    light.push(`phase noise ${ratio} × shot noise (${(sn.measuredRad * 1000).toFixed(2)} against ${(sn.limitRad * 1000).toFixed(2)} mrad${sn.binMs ? ` per ${sn.binMs} ms bin` : ''})`);
+    noise.push(`phase noise ${ratio} × shot noise: ${(sn.measuredRad * 1000).toFixed(2)} against ${(sn.limitRad * 1000).toFixed(2)} mrad${sn.binMs ? ` per ${sn.binMs} ms bin` : ''}`);
   }
-  return [fringe, light].filter((l) => l.length > 0).map((l) => l.join(' · '));
+  return [fringe, light, noise].filter((l) => l.length > 0).map((l) => l.join(' · '));
 }
