@@ -55,8 +55,10 @@ function decimalsFor(err: number): number {
   return Math.min(6, Math.max(0, 1 - Math.floor(Math.log10(err))));
 }
 
+const NBSP = '\u00a0';
+
 /** Between a value and its uncertainty: no-break spaces, so a narrow column never puts "± 0.0008" on a line of its own. */
-export const PLUS_MINUS = '\u00a0±\u00a0';
+export const PLUS_MINUS = `${NBSP}±${NBSP}`;
 
 /** "0.9712 ± 0.0031"; "–" when absent. */
 export function formatValueErr(v: { value: number; err: number } | null | undefined, fixedDecimals?: number): string {
@@ -117,23 +119,26 @@ export function formatDuration(ms: number): string {
  * lacks (none then, or stored before it existed) is left out, and so is a line with none.
  */
 export function snapshotLines(s: BenchFigures): string[] {
+  // A figure never wraps inside itself ("φ" on one line, its value on the next): lines break
+  // between figures only.
+  const whole = (text: string) => text.replaceAll(' ', NBSP);
   const outputs = s.channels.filter((c) => c.role === 'out_a' || c.role === 'out_b');
-  const fringe = outputs.map((c) => `${c.label} ${formatRate(c.rateRaw)}`);
-  if (s.visibility) fringe.push(`V ${formatValueErr(s.visibility)}${s.visibility.net ? ' net' : ''}`);
-  if (s.phase) fringe.push(`φ ${formatValueErr(s.phase)} rad`);
+  const fringe = outputs.map((c) => whole(`${c.label} ${formatRate(c.rateRaw)}`));
+  if (s.visibility) fringe.push(whole(`V ${formatValueErr(s.visibility)}${s.visibility.net ? ' net' : ''}`));
+  if (s.phase) fringe.push(whole(`φ ${formatValueErr(s.phase)} rad`));
   // Why φ and the phase noise are missing: they are read only while the drive holds still.
-  if (s.holding === false) fringe.push('drive moving');
+  if (s.holding === false) fringe.push(whole('drive moving'));
   const light: string[] = [];
   // A heralded bench is judged by α (its figures carry no g²(0)); a laser bench by g²(0).
-  if (s.alpha) light.push(`heralded α ${formatValueErr(s.alpha)}`);
-  if (s.g2) light.push(`g²(0) ${formatValueErr(s.g2)}${s.coincidenceWindowNs !== undefined ? ` (${formatWindow(s.coincidenceWindowNs)})` : ''}`);
+  if (s.alpha) light.push(whole(`heralded α ${formatValueErr(s.alpha)}`));
+  if (s.g2) light.push(whole(`g²(0) ${formatValueErr(s.g2)}${s.coincidenceWindowNs !== undefined ? ` (${formatWindow(s.coincidenceWindowNs)})` : ''}`));
   const q = outputs.filter((c) => c.mandelQ);
-  if (q.length) light.push(`Mandel Q: ${q.map((c) => `${c.label} ${formatValueErr(c.mandelQ)}`).join(', ')}`);
+  if (q.length) light.push(`Mandel${NBSP}Q:${NBSP}${q.map((c) => whole(`${c.label} ${formatValueErr(c.mandelQ)}`)).join(', ')}`);
   const noise: string[] = [];
   const sn = s.shotNoise;
   if (sn && s.holding !== false) {
     const ratio = sn.ratioErr !== undefined ? formatValueErr({ value: sn.ratio, err: sn.ratioErr }) : sn.ratio.toFixed(2);
-    noise.push(`phase noise ${ratio} × shot noise: ${(sn.measuredRad * 1000).toFixed(2)} against ${(sn.limitRad * 1000).toFixed(2)} mrad${sn.binMs ? ` per ${sn.binMs} ms bin` : ''}`);
+    noise.push(`${whole(`phase noise ${ratio} × shot noise:`)} ${whole(`${(sn.measuredRad * 1000).toFixed(2)} against ${(sn.limitRad * 1000).toFixed(2)} mrad${sn.binMs ? ` per ${sn.binMs} ms bin` : ''}`)}`);
   }
   return [fringe, light, noise].filter((l) => l.length > 0).map((l) => l.join(' · '));
 }
