@@ -131,6 +131,8 @@ describe('bench live view', () => {
     expect(await page.getByRole('list', { name: 'Notes' }).textContent()).toMatch(/\/s/);
     await screenshotBothThemes(page, 'bench-run');
     await page.getByRole('button', { name: 'Stop run' }).click();
+    // Stopping asks first (src/lib/confirmations.ts); the dialog's own button goes ahead.
+    await page.getByRole('dialog', { name: 'Stop the run “Screenshot run”?' }).getByRole('button', { name: 'Stop run' }).click();
     await page.getByLabel('Run title').waitFor();
 
     for (const [name, path] of [
