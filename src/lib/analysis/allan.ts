@@ -52,8 +52,7 @@ export function allanAt(stretches: readonly ArrayLike<number>[], tau0: number, m
   for (const y of stretches) {
     const n = y.length;
     if (n < 2 * m) continue;
-    const x = new Float64Array(n + 1);
-    for (let i = 0; i < n; i++) x[i + 1] = (x[i] as number) + (y[i] as number);
+    const x = runningSum(y);
     if (overlapping) {
       for (let i = 0; i + 2 * m <= n; i++) {
         const d = ((x[i + 2 * m] as number) - 2 * (x[i + m] as number) + (x[i] as number)) / m;
@@ -116,12 +115,18 @@ export function whiteNoiseFloor(variances: readonly ArrayLike<number>[], m: numb
   for (const v of variances) {
     const n = v.length;
     if (n < 2 * m) continue;
-    const x = new Float64Array(n + 1);
-    for (let i = 0; i < n; i++) x[i + 1] = (x[i] as number) + (v[i] as number);
+    const x = runningSum(v);
     for (let i = 0; i + 2 * m <= n; i++) {
       sum += (x[i + 2 * m] as number) - (x[i] as number);
       terms++;
     }
   }
   return terms === 0 ? null : Math.sqrt(sum / (2 * m * m * terms));
+}
+
+/** x_0 = 0, x_{i+1} = x_i + y_i: sums over any run of values as one difference. */
+function runningSum(y: ArrayLike<number>): Float64Array {
+  const x = new Float64Array(y.length + 1);
+  for (let i = 0; i < y.length; i++) x[i + 1] = (x[i] as number) + (y[i] as number);
+  return x;
 }
