@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import type { BenchFigures, ChannelFigures } from '../bench-figures.ts';
-import { formatDateTime, parseLocalInput, snapshotLines } from './format.ts';
+import { formatDateTime, formatValueErr, parseLocalInput, PLUS_MINUS, snapshotLines } from './format.ts';
 
 describe('local time fields', () => {
   it('shows a time as YYYY-MM-DD HH:MM, 24 h, and reads it back', () => {
@@ -47,7 +47,7 @@ describe('a note’s snapshot', () => {
     expect(lines[0]).toContain('φ\u00a01.2085');
     expect(lines.map((l) => l.replaceAll('\u00a0', ' '))).toEqual([
       'Output A 23.80 kc/s · Output B 13.29 kc/s · V 0.96990 ± 0.00051 · φ 1.2085 ± 0.0054 rad',
-      'heralded α 0.01368 ± 0.00093 · Mandel Q: Output A -0.038 ± 0.051, Output B -0.113 ± 0.051',
+      'heralded α 0.01368 ± 0.00093 · Mandel Q: Output A −0.038 ± 0.051, Output B −0.113 ± 0.051',
       'phase noise 0.889 ± 0.063 × shot noise: 46.19 against 51.95 mrad per 10 ms bin',
     ]);
   });
@@ -56,11 +56,17 @@ describe('a note’s snapshot', () => {
     const lines = snapshotLines({ ...base, alpha: null, g2: { value: 0.989, err: 0.058, accidentals: 298 }, holding: false, phase: null, shotNoise: null }).map((l) => l.replaceAll('\u00a0', ' '));
     expect(lines[0]).toMatch(/V 0\.96990.*· drive moving$/);
     expect(lines).toHaveLength(2);
-    expect(lines[1]).toBe('g²(0) 0.989 ± 0.058 (window 2.0 ns) · Mandel Q: Output A -0.038 ± 0.051, Output B -0.113 ± 0.051');
+    expect(lines[1]).toBe('g²(0) 0.989 ± 0.058 (window 2.0 ns) · Mandel Q: Output A −0.038 ± 0.051, Output B −0.113 ± 0.051');
   });
 
   it('formats an older snapshot without the later fields, and leaves out an empty line', () => {
     const old = { ...base, channels: base.channels.map((c) => ({ ...c, mandelQ: null })), alpha: null, shotNoise: null, holding: undefined, coincidenceWindowNs: undefined };
     expect(snapshotLines(old).map((l) => l.replaceAll('\u00a0', ' '))).toEqual(['Output A 23.80 kc/s · Output B 13.29 kc/s · V 0.96990 ± 0.00051 · φ 1.2085 ± 0.0054 rad']);
+  });
+});
+
+describe('formatValueErr', () => {
+  it('writes a negative value with a true minus sign, as formatNumber does', () => {
+    expect(formatValueErr({ value: -61.73, err: 2.2 })).toBe(`−61.7${PLUS_MINUS}2.2`);
   });
 });

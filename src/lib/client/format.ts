@@ -64,7 +64,7 @@ export const PLUS_MINUS = `${NBSP}±${NBSP}`;
 export function formatValueErr(v: { value: number; err: number } | null | undefined, fixedDecimals?: number): string {
   if (!v || !Number.isFinite(v.value)) return DASH;
   const d = fixedDecimals ?? decimalsFor(v.err);
-  return `${v.value.toFixed(d)}${PLUS_MINUS}${Number.isFinite(v.err) ? v.err.toFixed(d) : '?'}`;
+  return `${formatNumber(v.value, d)}${PLUS_MINUS}${Number.isFinite(v.err) ? v.err.toFixed(d) : '?'}`;
 }
 
 /** A number at fixed decimals, negative with a true minus sign like every other figure on screen. */
