@@ -69,3 +69,11 @@ export interface BenchFigures {
     visibilityLimitRad?: number | undefined;
   } | null;
 }
+
+/**
+ * When the newest fitted pass ended, as the fringe card counts its last fit's age; figures from
+ * before the pass's end was sent give its middle. Undefined without a fitted pass.
+ */
+export function newestPassAt(v: NonNullable<BenchFigures['visibility']>): number | undefined {
+  return v.source === 'sweep' ? (v.newest?.endMs ?? v.latestPassMs) : undefined;
+}

@@ -2,7 +2,7 @@
 // V ± σ (with the latest pass's fit warnings), phase, contrast and the phase noise against the
 // shot-noise limit. Figures that no longer stand for the bench (too old, or no gateway online) are
 // greyed out and say how old they are.
-import type { BenchFigures, ChannelFigures } from '../../lib/bench-figures.ts';
+import { newestPassAt, type BenchFigures, type ChannelFigures } from '../../lib/bench-figures.ts';
 import { formatWindow } from '../../lib/coincidence-window.ts';
 import { formatDuration, formatNumber, formatRateErr, formatValueErr, PLUS_MINUS, rateParts } from '../../lib/client/format.ts';
 import { poissonQThroughDeadTime } from '../../lib/analysis/photon-stats.ts';
@@ -80,8 +80,7 @@ function visibilityLines(f: BenchFigures, now: number, noFringe: boolean): { val
   const v = f.visibility!;
   const main = splitErrTile(v.newest ?? v, noFringe);
   if (v.source === 'envelope') return { value: main.value, subs: [main.sub, 'fringe envelope (drift)'] };
-  // From the pass's end, as the fringe card counts its last fit (snapshots before it from its middle).
-  const passTime = v.newest?.endMs ?? v.latestPassMs;
+  const passTime = newestPassAt(v);
   const age = passTime !== undefined ? formatDuration(now - passTime) : null;
   if (!v.newest) return { value: main.value, subs: [main.sub, age ? `mean of recent passes, newest ${age} ago` : 'mean of recent passes'] };
   return {

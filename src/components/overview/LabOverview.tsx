@@ -3,7 +3,7 @@
 // (figures every 2 s, the sparkline's counts and the open alarms every 5 s) rather than streamed:
 // one socket per bench for a summary card would cost more than it shows.
 import type { AlarmEventView, Severity } from '../../lib/alarm-messages.ts';
-import type { BenchFigures } from '../../lib/bench-figures.ts';
+import { newestPassAt, type BenchFigures } from '../../lib/bench-figures.ts';
 import { figuresStaleness } from '../../lib/figures-age.ts';
 import { errorText, fetchCounts, fetchFigures, fetchOpenAlarms, type CountsAnswer } from '../../lib/client/api.ts';
 import { formatDuration, formatRate, formatValueErr } from '../../lib/client/format.ts';
@@ -101,7 +101,7 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
         const v = f?.visibility ?? null;
         // The newest pass, as the bench page leads with it, and how old it is: a pass from before the last touch or drift is seen to be.
         const shownV = v?.newest ?? v;
-        const passTime = v?.source === 'sweep' ? (v.newest?.endMs ?? v.latestPassMs) : undefined;
+        const passTime = v ? newestPassAt(v) : undefined;
         const passAge = passTime !== undefined && now !== null ? formatDuration(now - passTime) : null;
         const sl = slow.get(b.id);
         const alarm = alarmSummary(b, sl?.alarms ?? null);
