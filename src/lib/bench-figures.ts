@@ -54,18 +54,24 @@ export interface BenchFigures {
   coincidenceWindowNs?: number | undefined;
   /** Heralded anticorrelation parameter α. */
   alpha: ValueErr | null;
-  /** Measured phase noise per bin beside the shot-noise limit. */
-  /** Phase noise per bin of `binMs` against the shot-noise limit for the photons of such a bin (older snapshots lack `binMs`). */
+  /**
+   * Phase noise per bin of `binMs` against the shot-noise limit for the photons of such a bin, read
+   * over the `bins` of the present hold near mid-fringe in the live window, each second about its own
+   * straight line (its steady drift is the phase's drift rate, not noise). Older snapshots lack
+   * `binMs`, `bins` and `ratioErr`, and those before `bins` read the last second about its mean.
+   */
   shotNoise: {
     measuredRad: number;
     /** 1/√N for the N signal photons of a bin: the shot-noise limit at visibility 1. */
     limitRad: number;
     ratio: number;
-    /** 1σ of `ratio` from the number of bins the noise was read over (older snapshots lack it). */
+    /** 1σ of `ratio` from the bins the noise was read over, ratio/√(2·dof): what readings sharing no bins scatter by. */
     ratioErr?: number | undefined;
     dB: number;
     binMs?: number | undefined;
-    /** 1/(V√N): the floor at the bench's visibility (older snapshots lack it). */
+    /** Bins the noise was read over. */
+    bins?: number | undefined;
+    /** 1/√(N·F(φ)): the floor at the bench's visibility and operating point, 1/(V√N) at mid-fringe (older snapshots: always 1/(V√N)). */
     visibilityLimitRad?: number | undefined;
   } | null;
 }

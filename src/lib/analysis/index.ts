@@ -27,4 +27,4 @@ export { runningVisibility, envelopeVisibility, visibilityTrend, type EnvelopeEs
 export { normalizedDifference, phaseAtHold, quadratureError, unwrapPhase, unfoldPhase, driftRate, type HoldCalibration, type UnfoldOptions } from './phase.ts';
 export { mandelQ, poissonQThroughDeadTime, g2FromCoincidences, heraldedAlpha, type CoincidenceInput, type G2Result, type HeraldedInput, type MandelQ } from './photon-stats.ts';
 export { allanAt, allanDeviation, type AllanPoint } from './allan.ts';
-export { phaseSensitivity, phaseFisherPerPhoton, phaseNoise, squeezingDb, type PhaseSensitivity } from './sensitivity.ts';
+export { phaseSensitivity, phaseFisherPerPhoton, phaseFloor, squeezingDb, type NoiseSegment, type PhaseSensitivity } from './sensitivity.ts';

@@ -2,6 +2,9 @@
 // has a closed form from its published definition.
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
+import { demoCalibrations } from '../../../../simulators/demo-calibrations.ts';
+import { findDemoBench } from '../../../../simulators/demo-benches.ts';
+import { createSimulator, type SimulatorModel } from '../../../../simulators/interferometer.ts';
 import { mulberry32, poisson } from '../../../../simulators/random.ts';
 import { benchFiguresSchema } from '../../bench-figures-schema.ts';
 import type { ChannelSettings, SweepPoint } from './live-figures.ts';
@@ -224,5 +227,84 @@ describe('phase noise against the shot-noise limit', () => {
     expect(Math.abs(sn.measuredRad / sn.visibilityLimitRad! - 1)).toBeLessThan(0.07);
     // …and the ratio's reported 1σ covers that truth.
     expect(Math.abs(sn.ratio - 1 / v)).toBeLessThan(3 * sn.ratioErr!);
+    expect(sn.bins).toBe(bins);
+  });
+});
+
+describe('phase noise on the 633 nm demo bench (Monte Carlo over its simulator)', () => {
+  const bench = findDemoBench('mz-633')!;
+  const cals = demoCalibrations(bench);
+  const benchChannels: ChannelSettings[] = bench.channels.map((c) => {
+    const k = cals.get(c.key)!;
+    return { gateway: bench.gateway, key: c.key, label: c.label, role: c.role, darkRate: k.darkRate, darkRateErr: k.darkRateErr, deadTimeNs: k.deadTimeNs, deadTimeModel: k.deadTimeModel, efficiency: k.efficiency };
+  });
+  const V = bench.model.optics.visibility;
+
+  /**
+   * The bench held at mid-fringe (the drive set from the simulator's truth, as an operator would
+   * from the contrast) for `seconds`, fed to the live figures as the gateway sends it (10 ms bins,
+   * 100 ms batches) with a fresh sweep's V. Figures every `every` s, as the service computes them.
+   */
+  function hold(model: SimulatorModel, seed: number, seconds: number, every: number): NonNullable<ReturnType<typeof computeFigures>['figures']['shotNoise']>[] {
+    const sim = createSimulator(model, seed);
+    const radPerVolt = (2 * Math.PI * model.optics.pathFactor * model.piezo.nmPerVolt) / model.optics.wavelengthNm;
+    let x = 50;
+    for (let k = 0; k < 6; k++) {
+      sim.command({ op: 'hold', x });
+      const off = Math.PI / 2 - sim.truth().phaseRad;
+      x += (off - 2 * Math.PI * Math.round(off / (2 * Math.PI))) / radPerVolt;
+    }
+    sim.command({ op: 'hold', x });
+    const r = new RecentBins();
+    const out = [];
+    let t = T0;
+    for (let s = 1; s <= seconds; s++) {
+      for (let b = 0; b < 10; b++, t += 100) r.add(bench.gateway, { v: 1, boot: 'b', seq: s * 10 + b, t0: t, dt: 10, ...sim.next(10, 10) });
+      if (s % every !== 0) continue;
+      const { figures } = computeFigures({ benchId: bench.id, now: t, windowMs: 10_000, channels: benchChannels, coincidenceWindowNs: 2, recent: r, sweepPoints: [{ timeMs: t - 1000, value: V, err: 0.0003, net: true }], phaseHistory: [] });
+      if (figures.shotNoise) out.push(figures.shotNoise);
+    }
+    return out;
+  }
+
+  it('reads the noise over the seconds held, up to the live window', () => {
+    const bins = hold(bench.model, 1, 12, 1).map((sn) => sn.bins);
+    expect(bins.slice(0, 3)).toEqual([100, 200, 300]);
+    expect(bins.at(-1)).toBe(1000);
+  });
+
+  it('states an error that matches the spread of readings 10 s apart, around the floor', () => {
+    // 30 holds of 120 s (the drift keeps each within the band around mid-fringe): 360 readings that
+    // share no bins, whose spread is estimated to 1/√(2·359) = 3.7 %. The spread of
+    // (ratio − mean)/ratioErr must be 1 within 15 % (4σ).
+    const readings = Array.from({ length: 30 }, (_, k) => hold(bench.model, 100 + k, 120, 10)).flat();
+    expect(readings.length).toBeGreaterThan(340);
+    const mean = readings.reduce((a, sn) => a + sn.ratio, 0) / readings.length;
+    const z = Math.sqrt(readings.reduce((a, sn) => a + ((sn.ratio - mean) / sn.ratioErr!) ** 2, 0) / (readings.length - 1));
+    expect(z).toBeGreaterThan(0.85);
+    expect(z).toBeLessThan(1.15);
+    // A second's reading alone is good to ±7 % (1/√(2·98)); ten seconds' to ±2.3 %.
+    expect(readings.every((sn) => sn.bins !== 1000 || Math.abs(sn.ratioErr! / sn.ratio - 1 / Math.sqrt(2 * 980)) < 1e-12)).toBe(true);
+    // The floor is 1/(V√N) near mid-fringe to 1 %; the noise sits 1–3 % above it from the
+    // afterpulses (0.8 %, super-Poissonian counts) and the drift's random walk within each second.
+    const toFloor = readings.reduce((a, sn) => a + sn.measuredRad / sn.visibilityLimitRad!, 0) / readings.length;
+    expect(toFloor).toBeGreaterThan(1.0);
+    expect(toFloor).toBeLessThan(1.03);
+    expect(mean * V).toBeGreaterThan(1.0);
+    expect(mean * V).toBeLessThan(1.04);
+  });
+
+  it('takes a steady drift out: a fast linear drift leaves the reading as it is without one', () => {
+    // 0.3 rad/s sweeps the operating point through the band around mid-fringe in 3 s, so only short
+    // holds are read; about each second's mean alone it would add 0.3/√12 = 87 mrad per bin.
+    const still = { ...bench.model, optics: { ...bench.model.optics, driftRadPerS: 0, driftDiffusionRad2PerS: 0 } };
+    const drifting = { ...still, optics: { ...still.optics, driftRadPerS: 0.3 } };
+    const ratio = (m: SimulatorModel) => {
+      const r = Array.from({ length: 20 }, (_, k) => hold(m, 200 + k, 3, 3)).flat();
+      return { mean: r.reduce((a, sn) => a + sn.ratio, 0) / r.length, err: Math.sqrt(r.reduce((a, sn) => a + sn.ratioErr! ** 2, 0)) / r.length };
+    };
+    const a = ratio(still);
+    const b = ratio(drifting);
+    expect(Math.abs(a.mean - b.mean)).toBeLessThan(3 * Math.hypot(a.err, b.err));
   });
 });

@@ -5,10 +5,10 @@ import { countsBeforeDeadTime } from '../../analysis/dead-time.ts';
 import { driftRate, normalizedDifference, phaseAtHold, quadratureError, unfoldPhase } from '../../analysis/phase.ts';
 import { g2FromCoincidences, heraldedAlpha, mandelQ } from '../../analysis/photon-stats.ts';
 import { envelopeVisibility, runningVisibility, type VisibilityPoint } from '../../analysis/running-visibility.ts';
-import { phaseNoise, phaseSensitivity } from '../../analysis/sensitivity.ts';
+import { phaseSensitivity, type NoiseSegment } from '../../analysis/sensitivity.ts';
 import type { BenchFigures, ChannelFigures } from '../../bench-figures.ts';
 import { channelDeadTime, type ChannelCalibration } from '../../channel-calibration.ts';
-import type { RecentBins } from './recent-bins.ts';
+import type { ChannelSeries, RecentBins } from './recent-bins.ts';
 
 export type ChannelSettings = ChannelCalibration;
 
@@ -36,6 +36,16 @@ export interface FiguresInput {
 export const SWEEP_FRESH_MS = 30 * 60_000;
 /** Phase is read over the last second while the drive holds still, ms. */
 const PHASE_WINDOW_MS = 1_000;
+/**
+ * The phase noise is read in segments of this length, each about its own straight line, pooled
+ * over the seconds the drive has held within the live window, ms. One second of 10 ms bins reads
+ * the noise to ±7% (1σ); the window's ten to ±2.3%.
+ */
+const NOISE_SEGMENT_MS = 1_000;
+/** Fewer bins than this in a segment (a short stretch between gaps) are not read, bins. */
+const MIN_SEGMENT_BINS = 10;
+/** A segment is read only this near mid-fringe, |D| < this·V, where the per-bin phase is linear in the counts. */
+const MID_FRINGE_BAND = 0.5;
 
 
 /** True over measured counts of a channel through its dead time at this rate; 1 without one or past saturation. */
@@ -53,6 +63,29 @@ function sum(a: Float64Array): number {
   let s = 0;
   for (let i = 0; i < a.length; i++) s += a[i] as number;
   return s;
+}
+
+/** How long the drive has held at its present position within the scan series, ms (all of `windowMs` for a bench that sends no positions). */
+function heldSpanMs(scan: ChannelSeries | null, windowMs: number): number {
+  if (!scan) return windowMs;
+  const x = scan.counts;
+  let k = 0;
+  while (k < x.length && x[x.length - 1 - k] === x[x.length - 1]) k++;
+  return k * scan.dtMs;
+}
+
+/**
+ * Bin ranges [start, end) of `length` bins or fewer, cut back from the newest bin and never across
+ * a gap (the bins on either side of one are not neighbours in time, so no straight line spans it).
+ */
+function segmentsOf(n: number, gapsBefore: readonly number[], length: number): [number, number][] {
+  const out: [number, number][] = [];
+  const stops = [0, ...gapsBefore.filter((g) => g > 0 && g < n), n];
+  for (let r = stops.length - 1; r > 0; r--) {
+    const lo = stops[r - 1] as number;
+    for (let end = stops[r] as number; end - lo >= MIN_SEGMENT_BINS; end -= length) out.push([Math.max(lo, end - length), end]);
+  }
+  return out;
 }
 
 export function computeFigures(input: FiguresInput): { figures: BenchFigures; phaseReading: { t: number; theta: number } | null } {
@@ -121,7 +154,6 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
   // Contrast and phase over the last second.
   let contrast: number | null = null;
   let phase: BenchFigures['phase'] = null;
-  let shotNoise: BenchFigures['shotNoise'] = null;
   let phaseReading: { t: number; theta: number } | null = null;
   const la = outA ? recent.series(outA.gateway, outA.key, PHASE_WINDOW_MS, to) : null;
   const lb = outB ? recent.series(outB.gateway, outB.key, PHASE_WINDOW_MS, to) : null;
@@ -150,22 +182,45 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
           phase = { value: theta.value, err: theta.err, driftRadPerS: driftOk ? drift.value : null, ...(driftOk && Number.isFinite(drift.err) ? { driftErrRadPerS: drift.err } : {}) };
         }
       }
-      // Shot-noise comparison near mid-fringe only, where the per-bin phase is linear in the counts.
-      const d = normalizedDifference(na * fa, nb * fb, cal);
-      if (Math.abs(d.value) < 0.5 * v && bins >= 10) {
-        const perBin = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, la.dtMs), darkB: perBinDark(outB, lb.dtMs) };
-        const eps = new Float64Array(bins);
-        for (let i = 0; i < bins; i++) eps[i] = quadratureError((la.counts[i] as number) * fa, (lb.counts[i] as number) * fb, perBin).value;
+    }
+  }
+
+  // Phase noise against shot noise, pooled over the seconds of the present hold near mid-fringe.
+  let shotNoise: BenchFigures['shotNoise'] = null;
+  if (holding && outA && outB && visibility && visibility.value > 0.05) {
+    const v = visibility.value;
+    const heldMs = heldSpanMs(recent.scan(outA.gateway, windowMs, to), windowMs);
+    const ha = recent.series(outA.gateway, outA.key, heldMs, to);
+    const hb = recent.series(outB.gateway, outB.key, heldMs, to);
+    if (ha && hb && ha.counts.length === hb.counts.length && ha.dtMs === hb.dtMs && ha.gapsBefore.join() === hb.gapsBefore.join()) {
+      const dt = ha.dtMs;
+      const perBin = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, dt), darkB: perBinDark(outB, dt) };
+      const segments: NoiseSegment[] = [];
+      let bins = 0;
+      for (const [start, end] of segmentsOf(ha.counts.length, ha.gapsBefore, Math.max(1, Math.round(NOISE_SEGMENT_MS / dt)))) {
+        const a = ha.counts.subarray(start, end);
+        const b = hb.counts.subarray(start, end);
+        const n = end - start;
+        const na = sum(a);
+        const nb = sum(b);
+        const seconds = (n * dt) / 1000;
+        // Fitted V is the true counts' (see the phase above): each segment's counts are scaled to them.
+        const fa = deadTimeFactor(outA, na, seconds);
+        const fb = deadTimeFactor(outB, nb, seconds);
+        const d = normalizedDifference(na * fa, nb * fb, { ...perBin, darkA: perBin.darkA * n, darkB: perBin.darkB * n });
+        if (!(Math.abs(d.value) < MID_FRINGE_BAND * v)) continue;
+        const eps = new Float64Array(n);
+        for (let i = 0; i < n; i++) eps[i] = quadratureError((a[i] as number) * fa, (b[i] as number) * fb, perBin).value;
         // The limits count signal photons: dark counts are noise of their own, not light.
-        const photonsPerBin = (na + nb) / bins - perBin.darkA - perBin.darkB;
-        if (eps.every(Number.isFinite) && photonsPerBin > 0) {
-          const s = phaseSensitivity(phaseNoise(eps), photonsPerBin, v);
-          if ([s.measured, s.shotNoiseLimit, s.ratio, s.dB, s.visibilityLimit].every(Number.isFinite)) {
-            // A standard deviation from n bins is good to 1/√(2(n − 1)) (Gaussian noise, common practice).
-            const ratioErr = s.ratio / Math.sqrt(2 * (bins - 1));
-            shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, ratioErr, dB: s.dB, binMs: la.dtMs, visibilityLimitRad: s.visibilityLimit };
-          }
-        }
+        const signalA = na / n - perBin.darkA;
+        const signalB = nb / n - perBin.darkB;
+        if (!eps.every(Number.isFinite) || !(signalA + signalB > 0)) continue;
+        segments.push({ phases: eps, signalA, signalB, phase: Math.acos(d.value / v) });
+        bins += n;
+      }
+      const s = phaseSensitivity(segments, v);
+      if (s && [s.measured, s.shotNoiseLimit, s.ratio, s.ratioErr, s.dB, s.visibilityLimit].every(Number.isFinite)) {
+        shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, ratioErr: s.ratioErr, dB: s.dB, binMs: dt, visibilityLimitRad: s.visibilityLimit, bins };
       }
     }
   }
