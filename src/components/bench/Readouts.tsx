@@ -125,7 +125,7 @@ export function Readouts(props: {
   const ph = f?.phase;
   const phs = ph ? splitErr(ph) : null;
   const sn = f?.shotNoise;
-  const noise = sn ? phaseNoiseText(sn) : null;
+  const noise = sn && v ? phaseNoiseText(sn, v.value) : null;
   const warnings = f?.channels.filter((c) => c.warning) ?? [];
   return (
     <section aria-label="Live figures" aria-busy={props.loading}>
@@ -159,7 +159,7 @@ export function Readouts(props: {
         <Tile label="Contrast (A−B)/(A+B)" value={formatNumber(f?.contrast, 3)} subs={['0 at mid-fringe']} />
         <Tile
           label="Phase noise"
-          title="Shot noise: 1/√N for the N signal photons of a bin, a perfect fringe's limit. Floor: 1/(V√N), the best phase noise at this visibility. Alignment can close the gap between the two; noise above the floor comes from the bench (vibration, laser phase noise, air)."
+          title="Phase noise per bin over the seconds the drive has held near mid-fringe (up to the last 10 s), each second taken about its own straight line: the steady drift is the phase tile's, not noise. ± is 1σ from the number of bins: readings 10 s apart, which share no bins, scatter by about that (one second of 10 ms bins alone by ±7%). Shot noise: 1/√N for the N signal photons of a bin, a perfect fringe's limit. Floor: the least phase noise these counts allow at this visibility and operating point, 1/(V√N) at mid-fringe. Alignment can close the gap between the two; noise above the floor comes from the detectors (dark counts, afterpulses) and the bench (vibration, laser phase noise, air)."
           value={noise?.value ?? '–'}
           unit={noise?.unit}
           subs={noise?.lines ?? [phaseMissing]}

@@ -1,9 +1,10 @@
 // The phase-noise tile's words and numbers. The measured noise per bin is compared with two limits
 // for the N signal photons of a bin: the shot-noise limit 1/√N (a perfect fringe, V = 1) and the
-// floor 1/(V√N) at the bench's visibility (the phase Fisher information per photon at mid-fringe is
-// V², phaseFisherPerPhoton in analysis/sensitivity.ts). So, in dB, the excess over shot noise is the
-// sum of what the visibility costs, 20·log₁₀(1/V), which alignment can gain back, and the noise
-// above the floor (vibration, laser phase noise, air currents), which it cannot. Pure.
+// floor at the bench's visibility and operating point (the Cramér–Rao bound of the two outputs'
+// counts, 1/(V√N) at mid-fringe; phaseFloor in analysis/sensitivity.ts). At V = 1 the floor is the
+// shot-noise limit at every operating point, so, in dB, the excess over shot noise is the sum of what
+// the visibility costs here, which alignment can gain back, and the noise above the floor (dark
+// counts, afterpulses, vibration, laser phase noise, air currents), which it cannot. Pure.
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { formatNumber, PLUS_MINUS } from '../../lib/client/format.ts';
 
@@ -43,7 +44,11 @@ function signed(v: number, decimals: number): string {
   return Number(text.replace('−', '-')) === 0 ? (0).toFixed(decimals) : v > 0 ? `+${text}` : text;
 }
 
-export function phaseNoiseText(sn: ShotNoise): PhaseNoiseText {
+/**
+ * `visibility`: the V the phase was read with (the figures' visibility). The last line says how
+ * long the noise was read over (`sn.bins`), which sets its ±.
+ */
+export function phaseNoiseText(sn: ShotNoise, visibility: number): PhaseNoiseText {
   const rel = sn.ratioErr !== undefined && sn.ratio > 0 ? sn.ratioErr / sn.ratio : null;
   const ratioDecimals = rel !== null ? decimalsForError(sn.ratioErr!) : 2;
   const mrad = sn.measuredRad * 1000;
@@ -59,16 +64,17 @@ export function phaseNoiseText(sn: ShotNoise): PhaseNoiseText {
     lines.push(`shot-noise limit ${limit}${NBSP}mrad`);
     return { value, unit, lines };
   }
-  const v = sn.limitRad / sn.visibilityLimitRad;
   // Exactly additive: the headline's dB is the visibility's share plus the rest.
-  const alignmentDb = Math.max(0, -20 * Math.log10(v));
+  const alignmentDb = Math.max(0, 20 * Math.log10(sn.visibilityLimitRad / sn.limitRad));
   const aboveFloorDb = sn.dB - alignmentDb;
   const dbDecimals = rel !== null ? Math.min(2, decimalsForError(DB_PER_RELATIVE * rel)) : 1;
   // Short lines, each number bound to its unit: the tile is a sixth of the page wide (some 20
   // characters) and wraps them. The tile's tooltip says what each limit is.
   lines.push(`shot noise ${limit}${NBSP}mrad`);
-  lines.push(`floor ${(sn.visibilityLimitRad * 1000).toFixed(mradDecimals)} at V${NBSP}${v.toFixed(2)}`);
+  lines.push(`floor ${(sn.visibilityLimitRad * 1000).toFixed(mradDecimals)} at V${NBSP}${visibility.toFixed(2)}`);
   lines.push(`alignment can gain ${alignmentDb.toFixed(1)}${NBSP}dB`);
   lines.push(`noise above floor ${signed(aboveFloorDb, dbDecimals)}${rel !== null ? `${PLUS_MINUS}${(DB_PER_RELATIVE * rel).toFixed(dbDecimals)}` : ''}${NBSP}dB`);
+  // How long the reading is: a few seconds read after a move scatter more than the window's ten.
+  if (sn.bins !== undefined && sn.binMs) lines.push(`over ${formatNumber((sn.bins * sn.binMs) / 1000, 0)}${NBSP}s, drift taken out`);
   return { value, unit, lines };
 }

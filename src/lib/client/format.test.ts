@@ -38,7 +38,7 @@ describe('a note’s snapshot', () => {
     g2: null,
     coincidenceWindowNs: 2,
     alpha: { value: 0.01368, err: 0.00093 },
-    shotNoise: { measuredRad: 0.04619, limitRad: 0.05195, ratio: 0.889, ratioErr: 0.063, dB: -1.02, binMs: 10, visibilityLimitRad: 0.0536 },
+    shotNoise: { measuredRad: 0.04619, limitRad: 0.05195, ratio: 0.889, ratioErr: 0.020, dB: -1.02, binMs: 10, bins: 1000, visibilityLimitRad: 0.0536 },
   };
 
   it('shows α with its error on a heralded bench, the outputs’ Mandel Q and the phase noise against shot noise', () => {
@@ -48,7 +48,7 @@ describe('a note’s snapshot', () => {
     expect(lines.map((l) => l.replaceAll('\u00a0', ' '))).toEqual([
       'Output A 23.80 kc/s · Output B 13.29 kc/s · V 0.96990 ± 0.00051 · φ 1.2085 ± 0.0054 rad',
       'heralded α 0.01368 ± 0.00093 · Mandel Q: Output A −0.038 ± 0.051, Output B −0.113 ± 0.051',
-      'phase noise 0.889 ± 0.063 × shot noise: 46.19 against 51.95 mrad per 10 ms bin',
+      'phase noise 0.889 ± 0.020 × shot noise: 46.19 against 51.95 mrad per 10 ms bin over 10 s',
     ]);
   });
 
@@ -62,6 +62,9 @@ describe('a note’s snapshot', () => {
   it('formats an older snapshot without the later fields, and leaves out an empty line', () => {
     const old = { ...base, channels: base.channels.map((c) => ({ ...c, mandelQ: null })), alpha: null, shotNoise: null, holding: undefined, coincidenceWindowNs: undefined };
     expect(snapshotLines(old).map((l) => l.replaceAll('\u00a0', ' '))).toEqual(['Output A 23.80 kc/s · Output B 13.29 kc/s · V 0.96990 ± 0.00051 · φ 1.2085 ± 0.0054 rad']);
+    // Phase noise from before it was pooled over the hold: one second, its length unsaid.
+    const oneSecond = { ...base, shotNoise: { measuredRad: 0.04619, limitRad: 0.05195, ratio: 0.889, ratioErr: 0.063, dB: -1.02, binMs: 10, visibilityLimitRad: 0.0536 } };
+    expect(snapshotLines(oneSecond)[2]?.replaceAll('\u00a0', ' ')).toBe('phase noise 0.889 ± 0.063 × shot noise: 46.19 against 51.95 mrad per 10 ms bin');
   });
 });
 

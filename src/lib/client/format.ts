@@ -138,7 +138,7 @@ export function snapshotLines(s: BenchFigures): string[] {
   const sn = s.shotNoise;
   if (sn && s.holding !== false) {
     const ratio = sn.ratioErr !== undefined ? formatValueErr({ value: sn.ratio, err: sn.ratioErr }) : sn.ratio.toFixed(2);
-    noise.push(`${whole(`phase noise ${ratio} × shot noise:`)} ${whole(`${(sn.measuredRad * 1000).toFixed(2)} against ${(sn.limitRad * 1000).toFixed(2)} mrad${sn.binMs ? ` per ${sn.binMs} ms bin` : ''}`)}`);
+    noise.push(`${whole(`phase noise ${ratio} × shot noise:`)} ${whole(`${(sn.measuredRad * 1000).toFixed(2)} against ${(sn.limitRad * 1000).toFixed(2)} mrad${sn.binMs ? ` per ${sn.binMs} ms bin` : ''}${sn.bins !== undefined && sn.binMs ? ` over ${formatNumber((sn.bins * sn.binMs) / 1000, 0)} s` : ''}`)}`);
   }
   return [fringe, light, noise].filter((l) => l.length > 0).map((l) => l.join(' · '));
 }
