@@ -144,8 +144,8 @@ export async function benchStability(benchId: string, from: number, to: number, 
     const stretches = held ? heldPhaseStretches({ a: trueA, b: trueB, held }, cal) : [];
     // The floor: 1/(V√N) per bucket for its N signal counts, the least phase noise any reading
     // of two outputs at visibility V reaches (Cramér–Rao, the Fisher information per photon
-    // V²sin²φ/(1 − V²cos²φ) at its largest, V², at mid-fringe; references.md), and the live
-    // figures' "floor at this V". Away from mid-fringe counting noise alone reads above it. A
+    // V²sin²φ/(1 − V²cos²φ) at its largest, V², at mid-fringe; references.md), the live figures'
+    // floor there. Away from mid-fringe counting noise alone reads above it. A
     // bucket whose counts do not clear the darks counts as one signal count.
     const variances = stretches.map(({ run }) =>
       Float64Array.from({ length: run.end - run.start }, (_, k) => {
