@@ -229,6 +229,27 @@ describe('phase noise against the shot-noise limit', () => {
     expect(Math.abs(sn.ratio - 1 / v)).toBeLessThan(3 * sn.ratioErr!);
     expect(sn.bins).toBe(bins);
   });
+
+  it('fits no line across a missing batch: a phase step there is not read as noise', () => {
+    // Half-second batches, the ninth missing; the phase steps from D = +0.2 to −0.2 across the gap,
+    // which a second-long segment spanning it would read as ~0.4/(2V) rad of extra noise per bin.
+    const rng = mulberry32(8);
+    const v = 0.8;
+    const r = new RecentBins();
+    for (let k = 0; k < 20; k++) {
+      if (k === 8) continue;
+      const [a, b] = k < 8 ? [300, 200] : [200, 300];
+      const ch = { a: Array.from({ length: 50 }, () => poisson(rng, a)), b: Array.from({ length: 50 }, () => poisson(rng, b)) };
+      r.add(GW, { v: 1, boot: 'b', seq: k, t0: T0 + k * 500, dt: DT, ch, x: new Array(50).fill(3) });
+    }
+    const noDarks = channels.map((c) => ({ ...c, darkRate: null, darkRateErr: null, deadTimeNs: null }));
+    const { figures } = computeFigures({ ...input([{ timeMs: T0, value: v, err: 0.001, net: false }]), windowMs: 10_000, channels: noDarks, recent: r, now: T0 + 10_000 });
+    const sn = figures.shotNoise!;
+    expect(sn.bins).toBe(950);
+    // At D = ±0.2 the floor is √((1 − D²)/(V² − D²)) = 1.265 times the shot-noise limit (1.012/(V√N)).
+    expect(sn.visibilityLimitRad! / sn.limitRad).toBeCloseTo(Math.sqrt(0.96 / 0.6), 2);
+    expect(Math.abs(sn.measuredRad / sn.visibilityLimitRad! - 1)).toBeLessThan((3 * sn.ratioErr!) / sn.ratio);
+  });
 });
 
 describe('phase noise on the 633 nm demo bench (Monte Carlo over its simulator)', () => {

@@ -42,7 +42,7 @@ const PHASE_WINDOW_MS = 1_000;
  * the noise to ±7% (1σ); the window's ten to ±2.3%.
  */
 const NOISE_SEGMENT_MS = 1_000;
-/** Fewer bins than this in a segment (a short stretch between gaps) are not read, bins. */
+/** Fewer bins than this in a segment are not read (a short stretch between gaps); bins of over 100 ms make segments longer, bins. */
 const MIN_SEGMENT_BINS = 10;
 /** A segment is read only this near mid-fringe, |D| < this·V, where the per-bin phase is linear in the counts. */
 const MID_FRINGE_BAND = 0.5;
@@ -65,22 +65,26 @@ function sum(a: Float64Array): number {
   return s;
 }
 
-/** How long the drive has held at its present position within the scan series, ms (all of `windowMs` for a bench that sends no positions). */
-function heldSpanMs(scan: ChannelSeries | null, windowMs: number): number {
-  if (!scan) return windowMs;
-  const x = scan.counts;
-  let k = 0;
-  while (k < x.length && x[x.length - 1 - k] === x[x.length - 1]) k++;
-  return k * scan.dtMs;
+/** Index of the first bin of the trailing run at the drive's present position. */
+function heldFrom(x: Float64Array): number {
+  let i = x.length - 1;
+  while (i > 0 && x[i - 1] === x[x.length - 1]) i--;
+  return Math.max(0, i);
+}
+
+/** Whether two series of one gateway's window hold the same bins (same length, bin width and gaps). */
+function sameBins(p: ChannelSeries, q: ChannelSeries): boolean {
+  return p.counts.length === q.counts.length && p.dtMs === q.dtMs && p.gapsBefore.join() === q.gapsBefore.join();
 }
 
 /**
- * Bin ranges [start, end) of `length` bins or fewer, cut back from the newest bin and never across
- * a gap (the bins on either side of one are not neighbours in time, so no straight line spans it).
+ * Bin ranges [start, end) within [from, n) of `length` (≥ MIN_SEGMENT_BINS) bins or fewer but never
+ * fewer than MIN_SEGMENT_BINS, cut back from the newest bin and never across a gap (the bins on
+ * either side of one are not neighbours in time, so no straight line spans it).
  */
-function segmentsOf(n: number, gapsBefore: readonly number[], length: number): [number, number][] {
+function segmentsOf(from: number, n: number, gapsBefore: readonly number[], length: number): [number, number][] {
   const out: [number, number][] = [];
-  const stops = [0, ...gapsBefore.filter((g) => g > 0 && g < n), n];
+  const stops = [from, ...gapsBefore.filter((g) => g > from && g < n), n];
   for (let r = stops.length - 1; r > 0; r--) {
     const lo = stops[r - 1] as number;
     for (let end = stops[r] as number; end - lo >= MIN_SEGMENT_BINS; end -= length) out.push([Math.max(lo, end - length), end]);
@@ -185,43 +189,41 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
     }
   }
 
-  // Phase noise against shot noise, pooled over the seconds of the present hold near mid-fringe.
+  // Phase noise against shot noise, pooled over the seconds of the present hold near mid-fringe:
+  // the window's bins from where the drive came to its present position (all of them for a bench
+  // that sends no positions).
   let shotNoise: BenchFigures['shotNoise'] = null;
-  if (holding && outA && outB && visibility && visibility.value > 0.05) {
+  const sx = outA ? recent.scan(outA.gateway, windowMs, to) : null;
+  if (holding && outA && outB && visibility && visibility.value > 0.05 && sa && sb && sameBins(sa, sb) && (!sx || sameBins(sa, sx))) {
     const v = visibility.value;
-    const heldMs = heldSpanMs(recent.scan(outA.gateway, windowMs, to), windowMs);
-    const ha = recent.series(outA.gateway, outA.key, heldMs, to);
-    const hb = recent.series(outB.gateway, outB.key, heldMs, to);
-    if (ha && hb && ha.counts.length === hb.counts.length && ha.dtMs === hb.dtMs && ha.gapsBefore.join() === hb.gapsBefore.join()) {
-      const dt = ha.dtMs;
-      const perBin = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, dt), darkB: perBinDark(outB, dt) };
-      const segments: NoiseSegment[] = [];
-      let bins = 0;
-      for (const [start, end] of segmentsOf(ha.counts.length, ha.gapsBefore, Math.max(1, Math.round(NOISE_SEGMENT_MS / dt)))) {
-        const a = ha.counts.subarray(start, end);
-        const b = hb.counts.subarray(start, end);
-        const n = end - start;
-        const na = sum(a);
-        const nb = sum(b);
-        const seconds = (n * dt) / 1000;
-        // Fitted V is the true counts' (see the phase above): each segment's counts are scaled to them.
-        const fa = deadTimeFactor(outA, na, seconds);
-        const fb = deadTimeFactor(outB, nb, seconds);
-        const d = normalizedDifference(na * fa, nb * fb, { ...perBin, darkA: perBin.darkA * n, darkB: perBin.darkB * n });
-        if (!(Math.abs(d.value) < MID_FRINGE_BAND * v)) continue;
-        const eps = new Float64Array(n);
-        for (let i = 0; i < n; i++) eps[i] = quadratureError((a[i] as number) * fa, (b[i] as number) * fb, perBin).value;
-        // The limits count signal photons: dark counts are noise of their own, not light.
-        const signalA = na / n - perBin.darkA;
-        const signalB = nb / n - perBin.darkB;
-        if (!eps.every(Number.isFinite) || !(signalA + signalB > 0)) continue;
-        segments.push({ phases: eps, signalA, signalB, phase: Math.acos(d.value / v) });
-        bins += n;
-      }
-      const s = phaseSensitivity(segments, v);
-      if (s && [s.measured, s.shotNoiseLimit, s.ratio, s.ratioErr, s.dB, s.visibilityLimit].every(Number.isFinite)) {
-        shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, ratioErr: s.ratioErr, dB: s.dB, binMs: dt, visibilityLimitRad: s.visibilityLimit, bins };
-      }
+    const dt = sa.dtMs;
+    const perBin = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, dt), darkB: perBinDark(outB, dt) };
+    const segments: NoiseSegment[] = [];
+    let bins = 0;
+    for (const [start, end] of segmentsOf(sx ? heldFrom(sx.counts) : 0, sa.counts.length, sa.gapsBefore, Math.max(MIN_SEGMENT_BINS, Math.round(NOISE_SEGMENT_MS / dt)))) {
+      const a = sa.counts.subarray(start, end);
+      const b = sb.counts.subarray(start, end);
+      const n = end - start;
+      const na = sum(a);
+      const nb = sum(b);
+      const seconds = (n * dt) / 1000;
+      // Fitted V is the true counts' (see the phase above): each segment's counts are scaled to them.
+      const fa = deadTimeFactor(outA, na, seconds);
+      const fb = deadTimeFactor(outB, nb, seconds);
+      const d = normalizedDifference(na * fa, nb * fb, { ...perBin, darkA: perBin.darkA * n, darkB: perBin.darkB * n });
+      if (!(Math.abs(d.value) < MID_FRINGE_BAND * v)) continue;
+      const eps = new Float64Array(n);
+      for (let i = 0; i < n; i++) eps[i] = quadratureError((a[i] as number) * fa, (b[i] as number) * fb, perBin).value;
+      // The limits count signal photons: dark counts are noise of their own, not light.
+      const signalA = na / n - perBin.darkA;
+      const signalB = nb / n - perBin.darkB;
+      if (!eps.every(Number.isFinite) || !(signalA + signalB > 0)) continue;
+      segments.push({ phases: eps, signalA, signalB, phase: Math.acos(d.value / v) });
+      bins += n;
+    }
+    const s = phaseSensitivity(segments, v);
+    if (s && [s.measured, s.shotNoiseLimit, s.ratio, s.ratioErr, s.dB, s.visibilityLimit].every(Number.isFinite)) {
+      shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, ratioErr: s.ratioErr, dB: s.dB, binMs: dt, visibilityLimitRad: s.visibilityLimit, bins };
     }
   }
 
