@@ -59,6 +59,17 @@ describe('NUL characters from a gateway', () => {
     ws.ws.close();
   });
 
+  it('counts batches whose reason would hold a lone surrogate (a key\'s own, or a pair cut by the reason\'s cap)', async () => {
+    const gw = await freshGateway();
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    await client.publishAsync(topicFor(gw.gatewayId, 'counts'), JSON.stringify({ ...makeBatch(BASE, 10, 0), ch: { '\ud800': [1] } }), { qos: 1 });
+    await client.publishAsync(topicFor(gw.gatewayId, 'counts'), JSON.stringify({ ...makeBatch(BASE, 10, 1), ch: { [`${'a'.repeat(19)}\u{1F600}`]: [1] } }), { qos: 1 });
+    await until(async () => (await health(gw.gatewayId))?.rejected === 2, 10_000, 'two rejects counted');
+    expect(reasons(await health(gw.gatewayId))).toEqual([`counts: ch.${'a'.repeat(19)}\u{1F600}: bad channel key "${'a'.repeat(19)}\uFFFD"`, 'counts: ch.\uFFFD: bad channel key "\uFFFD"']);
+    expect(await getDb().select().from(countBatches).where(eq(countBatches.gatewayId, gw.gatewayId))).toEqual([]);
+    await client.endAsync();
+  });
+
   it('counts a batch the write itself refuses as rejected, with the database\'s reason', async () => {
     const gw = await freshGateway();
     const writer = new BatchWriter(() => undefined);

@@ -25,8 +25,10 @@ export function emptyDelta(): HealthDelta {
 }
 
 export function noteReject(d: HealthDelta, reason: string, at: number): void {
-  // Kept in jsonb, which cannot hold U+0000: written out, so the note (and the count) is stored.
-  d.rejects.unshift({ at, reason: reason.replaceAll('\0', '\\u0000') });
+  // Kept in jsonb, which holds neither U+0000 nor a lone surrogate (a payload's own "\ud800", or a
+  // pair cut by a reason's length cap): the NUL is written out and a lone surrogate becomes U+FFFD,
+  // so the note, and the count written in the same statement, are always stored.
+  d.rejects.unshift({ at, reason: reason.replaceAll('\0', '\\u0000').toWellFormed() });
   if (d.rejects.length > MAX_REJECT_NOTES) d.rejects.length = MAX_REJECT_NOTES;
 }
 
