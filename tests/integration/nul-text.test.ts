@@ -1,5 +1,5 @@
-// Text with U+0000, which PostgreSQL's text and jsonb cannot hold, in every message a gateway
-// sends: each is refused whole by the contract, counted on the gateway's health with its reason,
+// Text with U+0000, which PostgreSQL's text and jsonb cannot hold, or a lone surrogate, which
+// jsonb refuses, in every message a gateway sends: each is refused whole by the contract, counted on the gateway's health with its reason,
 // and nothing of it is stored or relayed. A batch that still fails in the write is counted too.
 import { eq } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -57,6 +57,22 @@ describe('NUL characters from a gateway', () => {
     expect(ws.messages.filter((m) => m.type === 'ack' || m.type === 'status')).toEqual([]);
     await client.endAsync();
     ws.ws.close();
+  });
+
+  it('refuses and counts a status, an ack and a count batch holding a lone surrogate', async () => {
+    const gw = await freshGateway();
+    const client = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    // JSON.stringify writes a lone surrogate as the escape "\ud800": valid UTF-8 and valid JSON.
+    await client.publishAsync(topicFor(gw.gatewayId, 'status'), JSON.stringify({ v: 1, state: 'online', software: 'gw \ud800' }), { qos: 1 });
+    await client.publishAsync(topicFor(gw.gatewayId, 'ack'), JSON.stringify({ v: 1, id: 'c1', ok: false, error: 'bad \udc00' }), { qos: 1 });
+    await client.publishAsync(topicFor(gw.gatewayId, 'counts'), JSON.stringify({ ...makeBatch(BASE, 10, 0), boot: 'b\ud83d' }), { qos: 1 });
+    await until(async () => (await health(gw.gatewayId))?.rejected === 3, 10_000, 'three rejects counted');
+    const lone = 'must not contain a lone surrogate (\\ud800–\\udfff without its pair)';
+    expect(reasons(await health(gw.gatewayId))).toEqual([`counts: boot: ${lone}`, `ack: error: ${lone}`, `status: software: ${lone}`]);
+    const [row] = await getDb().select({ status: gateways.status }).from(gateways).where(eq(gateways.id, gw.gatewayId));
+    expect(row?.status ?? null).toBeNull();
+    expect(await getDb().select().from(countBatches).where(eq(countBatches.gatewayId, gw.gatewayId))).toEqual([]);
+    await client.endAsync();
   });
 
   it('counts batches whose reason would hold a lone surrogate (a key\'s own, or a pair cut by the reason\'s cap)', async () => {

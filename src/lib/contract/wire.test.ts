@@ -31,6 +31,19 @@ describe('NUL characters', () => {
     expect(decodePayload(enc({ v: 1, id: 'c1', ok: false, error: 'out of range' }), ackSchema).ok).toBe(true);
   });
 
+  // JSON lets "\ud800" stand alone (RFC 8259 §8.2 leaves its meaning open); it is no character,
+  // UTF-8 cannot write it and PostgreSQL's jsonb refuses it.
+  it('refuses stored text holding a lone surrogate, with the field in the reason', () => {
+    const lone = 'must not contain a lone surrogate (\\ud800–\\udfff without its pair)';
+    expect(decodePayload(enc({ v: 1, boot: 'a\ud800', seq: 0, t0: 0, dt: 10, ch: { a: [1] } }), countBatchSchema)).toEqual({ ok: false, reason: `boot: ${lone}` });
+    expect(decodePayload(enc({ v: 1, state: 'online', software: 'gw \udc00' }), statusSchema)).toEqual({ ok: false, reason: `software: ${lone}` });
+    expect(decodePayload(enc({ v: 1, state: 'online', scan: { min: 0, max: 1, unit: '\ud83d' } }), statusSchema)).toEqual({ ok: false, reason: `scan.unit: ${lone}` });
+    expect(decodePayload(enc({ v: 1, state: 'online', boot: '\udfff' }), statusSchema).ok).toBe(false);
+    expect(decodePayload(enc({ v: 1, id: 'c1', ok: false, error: 'x\ud800y' }), ackSchema)).toEqual({ ok: false, reason: `error: ${lone}` });
+    // A pair is one character, and welcome.
+    expect(decodePayload(enc({ v: 1, state: 'online', software: 'gw \u{1F52C}' }), statusSchema).ok).toBe(true);
+  });
+
   it('writes out a NUL of a bad key in the reason, which is stored', () => {
     const d = decodePayload(enc({ v: 1, boot: 'b', seq: 0, t0: 0, dt: 10, ch: { 'a\u0000': [1] } }), countBatchSchema);
     expect(d.ok).toBe(false);

@@ -17,14 +17,17 @@ export const MAX_EPOCH_MS = 8.64e15;
 const CHANNEL_KEY = /^[a-z0-9_]{1,16}$/;
 
 /**
- * Text the server stores (boot ids, software and unit names, command errors) may not hold U+0000:
- * PostgreSQL's text and jsonb cannot, so such a message is refused whole here, with this reason,
- * instead of failing half-way through a write.
+ * Text the server stores (boot ids, software and unit names, command errors) may not hold U+0000
+ * or a lone surrogate (JSON's "\ud800", no character and not writable as UTF-8): PostgreSQL's text
+ * and jsonb cannot hold the first, jsonb refuses the second, so such a message is refused whole
+ * here, with these reasons, instead of failing half-way through a write.
  */
 const NUL_REASON = 'must not contain the NUL character (U+0000)';
+const LONE_SURROGATE_REASON = 'must not contain a lone surrogate (\\ud800–\\udfff without its pair)';
 const hasNoNul = (s: string) => !s.includes('\0');
-/** A stored string of `min`–`max` characters, without NUL. */
-const text = (min: number, max: number) => z.string().min(min).max(max).refine(hasNoNul, NUL_REASON);
+const isWellFormed = (s: string) => s.isWellFormed();
+/** A stored string of `min`–`max` characters, without NUL or lone surrogates. */
+const text = (min: number, max: number) => z.string().min(min).max(max).refine(hasNoNul, NUL_REASON).refine(isWellFormed, LONE_SURROGATE_REASON);
 
 /** Bench and gateway ids (they name MQTT topics and URLs), and the rule in words for messages. */
 export const ID_PATTERN = /^[a-z0-9][a-z0-9-]{0,39}$/;
@@ -88,7 +91,7 @@ const xSchema = z4.custom<number[]>().superRefine((x, ctx) => {
 export const countBatchSchema = z4
   .object({
     v: z4.literal(CONTRACT_VERSION),
-    boot: z4.string().min(1).max(32).refine(hasNoNul, NUL_REASON),
+    boot: z4.string().min(1).max(32).refine(hasNoNul, NUL_REASON).refine(isWellFormed, LONE_SURROGATE_REASON),
     seq: z4.number().int().min(0).max(Number.MAX_SAFE_INTEGER),
     t0: z4.number().int().min(0).max(MAX_EPOCH_MS),
     dt: z4.number().int().min(1).max(60_000),
