@@ -50,3 +50,24 @@ describe('NUL characters', () => {
     if (!d.ok) expect(d.reason).toBe('ch.a\\u0000: bad channel key "a\\u0000"');
   });
 });
+
+describe('free text without a length in the contract', () => {
+  const enc = (v: unknown) => new TextEncoder().encode(JSON.stringify(v));
+  // The contract bounds the count batch's fields but not a status's software or unit nor an ack's
+  // error: a long one is kept, cut at the stored length, instead of costing the whole message.
+  it('keeps a long software name, unit and ack error, cut with an ellipsis', () => {
+    const status = decodePayload(enc({ v: 1, state: 'online', software: 'g'.repeat(300), scan: { min: 0, max: 10, unit: 'volts on the piezo drive' } }), statusSchema);
+    expect(status.ok && status.value.software).toBe('g'.repeat(99) + '…');
+    expect(status.ok && status.value.scan?.unit).toBe('volts on the pi…');
+    const ack = decodePayload(enc({ v: 1, id: 'c1', ok: false, error: 'e'.repeat(5_000) }), ackSchema);
+    expect(ack.ok && ack.value.error).toBe('e'.repeat(999) + '…');
+    const short = decodePayload(enc({ v: 1, id: 'c1', ok: false, error: 'out of range' }), ackSchema);
+    expect(short.ok && short.value.error).toBe('out of range');
+  });
+
+  it('never cuts between the halves of a surrogate pair', () => {
+    const status = decodePayload(enc({ v: 1, state: 'online', software: 'g'.repeat(98) + '\u{1F52C}'.repeat(5) }), statusSchema);
+    expect(status.ok && status.value.software).toBe('g'.repeat(98) + '…');
+    expect(status.ok && status.value.software?.isWellFormed()).toBe(true);
+  });
+});

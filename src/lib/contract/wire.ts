@@ -29,6 +29,21 @@ const isWellFormed = (s: string) => s.isWellFormed();
 /** A stored string of `min`–`max` characters, without NUL or lone surrogates. */
 const text = (min: number, max: number) => z.string().min(min).max(max).refine(hasNoNul, NUL_REASON).refine(isWellFormed, LONE_SURROGATE_REASON);
 
+/** `s` cut to at most `max` UTF-16 units, ending in "…" when cut, never between a surrogate pair. */
+function clip(s: string, max: number): string {
+  if (s.length <= max) return s;
+  let end = max - 1;
+  const last = s.charCodeAt(end - 1);
+  if (last >= 0xd800 && last <= 0xdbff) end -= 1;
+  return s.slice(0, end) + '…';
+}
+/**
+ * Free text the contract sets no length for (software and unit names, command errors): kept up to
+ * `max` characters and cut beyond, so a long error still reaches the operator and a long firmware
+ * name does not cost the gateway its status.
+ */
+const freeText = (max: number) => z.string().refine(hasNoNul, NUL_REASON).refine(isWellFormed, LONE_SURROGATE_REASON).transform((s) => clip(s, max));
+
 /** Bench and gateway ids (they name MQTT topics and URLs), and the rule in words for messages. */
 export const ID_PATTERN = /^[a-z0-9][a-z0-9-]{0,39}$/;
 export const ID_RULE = '1–40 lower-case letters, digits or hyphens, starting with a letter or digit';
@@ -113,8 +128,8 @@ export const statusSchema = z.object({
   state: z.enum(['online', 'offline']),
   boot: text(1, 32).optional(),
   channels: z.array(channelKeySchema).max(64).optional(),
-  scan: z.object({ min: z.number().finite(), max: z.number().finite(), unit: text(0, 16) }).optional(),
-  software: text(0, 100).optional(),
+  scan: z.object({ min: z.number().finite(), max: z.number().finite(), unit: freeText(16) }).optional(),
+  software: freeText(100).optional(),
 });
 export type GatewayStatus = z.infer<typeof statusSchema>;
 
@@ -138,7 +153,7 @@ export const ackSchema = z.object({
   v: z.literal(CONTRACT_VERSION),
   id: text(1, 100),
   ok: z.boolean(),
-  error: text(0, 1000).optional(),
+  error: freeText(1000).optional(),
 });
 export type Ack = z.infer<typeof ackSchema>;
 
