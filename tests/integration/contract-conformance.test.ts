@@ -7,7 +7,7 @@ import { topicFor } from '../../src/lib/contract/wire.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
 import { gateways } from '../../src/lib/server/db/schema.ts';
 import { buildIfStale } from '../../src/server/build.ts';
-import { connectGateway, freshGateway, openLive, startTestLive, type TestLive } from '../helpers/live-path.ts';
+import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
 
 let t: TestLive;
@@ -44,5 +44,50 @@ describe('status and ack text the contract sets no length for', () => {
     expect(await ws.next((m) => m.type === 'ack')).toMatchObject({ ok: false, error: error.slice(0, 999) + '…' });
     await client.endAsync();
     ws.ws.close();
+  });
+});
+
+describe('GET /api/v1/benches', () => {
+  const get = (path: string) => fetch(`${t.baseUrl}${path}`, { headers: { authorization: `Bearer ${observer}` } });
+  type Listed = { id: string; name: string; wavelengthNm: number; channels: { gateway: string; key: string; label: string; role: string }[] };
+  const listed = async (id: string) => ((await (await get('/api/v1/benches')).json()) as Listed[]).find((b) => b.id === id);
+
+  it('lists each bench with its channels; until roles are set, the first gateway\'s first two keys in sorted order are the outputs', async () => {
+    const first = await freshGateway();
+    const second = await freshGateway(first.benchId);
+    const c1 = await connectGateway(t.mqttPort, first.gatewayId, first.token);
+    await c1.publishAsync(topicFor(first.gatewayId, 'status'), JSON.stringify({ v: 1, state: 'online', channels: ['z', 'm', 'b'] }), { qos: 1, retain: true });
+    // The later gateway reports first, and with a key that sorts before all of the first one's.
+    const c2 = await connectGateway(t.mqttPort, second.gatewayId, second.token);
+    await publishBatch(c2, second.gatewayId, makeBatch(Math.floor(Date.now() / 1000) * 1000 - 600_000, 10, 0, { keys: ['a'] }));
+    await until(async () => (await listed(first.benchId))?.channels.length === 4, 10_000, 'four channels listed');
+    const bench = await listed(first.benchId);
+    expect(bench).toEqual({ id: first.benchId, name: 'Test bench', wavelengthNm: 810, description: expect.any(String), channels: expect.any(Array) });
+    const roles = Object.fromEntries(bench!.channels.map((c) => [`${c.gateway}/${c.key}`, c.role]));
+    expect(roles).toEqual({ [`${first.gatewayId}/b`]: 'out_a', [`${first.gatewayId}/m`]: 'out_b', [`${first.gatewayId}/z`]: 'aux', [`${second.gatewayId}/a`]: 'aux' });
+    expect(bench!.channels.find((c) => c.key === 'm')).toEqual({ gateway: first.gatewayId, key: 'm', label: 'm', role: 'out_b' });
+    await c1.endAsync();
+    await c2.endAsync();
+  });
+});
+
+describe('GET /api/v1/benches/{id}/counts?format=csv', () => {
+  it('answers the contract\'s CSV: # metadata lines, then t_ms, <gateway>/<key> columns, x and cc, one row per bin', async () => {
+    const gw = await freshGateway();
+    const c = await connectGateway(t.mqttPort, gw.gatewayId, gw.token);
+    const t0 = Math.floor(Date.now() / 60_000) * 60_000 - 600_000;
+    await publishBatch(c, gw.gatewayId, { ...makeBatch(t0, 3, 0, { value: (k, i) => (k === 'a' ? 400 + i : 9 + i) }), x: [12, 12.05, 12.1], cc: [0, 1, 0] });
+    await c.endAsync();
+    const url = `${t.baseUrl}/api/v1/benches/${gw.benchId}/counts?from=${t0}&to=${t0 + 30}&step=10&format=csv`;
+    const res = await fetch(url, { headers: { authorization: `Bearer ${observer}`, accept: 'application/json' } });
+    expect(res.status).toBe(200);
+    expect(res.headers.get('content-type')).toMatch(/^text\/csv/);
+    const lines = (await res.text()).trim().split('\n');
+    const body = lines.filter((l) => !l.startsWith('#'));
+    expect(lines.findIndex((l) => !l.startsWith('#'))).toBeGreaterThan(0);
+    expect(body).toEqual([`t_ms,${gw.gatewayId}/a,${gw.gatewayId}/b,x,cc`, `${t0},400,9,12,0`, `${t0 + 10},401,10,12.05,1`, `${t0 + 20},402,11,12.1,0`]);
+    // `format` wins over Accept either way.
+    const json = await fetch(url.replace('format=csv', 'format=json'), { headers: { authorization: `Bearer ${observer}`, accept: 'text/csv' } });
+    expect(await json.json()).toMatchObject({ t0, step: 10, channels: { [`${gw.gatewayId}/a`]: [400, 401, 402] }, x: [12, 12.05, 12.1] });
   });
 });
