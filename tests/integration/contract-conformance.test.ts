@@ -5,7 +5,7 @@ import { eq } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { topicFor } from '../../src/lib/contract/wire.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
-import { gateways } from '../../src/lib/server/db/schema.ts';
+import { countBatches, gatewayHealth, gateways } from '../../src/lib/server/db/schema.ts';
 import { buildIfStale } from '../../src/server/build.ts';
 import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
@@ -89,5 +89,38 @@ describe('GET /api/v1/benches/{id}/counts?format=csv', () => {
     // `format` wins over Accept either way.
     const json = await fetch(url.replace('format=csv', 'format=json'), { headers: { authorization: `Bearer ${observer}`, accept: 'text/csv' } });
     expect(await json.json()).toMatchObject({ t0, step: 10, channels: { [`${gw.gatewayId}/a`]: [400, 401, 402] }, x: [12, 12.05, 12.1] });
+  });
+});
+
+// Last in the file: a second live path takes over the process's runtime() services until it stops.
+describe('MQTT_PREFIX', () => {
+  const prefix = 'lab-7/fw';
+  let other: TestLive;
+  beforeAll(async () => {
+    other = await startTestLive({ live: { prefix } });
+  });
+  afterAll(async () => {
+    await other.close();
+  });
+
+  it('moves every topic under the configured prefix and refuses the default one', async () => {
+    const gw = await freshGateway();
+    const c = await connectGateway(other.mqttPort, gw.gatewayId, gw.token);
+    const granted = await c.subscribeAsync(topicFor(gw.gatewayId, 'cmd', prefix), { qos: 1 });
+    expect(granted[0]?.qos).toBe(1);
+    const t0 = Math.floor(Date.now() / 60_000) * 60_000 - 600_000;
+    await c.publishAsync(topicFor(gw.gatewayId, 'counts', prefix), JSON.stringify(makeBatch(t0, 10, 0)), { qos: 1 });
+    const rows = await getDb().select({ t0: countBatches.t0 }).from(countBatches).where(eq(countBatches.gatewayId, gw.gatewayId));
+    expect(rows.map((r) => Number(r.t0))).toEqual([t0]);
+
+    const received = new Promise<{ topic: string; id: string }>((resolve) => c.once('message', (topic, payload) => resolve({ topic, id: (JSON.parse(String(payload)) as { id: string }).id })));
+    await other.live.commands.publish(gw.gatewayId, { v: 1, id: `prefixed-${gw.gatewayId}`, op: 'stop' });
+    expect(await received).toEqual({ topic: topicFor(gw.gatewayId, 'cmd', prefix), id: `prefixed-${gw.gatewayId}` });
+
+    // The default prefix is foreign here: refusing it closes the connection (3.1.1 has no negative PUBACK).
+    c.publish(topicFor(gw.gatewayId, 'counts'), JSON.stringify(makeBatch(t0 + 100, 10, 1)), { qos: 1 });
+    await until(async () => ((await getDb().select().from(gatewayHealth).where(eq(gatewayHealth.gatewayId, gw.gatewayId)))[0]?.refused ?? 0) === 1, 10_000, 'the refusal counted');
+    expect(await getDb().select({ t0: countBatches.t0 }).from(countBatches).where(eq(countBatches.gatewayId, gw.gatewayId))).toHaveLength(1);
+    await c.endAsync(true);
   });
 });
