@@ -1,14 +1,20 @@
 // Items of the wire contract (shared/contract.md) that no other test holds to the letter, checked
 // against the real broker, database, API and WebSocket: messages the contract allows are taken
 // whole, and what the script API answers has the contract's shape.
+import { execFile } from 'node:child_process';
+import { promisify } from 'node:util';
 import { eq } from 'drizzle-orm';
+import mqtt from 'mqtt';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { topicFor } from '../../src/lib/contract/wire.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
 import { countBatches, gatewayHealth, gateways } from '../../src/lib/server/db/schema.ts';
+import { revokeGateway } from '../../src/lib/server/provisioning.ts';
 import { buildIfStale } from '../../src/server/build.ts';
 import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
+
+const run = promisify(execFile);
 
 let t: TestLive;
 let observer: string;
@@ -89,6 +95,63 @@ describe('GET /api/v1/benches/{id}/counts?format=csv', () => {
     // `format` wins over Accept either way.
     const json = await fetch(url.replace('format=csv', 'format=json'), { headers: { authorization: `Bearer ${observer}`, accept: 'text/csv' } });
     expect(await json.json()).toMatchObject({ t0, step: 10, channels: { [`${gw.gatewayId}/a`]: [400, 401, 402] }, x: [12, 12.05, 12.1] });
+  });
+});
+
+describe('MQTT 5 on the embedded broker', () => {
+  const connect5 = (gatewayId: string, token: string, extra: mqtt.IClientOptions = {}) =>
+    mqtt.connectAsync(`mqtt://127.0.0.1:${t.mqttPort}`, { protocolVersion: 5, username: gatewayId, password: token, reconnectPeriod: 0, ...extra });
+  const minuteAgo = () => Math.floor(Date.now() / 60_000) * 60_000 - 600_000;
+
+  it('refuses a wrong token and a revoked gateway with the version 5 reason codes', async () => {
+    const gw = await freshGateway();
+    await expect(connect5(gw.gatewayId, 'fwg_wrong')).rejects.toMatchObject({ code: 0x86 });
+    await revokeGateway(gw.gatewayId);
+    await expect(connect5(gw.gatewayId, gw.token)).rejects.toMatchObject({ code: 0x87 });
+  });
+
+  it('takes status, counts and acks, sends commands, and refuses what the topic policy forbids', async () => {
+    const gw = await freshGateway();
+    const ws = await openLive(t.baseUrl, gw.benchId, observer);
+    const status = { v: 1, state: 'online', boot: 'b5', channels: ['a', 'b'], scan: { min: 0, max: 100, unit: 'V' }, software: 'mqtt 5 gateway' };
+    const will = { topic: topicFor(gw.gatewayId, 'status'), payload: Buffer.from(JSON.stringify({ ...status, state: 'offline' })), qos: 1 as const, retain: true };
+    // No client id: MQTT 5 lets the server assign one (§3.1.3.1).
+    const c = await connect5(gw.gatewayId, gw.token, { clientId: '', will, properties: { sessionExpiryInterval: 0 } });
+    await c.publishAsync(topicFor(gw.gatewayId, 'status'), JSON.stringify(status), { qos: 1, retain: true, properties: { userProperties: { fw: '5' } } });
+    expect(await ws.next((m) => m.type === 'status' && m.state === 'online')).toMatchObject({ gateway: gw.gatewayId, software: 'mqtt 5 gateway' });
+
+    const t0 = minuteAgo();
+    await c.publishAsync(topicFor(gw.gatewayId, 'counts'), JSON.stringify(makeBatch(t0, 3, 0)), { qos: 1, properties: { contentType: 'application/json' } });
+    expect(await ws.next((m) => m.type === 'counts')).toMatchObject({ gateway: gw.gatewayId, t0, dt: 10 });
+    expect(await getDb().select({ t0: countBatches.t0 }).from(countBatches).where(eq(countBatches.gatewayId, gw.gatewayId))).toHaveLength(1);
+
+    expect(await c.subscribeAsync(topicFor(gw.gatewayId, 'cmd'), { qos: 1 })).toMatchObject([{ qos: 1 }]);
+    // Another gateway's cmd: SUBACK "Not authorized" (mqtt.js rejects the call), the session goes on.
+    await expect(c.subscribeAsync('fringewise/v1/+/cmd', { qos: 1 })).rejects.toThrow(/Not authorized/);
+    c.on('message', (_topic, payload) => {
+      const cmd = JSON.parse(String(payload)) as { id: string };
+      void c.publishAsync(topicFor(gw.gatewayId, 'ack'), JSON.stringify({ v: 1, id: cmd.id, ok: true }), { qos: 1 });
+    });
+    const id = `v5-${gw.gatewayId}`;
+    expect(await t.live.commands.send(gw.gatewayId, { v: 1, id, op: 'stop' })).toEqual({ v: 1, id, ok: true });
+    expect(await ws.next((m) => m.type === 'ack')).toMatchObject({ id, ok: true });
+
+    // "Disconnect with Will Message" (reason 0x04): the broker publishes the will.
+    await c.endAsync(false, { reasonCode: 0x04 });
+    await ws.next((m) => m.type === 'status' && m.state === 'offline');
+    const [h] = await getDb().select().from(gatewayHealth).where(eq(gatewayHealth.gatewayId, gw.gatewayId));
+    expect(h).toMatchObject({ accepted: 1, rejected: 0, refused: 1 });
+    ws.ws.close();
+  });
+
+  it("takes a contract batch from Debian's mosquitto_pub speaking MQTT 5", async () => {
+    const gw = await freshGateway();
+    const t0 = minuteAgo();
+    const batch = { v: 1, boot: '3f9c2a', seq: 1042, t0, dt: 10, ch: { a: [412, 398, 405], b: [9, 14, 11] }, x: [12.0, 12.05, 12.1], cc: [0, 1, 0] };
+    await run('/usr/bin/mosquitto_pub', ['-h', '127.0.0.1', '-p', String(t.mqttPort), '-V', 'mqttv5', '-u', gw.gatewayId, '-P', gw.token, '-q', '1', '-t', topicFor(gw.gatewayId, 'counts'), '-m', JSON.stringify(batch)]);
+    const [row] = await getDb().select().from(countBatches).where(eq(countBatches.gatewayId, gw.gatewayId));
+    expect(row).toMatchObject({ t0, n: 3, boot: '3f9c2a', seq: 1042 });
+    await expect(run('/usr/bin/mosquitto_pub', ['-h', '127.0.0.1', '-p', String(t.mqttPort), '-V', 'mqttv5', '-u', gw.gatewayId, '-P', 'fwg_wrong', '-t', topicFor(gw.gatewayId, 'counts'), '-m', '{}'])).rejects.toThrow();
   });
 });
 

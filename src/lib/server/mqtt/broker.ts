@@ -14,6 +14,7 @@ import { verifyGatewayToken } from '../provisioning.ts';
 import { MAX_PAYLOAD_BYTES } from '../../contract/wire.ts';
 import { PacketSizeGuard } from './packet-guard.ts';
 import { gatewayMayPublish, gatewayMaySubscribe } from './topic-policy.ts';
+import { bridgeV5, sniffConnectLevel } from './v5-bridge.ts';
 import type { MqttTransport } from './transport.ts';
 import { listen } from '../listen.ts';
 
@@ -175,9 +176,14 @@ export async function startEmbeddedBroker(opts: EmbeddedBrokerOptions): Promise<
     socket.setNoDelay(true);
     sockets.add(socket);
     socket.on('close', () => sockets.delete(socket));
-    let client: Client | undefined;
-    guardPacketSize(socket, () => client);
-    client = broker.handle(socket);
+    // The CONNECT's protocol level picks the way in: MQTT 5 through the bridge (v5-bridge.ts).
+    // The sniffed bytes are put back before the guard wraps read(), so it sees each byte once.
+    void sniffConnectLevel(socket).then((level) => {
+      if (socket.destroyed) return;
+      let client: Client | undefined;
+      guardPacketSize(socket, () => client);
+      client = broker.handle(level === 5 ? bridgeV5(socket, { maxPacketRemaining: maxRemaining }) : socket);
+    });
   });
   const port = await listen(server, opts.port, opts.host);
 
