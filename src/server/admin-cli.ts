@@ -1,6 +1,5 @@
 // `npm run admin -- …`: the contract's operations CLI. A command that prints a token prints it
 // alone on its last line; adding what exists exits 1 with a clear message.
-import { createInterface } from 'node:readline/promises';
 import { parseArgs } from 'node:util';
 import { ZodError } from 'zod';
 import { createApiToken } from '../lib/server/auth/api-tokens.ts';
@@ -22,10 +21,38 @@ async function readPassword(): Promise<string> {
   const fromEnv = process.env['FRINGEWISE_PASSWORD'];
   if (fromEnv) return fromEnv;
   if (!process.stdin.isTTY) throw new UsageError('set FRINGEWISE_PASSWORD (no terminal to prompt on)');
-  const rl = createInterface({ input: process.stdin, output: process.stderr });
-  const pw = await rl.question('Password: ');
-  rl.close();
-  return pw;
+  return await promptHidden('Password: ');
+}
+
+/**
+ * A line typed on the terminal, not echoed: a password shown as it is typed stays on the screen
+ * and in the terminal's scrollback. Raw mode turns the terminal's own echo off too.
+ */
+async function promptHidden(question: string): Promise<string> {
+  const stdin = process.stdin;
+  // Echo off before the question shows, so nothing typed in answer can be echoed.
+  stdin.setRawMode(true);
+  process.stderr.write(question);
+  stdin.setEncoding('utf8');
+  stdin.resume();
+  let typed: string[] = [];
+  try {
+    return await new Promise<string>((resolve, reject) => {
+      stdin.on('data', (chunk: string) => {
+        for (const ch of chunk) {
+          if (ch === '\r' || ch === '\n') return resolve(typed.join(''));
+          // Ctrl-C, Ctrl-D: raw mode delivers them as characters.
+          if (ch === '\u0003' || ch === '\u0004') return reject(new UsageError('no password given'));
+          if (ch === '\u007f' || ch === '\b') typed = typed.slice(0, -1);
+          else if (ch >= ' ') typed.push(ch);
+        }
+      });
+    });
+  } finally {
+    stdin.setRawMode(false);
+    stdin.pause();
+    process.stderr.write('\n');
+  }
 }
 
 async function run(argv: string[]): Promise<void> {

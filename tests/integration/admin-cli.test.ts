@@ -1,10 +1,12 @@
 // The contract's admin CLI, run as a child process the way an admin runs it: each command works,
 // a token is printed alone on the last line, and adding what exists exits 1 with a clear message.
-import { execFile } from 'node:child_process';
+import { execFile, spawn } from 'node:child_process';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { userForApiToken } from '../../src/lib/server/auth/api-tokens.ts';
+import { verifyPassword } from '../../src/lib/server/auth/password.ts';
 import { verifyGatewayToken } from '../../src/lib/server/provisioning.ts';
+import { findUserByEmail } from '../../src/lib/server/users.ts';
 import { useFreshDatabase, type FreshDatabase } from '../helpers/fresh-db.ts';
 
 let db: FreshDatabase;
@@ -34,6 +36,28 @@ function admin(args: string[], env: Record<string, string> = {}): Promise<Run> {
 
 const lastLine = (s: string) => s.trim().split('\n').at(-1)!.trim();
 
+/**
+ * The CLI on a terminal (util-linux's `script` gives it one), typing `password` once it asks:
+ * everything the terminal showed, and the exit code.
+ */
+function adminOnTerminal(args: string[], password: string): Promise<Run> {
+  return new Promise((resolve) => {
+    const command = [path.resolve('node_modules/.bin/tsx'), 'src/server/admin-cli.ts', ...args].join(' ');
+    const child = spawn('script', ['-qfec', command, '/dev/null'], { env: { ...process.env, DATABASE_URL: db.url, FRINGEWISE_PASSWORD: '' } });
+    let shown = '';
+    child.stdout.on('data', (d: Buffer) => {
+      const before = shown;
+      shown += String(d);
+      if (!before.includes('Password: ') && shown.includes('Password: ')) child.stdin.write(`${password}\r`);
+    });
+    const timer = setTimeout(() => child.kill(), 60_000);
+    child.on('close', (code) => {
+      clearTimeout(timer);
+      resolve({ code: code ?? 1, stdout: shown, stderr: '' });
+    });
+  });
+}
+
 describe('npm run admin', () => {
   it('user add creates an account; the same e-mail again exits 1', async () => {
     const ok = await admin(['user', 'add', 'Cli.Person@Lab.Example', '--role', 'operator'], { FRINGEWISE_PASSWORD: 'cli-password-123' });
@@ -43,6 +67,16 @@ describe('npm run admin', () => {
     expect(dup.code).toBe(1);
     expect(dup.stderr).toContain('already exists');
     expect(dup.stderr).not.toMatch(/at .*\.ts:\d+/);
+  });
+
+  it('user add prompts for the password on a terminal without showing what is typed', async () => {
+    const res = await adminOnTerminal(['user', 'add', 'prompted@lab.example', '--role', 'observer'], 'typed-secret-789');
+    expect(res.code, res.stdout).toBe(0);
+    expect(res.stdout).toContain('Password: ');
+    expect(res.stdout).toContain('prompted@lab.example added as observer');
+    expect(res.stdout).not.toContain('typed-secret-789');
+    const user = await findUserByEmail('prompted@lab.example');
+    expect(await verifyPassword(user!.passwordHash!, 'typed-secret-789')).toBe(true);
   });
 
   it('refuses a bad role, a short password and a missing password with exit 1', async () => {
