@@ -71,3 +71,17 @@ describe('free text without a length in the contract', () => {
     expect(status.ok && status.value.software?.isWellFormed()).toBe(true);
   });
 });
+
+describe('unknown fields', () => {
+  const enc = (v: unknown) => new TextEncoder().encode(JSON.stringify(v));
+  // The contract grows only by optional fields, so a version 1 reader must take a message carrying
+  // fields it does not know, and leave them out.
+  it('are ignored in every message a gateway sends', () => {
+    const batch = decodePayload(enc({ v: 1, boot: 'b', seq: 0, t0: 0, dt: 10, ch: { a: [1] }, temp_c: 21.5, meta: { fw: 2 } }), countBatchSchema);
+    expect(batch).toEqual({ ok: true, value: { v: 1, boot: 'b', seq: 0, t0: 0, dt: 10, ch: { a: [1] } } });
+    const status = decodePayload(enc({ v: 1, state: 'online', uptime_s: 40, scan: { min: 0, max: 1, unit: 'V', slew: 3 } }), statusSchema);
+    expect(status).toEqual({ ok: true, value: { v: 1, state: 'online', scan: { min: 0, max: 1, unit: 'V' } } });
+    const ack = decodePayload(enc({ v: 1, id: 'c1', ok: true, took_ms: 12 }), ackSchema);
+    expect(ack).toEqual({ ok: true, value: { v: 1, id: 'c1', ok: true } });
+  });
+});
