@@ -84,6 +84,15 @@ export const statusMessageSchema = z.object({
   state: z.enum(['online', 'offline']),
 });
 
+/** The fields of an `ack` message the drive controls act on: which command, and the gateway's verdict. */
+export const ackMessageSchema = z.object({
+  type: z.literal('ack'),
+  gateway: gatewayIdSchema,
+  id: z.string().min(1).max(100),
+  ok: z.boolean(),
+  error: z.string().max(1000).optional(),
+});
+
 export type LiveMessage = CountsMessage | StatusMessage | AckMessage | DroppedMessage | ResumedMessage | ErrorMessage;
 
 /** Messages a client may send. */

@@ -66,7 +66,7 @@ describe('bench page layout', () => {
     expect(await form.getByRole('note', { name: 'Laser safety' }).textContent()).toMatch(/high voltage can be lethal/i);
     expect(await strip.getByRole('button', { name: 'Start sweep' }).count()).toBe(0);
     await card.getByRole('button', { name: 'Start sweep' }).click();
-    await expect.poll(() => page.getByTestId('drive-message').textContent()).toContain('sent');
+    await expect.poll(() => page.getByTestId('drive-message').textContent()).toMatch(/^Sweep: accepted by gw-/);
     await expect.poll(() => strip.getByTestId('drive-strip-state').textContent(), { timeout: 10_000 }).toMatch(/moving (up|down) at \d+\.\d{3} V/);
 
     // Scrolled to the alarms at the bottom, the strip is still on screen with its Stop.
@@ -79,7 +79,7 @@ describe('bench page layout', () => {
     // The same command as the card's Stop: POST …/commands with op stop.
     const [req] = await Promise.all([page.waitForRequest((r) => r.method() === 'POST' && r.url().endsWith(`/api/v1/benches/${BENCH}/commands`)), stop.click()]);
     expect(req.postDataJSON()).toEqual({ op: 'stop' });
-    await expect.poll(() => strip.getByTestId('drive-strip-message').textContent()).toBe('Stop: sent to the gateway.');
+    await expect.poll(() => strip.getByTestId('drive-strip-message').textContent()).toMatch(/^Stop: accepted by gw-/);
     await expect.poll(() => strip.getByTestId('drive-strip-state').textContent(), { timeout: 10_000 }).toMatch(/holding at \d+\.\d{3} V/);
   });
 

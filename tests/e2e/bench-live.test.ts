@@ -71,7 +71,7 @@ describe('bench live view', () => {
     await page.getByLabel('Sweeps', { exact: true }).fill('4');
     expect(await page.getByRole('note', { name: 'Laser safety' }).textContent()).toContain('safety officer');
     await page.getByRole('button', { name: 'Start sweep' }).click();
-    await expect.poll(() => page.getByTestId('drive-message').textContent()).toContain('sent');
+    await expect.poll(() => page.getByTestId('drive-message').textContent()).toMatch(/^Sweep: accepted by gw-/);
     // What the piezo does is read off the positions in the counts: moving while the sweep runs.
     await expect.poll(() => page.getByTestId('drive-state').textContent(), { timeout: 10_000 }).toMatch(/moving (up|down) at \d+\.\d{3} V/);
     await page.getByTestId('last-fit-visibility').waitFor({ timeout: 90_000 });
