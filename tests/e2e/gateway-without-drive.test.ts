@@ -1,6 +1,7 @@
 // A lab's own bench whose gateway reads a microcontroller counter over the serial line protocol:
 // counts arrive, but the gateway has no piezo drive, so it refuses a sweep or a hold. The operator
-// must read that refusal, with the gateway's reason, beside the Drive card, not "sent".
+// must read that refusal, with the gateway's reason, beside the Drive card, not "sent". The admin
+// page's gateway list stays usable on a phone: its actions scroll into view, never cut off.
 import { mkdtempSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
@@ -59,6 +60,23 @@ describe('a gateway without a drive', () => {
       await page.getByRole('button', { name: 'Hold', exact: true }).click();
       await expect.poll(() => page.getByTestId('drive-message').textContent(), { timeout: 10_000 }).toBe(`Hold at 50 V refused by ${GW}: this gateway has no scan drive.`);
       await screenshotBothThemes(page, 'bench-gateway-without-drive');
+    } finally {
+      await b.close();
+    }
+  });
+
+  it("keeps the gateway list's actions reachable on a phone", async () => {
+    const b: Browser = await launchBrowser({ width: 390, height: 844 });
+    try {
+      const page = b.page;
+      await signIn(page, app.url, 'admin@lab.example', 'demo-admin-pass');
+      await page.goto(`${app.url}/admin/benches/${BENCH}`);
+      const revoke = page.getByRole('button', { name: `Revoke ${GW}` });
+      await revoke.scrollIntoViewIfNeeded();
+      const box = await revoke.boundingBox();
+      expect(box).not.toBeNull();
+      expect(box!.x + box!.width).toBeLessThanOrEqual(390);
+      expect(await page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(390);
     } finally {
       await b.close();
     }
