@@ -1,4 +1,5 @@
-// One bench as the lab overview lists it (plain data for the overview island).
+// One bench as the lab overview lists it (plain data for the overview island), and how its
+// gateways are summed up on its card. Pure.
 import type { RunView } from './runs.ts';
 
 export interface OverviewBench {
@@ -8,7 +9,29 @@ export interface OverviewBench {
   description: string;
   gatewaysOnline: number;
   gatewaysTotal: number;
+  /** Gateways that have ever been heard from; 0 on a bench set up today whose gateway is not started yet. */
+  gatewaysEverSeen: number;
   openAlarms: number;
   criticalAlarms: number;
   activeRun: RunView | null;
+}
+
+export interface GatewayBadge {
+  text: string;
+  /** How the badge reads: only a gateway that has gone away is a fault to point at. */
+  tone: 'good' | 'bad' | 'quiet';
+  /** "1/2": online out of assigned; omitted where there is nothing to count. */
+  count: string | null;
+}
+
+/**
+ * The card's gateway badge. A bench with no gateway, or whose gateways have never connected, is
+ * being set up, not failing: it says so without the red of a gateway that went offline.
+ */
+export function gatewayBadge(b: Pick<OverviewBench, 'gatewaysOnline' | 'gatewaysTotal' | 'gatewaysEverSeen'>): GatewayBadge {
+  const count = `${b.gatewaysOnline}/${b.gatewaysTotal}`;
+  if (b.gatewaysTotal === 0) return { text: 'no gateway yet', tone: 'quiet', count: null };
+  if (b.gatewaysOnline > 0) return { text: 'online', tone: 'good', count };
+  if (b.gatewaysEverSeen === 0) return { text: 'not connected yet', tone: 'quiet', count: null };
+  return { text: 'offline', tone: 'bad', count };
 }

@@ -26,7 +26,8 @@ import { VisibilityTrend, type EnvelopePoint } from './VisibilityTrend.tsx';
 import { LiveBanner } from './LiveBanner.tsx';
 import { AlarmBanner } from './AlarmBanner.tsx';
 import { useLiveFeed } from './useLiveFeed.ts';
-import { useGatewayPresence } from './useGatewayPresence.ts';
+import { useBenchSetup } from './useBenchSetup.ts';
+import { BenchSetupNotice } from './BenchSetupNotice.tsx';
 import { figuresStaleness } from '../../lib/figures-age.ts';
 import { useNow } from '../../lib/client/use-now.ts';
 
@@ -113,7 +114,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
   );
 
   const live = useLiveFeed(bench.id, { onCounts, onMessage });
-  const gateways = useGatewayPresence(bench.id, bench.gateways);
+  const { presence: gateways, setup } = useBenchSetup(bench.id, bench.gateways);
   // Ticks so the figures turn stale, and their ages count, while nothing arrives.
   const now = useNow(1000);
   const online = gateways.filter((g) => g.online).length;
@@ -177,7 +178,9 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
       <AlarmBanner events={alarms} />
       {/* Pinned while the page scrolls, so the drive can be stopped from anywhere on it. */}
       <DriveStrip benchId={bench.id} tracker={drive} canOperate={viewer.canOperate} />
-      <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} corrections={corrections} latestPass={latestPass} stale={stale} offline={gateways.length > 0 && online === 0} now={now} />
+      {setup && <BenchSetupNotice bench={bench.id} setup={setup} isAdmin={viewer.role === 'admin'} />}
+      {/* A gateway never heard from has no last batch for the figures to stop at: the notice above says why nothing comes. */}
+      <Readouts figures={figures} loading={figuresLoading && !figures} error={figures ? null : figuresError} corrections={corrections} latestPass={latestPass} stale={stale} offline={gateways.length > 0 && online === 0 && !setup} now={now} />
       <div className="grid gap-4 xl:grid-cols-2">
         <RatesChart ring={ring} channels={bench.channels} onReady={(h) => (rates.current = h)} hasData={hasCounts} error={hasCounts ? null : countsError} />
         <FringeChart

@@ -9,7 +9,7 @@ import { errorText, fetchCounts, fetchFigures, fetchOpenAlarms, type CountsAnswe
 import { formatDuration, formatRate, formatValueErr } from '../../lib/client/format.ts';
 import { useNow } from '../../lib/client/use-now.ts';
 import { usePolled } from '../../lib/client/use-polled.ts';
-import type { OverviewBench } from '../../lib/overview.ts';
+import { gatewayBadge, type GatewayBadge, type OverviewBench } from '../../lib/overview.ts';
 import { channelRates, wholeBuckets } from '../history/history-range.ts';
 import { Sparkline } from './Sparkline.tsx';
 
@@ -27,6 +27,7 @@ type Live = { figures: BenchFigures | null; error: string | null; loaded: boolea
 type Slow = { counts: CountsAnswer | null; alarms: AlarmEventView[] | null; asOf: number };
 
 const SEVERITY_RANK: Record<Severity, number> = { info: 0, warning: 1, critical: 2 };
+const BADGE_TONE: Record<GatewayBadge['tone'], string> = { good: 'border-good text-good', bad: 'border-bad text-bad', quiet: 'border-line text-muted' };
 const SEVERITY_TONE: Record<Severity, string> = { info: 'text-muted', warning: 'text-warn', critical: 'font-semibold text-bad' };
 
 /** counts/s of a channel's buckets over the time its gateway recorded, as on the history chart. */
@@ -87,8 +88,6 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
   const mountedAt = useNow();
   const now = fast?.at ?? mountedAt;
 
-  if (benches.length === 0) return <p className="text-muted">No benches yet. An admin adds them under Benches &amp; gateways.</p>;
-
   return (
     <ul className="grid gap-4 sm:grid-cols-2 xl:grid-cols-3" aria-label="Benches">
       {benches.map((b) => {
@@ -97,7 +96,7 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
         const a = f?.channels.find((c) => c.role === 'out_a');
         const o = f?.channels.find((c) => c.role === 'out_b');
         const stale = f && now !== null ? figuresStaleness(f.at, now, b.gatewaysOnline, b.gatewaysTotal) : null;
-        const online = b.gatewaysOnline > 0;
+        const badge = gatewayBadge(b);
         const v = f?.visibility ?? null;
         // The newest pass, as the bench page leads with it, and how old it is: a pass from before the last touch or drift is seen to be.
         const shownV = v?.newest ?? v;
@@ -115,9 +114,9 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
                   {b.description && ` · ${b.description}`}
                 </p>
               </div>
-              <span className={`shrink-0 whitespace-nowrap rounded-full border px-2 py-0.5 text-xs font-medium ${online ? 'border-good text-good' : 'border-bad text-bad'}`}>
-                {online ? 'online' : 'offline'}
-                <span className="figure"> {b.gatewaysOnline}/{b.gatewaysTotal}</span>
+              <span className={`shrink-0 whitespace-nowrap rounded-full border px-2 py-0.5 text-xs font-medium ${BADGE_TONE[badge.tone]}`} data-testid={`bench-gateways-${b.id}`}>
+                {badge.text}
+                {badge.count && <span className="figure"> {badge.count}</span>}
               </span>
             </div>
             <div>

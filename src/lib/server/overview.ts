@@ -12,7 +12,7 @@ export async function loadOverview(): Promise<OverviewBench[]> {
   const db = getDb();
   const [benchRows, gws, alarms, runs] = await Promise.all([
     listBenches(),
-    db.select({ id: gateways.id, benchId: gateways.benchId, status: gateways.status, revokedAt: gateways.revokedAt }).from(gateways),
+    db.select({ id: gateways.id, benchId: gateways.benchId, status: gateways.status, revokedAt: gateways.revokedAt, lastSeenAt: gateways.lastSeenAt }).from(gateways),
     db
       .select({ benchId: alarmEvents.benchId, severity: alarmEvents.severity, n: count() })
       .from(alarmEvents)
@@ -31,6 +31,7 @@ export async function loadOverview(): Promise<OverviewBench[]> {
       description: b.description,
       gatewaysOnline: mine.filter((g) => (g.status as { state?: unknown } | null)?.state === 'online' && !g.revokedAt).length,
       gatewaysTotal: mine.length,
+      gatewaysEverSeen: mine.filter((g) => g.lastSeenAt !== null).length,
       openAlarms: open.reduce((s, a) => s + a.n, 0),
       criticalAlarms: open.filter((a) => a.severity === 'critical').reduce((s, a) => s + a.n, 0),
       activeRun: runs.get(b.id) ?? null,
