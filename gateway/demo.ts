@@ -47,16 +47,3 @@ export async function startDemoGateways(opts: DemoGatewaysOptions): Promise<Demo
   }
   return { gateways, stop: async () => void (await Promise.all(gateways.map((g) => g.stop()))) };
 }
-
-/** Where in-process gateways reach the broker: the external one (without the server's credentials) or the embedded one. */
-export function brokerUrlForGateways(external: string | null, host: string, port: number | null): string {
-  if (external) {
-    const u = new URL(external);
-    u.username = '';
-    u.password = '';
-    return u.href;
-  }
-  // A broker listening on every interface is reached on loopback.
-  const local = host === '0.0.0.0' || host === '::' ? '127.0.0.1' : host;
-  return `mqtt://${local.includes(':') ? `[${local}]` : local}:${port ?? 1883}`;
-}

@@ -5,6 +5,7 @@ import path from 'node:path';
 import { startAlarmEngine, stopAlarmEngine } from '../lib/server/alarms/engine.ts';
 import { closeAnalysisPool, fitFringesAsync } from '../lib/server/analysis-worker.ts';
 import { startAnalysis } from '../lib/server/analysis/service.ts';
+import { brokerUrlForGateways } from '../lib/broker-url.ts';
 import { runtime } from '../lib/server/runtime.ts';
 import { closeDb } from '../lib/server/db/index.ts';
 import { migrateDatabase } from '../lib/server/db/migrate.ts';
@@ -113,7 +114,7 @@ export async function startApp(opts: AppOptions): Promise<RunningApp> {
       // The demo benches' simulated gateways, once the broker is up; stopped before it, so they
       // deliver what they hold and sign off.
       const { readDemoGatewayTokens } = await import('../lib/server/seed.ts');
-      const { brokerUrlForGateways, startDemoGateways } = await import('../../gateway/demo.ts');
+      const { startDemoGateways } = await import('../../gateway/demo.ts');
       const demo = await startDemoGateways({
         url: brokerUrlForGateways(opts.live.mqttUrl, opts.live.mqttHost, live.transport.port),
         prefix: opts.live.prefix,

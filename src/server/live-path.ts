@@ -59,6 +59,7 @@ export async function startLivePath(opts: LivePathOptions): Promise<LivePath> {
     clientCount: (benchId) => hub.clientCount(benchId),
   };
   rt.gatewaySessions = { disconnect: (id) => transport.disconnectGateway(id) };
+  rt.gatewayBroker = { external: opts.mqttUrl, host: opts.mqttHost, port: transport.port, prefix: opts.prefix };
   return {
     ingest,
     hub,
@@ -69,6 +70,7 @@ export async function startLivePath(opts: LivePathOptions): Promise<LivePath> {
       delete rt.commands;
       delete rt.live;
       delete rt.gatewaySessions;
+      delete rt.gatewayBroker;
       commands.close();
       await transport.close();
       await hub.close();

@@ -1,7 +1,7 @@
 // A lab's first day, without the demo (FRINGEWISE_SEED=0): what the pages say before there is
 // anything to show. The admin's empty overview leads to where benches are made; a bench with no
 // gateway, or with one that has never connected, says so instead of "offline" or "waiting for
-// counts".
+// counts"; and a gateway's new token comes with the command that starts it against this broker.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createApiToken } from '../../src/lib/server/auth/api-tokens.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
@@ -9,7 +9,7 @@ import { createUser } from '../../src/lib/server/users.ts';
 import { startApp, type RunningApp } from '../../src/server/app.ts';
 import { livePathOptionsFromEnv } from '../../src/server/live-path.ts';
 import { useFreshDatabase, type FreshDatabase } from '../helpers/fresh-db.ts';
-import { HttpClient } from '../helpers/http-client.ts';
+import { HttpClient, inputValue } from '../helpers/http-client.ts';
 import { TEST_PASSWORD } from '../helpers/web-app.ts';
 
 const BENCH = 'mz-780';
@@ -57,8 +57,18 @@ describe("a lab's first day", () => {
     expect(await asObserver(`/benches/${BENCH}`)).toContain('An admin adds one under Benches &amp; gateways.');
   });
 
+  it("hands a new gateway's token over with the command that starts it against this broker", async () => {
+    const res = await admin.postForm(`/admin/benches/${BENCH}`, { intent: 'gateway-add', gatewayId: GW });
+    expect(res.status).toBe(200);
+    const token = inputValue(res.text, 'gw-token');
+    expect(token).toMatch(/^fwg_/);
+    expect(res.text).toContain(`FRINGEWISE_GATEWAY_TOKEN=${token} npm run gateway -- --id ${GW} --url mqtt://127.0.0.1:${app.mqttPort} --driver serial --device /dev/ttyACM0`);
+    // The default broker address is this machine's loopback: a gateway elsewhere is told what to change.
+    expect(res.text).toContain('The broker listens on this computer only (MQTT_HOST is 127.0.0.1)');
+  });
+
   it('calls a gateway that has never connected "not connected yet", not offline', async () => {
-    await createGateway(GW, BENCH);
+    // Made here through the module too: the page's form is covered above.
     await createGateway(`${GW}-b`, BENCH);
     expect(await asAdmin('/')).toMatch(/data-testid="bench-gateways-mz-780"[^>]*>not connected yet</);
     const page = await asAdmin(`/benches/${BENCH}`);

@@ -32,8 +32,19 @@ export interface AnalysisFigures {
   fitStored(benchId: string, gatewayId: string, fromMs: number, toMs: number): Promise<number>;
 }
 
+/** The broker as gateways see it (the admin page tells a new gateway where to connect). */
+export interface GatewayBroker {
+  /** MQTT_URL, when the server uses an external broker. */
+  external: string | null;
+  /** Where the embedded broker listens (MQTT_HOST) and its port; null port with an external broker. */
+  host: string;
+  port: number | null;
+  prefix: string;
+}
+
 export interface Runtime {
   analysis?: AnalysisFigures;
+  gatewayBroker?: GatewayBroker;
   commands?: CommandSender;
   live?: LiveService;
   gatewaySessions?: GatewaySessions;
