@@ -2,6 +2,7 @@
 // alone on its last line; adding what exists exits 1 with a clear message.
 import { parseArgs } from 'node:util';
 import { ZodError } from 'zod';
+import { readFormNumber } from '../lib/form-number.ts';
 import { createApiToken } from '../lib/server/auth/api-tokens.ts';
 import { closeDb } from '../lib/server/db/index.ts';
 import { migrateDatabase } from '../lib/server/db/migrate.ts';
@@ -55,8 +56,8 @@ async function promptHidden(question: string): Promise<string> {
   }
 }
 
-async function run(argv: string[]): Promise<void> {
-  const { positionals, values } = parseArgs({
+function parseCommand(argv: string[]) {
+  return parseArgs({
     args: argv,
     allowPositionals: true,
     options: {
@@ -66,8 +67,12 @@ async function run(argv: string[]): Promise<void> {
       'wavelength-nm': { type: 'string' },
       description: { type: 'string' },
       bench: { type: 'string' },
+      help: { type: 'boolean', short: 'h' },
     },
   });
+}
+
+async function run({ positionals, values }: ReturnType<typeof parseCommand>): Promise<void> {
   const [noun, verb, subject] = positionals;
   if (verb !== 'add' || !subject) throw new UsageError(USAGE);
   switch (noun) {
@@ -88,7 +93,9 @@ async function run(argv: string[]): Promise<void> {
     }
     case 'bench': {
       if (!values.name || !values['wavelength-nm']) throw new UsageError('bench add needs --name and --wavelength-nm');
-      const bench = await createBench({ id: subject, name: values.name, wavelengthNm: Number(values['wavelength-nm']), description: values.description ?? '' });
+      const wavelengthNm = readFormNumber(values['wavelength-nm']);
+      if (typeof wavelengthNm !== 'number' || Number.isNaN(wavelengthNm)) throw new UsageError('--wavelength-nm must be a number of nanometres with a decimal point, such as 1064 or 780.24');
+      const bench = await createBench({ id: subject, name: values.name, wavelengthNm, description: values.description ?? '' });
       console.log(`bench ${bench.id} "${bench.name}" added (${bench.wavelengthNm} nm)`);
       return;
     }
@@ -104,16 +111,28 @@ async function run(argv: string[]): Promise<void> {
   }
 }
 
+// The arguments are read before the database is reached: --help or a typo must not start a cluster.
+let command: ReturnType<typeof parseCommand>;
+try {
+  command = parseCommand(process.argv.slice(2));
+} catch (err) {
+  console.error(`error: ${err instanceof Error ? err.message : err}\n${USAGE}`);
+  process.exit(1);
+}
+if (command.values.help) {
+  console.log(USAGE);
+  process.exit(0);
+}
+
 const cluster = await connectDatabase();
 let code = 0;
 try {
   await migrateDatabase();
-  await run(process.argv.slice(2));
+  await run(command);
 } catch (err) {
   code = 1;
   if (err instanceof ZodError) console.error(`error: ${err.issues.map((i) => i.message).join('; ')}`);
   else if (err instanceof DuplicateError || err instanceof NotFoundError || err instanceof UsageError) console.error(`error: ${err.message}`);
-  else if (err instanceof Error && 'code' in err && err.code === 'ERR_PARSE_ARGS_UNKNOWN_OPTION') console.error(`error: ${err.message}\n${USAGE}`);
   else console.error('error:', err instanceof Error ? err.message : err);
 } finally {
   await closeDb();

@@ -1,6 +1,7 @@
 // `npm start`: everything a newcomer needs, in one process, stopped cleanly with Ctrl-C.
 import { DEMO_ACCOUNTS } from '../lib/server/seed.ts';
 import { optionsFromEnv, startApp } from './app.ts';
+import { firstAdminHint } from './first-admin.ts';
 
 const opts = optionsFromEnv();
 const app = await startApp(opts);
@@ -9,6 +10,8 @@ if (opts.seed) {
   console.log('Demo accounts (local demo only):');
   for (const a of DEMO_ACCOUNTS) console.log(`  ${a.role.padEnd(8)} ${a.email}  password: ${a.password}`);
 }
+const hint = await firstAdminHint();
+if (hint) console.log(hint);
 console.log('Press Ctrl-C to stop.\n');
 
 let stopping = false;

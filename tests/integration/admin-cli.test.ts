@@ -7,6 +7,7 @@ import { userForApiToken } from '../../src/lib/server/auth/api-tokens.ts';
 import { verifyPassword } from '../../src/lib/server/auth/password.ts';
 import { verifyGatewayToken } from '../../src/lib/server/provisioning.ts';
 import { findUserByEmail } from '../../src/lib/server/users.ts';
+import { firstAdminHint } from '../../src/server/first-admin.ts';
 import { useFreshDatabase, type FreshDatabase } from '../helpers/fresh-db.ts';
 
 let db: FreshDatabase;
@@ -125,6 +126,28 @@ describe('npm run admin', () => {
     const noBench = await admin(['gateway', 'add', 'cli-gw2', '--bench', 'no-such-bench']);
     expect(noBench.code).toBe(1);
     expect(noBench.stderr).toContain('does not exist');
+  });
+
+  it('says which option is not a number: a wavelength with a decimal comma or in words', async () => {
+    for (const nm of ['1,064', 'abc']) {
+      const res = await admin(['bench', 'add', 'cli-nm', '--name', 'x', '--wavelength-nm', nm]);
+      expect(res.code, nm).toBe(1);
+      expect(res.stderr, nm).toContain('--wavelength-nm must be a number of nanometres');
+    }
+  });
+
+  it('answers --help with the usage and exit 0, without reaching a database', async () => {
+    const res = await admin(['--help'], { DATABASE_URL: 'postgres://nobody@127.0.0.1:1/none' });
+    expect(res.code, res.stderr).toBe(0);
+    expect(res.stdout).toContain('npm run admin -- bench add');
+  });
+
+  it("tells npm start's reader how to make the first admin, until one exists", async () => {
+    // This database holds only the operator added above.
+    expect(await firstAdminHint()).toContain('npm run admin -- user add you@your-lab.example --role admin');
+    const ok = await admin(['user', 'add', 'first.admin@lab.example', '--role', 'admin'], { FRINGEWISE_PASSWORD: 'cli-password-123' });
+    expect(ok.code, ok.stderr).toBe(0);
+    expect(await firstAdminHint()).toBeNull();
   });
 
   it('prints usage for an unknown command with exit 1', async () => {
