@@ -113,4 +113,10 @@ it('shows them on the report page', async () => {
   expect(res.status).toBe(200);
   const html = await res.text();
   for (const text of ['Photon statistics over the run', 'Heralded α', 'Phase noise over the holds', 'Stability over the holds']) expect(html).toContain(text);
+  // The run's own export, from its report, downloads the run's bins.
+  const href = /href="([^"]*\/export\?run=[^"]*)"/.exec(html)?.[1]?.replace(/&(?:amp|#38);/g, '&');
+  expect(href).toBe(`/api/v1/benches/${BENCH}/export?run=${runId}&format=csv`);
+  const csv = await fetch(new URL(href!, app.url), { headers: { authorization: `Bearer ${token}` } });
+  expect(csv.status).toBe(200);
+  expect(await csv.text()).toContain(`# run: ${runId}`);
 });
