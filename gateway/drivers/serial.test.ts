@@ -74,6 +74,21 @@ describe('serial driver', () => {
     await counter.stop();
   });
 
+  it('says how far ahead a backlog read at once puts the device clock, without calling its lines bad', async () => {
+    const stream = new PassThrough();
+    const c = collect();
+    const T = 1_800_000_000_000;
+    const counter = new SerialCounter({ stream, batchMs: 1000, now: () => T });
+    const started = counter.start(c.sink);
+    // 3 s of bins that the counter held back, all read in the same instant.
+    stream.write('HELLO v=1 dt=10 cols=t,a,b,cc\n' + lines(0, 300));
+    await started;
+    await expect.poll(() => c.warnings.length).toBeGreaterThan(0);
+    expect(c.warnings[0]).toMatch(/^device clock runs \d+ ms ahead of this gateway's clock: its bins are stored that far in the future/);
+    expect(c.warnings.some((w) => w.includes('bad serial line'))).toBe(false);
+    await counter.stop();
+  });
+
   it('fails to start when the stream ends before any header', async () => {
     const stream = new PassThrough();
     const counter = new SerialCounter({ stream });

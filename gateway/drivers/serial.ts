@@ -37,6 +37,7 @@ export class SerialCounter implements Counter {
   private lastLineAt = 0;
   private badLines = 0;
   private lastWarnAt = -Infinity;
+  private lastAheadWarnAt = -Infinity;
   private stopped = false;
   private ready: ((info: CounterInfo) => void) | null = null;
   private failed: ((err: Error) => void) | null = null;
@@ -134,10 +135,21 @@ export class SerialCounter implements Counter {
         const mapped = this.clock.map(bin.t, h.dt, this.lastLineAt);
         if (!mapped) return this.bad(`device time ${bin.t} repeats a bin already sent`);
         if (mapped.event === 'reanchored') sink.warn(`device clock re-anchored at device time ${bin.t} ms`);
-        if (mapped.event === 'ahead') this.bad(`device clock runs ahead of this gateway's clock`);
+        if (mapped.event === 'ahead') this.ahead(mapped.t0 + h.dt - this.lastLineAt);
         this.acc!.push(mapped.t0, h.dt, h.keys, bin.counts, bin.x, bin.cc);
       }
     }
+  }
+
+  /**
+   * A bin whose device time maps past the gateway's clock is kept (pulling it back would reuse bin
+   * times), so this is no bad line: it says how far ahead, at most every `warnEveryMs`.
+   */
+  private ahead(byMs: number): void {
+    const now = this.now();
+    if (now - this.lastAheadWarnAt < (this.opts.warnEveryMs ?? 5000)) return;
+    this.lastAheadWarnAt = now;
+    this.sink?.warn(`device clock runs ${Math.round(byMs)} ms ahead of this gateway's clock: its bins are stored that far in the future (a fast clock, or lines the counter held back until the port was opened)`);
   }
 
   /** Counts a bad line; warns at most every `warnEveryMs` with how many there were since. */
