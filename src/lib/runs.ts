@@ -31,6 +31,8 @@ export interface RunView {
   noteCount: number;
   /** Spared by retention: its bins and sums stay however old. */
   keep: boolean;
+  /** A recording brought in from a file: `startedBy` is who imported it, not who ran the bench then. */
+  imported: boolean;
 }
 
 export interface NoteView {
@@ -51,6 +53,7 @@ export const runViewSchema: z.ZodType<RunView> = z.object({
   startedBy: z.object({ id: z.string(), name: z.string() }).nullable(),
   noteCount: z.number(),
   keep: z.boolean(),
+  imported: z.boolean(),
 });
 
 export const keepRunSchema = z.object({ keep: z.boolean() }).strict();

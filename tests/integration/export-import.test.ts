@@ -102,6 +102,10 @@ describe('export and import', () => {
     expect(gw).toMatchObject({ benchId: DST, tokenHash: null });
     const [run] = await getDb().select().from(runs).where(eq(runs.id, r.runId));
     expect(run).toMatchObject({ source: 'import', startMs: T + 1000, endMs: T + 3000, title: 'Offline night' });
+    // Its report says who imported it, not that they started a run at the recording's time.
+    const report = (await (await api(obs, `/runs/${r.runId}`)).text()).replaceAll('<!-- -->', '');
+    expect(report).toMatch(/· imported from a file by \S+@/);
+    expect(report).not.toContain('started by');
     const [chA] = await getDb().select().from(channels).where(and(eq(channels.gatewayId, r.gatewayId), eq(channels.key, 'a')));
     expect(chA).toMatchObject({ label: 'Port A', darkRate: 12.5, deadTimeNs: 22 });
 

@@ -21,12 +21,13 @@ const runColumns = {
   startMs: runs.startMs,
   endMs: runs.endMs,
   keep: runs.keep,
+  source: runs.source,
   userId: users.id,
   userName: users.name,
   userEmail: users.email,
 };
 
-type RunRow = { id: number; benchId: string; title: string; startMs: number; endMs: number | null; keep: boolean; userId: string | null; userName: string | null; userEmail: string | null };
+type RunRow = { id: number; benchId: string; title: string; startMs: number; endMs: number | null; keep: boolean; source: 'live' | 'import'; userId: string | null; userName: string | null; userEmail: string | null };
 
 async function noteCounts(runIds: number[]): Promise<Map<number, number>> {
   if (runIds.length === 0) return new Map();
@@ -45,6 +46,7 @@ async function toViews(rows: RunRow[]): Promise<RunView[]> {
     startedBy: person(r.userId, r.userName, r.userEmail),
     noteCount: counts.get(r.id) ?? 0,
     keep: r.keep,
+    imported: r.source === 'import',
   }));
 }
 
