@@ -55,7 +55,7 @@ beforeAll(async () => {
   await createBench({ id: BENCH, name: `Alarm bench ${tag}`, wavelengthNm: 810 });
   await createGateway(GW, BENCH);
   // The channels the gateway's status would announce: rules name channels the bench has.
-  await getDb().insert(channels).values(['a', 'b', 'c', 'd'].map((key) => ({ gatewayId: GW, key, benchId: BENCH })));
+  await getDb().insert(channels).values(['a', 'b', 'c', 'd', 'e', 'f', 'g', 'h'].map((key) => ({ gatewayId: GW, key, benchId: BENCH })));
   operatorId = (await userWithToken('operator', 'alarm-op')).id;
   runtime().live = { publish: (_b, m) => void pushed.push(m as unknown as AlarmMessage), subscribe: () => () => undefined, clientCount: () => 0 };
   // Gather 150 ms, quiet 60 s: the test sees the first mail at once and no second one within its run.
@@ -189,6 +189,23 @@ describe('alarm evaluation on ingest', () => {
     expect((await eventsOf(rule.id))[0]!.clearedAt).not.toBeNull();
     const open = await getDb().select().from(alarmEvents).where(and(eq(alarmEvents.benchId, BENCH), inArray(alarmEvents.ruleId, [rule.id])));
     expect(open.every((e) => e.clearedAt !== null)).toBe(true);
+  });
+
+  it('raises again after a clear that was decided while the rules were reloading', async () => {
+    const rule = await createRule(BENCH, ruleInputSchema.parse({ name: 'Cleared during reload', metric: 'rate_high', channel: `${GW}/e`, threshold: 100, clearThreshold: 50 }), null);
+    await engine.reload();
+    emit(batch({ e: 1000 }));
+    expect(await eventsOf(rule.id)).toHaveLength(1);
+    // The reload (a rule saved, or the 30 s refresh) reads the open events before the clear is written.
+    void engine.reload();
+    emit(batch({ e: 10 }));
+    const cleared = await eventsOf(rule.id);
+    expect(cleared).toHaveLength(1);
+    expect(cleared[0]!.clearedAt).not.toBeNull();
+    emit(batch({ e: 1000 }));
+    const again = await eventsOf(rule.id);
+    expect(again).toHaveLength(2);
+    expect(again[1]!.clearedAt).toBeNull();
   });
 
   it('judges visibility_low on the net visibility where the darks are calibrated, as the bench page shows it', async () => {

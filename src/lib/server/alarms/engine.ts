@@ -58,6 +58,8 @@ export class AlarmEngine {
   private timer: NodeJS.Timeout | null = null;
   private readonly unsubscribers: (() => void)[] = [];
   private lastRefresh = 0;
+  /** Whether the open events have been taken over as raised states (once, at start). */
+  private restored = false;
 
   constructor(private readonly opts: AlarmEngineOptions = {}) {
     this.now = opts.now ?? Date.now;
@@ -249,9 +251,13 @@ export class AlarmEngine {
     this.contexts = contexts;
 
     const enabled = new Map(rules.map((r) => [r.id, r]));
+    const restoring = !this.restored;
     for (const open of await openEvents()) {
       if (enabled.has(open.ruleId)) {
-        if (this.states.get(open.ruleId, open.subject).phase !== 'raised') this.states.restoreRaised(open.ruleId, open.subject, open.raisedAt.getTime());
+        // Only at start: later, the states are the truth and the rows follow them through the queue.
+        // A clear decided while this reload ran is written after it, so its event still read open
+        // here, and restoring it would keep the pair raised with no open event: no later raise.
+        if (restoring) this.states.restoreRaised(open.ruleId, open.subject, open.raisedAt.getTime());
         continue;
       }
       // The rule was disabled: its open alarms end now rather than hang open forever.
@@ -259,6 +265,7 @@ export class AlarmEngine {
       if (view) publishAlarm(alarmMessage('cleared', view));
       this.states.forgetRule(open.ruleId);
     }
+    this.restored = true;
   }
 }
 
