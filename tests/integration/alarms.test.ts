@@ -10,7 +10,7 @@ import { closeDb, getDb } from '../../src/lib/server/db/index.ts';
 import { alarmEvents, auditLog, caughtMail, channels } from '../../src/lib/server/db/schema.ts';
 import { serverEvents } from '../../src/lib/server/events.ts';
 import { startMailCatcher, type MailCatcher } from '../../src/lib/server/mail/catcher.ts';
-import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
+import { createBench, createGateway, revokeGateway } from '../../src/lib/server/provisioning.ts';
 import { runtime } from '../../src/lib/server/runtime.ts';
 import type { AlarmMessage } from '../../src/lib/alarm-messages.ts';
 import { userWithToken } from '../helpers/web-app.ts';
@@ -206,6 +206,34 @@ describe('alarm evaluation on ingest', () => {
     const again = await eventsOf(rule.id);
     expect(again).toHaveLength(2);
     expect(again[1]!.clearedAt).toBeNull();
+  });
+
+  it('closes an open alarm of a channel its rule no longer watches', async () => {
+    const input = ruleInputSchema.parse({ name: 'Moved to another channel', metric: 'rate_high', channel: `${GW}/f`, threshold: 100, clearThreshold: 50 });
+    const rule = await createRule(BENCH, input, null);
+    await engine.reload();
+    emit(batch({ f: 1000 }));
+    expect((await eventsOf(rule.id))[0]!.clearedAt).toBeNull();
+    // Now about g: no sample of f reaches the rule again, so nothing else would ever clear f's alarm.
+    await updateRule(BENCH, rule.id, { ...input, channel: `${GW}/g` }, null);
+    await engine.reload();
+    expect((await eventsOf(rule.id))[0]!.clearedAt).not.toBeNull();
+    emit(batch({ f: 1000, g: 10 }));
+    expect(await eventsOf(rule.id)).toHaveLength(1);
+  });
+
+  it('closes the silence alarm of a gateway that is revoked', async () => {
+    const quiet = `${GW}-q`;
+    await createGateway(quiet, BENCH);
+    const rule = await createRule(BENCH, ruleInputSchema.parse({ name: 'Gateway quiet', metric: 'gateway_silent', channel: quiet, threshold: 5, clearThreshold: 1 }), null);
+    await engine.reload();
+    serverEvents().emit('gateway-status', { benchId: BENCH, gatewayId: quiet, status: { v: 1, state: 'online' } as never, at: Date.now() - 60_000 });
+    engine.tick();
+    expect((await eventsOf(rule.id))[0]!.clearedAt).toBeNull();
+    // Revoked, it can never send again: its silence is no longer news.
+    await revokeGateway(quiet);
+    await engine.reload();
+    expect((await eventsOf(rule.id))[0]!.clearedAt).not.toBeNull();
   });
 
   it('judges visibility_low on the net visibility where the darks are calibrated, as the bench page shows it', async () => {

@@ -18,7 +18,7 @@ import { shownVisibility } from '../../sweep-visibility.ts';
 import { AlarmStates, type Transition } from './evaluator.ts';
 import { insertRaised, markCleared, openEvents } from './event-store.ts';
 import { MailPolicy, mailPolicyStateSchema, type MailPolicyOptions, type OutgoingAlarmMail } from './mail-policy.ts';
-import { rejectSamples, RejectCounter, samplesFromBatch, silentSamples, type SubjectSample } from './metrics.ts';
+import { rejectSamples, RejectCounter, samplesFromBatch, silentSamples, watches, type SubjectSample } from './metrics.ts';
 
 export interface AlarmEngineOptions {
   now?: () => number;
@@ -106,7 +106,7 @@ export class AlarmEngine {
     return this.queue;
   }
 
-  /** Re-reads the rules (after a change) and the bench context; closes events of rules now gone or disabled. */
+  /** Re-reads the rules (after a change) and the bench context; closes events of rules now gone or disabled, and of subjects a rule no longer watches. */
   reload(): Promise<void> {
     return this.enqueue(() => this.load());
   }
@@ -253,17 +253,21 @@ export class AlarmEngine {
     const enabled = new Map(rules.map((r) => [r.id, r]));
     const restoring = !this.restored;
     for (const open of await openEvents()) {
-      if (enabled.has(open.ruleId)) {
+      const rule = enabled.get(open.ruleId);
+      const ctx = rule && contexts.get(rule.benchId);
+      if (rule && ctx && watches(rule, open.subject, ctx.gateways, ctx.aux)) {
         // Only at start: later, the states are the truth and the rows follow them through the queue.
         // A clear decided while this reload ran is written after it, so its event still read open
         // here, and restoring it would keep the pair raised with no open event: no later raise.
         if (restoring) this.states.restoreRaised(open.ruleId, open.subject, open.raisedAt.getTime());
         continue;
       }
-      // The rule was disabled: its open alarms end now rather than hang open forever.
+      // The rule was disabled, or no longer gets samples of this subject (edited to another
+      // channel, the gateway revoked): the alarm ends now rather than hang open forever.
       const view = await markCleared(open.ruleId, open.subject, this.now());
       if (view) publishAlarm(alarmMessage('cleared', view));
-      this.states.forgetRule(open.ruleId);
+      if (rule) this.states.forget(open.ruleId, open.subject);
+      else this.states.forgetRule(open.ruleId);
     }
     this.restored = true;
   }

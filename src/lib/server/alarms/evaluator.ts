@@ -91,6 +91,10 @@ export class AlarmStates {
     return out;
   }
 
+  forget(ruleId: number, subject: string): void {
+    this.states.delete(AlarmStates.key(ruleId, subject));
+  }
+
   forgetRule(ruleId: number): void {
     for (const key of [...this.states.keys()]) if (key.startsWith(`${ruleId}|`)) this.states.delete(key);
   }

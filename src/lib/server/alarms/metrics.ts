@@ -13,7 +13,7 @@
 // - gateway_silent: seconds since a gateway last sent anything (counts or status), sampled by a timer.
 // - rejected_batches: rejected batches of a gateway in the last REJECT_WINDOW_MS.
 import type { CountBatch } from '../../contract/wire.ts';
-import type { AlarmMetric } from '../../alarm-messages.ts';
+import { METRIC_INFO, type AlarmMetric } from '../../alarm-messages.ts';
 import type { RuleLimits, Sample } from './evaluator.ts';
 
 export interface RuleForMetrics extends RuleLimits {
@@ -63,6 +63,24 @@ export function samplesFromBatch(
 /** Gateways named by a gateway rule: its own channel field when set, else all of the bench's. */
 function gatewaysOf(rule: RuleForMetrics, benchGateways: readonly string[]): string[] {
   return rule.channel ? benchGateways.filter((g) => g === rule.channel) : [...benchGateways];
+}
+
+/**
+ * Whether the rule still gets samples about this subject: after an edit to another channel or
+ * gateway, or once the subject's gateway is revoked, nothing would ever clear its open alarm.
+ */
+export function watches(rule: RuleForMetrics, subject: string, benchGateways: readonly string[], auxChannels: ReadonlySet<string>): boolean {
+  switch (METRIC_INFO[rule.metric].subject) {
+    case 'bench':
+      return subject === '';
+    case 'gateway':
+      return gatewaysOf(rule, benchGateways).includes(subject);
+    case 'channel': {
+      const bar = subject.indexOf('/');
+      if (bar < 0 || !benchGateways.includes(subject.slice(0, bar))) return false;
+      return rule.channel ? subject === rule.channel : rule.metric !== 'dark_high' || auxChannels.has(subject);
+    }
+  }
 }
 
 export function silentSamples(rule: RuleForMetrics, benchGateways: readonly string[], lastSeen: ReadonlyMap<string, number>, now: number): SubjectSample[] {
