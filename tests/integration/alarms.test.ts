@@ -149,6 +149,19 @@ describe('alarm evaluation on ingest', () => {
     expect(await eventsOf(rule.id)).toHaveLength(1);
   });
 
+  it('does not count a gap in the data towards the hold time', async () => {
+    const rule = await createRule(BENCH, ruleInputSchema.parse({ name: 'Dim across a gap', metric: 'rate_low', channel: `${GW}/h`, threshold: 100, clearThreshold: 200, holdSeconds: 30 }), null);
+    await engine.reload();
+    const now = Math.floor(Date.now() / 1000) * 1000;
+    emit(batch({ h: 10 }, now - 110_000)); // one dim second, then the gateway is offline for 49 s
+    emit(batch({ h: 10 }, now - 60_000)); // dim again: nothing says the light stayed dim in between
+    expect(await eventsOf(rule.id)).toHaveLength(0);
+    for (let t = now - 59_000; t < now - 30_000; t += 1_000) emit(batch({ h: 10 }, t));
+    expect(await eventsOf(rule.id)).toHaveLength(0);
+    emit(batch({ h: 10 }, now - 30_000)); // 30 s of data dim without a break since the gap
+    expect(await eventsOf(rule.id)).toHaveLength(1);
+  });
+
   it('a flapping signal sends one mail, not a storm', async () => {
     const to = `flap-${tag}@lab.example`;
     const rule = await createRule(BENCH, ruleInputSchema.parse({ name: 'Flappy', metric: 'rate_high', channel: `${GW}/c`, threshold: 1000, clearThreshold: 900, recipients: [to] }), null);

@@ -41,6 +41,22 @@ describe('alarm evaluator', () => {
     expect(run(held, [1500, 1500, 1500, 900, 1500, 1500, 1500, 1500])).toEqual(['raise@7000']);
   });
 
+  it('restarts the hold after a gap in the data', () => {
+    const held = { ...high, holdSeconds: 3 };
+    // Batches of 1 s stamped at their end: 1 s beyond, 10 s without data, then beyond again.
+    const feed = (samples: [from: number, value: number][]) => {
+      let state: AlarmState = OK;
+      return samples.flatMap(([from, value]) => {
+        const r = step(state, held, { at: from + 1000, value, from });
+        state = r.state;
+        return r.transition ? [`${r.transition.kind}@${r.transition.at}`] : [];
+      });
+    };
+    expect(feed([[0, 1500], [11_000, 1500], [12_000, 1500], [13_000, 1500]])).toEqual([]);
+    expect(feed([[0, 1500], [11_000, 1500], [12_000, 1500], [13_000, 1500], [14_000, 1500]])).toEqual(['raise@15000']);
+    expect(feed([[0, 1500], [1_000, 1500], [2_000, 1500], [3_000, 1500]])).toEqual(['raise@4000']);
+  });
+
   it('a signal flapping around the threshold raises once while inside the hysteresis band', () => {
     const values = Array.from({ length: 100 }, (_, i) => (i % 2 ? 1010 : 990));
     expect(run(high, values)).toEqual(['raise@1000']);

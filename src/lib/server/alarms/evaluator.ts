@@ -5,7 +5,9 @@
 // (≤ threshold); a "low" metric mirrors it. Between the two the state does not change, so a
 // signal hovering at the limit raises once, not once per sample.
 // Hold time: the value must stay beyond `threshold` for `holdSeconds` (measured between sample
-// times) before the alarm raises; a single sample back inside the limit restarts the hold.
+// times) before the alarm raises; a single sample back inside the limit restarts the hold, and so
+// does a gap in the data (a sample that says where its data begins, and begins after the last one
+// ended): two dim seconds either side of a gateway's outage are not a dim minute.
 // Clearing needs no hold: the clear threshold already keeps a noisy signal from flapping.
 import { METRIC_INFO, type AlarmMetric } from '../../alarm-messages.ts';
 
@@ -16,12 +18,14 @@ export interface RuleLimits {
   holdSeconds: number;
 }
 
-export type AlarmState = { phase: 'ok' } | { phase: 'pending'; since: number } | { phase: 'raised'; since: number };
+export type AlarmState = { phase: 'ok' } | { phase: 'pending'; since: number; last: number } | { phase: 'raised'; since: number };
 
 export interface Sample {
   /** ms since the epoch: the data's own time for batch metrics, the clock for timers. */
   at: number;
   value: number;
+  /** Where the sample's data begins (a batch's first bin), for metrics whose data runs without breaks. */
+  from?: number;
 }
 
 export type Transition = { kind: 'raise' | 'clear'; at: number; value: number };
@@ -45,11 +49,12 @@ export function step(state: AlarmState, limits: RuleLimits, sample: Sample): { s
     case 'ok':
       if (!breaches(limits, value)) return { state, transition: null };
       if (holdMs === 0) return { state: { phase: 'raised', since: at }, transition: { kind: 'raise', at, value } };
-      return { state: { phase: 'pending', since: at }, transition: null };
+      return { state: { phase: 'pending', since: at, last: at }, transition: null };
     case 'pending':
       if (!breaches(limits, value)) return { state: OK, transition: null };
+      if (sample.from !== undefined && sample.from > state.last) return { state: { phase: 'pending', since: at, last: at }, transition: null };
       if (at - state.since >= holdMs) return { state: { phase: 'raised', since: at }, transition: { kind: 'raise', at, value } };
-      return { state, transition: null };
+      return { state: { ...state, last: at }, transition: null };
     case 'raised':
       if (recovered(limits, value)) return { state: OK, transition: { kind: 'clear', at, value } };
       return { state, transition: null };

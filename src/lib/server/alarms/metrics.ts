@@ -57,7 +57,7 @@ export function samplesFromBatch(
   if (!isBatchMetric(rule.metric)) return [];
   return batchRates(gatewayId, batch)
     .filter((r) => (rule.channel ? r.channel === rule.channel : rule.metric !== 'dark_high' || auxChannels.has(r.channel)))
-    .map((r) => ({ subject: r.channel, sample: { at: r.at, value: r.rate } }));
+    .map((r) => ({ subject: r.channel, sample: { at: r.at, value: r.rate, from: batch.t0 } }));
 }
 
 /** Gateways named by a gateway rule: its own channel field when set, else all of the bench's. */
