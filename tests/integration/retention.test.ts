@@ -1,12 +1,14 @@
 // Retention deletes exactly what is older than each level's limit, in bounded steps, and nothing
 // that overlaps a kept run of the gateway's bench.
-import { eq, inArray } from 'drizzle-orm';
+import { eq, inArray, sql } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { closeDb, getDb } from '../../src/lib/server/db/index.ts';
 import { countBatches, rollups, runs } from '../../src/lib/server/db/schema.ts';
 import { packCounts } from '../../src/lib/server/db/packed-counts.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import { getRetention, runRetention, setRetention, storageUsage } from '../../src/lib/server/retention.ts';
+import { setRunKeep } from '../../src/lib/server/runs.ts';
+import { userWithToken } from '../helpers/web-app.ts';
 
 const tag = `${process.pid.toString(36)}${Date.now().toString(36)}`.slice(-8);
 const BENCH = `rt-${tag}`;
@@ -74,5 +76,31 @@ describe('retention', () => {
     // A second pass finds nothing more of this gateway.
     await runRetention({ now: NOW, stepRows: 1, pauseMs: 0 });
     expect(await db.select().from(countBatches).where(inArray(countBatches.gatewayId, [GW]))).toHaveLength(2);
+  });
+});
+
+describe('retention while a run is marked to keep', () => {
+  it('spares a run marked to keep while a pass is under way', async () => {
+    const gw = `${GW}-k`;
+    await createGateway(gw, BENCH);
+    const start = NOW - 100 * DAY;
+    const minutes = 40;
+    await getDb()
+      .insert(countBatches)
+      .values(Array.from({ length: minutes }, (_, i) => ({ ...raw(start + i * 60_000), gatewayId: gw, seq: i })));
+    // The run covers the last 20 minutes, which a pass walking the key in time order reaches last.
+    const [run] = await getDb().insert(runs).values({ benchId: BENCH, title: 'Kept mid-pass', startMs: start + 20 * 60_000, endMs: start + minutes * 60_000 }).returning({ id: runs.id });
+    const { id: userId } = await userWithToken('operator', 'rt-keep');
+    await setRetention({ rawDays: 10, fineDays: 20, coarseDays: 40 }, null);
+    const left = async () => (await getDb().select({ n: sql<number>`count(*)::int` }).from(countBatches).where(eq(countBatches.gatewayId, gw)))[0]!.n;
+
+    // One row a step, 50 ms apart: the pass spends about a second on the first 20 minutes.
+    const pass = runRetention({ now: NOW, stepRows: 1, pauseMs: 50 });
+    while ((await left()) > minutes - 3) await new Promise((r) => setTimeout(r, 10));
+    await setRunKeep(run!.id, true, userId);
+    await pass;
+
+    const kept = await getDb().select({ t0: countBatches.t0 }).from(countBatches).where(eq(countBatches.gatewayId, gw));
+    expect(kept.map((r) => (r.t0 - start) / 60_000).sort((a, b) => a - b)).toEqual(Array.from({ length: 20 }, (_, i) => 20 + i));
   });
 });

@@ -83,21 +83,14 @@ export interface RetentionRunOptions {
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
-/** Time spans each gateway must keep: kept runs of its bench, [start, end) in ms. */
-async function keptSpans(): Promise<Map<string, { s: number[]; e: number[] }>> {
-  const { rows } = await getDbHandle().pool.query<{ gateway_id: string; s: number; e: number }>(
-    `select g.id as gateway_id, r.start_ms as s, coalesce(r.end_ms, 9007199254740991) as e
-       from runs r join gateways g on g.bench_id = r.bench_id where r.keep`,
-  );
-  const out = new Map<string, { s: number[]; e: number[] }>();
-  for (const r of rows) {
-    const k = out.get(r.gateway_id) ?? { s: [], e: [] };
-    k.s.push(Number(r.s));
-    k.e.push(Number(r.e));
-    out.set(r.gateway_id, k);
-  }
-  return out;
-}
+/**
+ * The kept runs' spans [s, e) of the bench of gateway $1, as a CTE that each delete statement reads
+ * afresh: a run marked to keep while a pass is under way (a pass over a large backlog takes
+ * minutes) is spared from the next step on. An open kept run protects everything after its start.
+ */
+const KEPT_SPANS = `with k as materialized (
+    select r.start_ms as s, coalesce(r.end_ms, 9007199254740991) as e
+      from runs r join gateways g on g.bench_id = r.bench_id where g.id = $1 and r.keep)`;
 
 /** Distinct gateway ids of a table by a loose index scan (one probe per gateway, not a full scan). */
 async function gatewaysIn(table: 'count_batches' | 'rollups'): Promise<string[]> {
@@ -111,28 +104,30 @@ async function gatewaysIn(table: 'count_batches' | 'rollups'): Promise<string[]>
   return rows.map((r) => r.id);
 }
 
-async function deleteStep(level: RetentionLevel, gatewayId: string, cutoff: number, kept: { s: number[]; e: number[] }, limit: number): Promise<number> {
+async function deleteStep(level: RetentionLevel, gatewayId: string, cutoff: number, limit: number): Promise<number> {
   const pool = getDbHandle().pool;
   if (level === 'raw') {
     const res = await pool.query(
-      `delete from count_batches where gateway_id = $1 and t0 in (
+      `${KEPT_SPANS}
+       delete from count_batches where gateway_id = $1 and t0 in (
          select c.t0 from count_batches c
           where c.gateway_id = $1 and c.t0 < $2 and c.t1 <= $2
-            and not exists (select 1 from unnest($3::int8[], $4::int8[]) k(s, e) where c.t0 < k.e and c.t1 > k.s)
-          order by c.t0 limit $5)`,
-      [gatewayId, cutoff, kept.s, kept.e, limit],
+            and not exists (select 1 from k where c.t0 < k.e and c.t1 > k.s)
+          order by c.t0 limit $3)`,
+      [gatewayId, cutoff, limit],
     );
     return res.rowCount ?? 0;
   }
   const stepMs = level === 'fine' ? 1_000 : 60_000;
   const blockMs = stepMs * 60;
   const res = await pool.query(
-    `delete from rollups where ctid = any(array(
+    `${KEPT_SPANS}
+     delete from rollups where ctid = any(array(
        select r.ctid from rollups r
         where r.gateway_id = $1 and r.step_ms = $2 and r.block_t0 + $3 <= $4
-          and not exists (select 1 from unnest($5::int8[], $6::int8[]) k(s, e) where r.block_t0 < k.e and r.block_t0 + $3 > k.s)
-        limit $7))`,
-    [gatewayId, stepMs, blockMs, cutoff, kept.s, kept.e, limit],
+          and not exists (select 1 from k where r.block_t0 < k.e and r.block_t0 + $3 > k.s)
+        limit $5))`,
+    [gatewayId, stepMs, blockMs, cutoff, limit],
   );
   return res.rowCount ?? 0;
 }
@@ -146,12 +141,10 @@ export async function runRetention(opts: RetentionRunOptions = {}): Promise<Rete
   const cfg = await getRetention();
   const cutoffs: Record<RetentionLevel, number> = { raw: now - cfg.rawDays * DAY_MS, fine: now - cfg.fineDays * DAY_MS, coarse: now - cfg.coarseDays * DAY_MS };
   const deleted: Record<RetentionLevel, number> = { raw: 0, fine: 0, coarse: 0 };
-  const kept = await keptSpans();
-  const none = { s: [], e: [] };
   for (const level of ['raw', 'fine', 'coarse'] as const) {
     for (const gw of await gatewaysIn(level === 'raw' ? 'count_batches' : 'rollups')) {
       for (;;) {
-        const n = await deleteStep(level, gw, cutoffs[level], kept.get(gw) ?? none, stepRows);
+        const n = await deleteStep(level, gw, cutoffs[level], stepRows);
         deleted[level] += n;
         if (n < stepRows) break;
         await sleep(pauseMs);
