@@ -3,11 +3,12 @@
 import { eq, inArray, sql } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { closeDb, getDb } from '../../src/lib/server/db/index.ts';
-import { countBatches, rollups, runs } from '../../src/lib/server/db/schema.ts';
+import { channels, countBatches, rollups, runs } from '../../src/lib/server/db/schema.ts';
 import { packCounts } from '../../src/lib/server/db/packed-counts.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import { getRetention, runRetention, setRetention, storageUsage } from '../../src/lib/server/retention.ts';
 import { setRunKeep } from '../../src/lib/server/runs.ts';
+import { loadRunReport } from '../../src/lib/server/run-report.ts';
 import { userWithToken } from '../helpers/web-app.ts';
 
 const tag = `${process.pid.toString(36)}${Date.now().toString(36)}`.slice(-8);
@@ -102,5 +103,41 @@ describe('retention while a run is marked to keep', () => {
 
     const kept = await getDb().select({ t0: countBatches.t0 }).from(countBatches).where(eq(countBatches.gatewayId, gw));
     expect(kept.map((r) => (r.t0 - start) / 60_000).sort((a, b) => a - b)).toEqual(Array.from({ length: 20 }, (_, i) => 20 + i));
+  });
+});
+
+describe('a run past raw retention', () => {
+  it('still lists its channels from the sums that are kept longer', async () => {
+    const gw = `${GW}-r`;
+    await createGateway(gw, BENCH);
+    await getDb()
+      .insert(channels)
+      .values([
+        { gatewayId: gw, key: 'a', benchId: BENCH, role: 'out_a' },
+        { gatewayId: gw, key: 'b', benchId: BENCH, role: 'out_b' },
+      ]);
+    // Ten minutes, 15 days ago: raw bins gone (10 days), 1 s and 1 min sums kept (20 and 40 days).
+    const start = Math.floor((NOW - 15 * DAY) / 3_600_000) * 3_600_000;
+    const sums = (key: string, stepMs: number, blockT0: number, slots: number) => ({
+      gatewayId: gw,
+      key,
+      stepMs,
+      blockT0,
+      sums: Array.from({ length: 60 }, (_, i) => (i < slots ? 1_000 : 0)),
+      bins: Array.from({ length: 60 }, (_, i) => (i < slots ? 10 : 0)),
+    });
+    await getDb()
+      .insert(rollups)
+      .values(['a', 'b'].flatMap((key) => [...Array.from({ length: 10 }, (_, m) => sums(key, 1_000, start + m * 60_000, 60)), sums(key, 60_000, start, 10)]));
+    const [run] = await getDb().insert(runs).values({ benchId: BENCH, title: 'Past raw retention', startMs: start, endMs: start + 10 * 60_000 }).returning({ id: runs.id });
+
+    const report = (await loadRunReport(run!.id))!;
+    expect(report.photonStats).toBeNull();
+    expect(report.channels.map((c) => c.id)).toEqual([`${gw}/a`, `${gw}/b`]);
+    // Read from the 1 s sums: 1,000 counts/s over the whole run (no raw bin tells holds from sweeps).
+    expect(report.stability.rates.map((r) => [r.channel, r.covers, r.meanRate])).toEqual([
+      [`${gw}/a`, 'whole', 1000],
+      [`${gw}/b`, 'whole', 1000],
+    ]);
   });
 });

@@ -93,16 +93,24 @@ function withCorrections(roles: BenchChannel[], rows: Channel[]): ChannelCalibra
  * fill each later export with empty columns (which a re-import cannot tell apart) and each report
  * with other recordings' outputs. Per channel the search starts at the gateway's last batch
  * starting at or before `from` (batches of a gateway never overlap), so it walks the primary key
- * over the range only, and stops at the first batch holding the key.
+ * over the range only, and stops at the first batch holding the key. Past raw retention a slot of
+ * the 1 s or 1 min sums with bins in the range counts too: the report still draws the run's rates
+ * and stability from them.
  */
 export async function channelsWithData(benchId: string, fromMs: number, toMs: number): Promise<Set<string>> {
   const { rows } = await getDbHandle().pool.query<{ gateway_id: string; key: string }>(
     `select c.gateway_id, c.key from channels c
-      where c.bench_id = $1 and exists (
+      where c.bench_id = $1 and (exists (
         select 1 from count_batches b
          where b.gateway_id = c.gateway_id
            and b.t0 >= coalesce((select max(p.t0) from count_batches p where p.gateway_id = c.gateway_id and p.t0 <= $2), $2)
-           and b.t0 < $3 and b.t1 > $2 and c.key = any(b.keys))`,
+           and b.t0 < $3 and b.t1 > $2 and c.key = any(b.keys))
+      or exists (
+        select 1 from rollups r
+         where r.gateway_id = c.gateway_id and r.key = c.key and r.step_ms in (1000, 60000)
+           and r.block_t0 > $2::int8 - 3600000 and r.block_t0 < $3
+           and exists (select 1 from unnest(r.bins) with ordinality u(n, i)
+                        where u.n > 0 and r.block_t0 + (u.i - 1) * r.step_ms >= $2 and r.block_t0 + (u.i - 1) * r.step_ms < $3)))`,
     [benchId, fromMs, toMs],
   );
   return new Set(rows.map((r) => `${r.gateway_id}/${r.key}`));
