@@ -1,5 +1,6 @@
 // Alarms end to end inside one process: rules with audit, evaluation on 'batch-stored' events,
 // alarm_events rows, live pushes, acknowledgement, and e-mail through the real mail catcher.
+import { createServer } from 'node:net';
 import { and, desc, eq, inArray } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { CountBatch } from '../../src/lib/contract/wire.ts';
@@ -55,11 +56,12 @@ beforeAll(async () => {
   await createBench({ id: BENCH, name: `Alarm bench ${tag}`, wavelengthNm: 810 });
   await createGateway(GW, BENCH);
   // The channels the gateway's status would announce: rules name channels the bench has.
-  await getDb().insert(channels).values(['a', 'b', 'c', 'd', 'e', 'f', 'g', 'h'].map((key) => ({ gatewayId: GW, key, benchId: BENCH })));
+  await getDb().insert(channels).values(['a', 'b', 'c', 'd', 'e', 'f', 'g', 'h', 'i'].map((key) => ({ gatewayId: GW, key, benchId: BENCH })));
   operatorId = (await userWithToken('operator', 'alarm-op')).id;
   runtime().live = { publish: (_b, m) => void pushed.push(m as unknown as AlarmMessage), subscribe: () => () => undefined, clientCount: () => 0 };
   // Gather 150 ms, quiet 60 s: the test sees the first mail at once and no second one within its run.
-  engine = new AlarmEngine({ tickMs: 50, mail: { gatherMs: 150, quietMs: 60_000 }, mailStateName: `alarm-mail-${tag}` });
+  // A mail the server refused is tried again after 0.5 s, 1 s, 2 s, …
+  engine = new AlarmEngine({ tickMs: 50, mail: { gatherMs: 150, quietMs: 60_000, retryMs: 500 }, mailStateName: `alarm-mail-${tag}` });
   await engine.start();
 });
 
@@ -160,6 +162,29 @@ describe('alarm evaluation on ingest', () => {
     expect(await eventsOf(rule.id)).toHaveLength(0);
     emit(batch({ h: 10 }, now - 30_000)); // 30 s of data dim without a break since the gap
     expect(await eventsOf(rule.id)).toHaveLength(1);
+  });
+
+  it('sends a mail that failed while the mail server was down once it is back', async () => {
+    const to = `retry-${tag}@lab.example`;
+    const rule = await createRule(BENCH, ruleInputSchema.parse({ name: 'Raised while the mail server was down', metric: 'rate_high', channel: `${GW}/i`, threshold: 100, clearThreshold: 50, severity: 'critical', recipients: [to] }), null);
+    await engine.reload();
+    // A port nothing listens on: the connection is refused, as by a mail server that is down.
+    const probe = createServer().listen(0, '127.0.0.1');
+    await new Promise((r) => probe.once('listening', r));
+    const port = (probe.address() as { port: number }).port;
+    await new Promise((r) => probe.close(r));
+    process.env['FRINGEWISE_CATCHER_URL'] = `smtp://127.0.0.1:${port}`;
+    try {
+      emit(batch({ i: 1000 }));
+      expect(await eventsOf(rule.id)).toHaveLength(1);
+      await new Promise((r) => setTimeout(r, 800)); // gathered for 150 ms, then refused
+    } finally {
+      process.env['FRINGEWISE_CATCHER_URL'] = catcher.url;
+    }
+    const mails = await mailTo(to, 1, 8000);
+    expect(mails).toHaveLength(1);
+    expect(mails[0]!.subject).toContain('CRITICAL raised');
+    expect(mails[0]!.subject).toContain('Raised while the mail server was down');
   });
 
   it('a flapping signal sends one mail, not a storm', async () => {

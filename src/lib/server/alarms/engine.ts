@@ -195,14 +195,19 @@ export class AlarmEngine {
     if (due.length === 0) return;
     // Saved before sending: a crash in between loses these mails rather than sending them twice.
     await this.enqueue(() => this.saveMailState());
+    let failed = false;
     for (const mail of due) {
       try {
         await this.send(mail);
       } catch (err) {
-        // Not retried: the event stays on the bench page; a mail server outage must not queue a storm.
-        console.warn('[alarms] mail not sent:', err instanceof Error ? err.message : err);
+        // Tried again with a growing wait (the policy bounds how many and how long), so a mail
+        // server that is down for a while delays the alarm mail rather than losing it.
+        const kept = this.policy.failed(mail, this.now());
+        failed = true;
+        console.warn(`[alarms] mail not sent${kept ? ', will try again' : ', given up after a day of tries'}:`, err instanceof Error ? err.message : err);
       }
     }
+    if (failed) await this.enqueue(() => this.saveMailState());
   }
 
   private async loadMailState(): Promise<void> {

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { MailPolicy, mailPolicyStateSchema, type MailItem } from './mail-policy.ts';
+import { MAX_RETRY_AGE_MS, MailPolicy, mailPolicyStateSchema, type MailItem } from './mail-policy.ts';
 
 const base: MailItem = {
   ruleId: 1,
@@ -105,5 +105,29 @@ describe('alarm mail policy', () => {
     expect(uninterrupted).toHaveLength(2); // the first change at once, the rest as one digest
     expect(run(400_000)).toEqual(uninterrupted);
     expect(run(1_000)).toEqual(uninterrupted);
+  });
+  it('tries a mail the server did not take again, waiting longer each time, for up to a day', () => {
+    const p = new MailPolicy({ retryMs: 60_000 });
+    p.offer(base, 0);
+    const [mail] = p.due(2_000);
+    expect(p.failed(mail!, 2_000)).toBe(true);
+    expect(p.due(61_000)).toEqual([]);
+    const [again] = p.due(62_000);
+    expect(again).toMatchObject({ subject: mail!.subject, text: mail!.text, retry: { attempts: 1, firstAt: 2_000 } });
+    expect(p.failed(again!, 62_000)).toBe(true);
+    expect(p.due(181_000)).toEqual([]);
+    // The wait survives a restart.
+    const restored = new MailPolicy({ retryMs: 60_000 });
+    restored.restore(mailPolicyStateSchema.parse(JSON.parse(JSON.stringify(p.state()))));
+    const [third] = restored.due(182_000);
+    expect(third!.retry).toEqual({ attempts: 2, firstAt: 2_000 });
+    // A day after the first try it is given up.
+    expect(restored.failed({ ...third!, retry: { attempts: 40, firstAt: 2_000 } }, 2_000 + MAX_RETRY_AGE_MS)).toBe(false);
+    expect(restored.pending()).toBe(false);
+  });
+
+  it('reads a state saved before retries existed', () => {
+    const old = { lastSent: [[1, 5]], ready: [], readyFrom: 0, folded: [] };
+    expect(mailPolicyStateSchema.parse(old).retries).toEqual([]);
   });
 });

@@ -4,6 +4,8 @@
 //   the period ends.
 // - Changes that arrive together (within `gatherMs`, 2 s by default) are sent as one mail per
 //   recipient list: a digest when several rules fire at once (a power cut trips them all).
+// - A mail the server did not take (the mail server down) comes back through `failed()` and is
+//   tried again after 1 min, 2, 4, … (at most 15 min apart) for up to a day; at most 100 wait.
 // Its state (what waits, when each rule last mailed) round-trips through `state()`/`restore()`, so
 // the engine can keep it in the database and a restart loses no digest.
 import { z } from 'zod';
@@ -45,6 +47,8 @@ const mailItemSchema = z.object({
   recipients: z.array(z.string()).readonly(),
 });
 
+const outgoingSchema = z.object({ to: z.array(z.string()), subject: z.string(), text: z.string() });
+
 /** What a policy holds between calls, as plain JSON. */
 export const mailPolicyStateSchema = z.object({
   lastSent: z.array(z.tuple([z.number().int(), z.number()])),
@@ -52,6 +56,8 @@ export const mailPolicyStateSchema = z.object({
   readyFrom: z.number(),
   /** Per rule: the changes kept for its digest, and how many more came after them. */
   folded: z.array(z.tuple([z.number().int(), z.array(mailItemSchema), z.number().int().min(0)])),
+  /** Mails the server did not take, with their tries so far; absent from states saved before retries. */
+  retries: z.array(z.object({ mail: outgoingSchema, attempts: z.number().int().min(1), firstAt: z.number(), nextAt: z.number() })).default([]),
 });
 export type MailPolicyState = z.infer<typeof mailPolicyStateSchema>;
 
@@ -59,6 +65,8 @@ export interface OutgoingAlarmMail {
   to: string[];
   subject: string;
   text: string;
+  /** On a mail tried again: its tries so far and when the first one failed. */
+  retry?: { attempts: number; firstAt: number };
 }
 
 export interface MailPolicyOptions {
@@ -68,12 +76,20 @@ export interface MailPolicyOptions {
   gatherMs?: number;
   /** Where the app is reached (`https://fringewise.lab.example`), for links to bench pages; none without. */
   linkBase?: string | null;
+  /** ms before the first retry of a mail the server did not take; each later wait doubles. */
+  retryMs?: number;
 }
 
 export const DEFAULT_QUIET_MS = 10 * 60_000;
 export const DEFAULT_GATHER_MS = 2_000;
 /** Changes of one rule listed in a digest; later ones are only counted (a signal flapping every second). */
 export const MAX_LISTED_PER_RULE = 100;
+export const DEFAULT_RETRY_MS = 60_000;
+const MAX_RETRY_WAIT_MS = 15 * 60_000;
+/** A mail not taken for a day is given up: its alarm is on the bench page, and the news is old. */
+export const MAX_RETRY_AGE_MS = 86_400_000;
+/** Mails waiting for a retry; past this the oldest is given up (a mail server down for long). */
+export const MAX_RETRIES = 100;
 
 export class MailPolicy {
   private readonly quietMs: number;
@@ -83,11 +99,14 @@ export class MailPolicy {
   private ready: MailItem[] = [];
   private readyFrom = 0;
   private readonly folded = new Map<number, { items: MailItem[]; more: number }>();
+  private readonly retryMs: number;
+  private retries: MailPolicyState['retries'] = [];
 
   constructor(opts: MailPolicyOptions = {}) {
     this.quietMs = opts.quietMs ?? DEFAULT_QUIET_MS;
     this.linkBase = opts.linkBase ?? null;
     this.gatherMs = opts.gatherMs ?? DEFAULT_GATHER_MS;
+    this.retryMs = opts.retryMs ?? DEFAULT_RETRY_MS;
   }
 
   offer(item: MailItem, now: number): void {
@@ -107,6 +126,27 @@ export class MailPolicy {
 
   /** Mails due at `now`; call it from a timer (every second is plenty). */
   due(now: number): OutgoingAlarmMail[] {
+    const again = this.retries.filter((r) => r.nextAt <= now);
+    this.retries = this.retries.filter((r) => r.nextAt > now);
+    return [...again.map((r) => ({ ...r.mail, retry: { attempts: r.attempts, firstAt: r.firstAt } })), ...this.fresh(now)];
+  }
+
+  /**
+   * Takes back a mail the server did not take, to be tried again later. False when it is given up
+   * (failing for a day). The rule's quiet period still counts from the first try: a retry is that
+   * same mail, not a new one.
+   */
+  failed(mail: OutgoingAlarmMail, now: number): boolean {
+    const { retry, ...plain } = mail;
+    const attempts = (retry?.attempts ?? 0) + 1;
+    const firstAt = retry?.firstAt ?? now;
+    if (now - firstAt >= MAX_RETRY_AGE_MS) return false;
+    this.retries.push({ mail: plain, attempts, firstAt, nextAt: now + Math.min(this.retryMs * 2 ** (attempts - 1), MAX_RETRY_WAIT_MS) });
+    if (this.retries.length > MAX_RETRIES) this.retries.sort((a, b) => a.firstAt - b.firstAt).splice(0, this.retries.length - MAX_RETRIES);
+    return true;
+  }
+
+  private fresh(now: number): OutgoingAlarmMail[] {
     const items: { item: MailItem; folded: boolean; more: number }[] = [];
     if (this.ready.length > 0 && now - this.readyFrom >= this.gatherMs) {
       for (const item of this.ready) items.push({ item, folded: false, more: 0 });
@@ -137,11 +177,17 @@ export class MailPolicy {
 
   /** True while mail is waiting (the engine flushes it on shutdown). */
   pending(): boolean {
-    return this.ready.length > 0 || this.folded.size > 0;
+    return this.ready.length > 0 || this.folded.size > 0 || this.retries.length > 0;
   }
 
   state(): MailPolicyState {
-    return { lastSent: [...this.lastSent], ready: [...this.ready], readyFrom: this.readyFrom, folded: [...this.folded].map(([rule, e]) => [rule, [...e.items], e.more]) };
+    return {
+      lastSent: [...this.lastSent],
+      ready: [...this.ready],
+      readyFrom: this.readyFrom,
+      folded: [...this.folded].map(([rule, e]) => [rule, [...e.items], e.more]),
+      retries: [...this.retries],
+    };
   }
 
   /** Takes over a saved state (at start, before any offer). */
@@ -152,6 +198,7 @@ export class MailPolicy {
     this.readyFrom = state.readyFrom;
     this.folded.clear();
     for (const [rule, items, more] of state.folded) this.folded.set(rule, { items: [...items], more });
+    this.retries = [...state.retries];
   }
 }
 
