@@ -5,7 +5,7 @@ import { spawnSync } from 'node:child_process';
 import { mkdirSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 
-const BENCHES = ['analysis', 'simulator', 'ingest', 'alarm-latency', 'live-view', 'import'] as const;
+const BENCHES = ['analysis', 'simulator', 'ingest', 'alarm-latency', 'live-view', 'import', 'retention'] as const;
 
 const soakIdx = process.argv.indexOf('--soak');
 const soak = soakIdx > 0 ? process.argv[soakIdx + 1] : '60';

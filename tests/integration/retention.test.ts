@@ -106,6 +106,35 @@ describe('retention while a run is marked to keep', () => {
   });
 });
 
+describe('retention around several kept runs', () => {
+  it('keeps every batch that overlaps one, across overlapping runs and runs that start or end inside a batch', async () => {
+    const gw = `${GW}-s`;
+    await createGateway(gw, BENCH);
+    // Clear of the other tests' runs on this bench, which protect its every gateway.
+    const start = NOW - 200 * DAY;
+    const min = (m: number) => start + m * 60_000;
+    await getDb()
+      .insert(countBatches)
+      .values(Array.from({ length: 180 }, (_, i) => ({ ...raw(min(i)), gatewayId: gw, seq: i })));
+    await getDb()
+      .insert(runs)
+      .values([
+        { benchId: BENCH, title: 'Kept A', startMs: min(30), endMs: min(60), keep: true },
+        { benchId: BENCH, title: 'Kept B, overlapping A', startMs: min(50), endMs: min(70), keep: true },
+        { benchId: BENCH, title: 'Kept C, overlapping B', startMs: min(65), endMs: min(80), keep: true },
+        { benchId: BENCH, title: 'Kept D, inside batches', startMs: min(90.5), endMs: min(100.5), keep: true },
+        { benchId: BENCH, title: 'Not kept', startMs: min(120), endMs: min(150), keep: false },
+      ]);
+    await setRetention({ rawDays: 10, fineDays: 20, coarseDays: 40 }, null);
+    // Two rows a step: the walk goes on after its last deleted row within each gap.
+    const result = await runRetention({ now: NOW, stepRows: 2, pauseMs: 0 });
+    const left = await getDb().select({ t0: countBatches.t0 }).from(countBatches).where(eq(countBatches.gatewayId, gw));
+    const minutes = left.map((r) => (r.t0 - start) / 60_000).sort((a, b) => a - b);
+    expect(minutes).toEqual([...Array.from({ length: 50 }, (_, i) => 30 + i), ...Array.from({ length: 11 }, (_, i) => 90 + i)]);
+    expect(result.deleted.raw).toBeGreaterThanOrEqual(180 - 61);
+  });
+});
+
 describe('a run past raw retention', () => {
   it('still lists its channels from the sums that are kept longer', async () => {
     const gw = `${GW}-r`;

@@ -88,9 +88,9 @@ const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
  * afresh: a run marked to keep while a pass is under way (a pass over a large backlog takes
  * minutes) is spared from the next step on. An open kept run protects everything after its start.
  */
-const KEPT_SPANS = `with k as materialized (
-    select r.start_ms as s, coalesce(r.end_ms, 9007199254740991) as e
-      from runs r join gateways g on g.bench_id = r.bench_id where g.id = $1 and r.keep)`;
+const KEPT_SPANS_OF = `select r.start_ms as s, coalesce(r.end_ms, 9007199254740991) as e
+      from runs r join gateways g on g.bench_id = r.bench_id where g.id = $1 and r.keep`;
+const KEPT_SPANS = `with k as materialized (${KEPT_SPANS_OF})`;
 
 /** Distinct gateway ids of a table by a loose index scan (one probe per gateway, not a full scan). */
 async function gatewaysIn(table: 'count_batches' | 'rollups'): Promise<string[]> {
@@ -104,32 +104,72 @@ async function gatewaysIn(table: 'count_batches' | 'rollups'): Promise<string[]>
   return rows.map((r) => r.id);
 }
 
-async function deleteStep(level: RetentionLevel, gatewayId: string, cutoff: number, limit: number): Promise<number> {
+/**
+ * Deletes a gateway's expired raw rows in steps, walking its key in time order from one gap
+ * between kept spans to the next. A row starting inside a kept span is kept, so the walk goes on
+ * at the span's end and no step reads past kept rows: a kept day of 100 ms batches is 864,000
+ * rows, the oldest left once what was before it is gone, and a step that read past them took half
+ * a second or more, every step of every pass (tests/bench/retention.bench.ts).
+ */
+async function expireRaw(gatewayId: string, cutoff: number, limit: number, pauseMs: number): Promise<number> {
   const pool = getDbHandle().pool;
-  if (level === 'raw') {
-    const res = await pool.query(
+  let deleted = 0;
+  let from = Number.MIN_SAFE_INTEGER;
+  for (;;) {
+    // Read afresh each step, as the statement below does: a run kept meanwhile is skipped from now on.
+    const { rows: spans } = await pool.query<{ s: string; e: string }>(`${KEPT_SPANS_OF} order by r.start_ms`, [gatewayId]);
+    let to = cutoff;
+    for (const k of spans) {
+      const [s, e] = [Number(k.s), Number(k.e)];
+      if (from >= s && from < e) from = e;
+      else if (s > from) {
+        to = Math.min(cutoff, s);
+        break;
+      }
+    }
+    if (from >= cutoff) return deleted;
+    const res = await pool.query<{ t0: string }>(
       `${KEPT_SPANS}
        delete from count_batches where gateway_id = $1 and t0 in (
          select c.t0 from count_batches c
-          where c.gateway_id = $1 and c.t0 < $2 and c.t1 <= $2
+          where c.gateway_id = $1 and c.t0 >= $2 and c.t0 < $3 and c.t1 <= $4
             and not exists (select 1 from k where c.t0 < k.e and c.t1 > k.s)
-          order by c.t0 limit $3)`,
-      [gatewayId, cutoff, limit],
+          order by c.t0 limit $5)
+       returning t0`,
+      [gatewayId, from, to, cutoff, limit],
     );
-    return res.rowCount ?? 0;
+    const n = res.rowCount ?? 0;
+    deleted += n;
+    if (n < limit) {
+      // This gap is done: what is left in it overlaps a kept span or ends after the cut-off.
+      from = to;
+      continue;
+    }
+    from = Math.max(...res.rows.map((r) => Number(r.t0))) + 1;
+    await sleep(pauseMs);
   }
+}
+
+/** Deletes a gateway's expired blocks of one rollup level in steps (a few rows per channel and hour: no walk needed). */
+async function expireRollups(level: 'fine' | 'coarse', gatewayId: string, cutoff: number, limit: number, pauseMs: number): Promise<number> {
   const stepMs = level === 'fine' ? 1_000 : 60_000;
   const blockMs = stepMs * 60;
-  const res = await pool.query(
-    `${KEPT_SPANS}
-     delete from rollups where ctid = any(array(
-       select r.ctid from rollups r
-        where r.gateway_id = $1 and r.step_ms = $2 and r.block_t0 + $3 <= $4
-          and not exists (select 1 from k where r.block_t0 < k.e and r.block_t0 + $3 > k.s)
-        limit $5))`,
-    [gatewayId, stepMs, blockMs, cutoff, limit],
-  );
-  return res.rowCount ?? 0;
+  let deleted = 0;
+  for (;;) {
+    const res = await getDbHandle().pool.query(
+      `${KEPT_SPANS}
+       delete from rollups where ctid = any(array(
+         select r.ctid from rollups r
+          where r.gateway_id = $1 and r.step_ms = $2 and r.block_t0 + $3 <= $4
+            and not exists (select 1 from k where r.block_t0 < k.e and r.block_t0 + $3 > k.s)
+          limit $5))`,
+      [gatewayId, stepMs, blockMs, cutoff, limit],
+    );
+    const n = res.rowCount ?? 0;
+    deleted += n;
+    if (n < limit) return deleted;
+    await sleep(pauseMs);
+  }
 }
 
 /** One pass of the retention job. Safe to run while ingest writes; never touches kept runs. */
@@ -141,15 +181,9 @@ export async function runRetention(opts: RetentionRunOptions = {}): Promise<Rete
   const cfg = await getRetention();
   const cutoffs: Record<RetentionLevel, number> = { raw: now - cfg.rawDays * DAY_MS, fine: now - cfg.fineDays * DAY_MS, coarse: now - cfg.coarseDays * DAY_MS };
   const deleted: Record<RetentionLevel, number> = { raw: 0, fine: 0, coarse: 0 };
-  for (const level of ['raw', 'fine', 'coarse'] as const) {
-    for (const gw of await gatewaysIn(level === 'raw' ? 'count_batches' : 'rollups')) {
-      for (;;) {
-        const n = await deleteStep(level, gw, cutoffs[level], stepRows);
-        deleted[level] += n;
-        if (n < stepRows) break;
-        await sleep(pauseMs);
-      }
-    }
+  for (const gw of await gatewaysIn('count_batches')) deleted.raw += await expireRaw(gw, cutoffs.raw, stepRows, pauseMs);
+  for (const level of ['fine', 'coarse'] as const) {
+    for (const gw of await gatewaysIn('rollups')) deleted[level] += await expireRollups(level, gw, cutoffs[level], stepRows, pauseMs);
   }
   return { startedAt, finishedAt: Date.now(), cutoffs, deleted };
 }
