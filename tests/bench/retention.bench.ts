@@ -1,6 +1,7 @@
 // Retention with a kept run at the head of a gateway's key: once the older unkept rows are gone, a
 // kept run's rows are the oldest left, and every later pass must delete the newer expired rows
 // after them. A day of 100 ms batches (the gateway's default) is 864,000 rows; this keeps 600,000.
+// Beside them, the gateway's sums of two channels: 30 days of 1 s blocks, ten years of 1 min ones.
 // Measures one pass over 20,000 expired rows (40 steps of 500) and a pass with nothing to delete.
 // Target: a step's statement stays within tens of ms whatever the kept rows before it (a long
 // statement holds back the pruning of the rollups' many updates). Run:
@@ -15,6 +16,7 @@ const DAY = 86_400_000;
 const KEPT_ROWS = 600_000;
 const EXPIRED_ROWS = 20_000;
 const STEP_ROWS = 500;
+const SUM_KEYS = ['a', 'b'];
 
 export async function run(): Promise<Record<string, number>> {
   const ownDb = !process.env['DATABASE_URL'];
@@ -37,7 +39,21 @@ export async function run(): Promise<Record<string, number>> {
       [gw, t0, KEPT_ROWS + EXPIRED_ROWS],
     );
     await pool.query(`insert into runs (bench_id, title, start_ms, end_ms, keep) values ($1, 'Kept day', $2, $3, true)`, [bench, t0, t0 + KEPT_ROWS * 100]);
-    await pool.query('analyze count_batches');
+    const hour = Math.floor(now / 3_600_000) * 3_600_000;
+    for (const key of SUM_KEYS) {
+      for (const [stepMs, blocks] of [
+        [1_000, 30 * 1_440],
+        [60_000, 3_650 * 24],
+      ] as const) {
+        await pool.query(
+          `insert into rollups (gateway_id, key, step_ms, block_t0, sums, bins)
+           select $1, $2, $3, $4::int8 - i::int8 * $5::int8, array_fill(5::int8, array[60]), array_fill(10, array[60])
+             from generate_series(1, $6::int) i`,
+          [gw, key, stepMs, hour, stepMs * 60, blocks],
+        );
+      }
+    }
+    await pool.query('vacuum analyze count_batches, rollups');
     await setRetention({ rawDays: 30, fineDays: 180, coarseDays: 3650 }, null);
 
     let started = performance.now();
@@ -49,7 +65,7 @@ export async function run(): Promise<Record<string, number>> {
     const { rows } = await pool.query<{ n: string }>('select count(*) as n from count_batches where gateway_id = $1', [gw]);
     if (pass.deleted.raw < EXPIRED_ROWS || Number(rows[0]!.n) !== KEPT_ROWS) throw new Error(`deleted ${pass.deleted.raw}, left ${rows[0]!.n}`);
     const r = (ms: number) => Math.round(ms * 10) / 10;
-    return { retentionKeptRows: KEPT_ROWS, retentionExpiredRows: EXPIRED_ROWS, retentionPassMs: r(passMs), retentionMsPerStep: r(passMs / (EXPIRED_ROWS / STEP_ROWS)), retentionIdlePassMs: r(idleMs) };
+    return { retentionKeptRows: KEPT_ROWS, retentionExpiredRows: EXPIRED_ROWS, retentionSumRows: SUM_KEYS.length * (30 * 1_440 + 3_650 * 24), retentionPassMs: r(passMs), retentionMsPerStep: r(passMs / (EXPIRED_ROWS / STEP_ROWS)), retentionIdlePassMs: r(idleMs) };
   } finally {
     const { closeDb } = await import('../../src/lib/server/db/index.ts');
     await closeDb();

@@ -104,15 +104,44 @@ async function gatewaysIn(table: 'count_batches' | 'rollups'): Promise<string[]>
   return rows.map((r) => r.id);
 }
 
+/** Rollup keys of a gateway (its channels and the coincidences), one probe each. */
+async function rollupKeys(gatewayId: string): Promise<string[]> {
+  const { rows } = await getDbHandle().pool.query<{ key: string }>(
+    `with recursive k(key) as (
+       select min(key) from rollups where gateway_id = $1
+       union all
+       select (select min(key) from rollups where gateway_id = $1 and key > k.key) from k where k.key is not null
+     ) select key from k where key is not null`,
+    [gatewayId],
+  );
+  return rows.map((r) => r.key);
+}
+
 /**
- * Deletes a gateway's expired raw rows in steps, walking its key in time order from one gap
- * between kept spans to the next. A row starting inside a kept span is kept, so the walk goes on
- * at the span's end and no step reads past kept rows: a kept day of 100 ms batches is 864,000
- * rows, the oldest left once what was before it is gone, and a step that read past them took half
- * a second or more, every step of every pass (tests/bench/retention.bench.ts).
+ * One series of rows in primary-key order: a gateway's raw batches, or one key's blocks of one
+ * rollup level. `where` picks it (`$1` is always the gateway, further parameters follow the walk's
+ * five) and `end` gives a row's end, both over the alias `x`; `start` is the column of its start.
  */
-async function expireRaw(gatewayId: string, cutoff: number, limit: number, pauseMs: number): Promise<number> {
+interface Series {
+  table: 'count_batches' | 'rollups';
+  where: string;
+  start: 't0' | 'block_t0';
+  end: string;
+  params: unknown[];
+}
+
+/**
+ * Deletes a series' expired rows in steps, walking its key in time order from one gap between
+ * kept spans to the next, each step after the last row it deleted. A row starting inside a kept
+ * span is kept, so the walk goes on at the span's end and no step reads past kept rows: a kept day
+ * of 100 ms batches is 864,000 rows, the oldest left once what was before it is gone, and a step
+ * that read past them took half a second or more, every step of every pass. Rollups were read
+ * without their key and level, a scan of the whole table per gateway and level
+ * (tests/bench/retention.bench.ts).
+ */
+async function expire(gatewayId: string, series: Series, cutoff: number, limit: number, pauseMs: number): Promise<number> {
   const pool = getDbHandle().pool;
+  const { table, where, start, end } = series;
   let deleted = 0;
   let from = Number.MIN_SAFE_INTEGER;
   for (;;) {
@@ -128,15 +157,15 @@ async function expireRaw(gatewayId: string, cutoff: number, limit: number, pause
       }
     }
     if (from >= cutoff) return deleted;
-    const res = await pool.query<{ t0: string }>(
+    const res = await pool.query<{ t: string }>(
       `${KEPT_SPANS}
-       delete from count_batches where gateway_id = $1 and t0 in (
-         select c.t0 from count_batches c
-          where c.gateway_id = $1 and c.t0 >= $2 and c.t0 < $3 and c.t1 <= $4
-            and not exists (select 1 from k where c.t0 < k.e and c.t1 > k.s)
-          order by c.t0 limit $5)
-       returning t0`,
-      [gatewayId, from, to, cutoff, limit],
+       delete from ${table} where ctid = any(array(
+         select x.ctid from ${table} x
+          where ${where} and x.${start} >= $2 and x.${start} < $3 and ${end} <= $4
+            and not exists (select 1 from k where x.${start} < k.e and ${end} > k.s)
+          order by x.${start} limit $5))
+       returning ${start} as t`,
+      [gatewayId, from, to, cutoff, limit, ...series.params],
     );
     const n = res.rowCount ?? 0;
     deleted += n;
@@ -145,31 +174,16 @@ async function expireRaw(gatewayId: string, cutoff: number, limit: number, pause
       from = to;
       continue;
     }
-    from = Math.max(...res.rows.map((r) => Number(r.t0))) + 1;
+    from = Math.max(...res.rows.map((r) => Number(r.t))) + 1;
     await sleep(pauseMs);
   }
 }
 
-/** Deletes a gateway's expired blocks of one rollup level in steps (a few rows per channel and hour: no walk needed). */
-async function expireRollups(level: 'fine' | 'coarse', gatewayId: string, cutoff: number, limit: number, pauseMs: number): Promise<number> {
+const rawSeries: Series = { table: 'count_batches', where: 'x.gateway_id = $1', start: 't0', end: 'x.t1', params: [] };
+
+function rollupSeries(key: string, level: 'fine' | 'coarse'): Series {
   const stepMs = level === 'fine' ? 1_000 : 60_000;
-  const blockMs = stepMs * 60;
-  let deleted = 0;
-  for (;;) {
-    const res = await getDbHandle().pool.query(
-      `${KEPT_SPANS}
-       delete from rollups where ctid = any(array(
-         select r.ctid from rollups r
-          where r.gateway_id = $1 and r.step_ms = $2 and r.block_t0 + $3 <= $4
-            and not exists (select 1 from k where r.block_t0 < k.e and r.block_t0 + $3 > k.s)
-          limit $5))`,
-      [gatewayId, stepMs, blockMs, cutoff, limit],
-    );
-    const n = res.rowCount ?? 0;
-    deleted += n;
-    if (n < limit) return deleted;
-    await sleep(pauseMs);
-  }
+  return { table: 'rollups', where: 'x.gateway_id = $1 and x.key = $6 and x.step_ms = $7', start: 'block_t0', end: 'x.block_t0 + $8::int8', params: [key, stepMs, stepMs * 60] };
 }
 
 /** One pass of the retention job. Safe to run while ingest writes; never touches kept runs. */
@@ -181,9 +195,11 @@ export async function runRetention(opts: RetentionRunOptions = {}): Promise<Rete
   const cfg = await getRetention();
   const cutoffs: Record<RetentionLevel, number> = { raw: now - cfg.rawDays * DAY_MS, fine: now - cfg.fineDays * DAY_MS, coarse: now - cfg.coarseDays * DAY_MS };
   const deleted: Record<RetentionLevel, number> = { raw: 0, fine: 0, coarse: 0 };
-  for (const gw of await gatewaysIn('count_batches')) deleted.raw += await expireRaw(gw, cutoffs.raw, stepRows, pauseMs);
-  for (const level of ['fine', 'coarse'] as const) {
-    for (const gw of await gatewaysIn('rollups')) deleted[level] += await expireRollups(level, gw, cutoffs[level], stepRows, pauseMs);
+  for (const gw of await gatewaysIn('count_batches')) deleted.raw += await expire(gw, rawSeries, cutoffs.raw, stepRows, pauseMs);
+  for (const gw of await gatewaysIn('rollups')) {
+    for (const key of await rollupKeys(gw)) {
+      for (const level of ['fine', 'coarse'] as const) deleted[level] += await expire(gw, rollupSeries(key, level), cutoffs[level], stepRows, pauseMs);
+    }
   }
   return { startedAt, finishedAt: Date.now(), cutoffs, deleted };
 }
