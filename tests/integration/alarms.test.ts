@@ -8,7 +8,7 @@ import { AlarmEngine } from '../../src/lib/server/alarms/engine.ts';
 import { acknowledge, listEvents } from '../../src/lib/server/alarms/event-store.ts';
 import { createRule, deleteRule, ruleInputSchema, updateRule } from '../../src/lib/server/alarms/rules.ts';
 import { closeDb, getDb } from '../../src/lib/server/db/index.ts';
-import { alarmEvents, auditLog, caughtMail, channels } from '../../src/lib/server/db/schema.ts';
+import { alarmEvents, auditLog, caughtMail, channels, gateways } from '../../src/lib/server/db/schema.ts';
 import { serverEvents } from '../../src/lib/server/events.ts';
 import { startMailCatcher, type MailCatcher } from '../../src/lib/server/mail/catcher.ts';
 import { createBench, createGateway, revokeGateway } from '../../src/lib/server/provisioning.ts';
@@ -289,5 +289,31 @@ describe('alarm evaluation on ingest', () => {
     const raised = await eventsOf(rule.id);
     expect(raised).toHaveLength(1);
     expect(raised[0]!.value).toBeCloseTo(0.72, 12);
+  });
+
+  it('across a restart, counts no gateway silent for the time the server itself was down, and keeps a silence alarm raised before it', async () => {
+    const restart = async () => {
+      await engine.stop();
+      engine = new AlarmEngine({ tickMs: 50, mail: { gatherMs: 150, quietMs: 60_000, retryMs: 500 }, mailStateName: `alarm-mail-${tag}` });
+      await engine.start();
+      engine.tick();
+    };
+    const [back, dead] = [`${GW}-back`, `${GW}-dead`];
+    for (const gw of [back, dead]) await createGateway(gw, BENCH);
+    const rule = (gw: string) => createRule(BENCH, ruleInputSchema.parse({ name: `Silent ${gw}`, metric: 'gateway_silent', channel: gw, threshold: 60, clearThreshold: 5 }), null);
+    const [backRule, deadRule] = [await rule(back), await rule(dead)];
+    await engine.reload();
+    // The dead one fell silent two minutes ago while the server ran (its message stored, as ingest does): raised.
+    await getDb().update(gateways).set({ lastSeenAt: new Date(Date.now() - 120_000) }).where(eq(gateways.id, dead));
+    serverEvents().emit('gateway-status', { benchId: BENCH, gatewayId: dead, status: { v: 1, state: 'online' } as never, at: Date.now() - 120_000 });
+    engine.tick();
+    expect(await eventsOf(deadRule.id)).toHaveLength(1);
+    // The other one's last message came five minutes ago, just before the server went down.
+    await getDb().update(gateways).set({ lastSeenAt: new Date(Date.now() - 300_000) }).where(eq(gateways.id, back));
+    await restart();
+    expect(await eventsOf(backRule.id)).toHaveLength(0);
+    const stillDead = await eventsOf(deadRule.id);
+    expect(stillDead).toHaveLength(1);
+    expect(stillDead[0]!.clearedAt).toBeNull();
   });
 });

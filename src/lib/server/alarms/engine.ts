@@ -60,6 +60,8 @@ export class AlarmEngine {
   private lastRefresh = 0;
   /** Whether the open events have been taken over as raised states (once, at start). */
   private restored = false;
+  /** When this engine started: no gateway's silence counts from before it. */
+  private startedAt = 0;
 
   constructor(private readonly opts: AlarmEngineOptions = {}) {
     this.now = opts.now ?? Date.now;
@@ -74,6 +76,7 @@ export class AlarmEngine {
     // Not through the queue, which only logs failures: starting with an empty policy would
     // overwrite the saved digests at the first save.
     await this.loadMailState();
+    this.startedAt = this.now();
     await this.reload();
     const bus = serverEvents();
     const on = <E extends keyof ServerEvents>(name: E, fn: (...args: ServerEvents[E]) => void) => {
@@ -231,6 +234,7 @@ export class AlarmEngine {
     const db = getDb();
     this.lastRefresh = this.now();
     const rules = await db.select().from(alarmRules).where(eq(alarmRules.enabled, true));
+    const open = await openEvents();
     const byBench = new Map<string, AlarmRule[]>();
     for (const r of rules) byBench.set(r.benchId, [...(byBench.get(r.benchId) ?? []), r]);
     const benchIds = [...byBench.keys()];
@@ -249,30 +253,39 @@ export class AlarmEngine {
           aux: new Set(channels.filter((c) => c.role === 'aux').map((c) => `${c.gateway}/${c.key}`)),
         });
       }
-      // Silence counts from the last message stored before this start, or from the gateway's creation.
-      for (const g of gws) if (!this.lastSeen.has(g.id)) this.lastSeen.set(g.id, (g.lastSeenAt ?? g.createdAt).getTime());
+      // Silence counts from the gateway's last stored message or its creation, but not from before
+      // this start: the server's own downtime is no gateway's silence (counted, it raised every
+      // silence rule at a restart longer than its limit, cleared once the gateway reconnected). A
+      // gateway already alarmed as silent before the restart stays so.
+      const silentRules = new Set(rules.filter((r) => r.metric === 'gateway_silent').map((r) => r.id));
+      const alarmedSilent = new Set(open.filter((e) => silentRules.has(e.ruleId)).map((e) => e.subject));
+      for (const g of gws) {
+        if (this.lastSeen.has(g.id)) continue;
+        const seen = (g.lastSeenAt ?? g.createdAt).getTime();
+        this.lastSeen.set(g.id, alarmedSilent.has(g.id) ? seen : Math.max(seen, this.startedAt));
+      }
     }
     this.byBench = byBench;
     this.contexts = contexts;
 
     const enabled = new Map(rules.map((r) => [r.id, r]));
     const restoring = !this.restored;
-    for (const open of await openEvents()) {
-      const rule = enabled.get(open.ruleId);
+    for (const event of open) {
+      const rule = enabled.get(event.ruleId);
       const ctx = rule && contexts.get(rule.benchId);
-      if (rule && ctx && watches(rule, open.subject, ctx.gateways, ctx.aux)) {
+      if (rule && ctx && watches(rule, event.subject, ctx.gateways, ctx.aux)) {
         // Only at start: later, the states are the truth and the rows follow them through the queue.
         // A clear decided while this reload ran is written after it, so its event still read open
         // here, and restoring it would keep the pair raised with no open event: no later raise.
-        if (restoring) this.states.restoreRaised(open.ruleId, open.subject, open.raisedAt.getTime());
+        if (restoring) this.states.restoreRaised(event.ruleId, event.subject, event.raisedAt.getTime());
         continue;
       }
       // The rule was disabled, or no longer gets samples of this subject (edited to another
       // channel, the gateway revoked): the alarm ends now rather than hang open forever.
-      const view = await markCleared(open.ruleId, open.subject, this.now());
+      const view = await markCleared(event.ruleId, event.subject, this.now());
       if (view) publishAlarm(alarmMessage('cleared', view));
-      if (rule) this.states.forget(open.ruleId, open.subject);
-      else this.states.forgetRule(open.ruleId);
+      if (rule) this.states.forget(event.ruleId, event.subject);
+      else this.states.forgetRule(event.ruleId);
     }
     this.restored = true;
   }
