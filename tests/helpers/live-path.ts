@@ -81,9 +81,25 @@ export async function publishBatch(client: MqttClient, gatewayId: string, batch:
   await client.publishAsync(topicFor(gatewayId, 'counts'), JSON.stringify(batch), { qos: 1 });
 }
 
+export interface RecordingSocket {
+  ws: WebSocket;
+  messages: LiveMessage[];
+  next(pred: (m: LiveMessage) => boolean, timeoutMs?: number): Promise<LiveMessage>;
+}
+
 /** A WebSocket on the live path that records every message it gets. */
-export async function openLive(baseUrl: string, benchId: string, token: string): Promise<{ ws: WebSocket; messages: LiveMessage[]; next(pred: (m: LiveMessage) => boolean, timeoutMs?: number): Promise<LiveMessage> }> {
-  const ws = new WebSocket(`${baseUrl.replace('http', 'ws')}/api/v1/live?bench=${benchId}`, { headers: { authorization: `Bearer ${token}` } });
+export function openLive(baseUrl: string, benchId: string, token: string): Promise<RecordingSocket> {
+  return openLiveQuery(baseUrl, `bench=${benchId}`, token);
+}
+
+/** A status-only socket on the live path for several benches (the lab overview's). */
+export function openStatusWatch(baseUrl: string, benchIds: string[], token: string): Promise<RecordingSocket> {
+  return openLiveQuery(baseUrl, ['watch=status', ...benchIds.map((b) => `bench=${b}`)].join('&'), token);
+}
+
+/** A socket on the live path with the query as given. */
+export async function openLiveQuery(baseUrl: string, query: string, token: string): Promise<RecordingSocket> {
+  const ws = new WebSocket(`${baseUrl.replace('http', 'ws')}/api/v1/live?${query}`, { headers: { authorization: `Bearer ${token}` } });
   const messages: LiveMessage[] = [];
   const waiters: { pred: (m: LiveMessage) => boolean; resolve: (m: LiveMessage) => void }[] = [];
   ws.on('message', (data) => {

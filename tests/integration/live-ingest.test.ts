@@ -13,7 +13,7 @@ import { BatchWriter } from '../../src/lib/server/ingest/store.ts';
 import { NEXT_PAGE_SQL } from '../../src/lib/server/live/resume.ts';
 import { maxPacketRemaining } from '../../src/lib/server/mqtt/broker.ts';
 import { revokeGateway } from '../../src/lib/server/provisioning.ts';
-import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
+import { connectGateway, freshGateway, makeBatch, openLive, openLiveQuery, openStatusWatch, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
 
 let t: TestLive;
@@ -305,6 +305,44 @@ describe('status, commands and resume', () => {
     expect(row!.status).toMatchObject({ state: 'offline' });
     expect(row!.lastSeenAt).not.toBeNull();
     ws.ws.close();
+  });
+
+  it('tells a status socket the status of each bench it names, and nothing else', async () => {
+    const a = await freshGateway();
+    const b = await freshGateway();
+    const other = await freshGateway();
+    const watch = await openStatusWatch(t.baseUrl, [a.benchId, b.benchId], observerToken);
+    const benchSocket = await openLive(t.baseUrl, a.benchId, observerToken);
+    const ga = await connectGateway(t.mqttPort, a.gatewayId, a.token);
+    const gb = await connectGateway(t.mqttPort, b.gatewayId, b.token);
+    const go = await connectGateway(t.mqttPort, other.gatewayId, other.token);
+    await go.publishAsync(topicFor(other.gatewayId, 'status'), JSON.stringify({ v: 1, state: 'online' }), { qos: 1, retain: true });
+    await publishBatch(ga, a.gatewayId, makeBatch(BASE, 10, 0));
+    await ga.publishAsync(topicFor(a.gatewayId, 'status'), JSON.stringify({ v: 1, state: 'online', channels: ['a', 'b'] }), { qos: 1, retain: true });
+    await gb.publishAsync(topicFor(b.gatewayId, 'status'), JSON.stringify({ v: 1, state: 'offline' }), { qos: 1, retain: true });
+    expect(await watch.next((m) => m.type === 'status' && m.gateway === a.gatewayId)).toMatchObject({ bench: a.benchId, state: 'online', channels: ['a', 'b'] });
+    expect(await watch.next((m) => m.type === 'status' && m.gateway === b.gatewayId)).toMatchObject({ bench: b.benchId, state: 'offline' });
+    // The batch's frame went to every socket of the bench before the bench's own socket read it;
+    // a status sent after that reaches the status socket behind anything that frame gave it.
+    await benchSocket.next((m) => m.type === 'counts');
+    await gb.publishAsync(topicFor(b.gatewayId, 'status'), JSON.stringify({ v: 1, state: 'online' }), { qos: 1, retain: true });
+    await watch.next((m) => m.type === 'status' && m.gateway === b.gatewayId && m.state === 'online');
+    expect(watch.messages.map((m) => m.type === 'status' && `${m.gateway} ${m.state}`)).toEqual([`${a.gatewayId} online`, `${b.gatewayId} offline`, `${b.gatewayId} online`]);
+    // Nothing to resume on it.
+    watch.ws.send(JSON.stringify({ type: 'resume', since: BASE }));
+    expect(await watch.next((m) => m.type === 'error')).toMatchObject({ error: 'a status socket takes no messages' });
+    for (const c of [ga, gb, go]) await c.endAsync();
+    watch.ws.close();
+    benchSocket.ws.close();
+  });
+
+  it('refuses a status socket for a missing bench, without benches, for too many, or watching something else', async () => {
+    const gw = await freshGateway();
+    await expect(openStatusWatch(t.baseUrl, [gw.benchId, 'no-such-bench'], observerToken)).rejects.toThrow(/403/);
+    await expect(openStatusWatch(t.baseUrl, [], observerToken)).rejects.toThrow(/400/);
+    await expect(openStatusWatch(t.baseUrl, Array.from({ length: 101 }, (_, i) => `b-${i}`), observerToken)).rejects.toThrow(/400/);
+    await expect(openStatusWatch(t.baseUrl, [gw.benchId], 'fwp_nope')).rejects.toThrow(/401/);
+    await expect(openLiveQuery(t.baseUrl, `watch=counts&bench=${gw.benchId}`, observerToken)).rejects.toThrow(/400/);
   });
 
   it('sends a command and pushes its ack to the bench', async () => {

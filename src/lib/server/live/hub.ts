@@ -1,6 +1,8 @@
 // The WebSocket hub behind `GET /api/v1/live?bench=`: authenticates the upgrade with the same check
 // as the middleware, keeps each bench's clients, pushes what the fan-out emits, answers `resume`,
-// and terminates sockets that stop answering pings.
+// and terminates sockets that stop answering pings. `?watch=status&bench=a&bench=b` is a lighter
+// socket for pages that show several benches (the lab overview): only the gateways' `status`
+// messages of the benches named, none of the counts, figures or fits a bench's own socket streams.
 //
 // Push in frames: what the fan-out emits for a bench waits at most FRAME_MS (frame-period.ts; a
 // late batch not at all), is coalesced (contiguous counts of a gateway merge), serialised and
@@ -39,6 +41,8 @@ const RESUME_MAX_AGE_MS = 24 * 3_600_000;
 const RESUME_PAGE_BYTES = MAX_QUEUED_BYTES / 2;
 /** How often a replay looks whether its last page has left (ms). */
 const DRAIN_POLL_MS = 20;
+/** Most benches one status socket may watch: the URL stays short, and a lab has far fewer. */
+const MAX_WATCHED_BENCHES = 100;
 
 interface LiveClient {
   ws: WebSocket;
@@ -51,6 +55,12 @@ interface LiveClient {
   nextResume: number | null;
 }
 
+/** A socket that follows only gateway status, of one or several benches. */
+interface StatusWatcher {
+  ws: WebSocket;
+  alive: boolean;
+}
+
 function refuse(socket: Duplex, status: number, reason: string, error: string): void {
   const body = JSON.stringify({ error });
   socket.end(`HTTP/1.1 ${status} ${reason}\r\nContent-Type: application/json\r\nContent-Length: ${Buffer.byteLength(body)}\r\nConnection: close\r\n\r\n${body}`);
@@ -59,6 +69,8 @@ function refuse(socket: Duplex, status: number, reason: string, error: string): 
 export class LiveHub {
   private readonly wss = new WebSocketServer({ noServer: true, maxPayload: MAX_CLIENT_MESSAGE_BYTES, perMessageDeflate: false });
   private readonly benches = new Map<string, Set<LiveClient>>();
+  /** Status-only sockets by bench watched; one socket is in the set of each bench it names. */
+  private readonly watchers = new Map<string, Set<StatusWatcher>>();
   private readonly heartbeat: NodeJS.Timeout;
   private readonly unsubscribe: () => void;
   /** Messages of the coming frame, per bench, in emission order. */
@@ -78,6 +90,7 @@ export class LiveHub {
    * call this too); a `late` one brings that frame forward to now (frame-period.ts).
    */
   publish(benchId: string, message: LiveMessage | FeatureMessage, late = false): void {
+    if (message.type === 'status') this.tellWatchers(benchId, message);
     if (!this.benches.get(benchId)?.size) return;
     const list = this.pending.get(benchId);
     if (list) list.push(message);
@@ -119,6 +132,18 @@ export class LiveHub {
     }
   }
 
+  /**
+   * Status is rare (a gateway's connect, its last will, a silence), so a watcher gets it at once,
+   * outside the frames: no queue to bound, and a bench with only watchers builds no frames.
+   */
+  private tellWatchers(benchId: string, message: LiveMessage | FeatureMessage): void {
+    const set = this.watchers.get(benchId);
+    if (!set?.size) return;
+    const data = Buffer.from(JSON.stringify(message));
+    for (const w of set) if (w.ws.readyState === w.ws.OPEN) w.ws.send(data, { binary: false });
+  }
+
+  /** Sockets of a bench that receive its counts (status-only watchers are not counted). */
   clientCount(benchId?: string): number {
     if (benchId) return this.benches.get(benchId)?.size ?? 0;
     let n = 0;
@@ -138,8 +163,13 @@ export class LiveHub {
 
   private async admit(req: http.IncomingMessage, socket: Duplex, head: Buffer): Promise<void> {
     const url = new URL(req.url ?? '/', 'http://localhost');
-    const bench = benchIdSchema.safeParse(url.searchParams.get('bench') ?? '');
-    if (!bench.success) return refuse(socket, 400, 'Bad Request', 'bench must be a bench id');
+    const watch = url.searchParams.get('watch');
+    if (watch !== null && watch !== 'status') return refuse(socket, 400, 'Bad Request', 'watch must be "status"');
+    const named = watch ? [...new Set(url.searchParams.getAll('bench'))] : [url.searchParams.get('bench') ?? ''];
+    if (named.length === 0 || named.length > MAX_WATCHED_BENCHES) return refuse(socket, 400, 'Bad Request', `name 1 to ${MAX_WATCHED_BENCHES} benches`);
+    const ids = named.map((b) => benchIdSchema.safeParse(b));
+    if (!ids.every((b) => b.success)) return refuse(socket, 400, 'Bad Request', 'bench must be a bench id');
+    const benches = ids.map((b) => b.data!);
     const auth = await authenticate(req.headers);
     if (!auth.user) return refuse(socket, 401, 'Unauthorized', 'sign in or send a valid API token');
     // A cookie rides along with cross-site requests too: a cookie-authenticated socket must come from our own pages.
@@ -147,9 +177,28 @@ export class LiveHub {
       const origin = req.headers.origin;
       if (!origin || originHost(origin) !== req.headers.host) return refuse(socket, 403, 'Forbidden', 'cross-site WebSocket refused');
     }
-    if (!(await canReadBench(auth.user, bench.data))) return refuse(socket, 403, 'Forbidden', 'you may not watch this bench');
+    for (const b of benches) if (!(await canReadBench(auth.user, b))) return refuse(socket, 403, 'Forbidden', 'you may not watch this bench');
     const user = auth.user;
-    this.wss.handleUpgrade(req, socket, head, (ws) => this.attach(ws, socket, bench.data, user));
+    this.wss.handleUpgrade(req, socket, head, (ws) => (watch ? this.attachWatcher(ws, benches) : this.attach(ws, socket, benches[0]!, user)));
+  }
+
+  private attachWatcher(ws: WebSocket, benches: string[]): void {
+    const watcher: StatusWatcher = { ws, alive: true };
+    for (const b of benches) {
+      const set = this.watchers.get(b) ?? new Set();
+      this.watchers.set(b, set.add(watcher));
+    }
+    ws.on('pong', () => (watcher.alive = true));
+    // Nothing to resume: the page re-reads its gateways' state whenever the socket opens.
+    ws.on('message', () => ws.send(JSON.stringify({ type: 'error', error: 'a status socket takes no messages' })));
+    ws.on('close', () => {
+      for (const b of benches) {
+        const set = this.watchers.get(b);
+        set?.delete(watcher);
+        if (set && !set.size) this.watchers.delete(b);
+      }
+    });
+    ws.on('error', () => ws.terminate());
   }
 
   private attach(ws: WebSocket, socket: Duplex, bench: string, user: SessionUser): void {
@@ -279,15 +328,16 @@ export class LiveHub {
   }
 
   private beat(): void {
-    for (const set of this.benches.values()) {
-      for (const c of set) {
-        if (!c.alive) {
-          c.ws.terminate();
-          continue;
-        }
-        c.alive = false;
-        c.ws.ping();
+    const sockets = new Set<LiveClient | StatusWatcher>();
+    for (const set of this.benches.values()) for (const c of set) sockets.add(c);
+    for (const set of this.watchers.values()) for (const w of set) sockets.add(w);
+    for (const c of sockets) {
+      if (!c.alive) {
+        c.ws.terminate();
+        continue;
       }
+      c.alive = false;
+      c.ws.ping();
     }
   }
 
@@ -298,7 +348,9 @@ export class LiveHub {
     if (this.frameImmediate) clearImmediate(this.frameImmediate);
     this.pending.clear();
     for (const set of this.benches.values()) for (const c of set) c.ws.terminate();
+    for (const set of this.watchers.values()) for (const w of set) w.ws.terminate();
     this.benches.clear();
+    this.watchers.clear();
     await new Promise<void>((resolve) => this.wss.close(() => resolve()));
   }
 }
