@@ -2,7 +2,7 @@
 // socket module. Pure: no I/O, safe to bundle into islands. The `counts` shape is fixed by the wire
 // contract; the other message types are ours.
 import { z } from 'zod';
-import { gatewayIdSchema, MAX_EPOCH_MS } from './contract/wire.ts';
+import { benchIdSchema, gatewayIdSchema, MAX_EPOCH_MS } from './contract/wire.ts';
 
 /** One stored batch (or several contiguous ones merged), as the contract's count message. */
 export interface CountsMessage {
@@ -80,6 +80,7 @@ export interface FeatureMessage {
  */
 export const statusMessageSchema = z.object({
   type: z.literal('status'),
+  bench: benchIdSchema,
   gateway: gatewayIdSchema,
   state: z.enum(['online', 'offline']),
 });

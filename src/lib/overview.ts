@@ -1,5 +1,6 @@
 // One bench as the lab overview lists it (plain data for the overview island), and how its
 // gateways are summed up on its card. Pure.
+import type { GatewayPresence } from './client/gateway-presence.ts';
 import type { RunView } from './runs.ts';
 
 export interface OverviewBench {
@@ -7,8 +8,8 @@ export interface OverviewBench {
   name: string;
   wavelengthNm: number;
   description: string;
-  gatewaysOnline: number;
-  gatewaysTotal: number;
+  /** Its gateways as the page was rendered, oldest first; the island follows them live. */
+  gateways: GatewayPresence[];
   /** Gateways that have ever been heard from; 0 on a bench set up today whose gateway is not started yet. */
   gatewaysEverSeen: number;
   openAlarms: number;
@@ -28,7 +29,7 @@ export interface GatewayBadge {
  * The card's gateway badge. A bench with no gateway, or whose gateways have never connected, is
  * being set up, not failing: it says so without the red of a gateway that went offline.
  */
-export function gatewayBadge(b: Pick<OverviewBench, 'gatewaysOnline' | 'gatewaysTotal' | 'gatewaysEverSeen'>): GatewayBadge {
+export function gatewayBadge(b: { gatewaysOnline: number; gatewaysTotal: number; gatewaysEverSeen: number }): GatewayBadge {
   const count = `${b.gatewaysOnline}/${b.gatewaysTotal}`;
   if (b.gatewaysTotal === 0) return { text: 'no gateway yet', tone: 'quiet', count: null };
   if (b.gatewaysOnline > 0) return { text: 'online', tone: 'good', count };

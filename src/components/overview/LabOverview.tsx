@@ -1,15 +1,20 @@
 // Every bench at a glance: online or not, both outputs over the last minutes, visibility and where
-// it came from, open alarms by severity, the active run and who started it. Everything is polled
-// (figures every 2 s, the sparkline's counts and the open alarms every 5 s) rather than streamed:
-// one socket per bench for a summary card would cost more than it shows.
+// it came from, open alarms by severity, the active run and who started it. The figures are polled
+// (every 2 s, the sparkline's counts and the open alarms every 5 s) rather than streamed: one bench
+// socket per card would stream every count for a summary. Whether gateways are online follows one
+// status-only socket for all the benches (gateway-presence.ts), so a gateway that drops or is
+// revoked turns its card offline at once, as on the bench page.
+import { useMemo, useRef } from 'react';
 import type { AlarmEventView, Severity } from '../../lib/alarm-messages.ts';
 import { newestPassAt, type BenchFigures } from '../../lib/bench-figures.ts';
 import { figuresStaleness } from '../../lib/figures-age.ts';
+import type { PresenceFeed } from '../../lib/client/gateway-presence.ts';
 import { errorText, fetchCounts, fetchFigures, fetchOpenAlarms, type CountsAnswer } from '../../lib/client/api.ts';
 import { formatDuration, formatRate, formatValueErr } from '../../lib/client/format.ts';
 import { useNow } from '../../lib/client/use-now.ts';
 import { usePolled } from '../../lib/client/use-polled.ts';
 import { gatewayBadge, type GatewayBadge, type OverviewBench } from '../../lib/overview.ts';
+import { useGatewayPresence } from '../bench/useGatewayPresence.ts';
 import { channelRates, wholeBuckets } from '../history/history-range.ts';
 import { Sparkline } from './Sparkline.tsx';
 
@@ -87,87 +92,105 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
   const live = fast?.live ?? new Map<string, Live>();
   const mountedAt = useNow();
   const now = fast?.at ?? mountedAt;
+  const feed = useMemo<PresenceFeed>(() => ({ kind: 'status', benches: benches.map((b) => b.id) }), [benches]);
 
   return (
     <ul className="grid gap-4 sm:grid-cols-2 xl:grid-cols-3" aria-label="Benches">
-      {benches.map((b) => {
-        const l = live.get(b.id);
-        const f = l?.figures ?? null;
-        const a = f?.channels.find((c) => c.role === 'out_a');
-        const o = f?.channels.find((c) => c.role === 'out_b');
-        const stale = f && now !== null ? figuresStaleness(f.at, now, b.gatewaysOnline, b.gatewaysTotal) : null;
-        const badge = gatewayBadge(b);
-        const v = f?.visibility ?? null;
-        // The newest pass, as the bench page leads with it, and how old it is: a pass from before the last touch or drift is seen to be.
-        const shownV = v?.newest ?? v;
-        const passTime = v ? newestPassAt(v) : undefined;
-        const passAge = passTime !== undefined && now !== null ? formatDuration(now - passTime) : null;
-        const sl = slow.get(b.id);
-        const alarm = alarmSummary(b, sl?.alarms ?? null);
-        return (
-          <li key={b.id} className="card flex min-w-0 flex-col gap-3" data-testid={`bench-card-${b.id}`}>
-            <div className="flex items-start justify-between gap-2">
-              <div className="min-w-0">
-                <a href={`/benches/${b.id}`} className="text-lg font-semibold hover:underline">{b.name}</a>
-                <p className="truncate text-xs text-muted" title={b.description || undefined}>
-                  <span className="figure">{b.wavelengthNm} nm</span>
-                  {b.description && ` · ${b.description}`}
-                </p>
-              </div>
-              <span className={`shrink-0 whitespace-nowrap rounded-full border px-2 py-0.5 text-xs font-medium ${BADGE_TONE[badge.tone]}`} data-testid={`bench-gateways-${b.id}`}>
-                {badge.text}
-                {badge.count && <span className="figure"> {badge.count}</span>}
-              </span>
-            </div>
-            <div>
-              <Sparkline
-                label={`Rates of both outputs over the last ${SPARK_SPAN_MS / 60_000} minutes`}
-                series={sl?.counts ? [{ className: 'stroke-ember', values: rates(sl.counts, a?.channel, sl.asOf) }, { className: 'stroke-tide', values: rates(sl.counts, o?.channel, sl.asOf) }] : []}
-              />
-              <p className="mt-0.5 flex justify-between text-[11px] text-muted">
-                <span>−{SPARK_SPAN_MS / 60_000} min</span>
-                <span>now</span>
-              </p>
-            </div>
-            <dl className="grid grid-cols-2 gap-x-2 gap-y-2">
-              <div className="min-w-0">
-                <dt className="label truncate" title={a?.label ?? 'Out A'}>{a?.label ?? 'Out A'}</dt>
-                <dd className="figure whitespace-nowrap text-lg text-ember">{formatRate(a?.rateRaw)}</dd>
-              </div>
-              <div className="min-w-0">
-                <dt className="label truncate" title={o?.label ?? 'Out B'}>{o?.label ?? 'Out B'}</dt>
-                <dd className="figure whitespace-nowrap text-lg text-tide">{formatRate(o?.rateRaw)}</dd>
-              </div>
-              <div className="col-span-2">
-                <dt className="label">Visibility{v?.net ? ', net of darks' : ''}</dt>
-                {/* The figure stays whole (no-break spaces); its source note wraps under it on a narrow card. */}
-                <dd className="flex flex-wrap items-baseline gap-x-2" data-testid={`bench-visibility-${b.id}`}>
-                  <span className="figure text-lg" title={v?.newest && v.passes && v.passes > 1 ? `mean of ${v.passes} passes ${formatValueErr(v)}` : undefined}>{shownV ? formatValueErr(shownV) : '–'}</span>
-                  <span className="text-xs text-muted">
-                    {!v ? 'needs a sweep or drift' : v.source === 'envelope' ? 'fringe envelope' : v.newest ? `newest pass${passAge ? `, ${passAge} ago` : ''}` : `mean of recent passes${passAge ? `, newest ${passAge} ago` : ''}`}
-                  </span>
-                </dd>
-              </div>
-            </dl>
-            {!l?.loaded && <p className="text-xs text-muted">Loading figures…</p>}
-            {l?.error && <p className="text-xs text-bad">Figures unavailable: {l.error}</p>}
-            {l?.loaded && !l.error && !f && <p className="text-xs text-muted">No counts yet.</p>}
-            {stale && <p className="text-xs text-warn">Figures are {formatDuration(stale.ageMs)} old.</p>}
-            <div className="mt-auto flex flex-wrap items-center justify-between gap-x-3 gap-y-1 border-t border-line pt-2 text-xs">
-              <a href={`/benches/${b.id}#alarms`} className={`hover:underline ${alarm.tone}`} title={alarm.title}>{alarm.text}</a>
-              <span className="min-w-0 text-muted">
-                {b.activeRun ? (
-                  <>
-                    <a className="text-ink hover:underline" href={`/runs/${b.activeRun.id}`}>{b.activeRun.title}</a> · {b.activeRun.startedBy?.name ?? 'someone'} · <span className="figure">{now === null ? '…' : formatDuration(now - b.activeRun.startMs)}</span>
-                  </>
-                ) : (
-                  'no active run'
-                )}
-              </span>
-            </div>
-          </li>
-        );
-      })}
+      {benches.map((b) => (
+        <BenchCard key={b.id} b={b} feed={feed} live={live.get(b.id)} slow={slow.get(b.id)} now={now} />
+      ))}
     </ul>
+  );
+}
+
+/** One bench's card. Its gateway badge follows the page's status socket (`feed`), as the bench page's header follows its own. */
+function BenchCard({ b, feed, live: l, slow: sl, now }: { b: OverviewBench; feed: PresenceFeed; live: Live | undefined; slow: Slow | undefined; now: number | null }) {
+  const gateways = useGatewayPresence(b.id, b.gateways, feed);
+  const gatewaysOnline = gateways.filter((g) => g.online).length;
+  const f = l?.figures ?? null;
+  const a = f?.channels.find((c) => c.role === 'out_a');
+  const o = f?.channels.find((c) => c.role === 'out_b');
+  const stale = f && now !== null ? figuresStaleness(f.at, now, gatewaysOnline, gateways.length) : null;
+  // A gateway seen online since the page opened has been heard from, whatever the render said.
+  const seenOnline = useRef(false);
+  if (gatewaysOnline > 0) seenOnline.current = true;
+  const badge = gatewayBadge({ gatewaysOnline, gatewaysTotal: gateways.length, gatewaysEverSeen: seenOnline.current ? Math.max(1, b.gatewaysEverSeen) : b.gatewaysEverSeen });
+  const v = f?.visibility ?? null;
+  // The newest pass, as the bench page leads with it, and how old it is: a pass from before the last touch or drift is seen to be.
+  const shownV = v?.newest ?? v;
+  const passTime = v ? newestPassAt(v) : undefined;
+  const passAge = passTime !== undefined && now !== null ? formatDuration(now - passTime) : null;
+  const alarm = alarmSummary(b, sl?.alarms ?? null);
+  return (
+    <li className="card flex min-w-0 flex-col gap-3" data-testid={`bench-card-${b.id}`}>
+      <div className="flex items-start justify-between gap-2">
+        <div className="min-w-0">
+          <a href={`/benches/${b.id}`} className="text-lg font-semibold hover:underline">{b.name}</a>
+          <p className="truncate text-xs text-muted" title={b.description || undefined}>
+            <span className="figure">{b.wavelengthNm} nm</span>
+            {b.description && ` · ${b.description}`}
+          </p>
+        </div>
+        <span
+          className={`shrink-0 whitespace-nowrap rounded-full border px-2 py-0.5 text-xs font-medium ${BADGE_TONE[badge.tone]}`}
+          aria-live="polite"
+          title={gateways.map((g) => `${g.id} ${g.online ? 'online' : 'offline'}`).join('\n') || undefined}
+          data-testid={`bench-gateways-${b.id}`}
+        >
+          {badge.text}
+          {badge.count && <span className="figure"> {badge.count}</span>}
+        </span>
+      </div>
+      <div>
+        <Sparkline
+          label={`Rates of both outputs over the last ${SPARK_SPAN_MS / 60_000} minutes`}
+          series={sl?.counts ? [{ className: 'stroke-ember', values: rates(sl.counts, a?.channel, sl.asOf) }, { className: 'stroke-tide', values: rates(sl.counts, o?.channel, sl.asOf) }] : []}
+        />
+        <p className="mt-0.5 flex justify-between text-[11px] text-muted">
+          <span>−{SPARK_SPAN_MS / 60_000} min</span>
+          <span>now</span>
+        </p>
+      </div>
+      <dl className="grid grid-cols-2 gap-x-2 gap-y-2">
+        <div className="min-w-0">
+          <dt className="label truncate" title={a?.label ?? 'Out A'}>{a?.label ?? 'Out A'}</dt>
+          <dd className="figure whitespace-nowrap text-lg text-ember">{formatRate(a?.rateRaw)}</dd>
+        </div>
+        <div className="min-w-0">
+          <dt className="label truncate" title={o?.label ?? 'Out B'}>{o?.label ?? 'Out B'}</dt>
+          <dd className="figure whitespace-nowrap text-lg text-tide">{formatRate(o?.rateRaw)}</dd>
+        </div>
+        <div className="col-span-2">
+          <dt className="label">Visibility{v?.net ? ', net of darks' : ''}</dt>
+          {/* The figure stays whole (no-break spaces); its source note wraps under it on a narrow card. */}
+          <dd className="flex flex-wrap items-baseline gap-x-2" data-testid={`bench-visibility-${b.id}`}>
+            <span className="figure text-lg" title={v?.newest && v.passes && v.passes > 1 ? `mean of ${v.passes} passes ${formatValueErr(v)}` : undefined}>{shownV ? formatValueErr(shownV) : '–'}</span>
+            <span className="text-xs text-muted">
+              {!v ? 'needs a sweep or drift' : v.source === 'envelope' ? 'fringe envelope' : v.newest ? `newest pass${passAge ? `, ${passAge} ago` : ''}` : `mean of recent passes${passAge ? `, newest ${passAge} ago` : ''}`}
+            </span>
+          </dd>
+        </div>
+      </dl>
+      {!l?.loaded && <p className="text-xs text-muted">Loading figures…</p>}
+      {l?.error && <p className="text-xs text-bad">Figures unavailable: {l.error}</p>}
+      {l?.loaded && !l.error && !f && <p className="text-xs text-muted">No counts yet.</p>}
+      {stale && (
+        <p className="text-xs text-warn" data-testid={`bench-stale-${b.id}`}>
+          {stale.offline ? 'No gateway online: figures' : 'Figures'} are {formatDuration(stale.ageMs)} old.
+        </p>
+      )}
+      <div className="mt-auto flex flex-wrap items-center justify-between gap-x-3 gap-y-1 border-t border-line pt-2 text-xs">
+        <a href={`/benches/${b.id}#alarms`} className={`hover:underline ${alarm.tone}`} title={alarm.title}>{alarm.text}</a>
+        <span className="min-w-0 text-muted">
+          {b.activeRun ? (
+            <>
+              <a className="text-ink hover:underline" href={`/runs/${b.activeRun.id}`}>{b.activeRun.title}</a> · {b.activeRun.startedBy?.name ?? 'someone'} · <span className="figure">{now === null ? '…' : formatDuration(now - b.activeRun.startMs)}</span>
+            </>
+          ) : (
+            'no active run'
+          )}
+        </span>
+      </div>
+    </li>
   );
 }

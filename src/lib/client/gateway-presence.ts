@@ -2,10 +2,12 @@
 // with, then every `status` message on the live socket (a gateway's own announcement, or its last
 // will when it drops or is revoked). The hub pushes a status only when one arrives, so one that
 // came while the socket was down (or before it first opened) would be missed: on every opening the
-// gateways are read again. One store per bench, shared by the header and the live view.
+// gateways are read again. One store per bench, shared by the header and the live view. The lab
+// overview follows its benches the same way, each store fed by one status-only socket for all of
+// them (`feed`), since a bench's own socket would stream every count to a summary card.
 import { statusMessageSchema } from '../live-messages.ts';
 import { fetchGatewayOnline } from './api.ts';
-import { liveSocket } from './live-socket.ts';
+import { liveSocket, statusSocket, type SharedSocket } from './live-socket.ts';
 
 export interface GatewayPresence {
   id: string;
@@ -20,6 +22,15 @@ export function withGatewayState(list: readonly GatewayPresence[], id: string, o
   return list.map((g, j) => (j === i ? { id, online } : g));
 }
 
+/** Where status comes from: the bench's own live socket, or the status socket of a page's benches. */
+export type PresenceFeed = { kind: 'bench' } | { kind: 'status'; benches: readonly string[] };
+
+export const BENCH_FEED: PresenceFeed = { kind: 'bench' };
+
+function socketOf(bench: string, feed: PresenceFeed): SharedSocket {
+  return feed.kind === 'bench' ? liveSocket(bench) : statusSocket(feed.benches);
+}
+
 class PresenceStore {
   private list: readonly GatewayPresence[];
   private readonly listeners = new Set<() => void>();
@@ -29,7 +40,9 @@ class PresenceStore {
   private reading: AbortController | null = null;
 
   constructor(
+    private readonly key: string,
     private readonly bench: string,
+    private readonly feed: PresenceFeed,
     initial: readonly GatewayPresence[],
   ) {
     this.list = initial;
@@ -46,7 +59,7 @@ class PresenceStore {
         this.detach?.();
         this.detach = null;
         this.reading?.abort();
-        stores.delete(this.bench);
+        stores.delete(this.key);
       }
     };
   };
@@ -59,11 +72,12 @@ class PresenceStore {
   }
 
   private attach(): void {
-    const socket = liveSocket(this.bench);
+    const socket = socketOf(this.bench, this.feed);
     const off = socket.subscribe((m) => {
       if (m.type !== 'status') return;
       const s = statusMessageSchema.safeParse(m);
-      if (!s.success) return;
+      // A status socket carries every bench of the page.
+      if (!s.success || s.data.bench !== this.bench) return;
       this.seen.set(s.data.gateway, (this.seen.get(s.data.gateway) ?? 0) + 1);
       this.set(s.data.gateway, s.data.state === 'online');
     });
@@ -99,11 +113,12 @@ class PresenceStore {
 const stores = new Map<string, PresenceStore>();
 
 /** The bench's store in this browser tab, made from `initial` (the server's render) on first use. */
-export function gatewayPresence(bench: string, initial: readonly GatewayPresence[]): Pick<PresenceStore, 'get' | 'subscribe'> {
-  let s = stores.get(bench);
+export function gatewayPresence(bench: string, initial: readonly GatewayPresence[], feed: PresenceFeed = BENCH_FEED): Pick<PresenceStore, 'get' | 'subscribe'> {
+  const key = `${feed.kind} ${bench}`;
+  let s = stores.get(key);
   if (!s) {
-    s = new PresenceStore(bench, initial);
-    stores.set(bench, s);
+    s = new PresenceStore(key, bench, feed, initial);
+    stores.set(key, s);
   }
   return s;
 }

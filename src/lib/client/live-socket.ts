@@ -1,6 +1,8 @@
 // The browser's one live socket per bench. Islands subscribe; the module owns the connection,
 // reconnects with exponential back-off, and on each reconnect (or after the server says it dropped
-// messages) asks for what was missed with `resume`, from the end of the last bins it had.
+// messages) asks for what was missed with `resume`, from the end of the last bins it had. A page
+// showing several benches (the lab overview) uses one status-only socket for all of them instead
+// (`statusSocket`): it carries no counts, so it has nothing to resume.
 import type { CountsMessage, FeatureMessage, LiveMessage } from '../live-messages.ts';
 import { LIVE_PATH } from '../live-messages.ts';
 
@@ -39,7 +41,11 @@ class LiveSocket {
   /** While a resume replays, bins ending at or before these ends are already known. */
   private replayKnown: Map<string, number> | null = null;
 
-  constructor(private readonly bench: string) {}
+  /** `key`: its entry in `sockets`; `query`: what the live path's URL asks for. */
+  constructor(
+    private readonly key: string,
+    private readonly query: string,
+  ) {}
 
   subscribe(listener: LiveListener): () => void {
     this.listeners.add(listener);
@@ -64,7 +70,7 @@ class LiveSocket {
   private connect(): void {
     this.timer = null;
     const proto = location.protocol === 'https:' ? 'wss:' : 'ws:';
-    const ws = new WebSocket(`${proto}//${location.host}${LIVE_PATH}?bench=${encodeURIComponent(this.bench)}`);
+    const ws = new WebSocket(`${proto}//${location.host}${LIVE_PATH}?${this.query}`);
     this.ws = ws;
     this.setState({ status: 'connecting', retryAt: null });
     ws.onopen = () => {
@@ -121,18 +127,31 @@ class LiveSocket {
     const ws = this.ws;
     this.ws = null;
     ws?.close();
-    sockets.delete(this.bench);
+    sockets.delete(this.key);
   }
 }
 
 const sockets = new Map<string, LiveSocket>();
 
-/** The shared live socket of a bench; it connects on the first subscriber and closes after the last leaves. */
-export function liveSocket(bench: string): Pick<LiveSocket, 'subscribe' | 'onState' | 'state'> {
-  let s = sockets.get(bench);
+export type SharedSocket = Pick<LiveSocket, 'subscribe' | 'onState' | 'state'>;
+
+function shared(key: string, query: () => string): SharedSocket {
+  let s = sockets.get(key);
   if (!s) {
-    s = new LiveSocket(bench);
-    sockets.set(bench, s);
+    s = new LiveSocket(key, query());
+    sockets.set(key, s);
   }
   return s;
+}
+
+/** The shared live socket of a bench; it connects on the first subscriber and closes after the last leaves. */
+export function liveSocket(bench: string): SharedSocket {
+  return shared(bench, () => new URLSearchParams({ bench }).toString());
+}
+
+/** One shared socket carrying only the `status` messages of these benches, whichever order they come in. */
+export function statusSocket(benches: readonly string[]): SharedSocket {
+  const sorted = [...new Set(benches)].sort();
+  // A space never occurs in a bench id, so no bench's own socket has this key.
+  return shared(`status ${sorted.join(' ')}`, () => new URLSearchParams([['watch', 'status'], ...sorted.map((b) => ['bench', b])]).toString());
 }

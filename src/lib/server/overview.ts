@@ -1,6 +1,6 @@
 // What the lab overview shows per bench beside the live figures: gateways online, open alarms,
 // and who is running what.
-import { count, isNull } from 'drizzle-orm';
+import { asc, count, isNull } from 'drizzle-orm';
 import type { OverviewBench } from '../overview.ts';
 import { listBenches } from './benches.ts';
 import { getDb } from './db/index.ts';
@@ -12,7 +12,10 @@ export async function loadOverview(): Promise<OverviewBench[]> {
   const db = getDb();
   const [benchRows, gws, alarms, runs] = await Promise.all([
     listBenches(),
-    db.select({ id: gateways.id, benchId: gateways.benchId, status: gateways.status, revokedAt: gateways.revokedAt, lastSeenAt: gateways.lastSeenAt }).from(gateways),
+    db
+      .select({ id: gateways.id, benchId: gateways.benchId, status: gateways.status, revokedAt: gateways.revokedAt, lastSeenAt: gateways.lastSeenAt })
+      .from(gateways)
+      .orderBy(asc(gateways.createdAt), asc(gateways.id)),
     db
       .select({ benchId: alarmEvents.benchId, severity: alarmEvents.severity, n: count() })
       .from(alarmEvents)
@@ -29,8 +32,7 @@ export async function loadOverview(): Promise<OverviewBench[]> {
       name: b.name,
       wavelengthNm: b.wavelengthNm,
       description: b.description,
-      gatewaysOnline: mine.filter((g) => (g.status as { state?: unknown } | null)?.state === 'online' && !g.revokedAt).length,
-      gatewaysTotal: mine.length,
+      gateways: mine.map((g) => ({ id: g.id, online: (g.status as { state?: unknown } | null)?.state === 'online' && !g.revokedAt })),
       gatewaysEverSeen: mine.filter((g) => g.lastSeenAt !== null).length,
       openAlarms: open.reduce((s, a) => s + a.n, 0),
       criticalAlarms: open.filter((a) => a.severity === 'critical').reduce((s, a) => s + a.n, 0),
