@@ -1,5 +1,6 @@
 // What the bench pages hand their islands: plain serialisable data (no server types), loaded once
 // per page by src/lib/server/bench-view.ts.
+import type { GatewayPresence } from './client/gateway-presence.ts';
 import type { RunView } from './runs.ts';
 
 export type ChannelRole = 'out_a' | 'out_b' | 'herald' | 'aux';
@@ -28,7 +29,7 @@ export interface BenchViewData {
   outB: string | null;
   herald: string | null;
   /** `scan`: the range the gateway's drive reports it can reach (its last status), null when unreported. */
-  gateways: { id: string; online: boolean; lastSeenMs: number | null; scan: { min: number; max: number; unit: string } | null }[];
+  gateways: (GatewayPresence & { lastSeenMs: number | null; scan: { min: number; max: number; unit: string } | null })[];
   /** Lowest acceptable visibility from the enabled visibility alarm rules; null without one. */
   visibilityLimit: number | null;
   activeRun: RunView | null;

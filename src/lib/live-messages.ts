@@ -25,6 +25,11 @@ export interface StatusMessage {
   state: 'online' | 'offline';
   /** Server time the status arrived, ms since the epoch. */
   at: number;
+  /**
+   * Set when the server says so itself, not the gateway: its status reads online, but nothing has
+   * arrived from it for too long (ingest/silence.ts). When it was last heard, ms since the epoch.
+   */
+  silentSince?: number;
   channels?: string[];
   scan?: { min: number; max: number; unit: string };
   software?: string;
@@ -83,6 +88,7 @@ export const statusMessageSchema = z.object({
   bench: benchIdSchema,
   gateway: gatewayIdSchema,
   state: z.enum(['online', 'offline']),
+  silentSince: z.number().int().min(0).max(MAX_EPOCH_MS).optional(),
 });
 
 /** The fields of an `ack` message the drive controls act on: which command, and the gateway's verdict. */

@@ -20,7 +20,7 @@ export interface OverviewBench {
 export interface GatewayBadge {
   text: string;
   /** How the badge reads: only a gateway that has gone away is a fault to point at. */
-  tone: 'good' | 'bad' | 'quiet';
+  tone: 'good' | 'warn' | 'bad' | 'quiet';
   /** "1/2": online out of assigned; omitted where there is nothing to count. */
   count: string | null;
 }
@@ -29,10 +29,12 @@ export interface GatewayBadge {
  * The card's gateway badge. A bench with no gateway, or whose gateways have never connected, is
  * being set up, not failing: it says so without the red of a gateway that went offline.
  */
-export function gatewayBadge(b: { gatewaysOnline: number; gatewaysTotal: number; gatewaysEverSeen: number }): GatewayBadge {
+export function gatewayBadge(b: { gatewaysOnline: number; gatewaysTotal: number; gatewaysEverSeen: number; gatewaysSilent?: number }): GatewayBadge {
   const count = `${b.gatewaysOnline}/${b.gatewaysTotal}`;
   if (b.gatewaysTotal === 0) return { text: 'no gateway yet', tone: 'quiet', count: null };
   if (b.gatewaysOnline > 0) return { text: 'online', tone: 'good', count };
+  // Said to be online but not heard from: maybe a stalled counter, maybe a broker slow to notice.
+  if (b.gatewaysSilent) return { text: 'silent', tone: 'warn', count };
   if (b.gatewaysEverSeen === 0) return { text: 'not connected yet', tone: 'quiet', count: null };
   return { text: 'offline', tone: 'bad', count };
 }

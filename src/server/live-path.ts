@@ -3,6 +3,7 @@
 import { LIVE_PATH } from '../lib/live-messages.ts';
 import { BrokerCommandSender } from '../lib/server/commands/sender.ts';
 import { Ingest } from '../lib/server/ingest/pipeline.ts';
+import type { SilenceOptions } from '../lib/server/ingest/silence-watch.ts';
 import { LiveHub } from '../lib/server/live/hub.ts';
 import { startEmbeddedBroker } from '../lib/server/mqtt/broker.ts';
 import { connectExternalBroker } from '../lib/server/mqtt/external.ts';
@@ -17,6 +18,8 @@ export interface LivePathOptions {
   /** Embedded broker port; 0 picks a free one. */
   mqttPort: number;
   prefix: string;
+  /** When an online gateway that sends nothing counts as silent (defaults from the contract; tests shorten it). */
+  silence?: SilenceOptions;
 }
 
 export interface LivePath {
@@ -38,14 +41,17 @@ export function livePathOptionsFromEnv(): LivePathOptions {
 }
 
 export async function startLivePath(opts: LivePathOptions): Promise<LivePath> {
-  const ingest = new Ingest();
+  const ingest = new Ingest({ ...(opts.silence && { silence: opts.silence }) });
   const hub = new LiveHub(ingest.fanout);
   let transport: MqttTransport;
   try {
+    // Before the broker: what the gateways' rows say is known before the first message can arrive.
+    await ingest.silence.start();
     transport = opts.mqttUrl
       ? await connectExternalBroker({ url: opts.mqttUrl, prefix: opts.prefix, ingest })
       : await startEmbeddedBroker({ host: opts.mqttHost, port: opts.mqttPort, prefix: opts.prefix, ingest });
   } catch (err) {
+    ingest.silence.stop();
     await hub.close();
     throw err;
   }
@@ -58,7 +64,14 @@ export async function startLivePath(opts: LivePathOptions): Promise<LivePath> {
     subscribe: (listener) => ingest.fanout.subscribe(listener),
     clientCount: (benchId) => hub.clientCount(benchId),
   };
-  rt.gatewaySessions = { disconnect: (id) => transport.disconnectGateway(id) };
+  rt.gatewaySessions = {
+    disconnect: (id) => {
+      transport.disconnectGateway(id);
+      // Revoked or rotated: whatever it said last, silence no longer tells anything about it.
+      ingest.silence.forget(id);
+    },
+  };
+  rt.gatewaySilence = { silentSince: (id) => ingest.silence.silentSince(id) };
   rt.gatewayBroker = { external: opts.mqttUrl, host: opts.mqttHost, port: transport.port, prefix: opts.prefix };
   return {
     ingest,
@@ -71,6 +84,8 @@ export async function startLivePath(opts: LivePathOptions): Promise<LivePath> {
       delete rt.live;
       delete rt.gatewaySessions;
       delete rt.gatewayBroker;
+      delete rt.gatewaySilence;
+      ingest.silence.stop();
       commands.close();
       await transport.close();
       await hub.close();

@@ -10,10 +10,11 @@ import { newestPassAt, type BenchFigures } from '../../lib/bench-figures.ts';
 import { figuresStaleness } from '../../lib/figures-age.ts';
 import type { PresenceFeed } from '../../lib/client/gateway-presence.ts';
 import { errorText, fetchCounts, fetchFigures, fetchOpenAlarms, type CountsAnswer } from '../../lib/client/api.ts';
-import { formatDuration, formatRate, formatValueErr } from '../../lib/client/format.ts';
+import { formatDuration, formatRate, formatValueErr, SILENT_TITLE } from '../../lib/client/format.ts';
 import { useNow } from '../../lib/client/use-now.ts';
 import { usePolled } from '../../lib/client/use-polled.ts';
 import { gatewayBadge, type GatewayBadge, type OverviewBench } from '../../lib/overview.ts';
+import { gatewayStateText } from '../bench/gateway-state.ts';
 import { useGatewayPresence } from '../bench/useGatewayPresence.ts';
 import { channelRates, wholeBuckets } from '../history/history-range.ts';
 import { Sparkline } from './Sparkline.tsx';
@@ -32,7 +33,7 @@ type Live = { figures: BenchFigures | null; error: string | null; loaded: boolea
 type Slow = { counts: CountsAnswer | null; alarms: AlarmEventView[] | null; asOf: number };
 
 const SEVERITY_RANK: Record<Severity, number> = { info: 0, warning: 1, critical: 2 };
-const BADGE_TONE: Record<GatewayBadge['tone'], string> = { good: 'border-good text-good', bad: 'border-bad text-bad', quiet: 'border-line text-muted' };
+const BADGE_TONE: Record<GatewayBadge['tone'], string> = { good: 'border-good text-good', warn: 'border-warn text-warn', bad: 'border-bad text-bad', quiet: 'border-line text-muted' };
 const SEVERITY_TONE: Record<Severity, string> = { info: 'text-muted', warning: 'text-warn', critical: 'font-semibold text-bad' };
 
 /** counts/s of a channel's buckets over the time its gateway recorded, as on the history chart. */
@@ -114,7 +115,8 @@ function BenchCard({ b, feed, live: l, slow: sl, now }: { b: OverviewBench; feed
   // A gateway seen online since the page opened has been heard from, whatever the render said.
   const seenOnline = useRef(false);
   if (gatewaysOnline > 0) seenOnline.current = true;
-  const badge = gatewayBadge({ gatewaysOnline, gatewaysTotal: gateways.length, gatewaysEverSeen: seenOnline.current ? Math.max(1, b.gatewaysEverSeen) : b.gatewaysEverSeen });
+  const badge = gatewayBadge({ gatewaysOnline, gatewaysSilent: gateways.filter((g) => g.silentSince !== undefined).length, gatewaysTotal: gateways.length, gatewaysEverSeen: seenOnline.current ? Math.max(1, b.gatewaysEverSeen) : b.gatewaysEverSeen });
+  const silent = gateways.filter((g) => g.silentSince !== undefined);
   const v = f?.visibility ?? null;
   // The newest pass, as the bench page leads with it, and how old it is: a pass from before the last touch or drift is seen to be.
   const shownV = v?.newest ?? v;
@@ -134,7 +136,7 @@ function BenchCard({ b, feed, live: l, slow: sl, now }: { b: OverviewBench; feed
         <span
           className={`shrink-0 whitespace-nowrap rounded-full border px-2 py-0.5 text-xs font-medium ${BADGE_TONE[badge.tone]}`}
           aria-live="polite"
-          title={gateways.map((g) => `${g.id} ${g.online ? 'online' : 'offline'}`).join('\n') || undefined}
+          title={gateways.map((g) => `${g.id} ${gatewayStateText(g, now)}`).join('\n') || undefined}
           data-testid={`bench-gateways-${b.id}`}
         >
           {badge.text}
@@ -171,6 +173,11 @@ function BenchCard({ b, feed, live: l, slow: sl, now }: { b: OverviewBench; feed
           </dd>
         </div>
       </dl>
+      {silent.map((g) => (
+        <p key={g.id} className="text-xs text-warn" title={SILENT_TITLE} data-testid={`bench-silent-${g.id}`}>
+          {g.id} {gatewayStateText(g, now)}
+        </p>
+      ))}
       {!l?.loaded && <p className="text-xs text-muted">Loading figures…</p>}
       {l?.error && <p className="text-xs text-bad">Figures unavailable: {l.error}</p>}
       {l?.loaded && !l.error && !f && <p className="text-xs text-muted">No counts yet.</p>}

@@ -147,9 +147,9 @@ export async function fetchFigures(bench: string, signal?: AbortSignal): Promise
 }
 
 /** Whether a gateway is online now (its retained status, and not revoked), from its health answer. */
-export async function fetchGatewayOnline(gateway: string, signal?: AbortSignal): Promise<boolean> {
-  const answer = await call(`/api/v1/gateways/${encodeURIComponent(gateway)}/health`, z.object({ online: z.boolean() }), undefined, signal);
-  return answer.online;
+/** Whether a gateway is online, and since when it has been silent (null when it is not), from its health. */
+export function fetchGatewayPresence(gateway: string, signal?: AbortSignal): Promise<{ online: boolean; silentSince: number | null }> {
+  return call(`/api/v1/gateways/${encodeURIComponent(gateway)}/health`, z.object({ online: z.boolean(), silentSince: z.number().nullable() }), undefined, signal);
 }
 
 export function sendCommand(bench: string, cmd: CommandBody): Promise<{ id: string; gateway: string; gatewayOnline: boolean }> {

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import type { BenchFigures, ChannelFigures } from '../bench-figures.ts';
-import { formatDateTime, formatValueErr, parseLocalInput, PLUS_MINUS, snapshotLines } from './format.ts';
+import { formatClock, formatDateTime, formatPastMoment, formatValueErr, parseLocalInput, PLUS_MINUS, snapshotLines } from './format.ts';
 
 describe('local time fields', () => {
   it('shows a time as YYYY-MM-DD HH:MM, 24 h, and reads it back', () => {
@@ -8,6 +8,12 @@ describe('local time fields', () => {
     expect(formatDateTime(ms)).toBe('2026-12-01 21:05');
     expect(parseLocalInput('2026-12-01 21:05')).toBe(ms);
     expect(parseLocalInput(' 2026-12-01T21:05:30 ')).toBe(ms + 30_000);
+  });
+
+  it('gives a past moment of the same day as its time of day, an older one with its date', () => {
+    const now = new Date(2026, 11, 1, 21, 5).getTime();
+    expect(formatPastMoment(new Date(2026, 11, 1, 0, 0, 7).getTime(), now)).toBe(formatClock(new Date(2026, 11, 1, 0, 0, 7).getTime()));
+    expect(formatPastMoment(new Date(2026, 10, 30, 23, 59, 7).getTime(), now)).toBe('2026-11-30 23:59');
   });
 
   it.each(['2026-02-30 10:00', '2026-12-01 24:00', '2026-12-01 10:60', '12/01/2026 09:20 PM', '2026-12-01', ''])('refuses %j', (text) => {

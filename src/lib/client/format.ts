@@ -77,6 +77,14 @@ export function formatClock(ms: number): string {
   return new Date(ms).toLocaleTimeString(undefined, { hour: '2-digit', minute: '2-digit', second: '2-digit', hour12: false });
 }
 
+/** A moment before `now`: its time of day with seconds when it was the same local day, else its date and time. */
+export function formatPastMoment(ms: number, now: number): string {
+  return new Date(ms).toDateString() === new Date(now).toDateString() ? formatClock(ms) : formatDateTime(ms);
+}
+
+/** What "silent" means beside a gateway's name (its status says online, but nothing comes). */
+export const SILENT_TITLE = 'Its status says online, but nothing has arrived from it for longer than a working gateway is ever quiet: its connection or its counter may have died.';
+
 /** Local date and time, e.g. "2026-05-01 14:03" (with seconds: "2026-05-01 14:03:27"). */
 export function formatDateTime(ms: number, withSeconds = false): string {
   const d = new Date(ms);

@@ -1,25 +1,33 @@
 // Which of a bench's gateways are online, as the bench page learns it: the server's render to start
-// with, then every `status` message on the live socket (a gateway's own announcement, or its last
-// will when it drops or is revoked). The hub pushes a status only when one arrives, so one that
-// came while the socket was down (or before it first opened) would be missed: on every opening the
-// gateways are read again. One store per bench, shared by the header and the live view. The lab
+// with, then every `status` message on the live socket (a gateway's own announcement, its last will
+// when it drops or is revoked, or the server's word that it fell silent or spoke again). The hub
+// pushes a status only when one arrives, so one that came while the socket was down (or before it
+// first opened) would be missed: on every opening the gateways are read again. One store per bench, shared by the header and the live view. The lab
 // overview follows its benches the same way, each store fed by one status-only socket for all of
 // them (`feed`), since a bench's own socket would stream every count to a summary card.
 import { statusMessageSchema } from '../live-messages.ts';
-import { fetchGatewayOnline } from './api.ts';
+import { fetchGatewayPresence } from './api.ts';
 import { liveSocket, statusSocket, type SharedSocket } from './live-socket.ts';
 
 export interface GatewayPresence {
   id: string;
   online: boolean;
+  /** Its status says online, but the server has heard nothing from it for too long: when it last did, ms since the epoch. */
+  silentSince?: number;
 }
 
 /** The list with one gateway's state set; the same list when nothing changes. A gateway not yet listed (newly assigned) is added. */
-export function withGatewayState(list: readonly GatewayPresence[], id: string, online: boolean): readonly GatewayPresence[] {
-  const i = list.findIndex((g) => g.id === id);
-  if (i < 0) return [...list, { id, online }];
-  if (list[i]!.online === online) return list;
-  return list.map((g, j) => (j === i ? { id, online } : g));
+export function withGatewayState(list: readonly GatewayPresence[], next: GatewayPresence): readonly GatewayPresence[] {
+  const i = list.findIndex((g) => g.id === next.id);
+  if (i < 0) return [...list, next];
+  const g = list[i]!;
+  if (g.online === next.online && g.silentSince === next.silentSince) return list;
+  return list.map((h, j) => (j === i ? next : h));
+}
+
+/** One gateway's presence from what a status message or a health read says. */
+function presence(id: string, online: boolean, silentSince: number | null | undefined): GatewayPresence {
+  return silentSince == null ? { id, online } : { id, online, silentSince };
 }
 
 /** Where status comes from: the bench's own live socket, or the status socket of a page's benches. */
@@ -64,8 +72,8 @@ class PresenceStore {
     };
   };
 
-  private set(id: string, online: boolean): void {
-    const next = withGatewayState(this.list, id, online);
+  private set(g: GatewayPresence): void {
+    const next = withGatewayState(this.list, g);
     if (next === this.list) return;
     this.list = next;
     for (const l of this.listeners) l();
@@ -79,7 +87,7 @@ class PresenceStore {
       // A status socket carries every bench of the page.
       if (!s.success || s.data.bench !== this.bench) return;
       this.seen.set(s.data.gateway, (this.seen.get(s.data.gateway) ?? 0) + 1);
-      this.set(s.data.gateway, s.data.state === 'online');
+      this.set(presence(s.data.gateway, s.data.state === 'online', s.data.silentSince));
     });
     let wasOpen = false;
     const offState = socket.onState((st) => {
@@ -100,9 +108,9 @@ class PresenceStore {
     for (const { id } of this.list) {
       const before = this.seen.get(id) ?? 0;
       // A failed read keeps what the page knows: the next status message or opening corrects it.
-      fetchGatewayOnline(id, ctl.signal).then(
-        (online) => {
-          if (!ctl.signal.aborted && (this.seen.get(id) ?? 0) === before) this.set(id, online);
+      fetchGatewayPresence(id, ctl.signal).then(
+        (p) => {
+          if (!ctl.signal.aborted && (this.seen.get(id) ?? 0) === before) this.set(presence(id, p.online, p.silentSince));
         },
         () => undefined,
       );

@@ -7,7 +7,7 @@
 // on the way; anything else — a rule broken, or a valid batch in a form it does not take — returns
 // null, and the caller decodes with the schema, which gives the reason. So what it accepts is a
 // subset of what the schema accepts, with equal values (count-batch-scan.test.ts checks both against each other).
-import { CONTRACT_VERSION, MAX_BINS, MAX_COUNT, MAX_EPOCH_MS, MAX_PAYLOAD_BYTES, type CountBatch } from './wire.ts';
+import { CONTRACT_VERSION, MAX_BIN_MS, MAX_BINS, MAX_COUNT, MAX_EPOCH_MS, MAX_PAYLOAD_BYTES, type CountBatch } from './wire.ts';
 
 const QUOTE = 0x22;
 const COMMA = 0x2c;
@@ -285,7 +285,7 @@ export function scanCountBatch(payload: Uint8Array): CountBatch | null {
           break;
         case 'dt':
           if (dt !== undefined) return null;
-          dt = readUint(60_000);
+          dt = readUint(MAX_BIN_MS);
           break;
         case 'ch':
           if (channels !== undefined) return null;

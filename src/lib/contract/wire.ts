@@ -6,6 +6,8 @@ import * as z4 from 'zod/v4';
 export const CONTRACT_VERSION = 1;
 export const MAX_PAYLOAD_BYTES = 256 * 1024;
 export const MAX_BINS = 10_000;
+/** The widest bin a count batch may have (its `dt`), ms. */
+export const MAX_BIN_MS = 60_000;
 export const MAX_COUNT = 2 ** 31 - 1;
 export const DEFAULT_PREFIX = 'fringewise/v1';
 /**
@@ -109,7 +111,7 @@ export const countBatchSchema = z4
     boot: z4.string().min(1).max(32).refine(hasNoNul, NUL_REASON).refine(isWellFormed, LONE_SURROGATE_REASON),
     seq: z4.number().int().min(0).max(Number.MAX_SAFE_INTEGER),
     t0: z4.number().int().min(0).max(MAX_EPOCH_MS),
-    dt: z4.number().int().min(1).max(60_000),
+    dt: z4.number().int().min(1).max(MAX_BIN_MS),
     ch: channelsSchema,
     x: xSchema.optional(),
     cc: ccSchema.optional(),

@@ -4,6 +4,7 @@ import type { BenchViewData, ViewChannel } from '../bench-view.ts';
 import { benchChannels, getBench } from './benches.ts';
 import { getDb } from './db/index.ts';
 import { alarmRules, channels, gateways } from './db/schema.ts';
+import { presenceOf } from './gateway-presence.ts';
 import { activeRuns } from './runs.ts';
 import { statusSchema } from '../contract/wire.ts';
 import { isImportGateway } from '../import-shapes.ts';
@@ -54,9 +55,8 @@ export async function loadBenchView(benchId: string, opts: { imports: 'include' 
     outB: byRole('out_b'),
     herald: byRole('herald'),
     gateways: gws.filter((g) => !isImportGateway(g.id)).map((g) => {
-      const state = (g.status as { state?: unknown } | null)?.state;
       const scan = storedScanSchema.safeParse(g.status ?? {});
-      return { id: g.id, online: state === 'online' && !g.revokedAt, lastSeenMs: g.lastSeenAt ? g.lastSeenAt.getTime() : null, scan: scan.success ? (scan.data.scan ?? null) : null };
+      return { ...presenceOf(g), lastSeenMs: g.lastSeenAt ? g.lastSeenAt.getTime() : null, scan: scan.success ? (scan.data.scan ?? null) : null };
     }),
     // Several rules: the strictest (highest) limit is the one the trend must stay above.
     visibilityLimit: limits.length ? Math.max(...limits.map((l) => l.threshold)) : null,

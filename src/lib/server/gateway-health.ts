@@ -1,4 +1,4 @@
-// A gateway's health for its page and `GET /api/v1/gateways/{gw}/health`: online state, last seen,
+// A gateway's health for its page and `GET /api/v1/gateways/{gw}/health`: online state (or silent), last seen,
 // recent rates, seq gaps (possible loss), rejected batches with the last reasons, broker refusals,
 // and the clock offset between its bins and their arrival.
 import { eq } from 'drizzle-orm';
@@ -6,6 +6,7 @@ import { gatewayIdSchema } from '../contract/wire.ts';
 import { getDb, getDbHandle } from './db/index.ts';
 import { unpackCounts } from './db/packed-counts.ts';
 import { gatewayHealth, gateways } from './db/schema.ts';
+import { presenceOf } from './gateway-presence.ts';
 import { isImportGateway } from '../import-shapes.ts';
 
 /** Rates are over the bins of this last stretch of time (ms). */
@@ -15,6 +16,8 @@ export interface GatewayHealthView {
   id: string;
   benchId: string;
   online: boolean;
+  /** Its status says online, but nothing has arrived from it for too long: when it last did, ms (else null). */
+  silentSince: number | null;
   revoked: boolean;
   /** The last status payload the gateway sent (retained; its last will says offline). */
   status: { state?: string; boot?: string; channels?: string[]; software?: string; scan?: { min: number; max: number; unit: string } } | null;
@@ -66,6 +69,7 @@ export async function loadGatewayHealth(gatewayId: string, now = Date.now()): Pr
   if (!row) return null;
   const { g, h } = row;
   const status = (g.status ?? null) as GatewayHealthView['status'];
+  const presence = presenceOf(g);
   const { rows } = await getDbHandle().pool.query<{ n: number; dt: number; keys: string[]; counts: Buffer; boot: string; seq: number }>(
     'select n, dt, keys, counts, boot, seq from count_batches where gateway_id = $1 and t0 >= $2 and t0 < $3 order by t0',
     [gatewayId, now - RATE_WINDOW_MS, now],
@@ -88,7 +92,8 @@ export async function loadGatewayHealth(gatewayId: string, now = Date.now()): Pr
   return {
     id: g.id,
     benchId: g.benchId,
-    online: status?.state === 'online' && !g.revokedAt,
+    online: presence.online,
+    silentSince: presence.silentSince ?? null,
     revoked: !!g.revokedAt,
     status,
     lastSeenAt: g.lastSeenAt ? g.lastSeenAt.getTime() : null,

@@ -5,6 +5,7 @@ import type { OverviewBench } from '../overview.ts';
 import { listBenches } from './benches.ts';
 import { getDb } from './db/index.ts';
 import { alarmEvents, gateways } from './db/schema.ts';
+import { presenceOf } from './gateway-presence.ts';
 import { activeRuns } from './runs.ts';
 import { isImportGateway } from '../import-shapes.ts';
 
@@ -32,7 +33,7 @@ export async function loadOverview(): Promise<OverviewBench[]> {
       name: b.name,
       wavelengthNm: b.wavelengthNm,
       description: b.description,
-      gateways: mine.map((g) => ({ id: g.id, online: (g.status as { state?: unknown } | null)?.state === 'online' && !g.revokedAt })),
+      gateways: mine.map(presenceOf),
       gatewaysEverSeen: mine.filter((g) => g.lastSeenAt !== null).length,
       openAlarms: open.reduce((s, a) => s + a.n, 0),
       criticalAlarms: open.filter((a) => a.severity === 'critical').reduce((s, a) => s + a.n, 0),

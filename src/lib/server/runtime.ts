@@ -25,6 +25,11 @@ export interface GatewaySessions {
   disconnect(gatewayId: string): void;
 }
 
+export interface GatewaySilence {
+  /** When a gateway whose status says online was last heard, if it has been silent too long since (ms); else null. */
+  silentSince(gatewayId: string): number | null;
+}
+
 export interface AnalysisFigures {
   /** The bench's latest live figures (null until it has sent counts since the start). */
   figures(benchId: string): import('../bench-figures.ts').BenchFigures | null;
@@ -48,6 +53,7 @@ export interface Runtime {
   commands?: CommandSender;
   live?: LiveService;
   gatewaySessions?: GatewaySessions;
+  gatewaySilence?: GatewaySilence;
   /** Extra services registered by later stages (live hub, alarms, …), by name. */
   [service: string]: unknown;
 }

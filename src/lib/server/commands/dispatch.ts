@@ -8,6 +8,7 @@ import { isImportGateway } from '../../import-shapes.ts';
 import { recordAudit } from '../audit.ts';
 import { getBench } from '../benches.ts';
 import { getDb } from '../db/index.ts';
+import { presenceOf } from '../gateway-presence.ts';
 import { gateways } from '../db/schema.ts';
 import { HttpError } from '../http/responses.ts';
 import { runtime } from '../runtime.ts';
@@ -42,9 +43,10 @@ export interface Dispatched {
   id: string;
   gateway: string;
   /**
-   * Whether the gateway's retained status says it is online. Gateways connect with a clean session,
-   * so a command sent while it is offline reaches no one and no ack will come: the contract fixes
-   * the 202, and this tells the caller not to wait for one.
+   * Whether the gateway's retained status says it is online and it has not fallen silent
+   * (gateway-presence.ts). Gateways connect with a clean session, so a command sent while it is
+   * offline reaches no one and no ack will come: the contract fixes the 202, and this tells the
+   * caller not to wait for one.
    */
   gatewayOnline: boolean;
 }
@@ -61,12 +63,8 @@ export async function dispatchCommand(benchId: string, body: CommandBody, actorI
   if (!sender) throw new HttpError(503, 'the live path is not running');
   const command: Command = { ...body, v: 1, id: randomUUID() };
   await sender.publish(gateway, command);
-  const gatewayOnline = !drive.revokedAt && isOnlineStatus(drive.status);
+  const gatewayOnline = presenceOf(drive).online;
   // The operation and its figures, not the envelope: the id is the entry's own, and leading with it hid what was commanded.
   await recordAudit({ actorId, entity: 'command', entityId: command.id, action: 'send', after: { ...body, bench: benchId, gateway, gatewayOnline } });
   return { id: command.id, gateway, gatewayOnline };
-}
-
-function isOnlineStatus(status: unknown): boolean {
-  return typeof status === 'object' && status !== null && 'state' in status && status.state === 'online';
 }

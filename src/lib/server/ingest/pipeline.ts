@@ -1,5 +1,6 @@
 // The ingest pipeline, transport-agnostic: both broker modes hand it (gateway, kind, payload) and
 // acknowledge the MQTT message when `handle` resolves. decode → store → fan-out.
+import type { CountBatch } from '../../contract/wire.ts';
 import type { CountsMessage } from '../../live-messages.ts';
 import { serverEvents } from '../events.ts';
 import { isLate } from '../live/frame-period.ts';
@@ -7,6 +8,7 @@ import type { Slice } from './coverage.ts';
 import { decodeInbound, type InboundKind } from './decode.ts';
 import { Fanout } from './fanout.ts';
 import { GatewayDirectory } from './gateway-directory.ts';
+import { SilenceWatch, type SilenceOptions } from './silence-watch.ts';
 import { storeStatus } from './status-store.ts';
 import { BatchWriter, type StoredEvent } from './store.ts';
 
@@ -19,14 +21,25 @@ export function countsMessage(benchId: string, gatewayId: string, s: Slice): Cou
   return msg;
 }
 
+/** The time a batch's bins cover, n·dt, ms. */
+function batchSpanMs(b: CountBatch): number {
+  return (Object.values(b.ch)[0]?.length ?? 0) * b.dt;
+}
+
 export class Ingest {
   readonly fanout = new Fanout();
   readonly directory = new GatewayDirectory();
   // One writer: a second one (gateways split by hash) measured worse on 2 cores once in-order
   // batches skipped the span read (DEVELOPERS.md, "Ingest benchmark").
   readonly writer = new BatchWriter((e) => this.onStored(e));
+  /** Gateways whose status says online but which have sent nothing for too long (silence.ts). */
+  readonly silence: SilenceWatch;
   /** Whether an ack's command was sent to its gateway; set once the command sender exists. */
   knownCommand: (gatewayId: string, id: string) => Promise<boolean> = () => Promise.resolve(false);
+
+  constructor(opts: { silence?: SilenceOptions } = {}) {
+    this.silence = new SilenceWatch(this.fanout, opts.silence);
+  }
 
   /**
    * Handles one message a gateway published on its own topic. Resolves when the message may be
@@ -43,12 +56,15 @@ export class Ingest {
       }
       const decoded = decodeInbound(kind, payload);
       if (!decoded.ok) {
+        // Heard, whatever it said.
+        this.silence.heard(gatewayId, benchId, arrivedAt);
         await this.writer.reject(gatewayId, `${kind}: ${decoded.reason}`);
         serverEvents().emit('batch-rejected', { benchId, gatewayId, reason: decoded.reason, at: arrivedAt });
         return;
       }
       const msg = decoded.value;
       if (msg.kind === 'counts') {
+        this.silence.heard(gatewayId, benchId, arrivedAt, batchSpanMs(msg.value));
         const outcome = await this.writer.submit(gatewayId, msg.value, arrivedAt);
         if (outcome.kind === 'rejected') {
           console.warn(`[ingest] ${gatewayId}: batch rejected: ${outcome.reason}`);
@@ -56,10 +72,12 @@ export class Ingest {
         }
       } else if (msg.kind === 'status') {
         await storeStatus(gatewayId, msg.value);
+        this.silence.status(gatewayId, benchId, msg.value.state === 'online', arrivedAt);
         serverEvents().emit('gateway-status', { benchId, gatewayId, status: msg.value, at: arrivedAt });
         const { state, channels, scan, software } = msg.value;
         this.fanout.emit(benchId, { type: 'status', bench: benchId, gateway: gatewayId, state, at: arrivedAt, ...(channels && { channels }), ...(scan && { scan }), ...(software && { software }) });
       } else {
+        this.silence.heard(gatewayId, benchId, arrivedAt);
         const { id, ok, error } = msg.value;
         if (!(await this.knownCommand(gatewayId, id))) {
           const reason = `ack: no command ${JSON.stringify(id.slice(0, 40))} was sent to this gateway`;
