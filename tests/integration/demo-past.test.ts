@@ -1,7 +1,10 @@
 // The demo lab's recorded past: `npm start` on a fresh database writes each demo bench's recent
 // past under its gateway's own id (rows and rollups), fits its sweeps with the channels' seeded
 // corrections and adds the finished runs with their notes, all ending before the simulated
-// gateways' first bin; of the seeded alarm rules only the one demo alarm trips; a second start adds nothing.
+// gateways' first bin; of the seeded alarm rules only the one demo alarm trips; a second start adds
+// nothing. A first start killed between a bench's bins and its runs leaves nothing of that bench's
+// past, and the next start writes the same demo as an uninterrupted one.
+import { fork } from 'node:child_process';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { findDemoBench } from '../../simulators/demo-benches.ts';
 import { DEMO_PAST, minutesBefore } from '../../simulators/demo-past.ts';
@@ -12,13 +15,11 @@ import type { RunningApp } from '../../src/server/app.ts';
 import { useFreshDatabase, type FreshDatabase } from '../helpers/fresh-db.ts';
 import { startWebApp, userWithToken } from '../helpers/web-app.ts';
 
-let db: FreshDatabase;
+let db: FreshDatabase | undefined;
 let app: RunningApp | undefined;
+/** The demo an uninterrupted first start wrote, its times counted from each recording's end. */
+let uninterrupted: unknown;
 
-beforeAll(async () => {
-  db = await useFreshDatabase('demopast');
-  app = await startWebApp({ simulate: true });
-});
 afterAll(async () => {
   await app?.close();
   await db?.restore();
@@ -52,7 +53,37 @@ async function everything() {
   return out;
 }
 
+/**
+ * Epoch times in `v` as offsets from `t1`, so pasts written at different moments compare equal when
+ * they are the same demo; other numbers to 10 figures (a snapshot's phase drift is fitted over
+ * epoch times, which moves its last digits).
+ */
+function relativeTo(v: unknown, t1: number): unknown {
+  if (typeof v === 'number') return v > 1e12 ? v - t1 : Number(v.toPrecision(10));
+  if (Array.isArray(v)) return v.map((x) => relativeTo(x, t1));
+  if (v && typeof v === 'object') return Object.fromEntries(Object.entries(v).map(([k, x]) => [k, k === 'id' || k === 'runId' ? '(id)' : relativeTo(x, t1)]));
+  return v;
+}
+
+/** Each bench's past as a newcomer finds it: recording, fitted passes, runs, notes and snapshots, timed from its end. */
+async function demoShape() {
+  const out: Record<string, unknown> = {};
+  for (const past of DEMO_PAST) {
+    const bench = findDemoBench(past.benchId)!;
+    const r = await recorded(bench.gateway);
+    const sweeps = await query('select start_ms, end_ms, direction, visibility, visibility_net, phase, period_x, counts from sweeps where bench_id = $1 and end_ms <= $2 order by start_ms', [bench.id, r.t1]);
+    const runs = await Promise.all((await listRuns({ benchId: bench.id })).map(async (run) => ({ ...run, notes: await listNotes(run.id) })));
+    out[bench.id] = relativeTo({ recorded: { rows: r.rows, bins: r.bins, span: r.t1 - r.t0 }, sweeps, runs }, r.t1);
+  }
+  return out;
+}
+
 describe('the demo lab on a fresh database', () => {
+  beforeAll(async () => {
+    db = await useFreshDatabase('demopast');
+    app = await startWebApp({ simulate: true });
+  });
+
   it('holds each demo bench’s recent past, with rollups, ending before its live bins begin', async () => {
     for (const past of DEMO_PAST) {
       const bench = findDemoBench(past.benchId)!;
@@ -164,5 +195,42 @@ describe('the demo lab on a fresh database', () => {
     await app!.close();
     app = await startWebApp({ simulate: true });
     expect(await everything()).toEqual(before);
+    uninterrupted = await demoShape();
+    await app.close();
+    app = undefined;
+    await db!.restore();
+    db = undefined;
+  });
+});
+
+describe('a first start killed in the middle of a bench’s past', () => {
+  it('leaves nothing of that bench’s past, and the next start writes the same demo as an uninterrupted one', async () => {
+    expect(uninterrupted, 'the uninterrupted demo, from the tests above').toBeDefined();
+    db = await useFreshDatabase('demopastcut');
+    // People, benches, gateways and lab settings, as the first start's earlier steps write them.
+    app = await startWebApp({ simulate: false });
+    await app.close();
+    app = undefined;
+    // The recorded past alone, in a process of its own, killed once the first bench's bins are written.
+    const child = fork('tests/helpers/demo-past-interrupted.ts', [], { execArgv: ['--import', 'tsx'], env: { ...process.env, DATABASE_URL: db.url }, stdio: 'inherit' });
+    const exited = new Promise((resolve) => child.once('exit', resolve));
+    const cut = await new Promise<{ gateway: string; rows: number }>((resolve, reject) => {
+      child.once('message', (m) => resolve(m as { gateway: string; rows: number }));
+      child.once('exit', (code) => reject(new Error(`the first start ended by itself (${code})`)));
+    });
+    child.kill('SIGKILL');
+    await exited;
+    expect(cut.gateway).toBe(findDemoBench(DEMO_PAST[0]!.benchId)!.gateway);
+    expect(cut.rows).toBeGreaterThan(0);
+    for (const past of DEMO_PAST) {
+      const bench = findDemoBench(past.benchId)!;
+      expect(await query('select 1 from count_batches where gateway_id = $1 limit 1', [bench.gateway]), bench.id).toEqual([]);
+      expect(await query('select 1 from rollups where gateway_id = $1 limit 1', [bench.gateway]), bench.id).toEqual([]);
+      expect(await query('select 1 from sweeps where bench_id = $1 limit 1', [bench.id]), bench.id).toEqual([]);
+      expect(await listRuns({ benchId: bench.id }), bench.id).toEqual([]);
+    }
+
+    app = await startWebApp({ simulate: true });
+    expect(await demoShape()).toEqual(uninterrupted);
   });
 });

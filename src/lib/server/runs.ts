@@ -1,7 +1,9 @@
 // Runs (a titled span of a bench's time) and their timestamped notes. One active run per bench:
-// the partial unique index runs_one_active_idx refuses a second, and we turn that into a 409.
+// the partial unique index runs_one_active_idx refuses a second, and we turn that into a 409. The
+// writing functions take an optional `db`, a transaction their caller holds (the demo's recorded
+// past commits a bench's runs with its bins, or nothing).
 import { and, asc, count, desc, eq, inArray, isNull } from 'drizzle-orm';
-import { getDb } from './db/index.ts';
+import { getDb, type Db, type Executor } from './db/index.ts';
 import { isUniqueViolation } from './db/unique-violation.ts';
 import { benches, notes, runs, users } from './db/schema.ts';
 import { HttpError } from './http/responses.ts';
@@ -29,14 +31,14 @@ const runColumns = {
 
 type RunRow = { id: number; benchId: string; title: string; startMs: number; endMs: number | null; keep: boolean; source: 'live' | 'import'; userId: string | null; userName: string | null; userEmail: string | null };
 
-async function noteCounts(runIds: number[]): Promise<Map<number, number>> {
+async function noteCounts(runIds: number[], db: Executor): Promise<Map<number, number>> {
   if (runIds.length === 0) return new Map();
-  const rows = await getDb().select({ runId: notes.runId, n: count() }).from(notes).where(inArray(notes.runId, runIds)).groupBy(notes.runId);
+  const rows = await db.select({ runId: notes.runId, n: count() }).from(notes).where(inArray(notes.runId, runIds)).groupBy(notes.runId);
   return new Map(rows.map((r) => [r.runId, r.n]));
 }
 
-async function toViews(rows: RunRow[]): Promise<RunView[]> {
-  const counts = await noteCounts(rows.map((r) => r.id));
+async function toViews(rows: RunRow[], db: Executor = getDb()): Promise<RunView[]> {
+  const counts = await noteCounts(rows.map((r) => r.id), db);
   return rows.map((r) => ({
     id: r.id,
     benchId: r.benchId,
@@ -62,9 +64,9 @@ export async function listRuns(opts: { benchId?: string; limit?: number } = {}):
   return await toViews(rows);
 }
 
-export async function getRun(id: number): Promise<RunView | null> {
-  const rows = await getDb().select(runColumns).from(runs).leftJoin(users, eq(users.id, runs.startedBy)).where(eq(runs.id, id)).limit(1);
-  return (await toViews(rows))[0] ?? null;
+export async function getRun(id: number, db: Executor = getDb()): Promise<RunView | null> {
+  const rows = await db.select(runColumns).from(runs).leftJoin(users, eq(users.id, runs.startedBy)).where(eq(runs.id, id)).limit(1);
+  return (await toViews(rows, db))[0] ?? null;
 }
 
 /** The active run of each bench (at most one each), keyed by bench id. */
@@ -73,12 +75,12 @@ export async function activeRuns(): Promise<Map<string, RunView>> {
   return new Map((await toViews(rows)).map((r) => [r.benchId, r]));
 }
 
-export async function startRun(benchId: string, body: StartRunBody, userId: string, now = Date.now()): Promise<RunView> {
-  const [bench] = await getDb().select({ id: benches.id }).from(benches).where(eq(benches.id, benchId)).limit(1);
+export async function startRun(benchId: string, body: StartRunBody, userId: string, now = Date.now(), db: Executor = getDb()): Promise<RunView> {
+  const [bench] = await db.select({ id: benches.id }).from(benches).where(eq(benches.id, benchId)).limit(1);
   if (!bench) throw new HttpError(404, `no bench "${benchId}"`);
   try {
-    const [row] = await getDb().insert(runs).values({ benchId, title: body.title, startMs: now, startedBy: userId }).returning({ id: runs.id });
-    const run = (await getRun(row!.id))!;
+    const [row] = await db.insert(runs).values({ benchId, title: body.title, startMs: now, startedBy: userId }).returning({ id: runs.id });
+    const run = (await getRun(row!.id, db))!;
     publishRun(run);
     return run;
   } catch (err) {
@@ -87,18 +89,18 @@ export async function startRun(benchId: string, body: StartRunBody, userId: stri
   }
 }
 
-export async function stopRun(id: number, now = Date.now()): Promise<RunView> {
-  const [row] = await getDb()
+export async function stopRun(id: number, now = Date.now(), db: Executor = getDb()): Promise<RunView> {
+  const [row] = await db
     .update(runs)
     .set({ endMs: now })
     .where(and(eq(runs.id, id), isNull(runs.endMs)))
     .returning({ id: runs.id });
   if (!row) {
-    const run = await getRun(id);
+    const run = await getRun(id, db);
     if (!run) throw new HttpError(404, `no run ${id}`);
     throw new HttpError(409, 'this run has already stopped');
   }
-  const run = (await getRun(id))!;
+  const run = (await getRun(id, db))!;
   publishRun(run);
   return run;
 }
@@ -109,19 +111,20 @@ function publishRun(run: RunView): void {
 }
 
 /** Marks a run to be spared by retention, or no longer; recorded in the audit trail. */
-export async function setRunKeep(id: number, keep: boolean, userId: string): Promise<RunView> {
-  // The change and its audit row commit together, as every audited change does.
-  await getDb().transaction(async (tx) => {
+export async function setRunKeep(id: number, keep: boolean, userId: string, db?: Executor): Promise<RunView> {
+  // The change and its audit row commit together, as every audited change does: in the caller's transaction, or one of their own.
+  const change = async (tx: Pick<Db, 'select' | 'update' | 'insert'>) => {
     const [before] = await tx.select({ keep: runs.keep }).from(runs).where(eq(runs.id, id)).for('update');
     if (!before) throw new HttpError(404, `no run ${id}`);
     await tx.update(runs).set({ keep }).where(eq(runs.id, id));
     await recordAudit({ actorId: userId, entity: 'run', entityId: String(id), action: keep ? 'keep' : 'unkeep', before, after: { keep } }, tx);
-  });
-  return (await getRun(id))!;
+  };
+  await (db ? change(db) : getDb().transaction(change));
+  return (await getRun(id, db))!;
 }
 
-export async function listNotes(runId: number): Promise<NoteView[]> {
-  const rows = await getDb()
+export async function listNotes(runId: number, db: Executor = getDb()): Promise<NoteView[]> {
+  const rows = await db
     .select({ id: notes.id, runId: notes.runId, atMs: notes.atMs, body: notes.body, snapshot: notes.snapshot, userId: users.id, userName: users.name, userEmail: users.email })
     .from(notes)
     .leftJoin(users, eq(users.id, notes.authorId))
@@ -138,15 +141,15 @@ export async function listNotes(runId: number): Promise<NoteView[]> {
  * A note into a run, active or stopped: a stopped run's record takes later notes (what the analysis
  * showed, a fault found afterwards), each with its own time after the run's end.
  */
-export async function addNote(runId: number, body: AddNoteBody, userId: string, now = Date.now()): Promise<NoteView> {
-  const run = await getRun(runId);
+export async function addNote(runId: number, body: AddNoteBody, userId: string, now = Date.now(), db: Executor = getDb()): Promise<NoteView> {
+  const run = await getRun(runId, db);
   if (!run) throw new HttpError(404, `no run ${runId}`);
   if (body.snapshot && body.snapshot.benchId !== run.benchId) throw new HttpError(422, 'snapshot: figures of another bench');
-  const [row] = await getDb()
+  const [row] = await db
     .insert(notes)
     .values({ runId, authorId: userId, atMs: now, body: body.body, snapshot: body.snapshot ?? null })
     .returning({ id: notes.id });
-  const all = await listNotes(runId);
+  const all = await listNotes(runId, db);
   const note = all.find((n) => n.id === row!.id)!;
   runtime().live?.publish(run.benchId, { type: 'note', bench: run.benchId, note });
   return note;

@@ -10,7 +10,7 @@ import { DEFAULT_COINCIDENCE_WINDOW_NS } from '../../coincidence-window.ts';
 import type { CountBatch } from '../../contract/wire.ts';
 import { shownVisibility } from '../../sweep-visibility.ts';
 import { benchCalibrations } from '../benches.ts';
-import { getDb } from '../db/index.ts';
+import { getDb, type Executor, type Tx } from '../db/index.ts';
 import { benches, channels as channelsTable } from '../db/schema.ts';
 import { serverEvents } from '../events.ts';
 import { computeFigures, SWEEP_FRESH_MS, type ChannelSettings, type SweepPoint } from './live-figures.ts';
@@ -51,8 +51,11 @@ export const FIGURES_WINDOW_MS = 10_000;
 
 export interface AnalysisService {
   figures(benchId: string): BenchFigures | null;
-  /** Fits the sweeps in one gateway's stored bins (an imported run); resolves with how many were stored. */
-  fitStored(benchId: string, gatewayId: string, fromMs: number, toMs: number): Promise<number>;
+  /**
+   * Fits the sweeps in one gateway's stored bins (an imported run); resolves with how many were
+   * stored. `within`: read the bins and store the fits inside that transaction (the demo's past).
+   */
+  fitStored(benchId: string, gatewayId: string, fromMs: number, toMs: number, within?: Tx): Promise<number>;
   close(): void;
 }
 
@@ -83,8 +86,8 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
   }
 
   /** Fits one pass with the outputs' dark calibration and stores it; null when the fit failed or the pass was stored before. */
-  async function fitPass(benchId: string, pass: CompletedPass, outA: ChannelSettings | undefined, outB: ChannelSettings | undefined) {
-    const [optics] = await getDb().select({ wavelengthNm: benches.wavelengthNm, pathFactor: benches.pathFactor }).from(benches).where(eq(benches.id, benchId)).limit(1);
+  async function fitPass(benchId: string, pass: CompletedPass, outA: ChannelSettings | undefined, outB: ChannelSettings | undefined, db: Executor = getDb()) {
+    const [optics] = await db.select({ wavelengthNm: benches.wavelengthNm, pathFactor: benches.pathFactor }).from(benches).where(eq(benches.id, benchId)).limit(1);
     let meanBins = 0;
     for (const n of pass.binsPerPoint) meanBins += n;
     meanBins /= pass.binsPerPoint.length;
@@ -116,7 +119,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     const exposure = pass.binsPerPoint.map((n) => n / meanBins);
     const result = await opts.fit({ x: pass.x, a: pass.a, b: pass.b, exposure }, options);
     if (!result.ok) return null;
-    return await storeSweep(benchId, pass, result, optics ?? null);
+    return await storeSweep(benchId, pass, result, optics ?? null, db);
   }
 
   async function fitAndStore(benchId: string, s: BenchState, pass: CompletedPass, settings: { channels: ChannelSettings[] }) {
@@ -129,8 +132,9 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     opts.publish(benchId, { type: 'sweep', bench: benchId, sweep: { ...summary, fit } });
   }
 
-  async function fitStored(benchId: string, gatewayId: string, fromMs: number, toMs: number): Promise<number> {
-    const rows = await getDb().select().from(channelsTable).where(eq(channelsTable.gatewayId, gatewayId));
+  async function fitStored(benchId: string, gatewayId: string, fromMs: number, toMs: number, within?: Tx): Promise<number> {
+    const db = within?.db ?? getDb();
+    const rows = await db.select().from(channelsTable).where(eq(channelsTable.gatewayId, gatewayId));
     const keys = rows.map((r) => r.key).sort();
     // Explicit roles where the file carried them; otherwise the contract's default, the first two keys.
     const keyA = rows.find((r) => r.role === 'out_a')?.key ?? keys[0];
@@ -142,7 +146,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     };
     const tracker = new SweepTracker();
     const passes: CompletedPass[] = [];
-    for await (const b of gatewayBatches(gatewayId, fromMs, toMs)) {
+    for await (const b of gatewayBatches(gatewayId, fromMs, toMs, within?.client)) {
       const ia = b.keys.indexOf(keyA);
       const ib = b.keys.indexOf(keyB);
       if (ia < 0 || ib < 0 || !b.x) continue;
@@ -150,7 +154,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     }
     passes.push(...tracker.flush());
     let stored = 0;
-    for (const pass of passes) if (await fitPass(benchId, pass, settingsOf(keyA), settingsOf(keyB))) stored++;
+    for (const pass of passes) if (await fitPass(benchId, pass, settingsOf(keyA), settingsOf(keyB), db)) stored++;
     return stored;
   }
 

@@ -5,7 +5,7 @@ import type { Measured } from '../../analysis/measured.ts';
 import { meanPeriod, piezoCalibration } from '../../analysis/piezo.ts';
 import type { FringeParams } from '../../analysis/fringe-model.ts';
 import type { FittedSweepSummary } from '../events.ts';
-import { getDb } from '../db/index.ts';
+import { getDb, type Executor } from '../db/index.ts';
 import { sweeps } from '../db/schema.ts';
 import type { CompletedPass } from './sweep-tracker.ts';
 
@@ -36,7 +36,7 @@ export interface BenchOptics {
 }
 
 /** Stores a fitted pass; null when that pass was stored before. */
-export async function storeSweep(benchId: string, pass: CompletedPass, fit: FringeFit, optics: BenchOptics | null): Promise<{ summary: FittedSweepSummary; fit: StoredFit } | null> {
+export async function storeSweep(benchId: string, pass: CompletedPass, fit: FringeFit, optics: BenchOptics | null, db: Executor = getDb()): Promise<{ summary: FittedSweepSummary; fit: StoredFit } | null> {
   const shownV = fit.shown === 'net' && fit.visibilityNet ? fit.visibilityNet : fit.visibility;
   let bins = 0;
   for (const n of pass.binsPerPoint) bins += n;
@@ -71,7 +71,7 @@ export async function storeSweep(benchId: string, pass: CompletedPass, fit: Frin
     piezoNmPerV: optics && xMax > xMin ? piezoCalibration(passPeriod, optics.wavelengthNm, optics.pathFactor) : null,
     warnings: fit.warnings,
   };
-  const [row] = await getDb()
+  const [row] = await db
     .insert(sweeps)
     .values({
       benchId,
@@ -121,8 +121,7 @@ export const MAX_SWEEPS = 2_000;
  * evenly (every k-th pass, the last one always kept) so a day of fast sweeps stays a small answer
  * spread over the whole range; `thinnedBy` says k and `total` how many there are.
  */
-export async function sweepsBetween(benchId: string, fromMs: number, toMs: number, maxRows = MAX_SWEEPS) {
-  const db = getDb();
+export async function sweepsBetween(benchId: string, fromMs: number, toMs: number, maxRows = MAX_SWEEPS, db: Executor = getDb()) {
   const inRange = and(eq(sweeps.benchId, benchId), gte(sweeps.endMs, fromMs), lte(sweeps.startMs, toMs));
   const [{ n } = { n: 0 }] = await db.select({ n: sql<number>`count(*)::int` }).from(sweeps).where(inRange);
   const k = Math.max(1, Math.ceil(n / maxRows));

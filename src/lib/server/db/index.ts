@@ -5,6 +5,18 @@ import pg from 'pg';
 import * as schema from './schema.ts';
 
 export type Db = NodePgDatabase<typeof schema>;
+/**
+ * Drizzle statements on the pool, or inside a transaction a caller holds (`inTransaction`). Without
+ * `.transaction()`: on a held connection it would send its own COMMIT and end the caller's early.
+ */
+export type Executor = Omit<Db, 'transaction'>;
+/** Raw SQL on the pool or on a held connection. */
+export type Queryable = Pick<pg.Pool, 'query'> | Pick<pg.PoolClient, 'query'>;
+/** A transaction a caller holds, for functions that take part in it: its connection raw and through drizzle. */
+export interface Tx {
+  client: pg.PoolClient;
+  db: Executor;
+}
 
 interface DbHandle {
   pool: pg.Pool;
@@ -47,12 +59,12 @@ export function getDb(): Db {
  * statements (imports, the demo's recorded past): committed when `fn` resolves, rolled back when it
  * throws. A client whose statement failed may hold a dead socket: it is discarded, not pooled.
  */
-export async function inTransaction<T>(fn: (client: pg.PoolClient) => Promise<T>): Promise<T> {
+export async function inTransaction<T>(fn: (client: pg.PoolClient, tx: Tx) => Promise<T>): Promise<T> {
   const client = await getDbHandle().pool.connect();
   let broken = false;
   try {
     await client.query('begin');
-    const result = await fn(client);
+    const result = await fn(client, { client, db: drizzle(client, { schema, casing: 'snake_case' }) });
     await client.query('commit');
     return result;
   } catch (err) {

@@ -7,7 +7,7 @@ import { and, eq } from 'drizzle-orm';
 import { z } from 'zod';
 import { columnsOf, metadataLines, rowCells, rowLine, type CsvMeta, type CsvRow } from '../../counts-csv.ts';
 import { calibrationsWithData, getBench } from '../benches.ts';
-import { getDb, getDbHandle } from '../db/index.ts';
+import { getDb, getDbHandle, type Queryable } from '../db/index.ts';
 import { unpackRow } from '../db/packed-counts.ts';
 import { runs } from '../db/schema.ts';
 import { HttpError } from '../http/responses.ts';
@@ -78,9 +78,8 @@ export async function planExport(benchId: string, q: ExportQuery): Promise<Expor
 /** A stored row as read back, its counts channel-major: counts[k·n + j] is channel keys[k], bin j. */
 type BatchRow = Omit<Slice, 'channels'> & { counts: number[] };
 
-/** Pages one gateway's batches overlapping [from, to) in t0 order. */
-export async function* gatewayBatches(gatewayId: string, fromMs: number, toMs: number): AsyncGenerator<BatchRow> {
-  const pool = getDbHandle().pool;
+/** Pages one gateway's batches overlapping [from, to) in t0 order (`pool`: a held transaction's client sees its own rows). */
+export async function* gatewayBatches(gatewayId: string, fromMs: number, toMs: number, pool: Queryable = getDbHandle().pool): AsyncGenerator<BatchRow> {
   // The batch holding `from` may start before it: find it with one backward probe on the primary key.
   const first = await pool.query<{ t0: number | null }>('select max(t0) as t0 from count_batches where gateway_id = $1 and t0 <= $2', [gatewayId, fromMs]);
   let after = (first.rows[0]?.t0 ?? fromMs) - 1;
