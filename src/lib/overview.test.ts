@@ -15,4 +15,9 @@ describe('gatewayBadge', () => {
     expect(gatewayBadge({ gatewaysOnline: 1, gatewaysTotal: 2, gatewaysEverSeen: 1 })).toEqual({ text: 'online', tone: 'good', count: '1/2' });
     expect(gatewayBadge({ gatewaysOnline: 0, gatewaysTotal: 2, gatewaysEverSeen: 1 })).toEqual({ text: 'offline', tone: 'bad', count: '0/2' });
   });
+
+  it('calls a bench silent when its gateway claims online but has sent nothing, before calling it offline', () => {
+    expect(gatewayBadge({ gatewaysOnline: 0, gatewaysTotal: 2, gatewaysEverSeen: 2, gatewaysSilent: 1 })).toEqual({ text: 'silent', tone: 'warn', count: '0/2' });
+    expect(gatewayBadge({ gatewaysOnline: 1, gatewaysTotal: 2, gatewaysEverSeen: 2, gatewaysSilent: 1 })).toEqual({ text: 'online', tone: 'good', count: '1/2' });
+  });
 });
