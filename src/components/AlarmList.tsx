@@ -2,7 +2,7 @@
 // Drop it on any bench screen: <AlarmList client:load benchId=… initial={…} canAck={…} />.
 import { useEffect, useState } from 'react';
 import { alarmEventViewSchema, alarmMessageSchema, applyAlarmMessage, type AlarmEventView } from '../lib/alarm-messages.ts';
-import { liveSocket } from '../lib/client/live-socket.ts';
+import { liveSocket, statusSocket } from '../lib/client/live-socket.ts';
 import { formatDateTime } from '../lib/client/format.ts';
 
 interface Props {
@@ -11,6 +11,11 @@ interface Props {
   canAck: boolean;
   /** Only events still raised (the banner); otherwise the recent history too. */
   openOnly?: boolean;
+  /**
+   * A page showing several benches (the lab overview) names them all: the alarms then come over
+   * the page's one status-only socket, which it shares, instead of a socket streaming this bench's counts.
+   */
+  watchWith?: string[];
 }
 
 const SEVERITY_CLASS: Record<AlarmEventView['severity'], string> = {
@@ -69,16 +74,18 @@ function AckForm({ benchId, event, onDone }: { benchId: string; event: AlarmEven
   );
 }
 
-export default function AlarmList({ benchId, initial, canAck, openOnly = false }: Props) {
+export default function AlarmList({ benchId, initial, canAck, openOnly = false, watchWith }: Props) {
   const [events, setEvents] = useState<AlarmEventView[]>(initial);
+  const watchKey = watchWith?.join(' ');
   useEffect(
     () =>
-      liveSocket(benchId).subscribe((m) => {
-        if (m.type !== 'alarm') return;
+      (watchWith ? statusSocket(watchWith) : liveSocket(benchId)).subscribe((m) => {
+        if (m.type !== 'alarm' || m.bench !== benchId) return;
         const parsed = alarmMessageSchema.safeParse(m);
         if (parsed.success) setEvents((list) => applyAlarmMessage(list, parsed.data));
       }),
-    [benchId],
+    // The bench list by value: the page passes a new array on every render.
+    [benchId, watchKey],
   );
   const shown = openOnly ? events.filter((e) => e.clearedAt === null) : events;
   if (shown.length === 0) return <p className="text-sm text-muted">{openOnly ? 'No alarm is raised.' : 'No alarms yet.'}</p>;

@@ -307,7 +307,7 @@ describe('status, commands and resume', () => {
     ws.ws.close();
   });
 
-  it('tells a status socket the status of each bench it names, and nothing else', async () => {
+  it('tells a status socket the status and alarms of each bench it names, and nothing else', async () => {
     const a = await freshGateway();
     const b = await freshGateway();
     const other = await freshGateway();
@@ -328,6 +328,10 @@ describe('status, commands and resume', () => {
     await gb.publishAsync(topicFor(b.gatewayId, 'status'), JSON.stringify({ v: 1, state: 'online' }), { qos: 1, retain: true });
     await watch.next((m) => m.type === 'status' && m.gateway === b.gatewayId && m.state === 'online');
     expect(watch.messages.map((m) => m.type === 'status' && `${m.gateway} ${m.state}`)).toEqual([`${a.gatewayId} online`, `${b.gatewayId} offline`, `${b.gatewayId} online`]);
+    // Alarms too (rare): the overview's banner follows them on this socket, and no other bench's.
+    t.live.hub.publish(other.benchId, { type: 'alarm', bench: other.benchId, change: 'raised', event: {} });
+    t.live.hub.publish(b.benchId, { type: 'alarm', bench: b.benchId, change: 'raised', event: {} });
+    expect(await watch.next((m) => (m as { type: string }).type === 'alarm')).toMatchObject({ bench: b.benchId, change: 'raised' });
     // Nothing to resume on it.
     watch.ws.send(JSON.stringify({ type: 'resume', since: BASE }));
     expect(await watch.next((m) => m.type === 'error')).toMatchObject({ error: 'a status socket takes no messages' });

@@ -1,8 +1,9 @@
 // The WebSocket hub behind `GET /api/v1/live?bench=`: authenticates the upgrade with the same check
 // as the middleware, keeps each bench's clients, pushes what the fan-out emits, answers `resume`,
 // and terminates sockets that stop answering pings. `?watch=status&bench=a&bench=b` is a lighter
-// socket for pages that show several benches (the lab overview): only the gateways' `status`
-// messages of the benches named, none of the counts, figures or fits a bench's own socket streams.
+// socket for pages that show several benches (the lab overview): only the gateways' `status` and
+// the `alarm` messages of the benches named, none of the counts, figures or fits a bench's own
+// socket streams.
 //
 // Push in frames: what the fan-out emits for a bench waits at most FRAME_MS (frame-period.ts; a
 // late batch not at all), is coalesced (contiguous counts of a gateway merge), serialised and
@@ -90,7 +91,7 @@ export class LiveHub {
    * call this too); a `late` one brings that frame forward to now (frame-period.ts).
    */
   publish(benchId: string, message: LiveMessage | FeatureMessage, late = false): void {
-    if (message.type === 'status') this.tellWatchers(benchId, message);
+    if (message.type === 'status' || message.type === 'alarm') this.tellWatchers(benchId, message);
     if (!this.benches.get(benchId)?.size) return;
     const list = this.pending.get(benchId);
     if (list) list.push(message);
@@ -133,7 +134,8 @@ export class LiveHub {
   }
 
   /**
-   * Status is rare (a gateway's connect, its last will, a silence), so a watcher gets it at once,
+   * Status and alarms are rare (a gateway's connect, its last will, a silence; a rule's raise or
+   * clear), so a watcher gets them at once,
    * outside the frames: no queue to bound, and a bench with only watchers builds no frames.
    */
   private tellWatchers(benchId: string, message: LiveMessage | FeatureMessage): void {
