@@ -70,4 +70,20 @@ describe('SweepTracker', () => {
     const passes = feed(t, xs, 5_000, 10);
     expect(passes[0]!.startMs).toBe(5_000);
   });
+
+  it('ignores a batch behind what it has seen, and the pass under way goes on', () => {
+    const inOrder = feed(new SweepTracker({ restMs: 50 }), triangle(), 1_000, 10);
+    const t = new SweepTracker({ restMs: 50 });
+    const xs = triangle();
+    const passes = feed(t, xs.slice(0, 40), 1_000, 10);
+    expect(t.seenUntil).toBe(1_040);
+    // A batch from before the track (a late one) in the middle of the up pass.
+    expect(t.push(500, 1, [3, 3], [1, 1], [1, 1])).toEqual([]);
+    expect(t.seenUntil).toBe(1_040);
+    for (let i = 40; i < xs.length; i += 10) {
+      const x = xs.slice(i, i + 10);
+      passes.push(...t.push(1_000 + i, 1, x, x.map(() => 1), x.map(() => 1)));
+    }
+    expect(passes).toEqual(inOrder);
+  });
 });

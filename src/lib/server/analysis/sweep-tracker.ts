@@ -61,9 +61,24 @@ export class SweepTracker {
     this.maxPoints = opts.maxPoints ?? 2_000;
   }
 
-  /** Appends a batch; returns the passes it completed. Out-of-order or gapped data restarts the track. */
+  /** Where the bins seen so far end, ms: a batch starting before it arrived late. */
+  get seenUntil(): number {
+    return this.t0 + this.x.length * this.dt;
+  }
+
+  /** Start of the oldest bin still held (the pass under way, or the rest before one), ms: every pass before it is done with. */
+  get heldFrom(): number {
+    return this.t0;
+  }
+
+  /**
+   * Appends a batch; returns the passes it completed. A batch behind `seenUntil` (late) is ignored,
+   * so the pass under way goes on (its caller refits the late span from storage); a gap or a new
+   * bin width restarts the track.
+   */
   push(t0: number, dt: number, x: ArrayLike<number>, a: ArrayLike<number>, b: ArrayLike<number>): CompletedPass[] {
     const expected = this.t0 + this.x.length * this.dt;
+    if (t0 < expected) return [];
     if (this.x.length === 0 || dt !== this.dt || t0 !== expected) {
       this.reset();
       this.t0 = t0;
