@@ -7,7 +7,7 @@ import { alarmMessageSchema, applyAlarmMessage, type AlarmEventView } from '../.
 import type { BenchViewData, ViewerData } from '../../lib/bench-view.ts';
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { benchFiguresSchema } from '../../lib/bench-figures-schema.ts';
-import { ApiError, errorText, fetchCounts, fetchFigures, fetchSweeps, sweepSchema, type Sweep } from '../../lib/client/api.ts';
+import { ApiError, errorText, fetchCounts, fetchFigures, fetchSweeps, sweepSchema, sweepsReplacedSchema, type Sweep } from '../../lib/client/api.ts';
 import { DriveTracker } from '../../lib/client/drive-state.ts';
 import { FringeCells } from '../../lib/client/fringe-cells.ts';
 import { RateRing } from '../../lib/client/rate-ring.ts';
@@ -98,7 +98,11 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
         }
       } else if (msg.type === 'sweep') {
         const s = sweepSchema.safeParse(msg['sweep']);
-        if (s.success) setSweeps((list) => [...list.filter((x) => x.start > Date.now() - TREND_MS && x.id !== s.data.id), s.data]);
+        // A refit's sweeps can be older than the newest one: kept in time order.
+        if (s.success) setSweeps((list) => [...list.filter((x) => x.start > Date.now() - TREND_MS && x.id !== s.data.id), s.data].sort((p, q) => p.start - q.start));
+      } else if (msg.type === 'sweeps-replaced') {
+        const r = sweepsReplacedSchema.safeParse(msg);
+        if (r.success) setSweeps((list) => list.filter((x) => x.id === undefined || !r.data.ids.includes(x.id)));
       } else if (msg.type === 'alarm') {
         const a = alarmMessageSchema.safeParse(msg);
         if (a.success) setAlarms((list) => applyAlarmMessage(list, a.data));

@@ -121,6 +121,9 @@ export const sweepSchema = z.preprocess(
 );
 export type Sweep = z.infer<typeof sweepSchema>;
 
+/** A 'sweeps-replaced' message: a late span was refitted, and these stored sweeps gave way to the 'sweep' messages that follow. */
+export const sweepsReplacedSchema = z.object({ ids: z.array(z.number()) });
+
 /** The drawable fit of a sweep, or null when the stored fit lacks what the model needs. */
 export function sweepFit(s: Sweep): SweepFit | null {
   const p = sweepFitSchema.safeParse(s.fit);

@@ -1,7 +1,7 @@
 // The physics off the ingest path: listens to stored batches, hands completed sweep passes to the
 // fitter (a worker thread), stores and announces the fits, and computes each bench's live figures
 // once a second. A slow fit never delays storing or pushing counts.
-import { eq } from 'drizzle-orm';
+import { and, eq, gt, gte, lte, max, min } from 'drizzle-orm';
 import { correctDeadTime } from '../../analysis/dead-time.ts';
 import type { DeadTimeTerm, FringeFitOptions, FringeFitResult } from '../../analysis/fringe-fit.ts';
 import type { BenchFigures } from '../../bench-figures.ts';
@@ -10,13 +10,13 @@ import { DEFAULT_COINCIDENCE_WINDOW_NS } from '../../coincidence-window.ts';
 import type { CountBatch } from '../../contract/wire.ts';
 import { shownVisibility } from '../../sweep-visibility.ts';
 import { benchCalibrations } from '../benches.ts';
-import { getDb, type Executor, type Tx } from '../db/index.ts';
-import { benches, channels as channelsTable } from '../db/schema.ts';
+import { getDb, inTransaction, type Executor, type Tx } from '../db/index.ts';
+import { benches, channels as channelsTable, sweeps as sweepsTable } from '../db/schema.ts';
 import { serverEvents } from '../events.ts';
 import { computeFigures, SWEEP_FRESH_MS, type ChannelSettings, type SweepPoint } from './live-figures.ts';
 import { RecentBins } from './recent-bins.ts';
 import { SweepTracker, type CompletedPass } from './sweep-tracker.ts';
-import { sweepsBetween, storeSweep } from './sweeps-store.ts';
+import { fittedSummary, sweepsBetween, storeSweep, type StoredFit } from './sweeps-store.ts';
 import { gatewayBatches } from '../export/export.ts';
 
 /** `exposure`: each point's bins over the pass's mean bins per point (see FringeData). */
@@ -34,6 +34,9 @@ interface BenchState {
   /** Batches queued for the sweep tracker, in arrival order. */
   tracking: Promise<void>;
   fitting: Promise<void>;
+  /** Spans of late batches per gateway, [from, to) ms, waiting for their refit. */
+  late: Map<string, [number, number][]>;
+  lateTimer: NodeJS.Timeout | null;
 }
 
 /**
@@ -48,23 +51,31 @@ const FIGURES_EVERY_MS = 1_000;
 const PHASE_HISTORY_S = 60;
 /** Live window for rates and photon statistics, ms. */
 export const FIGURES_WINDOW_MS = 10_000;
+/** Quiet after the last late batch before its span is refitted, ms: a burst of them refits once. */
+const LATE_QUIET_MS = 2_000;
+/**
+ * Furthest back a refit reaches for the pass a late span belongs to, ms, when no stored sweep ends
+ * before it: ten minutes, the length of the longest pass the tracker keeps at 1 ms bins.
+ */
+const LATE_LOOKBACK_MS = 600_000;
 
 export interface AnalysisService {
   figures(benchId: string): BenchFigures | null;
   /**
-   * Fits the sweeps in one gateway's stored bins (an imported run); resolves with how many were
-   * stored. `within`: read the bins and store the fits inside that transaction (the demo's past).
+   * Fits the sweeps in one gateway's stored bins of [fromMs, toMs) (an imported run, the range
+   * around a late span); resolves with how many were stored. `within`: read the bins and store the fits inside that transaction (the demo's past).
    */
   fitStored(benchId: string, gatewayId: string, fromMs: number, toMs: number, within?: Tx): Promise<number>;
   close(): void;
 }
 
-export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisService {
+export function startAnalysis(opts: { fit: FitFn; publish: Publish; lateQuietMs?: number }): AnalysisService {
+  const lateQuietMs = opts.lateQuietMs ?? LATE_QUIET_MS;
   const states = new Map<string, BenchState>();
   const state = (benchId: string): BenchState => {
     let s = states.get(benchId);
     if (!s) {
-      s = { tracker: new SweepTracker(), recent: new RecentBins(), settings: null, sweepPoints: [], phaseHistory: [], figures: null, lastBatchAt: 0, tracking: Promise.resolve(), fitting: Promise.resolve() };
+      s = { tracker: new SweepTracker(), recent: new RecentBins(), settings: null, sweepPoints: [], phaseHistory: [], figures: null, lastBatchAt: 0, tracking: Promise.resolve(), fitting: Promise.resolve(), late: new Map(), lateTimer: null };
       states.set(benchId, s);
       void loadRecentSweeps(benchId, s);
     }
@@ -150,12 +161,95 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
       const ia = b.keys.indexOf(keyA);
       const ib = b.keys.indexOf(keyB);
       if (ia < 0 || ib < 0 || !b.x) continue;
-      passes.push(...tracker.push(b.t0, b.dt, b.x, b.counts.slice(ia * b.n, (ia + 1) * b.n), b.counts.slice(ib * b.n, (ib + 1) * b.n)));
+      // Stored rows hold whole (merged) batches: only the range's bins, so a refit of a late span
+      // starts and ends at the pass boundaries it was given.
+      const i0 = Math.max(0, Math.ceil((fromMs - b.t0) / b.dt));
+      const i1 = Math.min(b.n, Math.ceil((toMs - b.t0) / b.dt));
+      if (i1 <= i0) continue;
+      passes.push(...tracker.push(b.t0 + i0 * b.dt, b.dt, b.x.slice(i0, i1), b.counts.slice(ia * b.n + i0, ia * b.n + i1), b.counts.slice(ib * b.n + i0, ib * b.n + i1)));
     }
     passes.push(...tracker.flush());
     let stored = 0;
     for (const pass of passes) if (await fitPass(benchId, pass, settingsOf(keyA), settingsOf(keyB), db)) stored++;
     return stored;
+  }
+
+  /** Notes a late batch's span and (re)starts the quiet period before its refit. */
+  function noteLate(benchId: string, s: BenchState, gatewayId: string, fromMs: number, toMs: number) {
+    const spans = s.late.get(gatewayId) ?? [];
+    spans.push([fromMs, toMs]);
+    s.late.set(gatewayId, spans);
+    armLateRefit(benchId, s);
+  }
+
+  function armLateRefit(benchId: string, s: BenchState) {
+    if (s.lateTimer) clearTimeout(s.lateTimer);
+    s.lateTimer = setTimeout(() => {
+      s.lateTimer = null;
+      // On the fitting chain: the live passes completed before it are stored first, so the refit
+      // replaces them instead of racing them.
+      s.fitting = s.fitting.then(() => refitLate(benchId, s)).catch((err: unknown) => console.warn('[refit]', benchId, err instanceof Error ? err.message : err));
+    }, lateQuietMs);
+    s.lateTimer.unref();
+  }
+
+  /**
+   * Refits the stored range around each late span the tracker has moved past. A span that ends
+   * where the tracker still holds bins waits: the pass under way there (restarted at the gap the
+   * late batch left) is the live tracker's until it completes, and the refit then replaces it.
+   */
+  async function refitLate(benchId: string, s: BenchState) {
+    const heldFrom = s.tracker.heldFrom;
+    for (const [gatewayId, spans] of [...s.late]) {
+      const ready = spans.filter(([, to]) => to < heldFrom);
+      const waiting = spans.filter(([, to]) => to >= heldFrom);
+      if (waiting.length > 0) s.late.set(gatewayId, waiting);
+      else s.late.delete(gatewayId);
+      const ranges: [number, number][] = [];
+      for (const [lateFrom, lateTo] of ready) ranges.push(await refitRange(benchId, lateFrom, lateTo, heldFrom));
+      ranges.sort((p, q) => p[0] - q[0]);
+      const merged: [number, number][] = [];
+      for (const r of ranges) {
+        const last = merged.at(-1);
+        if (last && r[0] <= last[1]) last[1] = Math.max(last[1], r[1]);
+        else merged.push([...r]);
+      }
+      for (const [fromMs, toMs] of merged) await replaceSweeps(benchId, s, gatewayId, fromMs, toMs);
+    }
+    if (s.late.size > 0) armLateRefit(benchId, s);
+  }
+
+  /**
+   * From the end of the last stored sweep before the late span (a pass boundary: the tracker
+   * restarts there as it did live) to the end of the first one after it, never into what the
+   * tracker still holds.
+   */
+  async function refitRange(benchId: string, lateFrom: number, lateTo: number, heldFrom: number): Promise<[number, number]> {
+    const db = getDb();
+    const [before] = await db.select({ end: max(sweepsTable.endMs) }).from(sweepsTable).where(and(eq(sweepsTable.benchId, benchId), lte(sweepsTable.endMs, lateFrom)));
+    const [after] = await db.select({ end: min(sweepsTable.endMs) }).from(sweepsTable).where(and(eq(sweepsTable.benchId, benchId), gt(sweepsTable.endMs, lateTo)));
+    return [Math.max(before?.end ?? -Infinity, lateFrom - LATE_LOOKBACK_MS), Math.min(after?.end ?? Infinity, heldFrom)];
+  }
+
+  /**
+   * One transaction: every sweep wholly inside [from, to] goes (the partial passes the gap cut, and
+   * whole ones, which the refit stores again as they were), then the range's passes are fitted from
+   * the stored bins. The bench's clients hear which sweeps went, then the new ones.
+   */
+  async function replaceSweeps(benchId: string, s: BenchState, gatewayId: string, fromMs: number, toMs: number) {
+    const inRange = and(eq(sweepsTable.benchId, benchId), gte(sweepsTable.startMs, fromMs), lte(sweepsTable.endMs, toMs));
+    const { removed, added } = await inTransaction(async (_client, tx) => {
+      const removed = (await tx.db.delete(sweepsTable).where(inRange).returning({ id: sweepsTable.id })).map((r) => r.id);
+      await fitStored(benchId, gatewayId, fromMs, toMs, tx);
+      const added = await tx.db.select().from(sweepsTable).where(inRange).orderBy(sweepsTable.startMs);
+      return { removed, added };
+    });
+    s.sweepPoints = s.sweepPoints.filter((p) => p.timeMs < fromMs || p.timeMs > toMs);
+    for (const r of added) s.sweepPoints.push({ timeMs: (r.startMs + r.endMs) / 2, endMs: r.endMs, ...shownVisibility(r) });
+    s.sweepPoints.sort((p, q) => p.timeMs - q.timeMs);
+    if (s.sweepPoints.length > 32) s.sweepPoints.splice(0, s.sweepPoints.length - 32);
+    if (removed.length > 0) opts.publish(benchId, { type: 'sweeps-replaced', bench: benchId, from: fromMs, to: toMs, ids: removed });
+    for (const r of added) opts.publish(benchId, { type: 'sweep', bench: benchId, sweep: { ...fittedSummary(r), fit: r.fit as StoredFit } });
   }
 
   const onBatch = ({ benchId, gatewayId, batch }: { benchId: string; gatewayId: string; batch: CountBatch }) => {
@@ -173,6 +267,12 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
         const a = Object.hasOwn(batch.ch, outA.key) ? batch.ch[outA.key] : undefined;
         const b = Object.hasOwn(batch.ch, outB.key) ? batch.ch[outB.key] : undefined;
         if (!a || !b) return;
+        // Behind the tracker (a late batch): it goes on with the pass under way, and the span is
+        // refitted from storage once the late batches stop coming.
+        if (batch.t0 < s.tracker.seenUntil) {
+          noteLate(benchId, s, gatewayId, batch.t0, batch.t0 + a.length * batch.dt);
+          return;
+        }
         // Fits run one after another per bench, so sweeps are stored in order.
         for (const pass of s.tracker.push(batch.t0, batch.dt, batch.x, a, b)) {
           s.fitting = s.fitting.then(() => fitAndStore(benchId, s, pass, settings)).catch((err: unknown) => console.warn('[fit]', benchId, err instanceof Error ? err.message : err));
@@ -232,6 +332,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish }): AnalysisS
     fitStored,
     close: () => {
       clearInterval(timer);
+      for (const s of states.values()) if (s.lateTimer) clearTimeout(s.lateTimer);
       serverEvents().off('batch-stored', onBatch);
       serverEvents().off('bench-settings-changed', onSettingsChanged);
     },

@@ -94,10 +94,10 @@ export async function storeSweep(benchId: string, pass: CompletedPass, fit: Frin
     .onConflictDoNothing()
     .returning();
   if (!row) return null;
-  return { summary: summary(row), fit: stored };
+  return { summary: fittedSummary(row), fit: stored };
 }
 
-function summary(row: typeof sweeps.$inferSelect): FittedSweepSummary {
+export function fittedSummary(row: typeof sweeps.$inferSelect): FittedSweepSummary {
   return {
     id: row.id,
     startMs: row.startMs,
