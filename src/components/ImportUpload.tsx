@@ -6,6 +6,20 @@ import { MAX_IMPORT_BYTES, overlapMessage, type ImportOverlap, type ImportPrevie
 /** A bin time of the file in the reader's local time, as every other time in the app. */
 const when = (ms: number | null) => (ms === null ? '—' : formatDateTime(ms, true));
 
+const DAY_MS = 86_400_000;
+
+/**
+ * What keeping the new run means: it is imported to be kept, and a recording older than raw
+ * retention would otherwise lose its raw bins (photon statistics, the raw export) at the next pass.
+ */
+function keptNote(p: Preview): string {
+  const kept = 'The new run will be kept from retention\'s trimming, so all of its data stays however old it gets. An operator or admin can release it on the run\'s page like any run';
+  const past = p.fromMs !== null && Date.now() - p.fromMs > p.rawRetentionDays * DAY_MS;
+  return past
+    ? `${kept}; this recording is older than the ${p.rawRetentionDays} days raw bins are kept, so released, its raw bins (its photon statistics and raw export) would be deleted within about 10 minutes.`
+    : `${kept}; released, its raw bins go once they are ${p.rawRetentionDays} days old.`;
+}
+
 /** Where an upload stands: the share of the file sent, then the server at work on it. */
 type Progress = { sent: number } | 'checking' | null;
 
@@ -156,6 +170,9 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
               {w}
             </p>
           ))}
+          <p role="note" className="mt-2 text-sm text-muted" data-testid="import-kept">
+            {keptNote(preview)}
+          </p>
           <div className="my-2 overflow-x-auto">
             <table className="table figure">
               <thead>
@@ -198,7 +215,7 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
           <a className="font-medium underline" href={`/runs/${done.runId}`} data-testid="imported-run">
             run {done.runId}
           </a>{' '}
-          ({when(done.fromMs)} to {when(done.toMs)}).
+          ({when(done.fromMs)} to {when(done.toMs)}){done.keep ? ', kept from retention\'s trimming; release it on the run\'s page' : ''}.
         </p>
       )}
     </div>

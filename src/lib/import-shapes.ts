@@ -75,11 +75,15 @@ export interface ImportPreview {
   overlap: ImportOverlap | null;
   /** Things to check that do not stop the import (a wavelength other than the bench's). */
   warnings: string[];
+  /** Days raw bins are kept outside kept runs: the preview says what releasing the imported run would cost. */
+  rawRetentionDays: number;
 }
 
 export interface ImportResult {
   runId: number;
   gatewayId: string;
+  /** Imported runs are kept from retention's trimming; an operator releases one like any run. */
+  keep: boolean;
   bins: number;
   batches: number;
   fromMs: number;

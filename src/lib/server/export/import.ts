@@ -15,6 +15,7 @@ import { HttpError } from '../http/responses.ts';
 import type { Slice } from '../ingest/coverage.ts';
 import { rollupDeltas } from '../ingest/rollup-math.ts';
 import { writeStatement } from '../ingest/write-statement.ts';
+import { getRetention } from '../retention.ts';
 import { runtime } from '../runtime.ts';
 import { formatUtcDateTime } from '../../client/format.ts';
 import { IMPORT_GATEWAY_PREFIX, importGatewayOf, isImportGateway, MAX_IMPORT_BYTES, overlapMessage, type ImportIssue, type ImportOverlap, type ImportPreview, type ImportResult } from '../../import-shapes.ts';
@@ -156,6 +157,7 @@ export async function previewImport(benchId: string, body: ReadableStream<Uint8A
     issues: reader.issues,
     overlap,
     warnings,
+    rawRetentionDays: (await getRetention()).rawDays,
   };
 }
 
@@ -233,8 +235,11 @@ async function findOverlap(
 export async function importCounts(benchId: string, body: ReadableStream<Uint8Array>, opts: { title: string; userId: string | null; maxBytes?: number }): Promise<ImportResult> {
   if (!(await getBench(benchId))) throw new HttpError(404, 'no such bench');
   const result = await inTransaction(async (client) => {
+    // Kept from the start: a lab imports a recording to keep it, and one older than raw retention
+    // would lose its raw bins (photon statistics, export) at the next pass. Released as any run is
+    // (`setRunKeep`); the import's audit row says it was kept.
     const run = await client.query<{ id: number }>(
-      `insert into runs (bench_id, title, start_ms, end_ms, started_by, source) values ($1, $2, 0, 0, $3, 'import') returning id`,
+      `insert into runs (bench_id, title, start_ms, end_ms, started_by, source, keep) values ($1, $2, 0, 0, $3, 'import', true) returning id`,
       [benchId, opts.title, opts.userId],
     );
     const runId = Number(run.rows[0]!.id);
@@ -262,7 +267,7 @@ export async function importCounts(benchId: string, body: ReadableStream<Uint8Ar
     if (overlap) throw new OverlapError(overlap);
     await client.query('update runs set start_ms = $2, end_ms = $3 where id = $1', [runId, fromMs, toMs]);
     await insertChannels(client, benchId, gatewayId, reader.channels);
-    const stored: ImportResult = { runId, gatewayId, bins, batches, fromMs, toMs, channels: reader.channels.map((c) => `${gatewayId}/${c.key}`) };
+    const stored: ImportResult = { runId, gatewayId, keep: true, bins, batches, fromMs, toMs, channels: reader.channels.map((c) => `${gatewayId}/${c.key}`) };
     await recordAudit({ actorId: opts.userId, entity: 'run', entityId: String(runId), action: 'import', after: stored }, drizzle(client));
     return stored;
   });
