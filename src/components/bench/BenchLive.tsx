@@ -142,7 +142,7 @@ export default function BenchLive(props: { bench: BenchViewData; viewer: ViewerD
       },
       (err) => !ctl.signal.aborted && setCountsError(`History unavailable: ${errorText(err)}`),
     );
-    fetchSweeps(bench.id, now - TREND_MS, now, ctl.signal).then(
+    fetchSweeps(bench.id, now - TREND_MS, now, ctl.signal, 'live').then(
       (list) => {
         setSweeps((cur) => [...list, ...cur.filter((s) => !list.some((l) => l.id === s.id))].sort((a, b) => a.start - b.start));
         setSweepsLoading(false);

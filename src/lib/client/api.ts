@@ -130,8 +130,9 @@ export function sweepFit(s: Sweep): SweepFit | null {
   return p.success ? p.data : null;
 }
 
-export function fetchSweeps(bench: string, from: number, to: number, signal?: AbortSignal): Promise<Sweep[]> {
-  const q = new URLSearchParams({ from: String(Math.floor(from)), to: String(Math.ceil(to)) });
+/** `live`: only the bench's own gateways' passes, none of an imported recording's. */
+export function fetchSweeps(bench: string, from: number, to: number, signal?: AbortSignal, source: 'all' | 'live' = 'all'): Promise<Sweep[]> {
+  const q = new URLSearchParams({ from: String(Math.floor(from)), to: String(Math.ceil(to)), source });
   return call(`/api/v1/benches/${encodeURIComponent(bench)}/sweeps?${q}`, z.array(sweepSchema), undefined, signal);
 }
 

@@ -141,7 +141,7 @@ async function snapshotAt(benchId: string, gatewayId: string, atMs: number, tx: 
   const channels = await benchCalibrations(benchId);
   const [bench] = await getDb().select({ cw: benches.coincidenceWindowNs }).from(benches).where(eq(benches.id, benchId)).limit(1);
   const coincidenceWindowNs = bench?.cw ?? DEFAULT_COINCIDENCE_WINDOW_NS;
-  const { rows } = await sweepsBetween(benchId, atMs - SWEEP_FRESH_MS, atMs, MAX_SWEEPS, tx.db);
+  const { rows } = await sweepsBetween(benchId, atMs - SWEEP_FRESH_MS, atMs, MAX_SWEEPS, tx.db, 'live');
   const sweepPoints = rows.filter((r) => r.endMs <= atMs).map((r) => ({ timeMs: (r.startMs + r.endMs) / 2, endMs: r.endMs, ...shownVisibility(r) }));
   const recent = new RecentBins();
   const phaseHistory: { t: number; theta: number }[] = [];

@@ -16,7 +16,7 @@ import { serverEvents } from '../events.ts';
 import { computeFigures, SWEEP_FRESH_MS, type ChannelSettings, type SweepPoint } from './live-figures.ts';
 import { RecentBins } from './recent-bins.ts';
 import { SweepTracker, type CompletedPass } from './sweep-tracker.ts';
-import { fittedSummary, sweepsBetween, storeSweep, type StoredFit } from './sweeps-store.ts';
+import { fittedSummary, MAX_SWEEPS, sweepsBetween, storeSweep, type StoredFit } from './sweeps-store.ts';
 import { gatewayBatches } from '../export/export.ts';
 
 /** `exposure`: each point's bins over the pass's mean bins per point (see FringeData). */
@@ -92,7 +92,8 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish; lateQuietMs?
 
   async function loadRecentSweeps(benchId: string, s: BenchState) {
     const now = Date.now();
-    const { rows } = await sweepsBetween(benchId, now - SWEEP_FRESH_MS, now).catch(() => ({ rows: [] }));
+    // The bench's own passes only: an imported recording's are no reading of the bench as it is.
+    const { rows } = await sweepsBetween(benchId, now - SWEEP_FRESH_MS, now, MAX_SWEEPS, getDb(), 'live').catch(() => ({ rows: [] }));
     for (const r of rows.slice(-8)) s.sweepPoints.push({ timeMs: (r.startMs + r.endMs) / 2, endMs: r.endMs, ...shownVisibility(r) });
   }
 

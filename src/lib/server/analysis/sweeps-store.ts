@@ -116,13 +116,23 @@ export function fittedSummary(row: typeof sweeps.$inferSelect): FittedSweepSumma
 /** Most sweeps returned for one range by default: about one per pixel of a wide chart. */
 export const MAX_SWEEPS = 2_000;
 
+/** Every pass of the bench, or only those of its own (live) gateways. */
+export type SweepSource = 'all' | 'live';
+
+/**
+ * Not a pass of an imported recording. Sweeps carry no gateway; a bench's time holds one recording
+ * (an import over time with data is refused, DEVELOPERS.md), so a pass within an imported run's
+ * span is that import's, and every other pass is the bench's own gateways'.
+ */
+const notImported = sql`not exists (select 1 from runs r where r.bench_id = ${sweeps.benchId} and r.source = 'import' and r.start_ms < ${sweeps.endMs} and r.end_ms > ${sweeps.startMs})`;
+
 /**
  * The sweeps overlapping [from, to], oldest first. A range holding more than `maxRows` is thinned
  * evenly (every k-th pass, the last one always kept) so a day of fast sweeps stays a small answer
  * spread over the whole range; `thinnedBy` says k and `total` how many there are.
  */
-export async function sweepsBetween(benchId: string, fromMs: number, toMs: number, maxRows = MAX_SWEEPS, db: Executor = getDb()) {
-  const inRange = and(eq(sweeps.benchId, benchId), gte(sweeps.endMs, fromMs), lte(sweeps.startMs, toMs));
+export async function sweepsBetween(benchId: string, fromMs: number, toMs: number, maxRows = MAX_SWEEPS, db: Executor = getDb(), source: SweepSource = 'all') {
+  const inRange = and(eq(sweeps.benchId, benchId), gte(sweeps.endMs, fromMs), lte(sweeps.startMs, toMs), source === 'live' ? notImported : undefined);
   const [{ n } = { n: 0 }] = await db.select({ n: sql<number>`count(*)::int` }).from(sweeps).where(inRange);
   const k = Math.max(1, Math.ceil(n / maxRows));
   if (k === 1) return { rows: await db.select().from(sweeps).where(inRange).orderBy(asc(sweeps.startMs)), thinnedBy: 1, total: n };

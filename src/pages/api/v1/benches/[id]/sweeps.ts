@@ -11,6 +11,8 @@ const query = z.object({
   to: timeParam.optional(),
   // Most sweeps in the answer; a longer range is thinned evenly (header X-Sweeps-Thinned-By).
   max: z.coerce.number().int().min(1).max(20_000).default(MAX_SWEEPS),
+  // `live`: only the passes of the bench's own gateways, none of its imported recordings' (the live page's trend).
+  source: z.enum(['all', 'live']).default('all'),
 });
 
 const DAY_MS = 86_400_000;
@@ -22,6 +24,6 @@ export const GET = endpoint('observer', async ({ params, url }) => {
   const to = q.to ?? Date.now();
   const from = q.from ?? to - DAY_MS;
   if (from > to) return problem(422, 'from is after to');
-  const { rows, thinnedBy } = await sweepsBetween(bench.id, from, to, q.max);
+  const { rows, thinnedBy } = await sweepsBetween(bench.id, from, to, q.max, undefined, q.source);
   return json(rows.map(sweepView), 200, { 'x-sweeps-thinned-by': String(thinnedBy) });
 });
