@@ -10,6 +10,7 @@ import { auditLog, countBatches, rollups, runs, sweeps } from '../../src/lib/ser
 import { importCounts } from '../../src/lib/server/export/import.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import { DEFAULT_RETENTION, getRetention, runRetention, setRetention } from '../../src/lib/server/retention.ts';
+import { loadRunReport } from '../../src/lib/server/run-report.ts';
 import { setRunKeep } from '../../src/lib/server/runs.ts';
 import { userWithToken } from '../helpers/web-app.ts';
 
@@ -64,6 +65,11 @@ describe('an imported recording', () => {
     expect(full.coarse).toBeGreaterThan(0);
     await runRetention({ now: NOW, pauseMs: 0 });
     expect(await stored(r.gatewayId)).toEqual(full);
+    // So its report still has photon statistics, read from the raw bins, and its stability is read
+    // at whole seconds, the file's bin width.
+    const report = await loadRunReport(r.runId);
+    expect(report?.photonStats).not.toBeNull();
+    expect(report?.stability.tau0).toBe(1);
 
     // Released as any run is (audited), the next pass trims it as it would any data of its age.
     await setRunKeep(r.runId, false, operatorId);

@@ -48,8 +48,16 @@ async function reportStabilityStep(gateways: string[], from: number, to: number)
   const step = pickStep(to - from, REPORT_STABILITY_POINTS);
   if (step % 1_000 === 0) return step;
   // Steps below whole seconds are read from raw bins: past their retention only the rollups are left.
-  const { rows } = await getDbHandle().pool.query('select 1 from count_batches where gateway_id = any($1) and t0 < $3 and t1 > $2 limit 1', [gateways, from, to]);
-  return to - from > MAX_RAW_SPAN_MS || rows.length === 0 ? Math.max(1_000, step) : step;
+  // They must be a multiple of the bins' width (the counts API refuses others): an imported run of
+  // 1 s bins is read at whole seconds. One probe per gateway; a gateway keeps its bin width.
+  const { rows } = await getDbHandle().pool.query<{ dt: number | null }>(
+    `select max(c.dt)::int as dt from unnest($1::text[]) as g(id)
+       cross join lateral (select dt from count_batches where gateway_id = g.id and t0 < $3 and t1 > $2 limit 1) c`,
+    [gateways, from, to],
+  );
+  const dt = rows[0]?.dt ?? null;
+  if (to - from > MAX_RAW_SPAN_MS || dt === null) return Math.max(1_000, step);
+  return Math.ceil(step / dt) * dt;
 }
 
 export async function loadRunReport(id: number): Promise<RunReport | null> {
