@@ -1,8 +1,8 @@
 // GET /api/v1/benches/{id}/sweeps: the contract's fields, oldest first, and a long range thinned
-// evenly over the whole range (never just its first rows).
+// evenly over the whole range (never just its first rows); `source=live` without imported recordings' passes.
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { getDb } from '../../src/lib/server/db/index.ts';
-import { sweeps } from '../../src/lib/server/db/schema.ts';
+import { runs, sweeps } from '../../src/lib/server/db/schema.ts';
 import { createBench } from '../../src/lib/server/provisioning.ts';
 import type { RunningApp } from '../../src/server/app.ts';
 import { startWebApp, userWithToken } from '../helpers/web-app.ts';
@@ -53,4 +53,13 @@ it('thins a long range evenly and keeps the last sweep', async () => {
   expect(res.headers.get('x-sweeps-thinned-by')).toBe('5');
   // At most max: every fifth counted back from the last.
   expect(body.map((s) => s.counts)).toEqual([1004, 1009, 1014, 1019, 1024, 1029, 1034, 1039, 1044, 1049]);
+});
+
+it('leaves out the passes of an imported recording with source=live', async () => {
+  const { token } = await userWithToken('observer', 'swp3');
+  // The last ten passes lie in an imported run's span: they are that import's.
+  await getDb().insert(runs).values({ benchId: BENCH, title: 'Imported', startMs: T0 + 40_000, endMs: T0 + 50_000, source: 'import' });
+  const get = async (q: string) => (await (await fetch(new URL(`/api/v1/benches/${BENCH}/sweeps?from=${T0}&to=${T0 + 60_000}${q}`, app.url), { headers: { authorization: `Bearer ${token}` } })).json()) as unknown[];
+  expect(await get('')).toHaveLength(50);
+  expect(await get('&source=live')).toHaveLength(40);
 });
