@@ -69,6 +69,17 @@ export interface AnalysisService {
   close(): void;
 }
 
+/** Spans [from, to) in time order with those that overlap or touch joined. */
+function joinSpans(spans: readonly [number, number][]): [number, number][] {
+  const joined: [number, number][] = [];
+  for (const [from, to] of [...spans].sort((p, q) => p[0] - q[0])) {
+    const last = joined.at(-1);
+    if (last && from <= last[1]) last[1] = Math.max(last[1], to);
+    else joined.push([from, to]);
+  }
+  return joined;
+}
+
 export function startAnalysis(opts: { fit: FitFn; publish: Publish; lateQuietMs?: number }): AnalysisService {
   const lateQuietMs = opts.lateQuietMs ?? LATE_QUIET_MS;
   const states = new Map<string, BenchState>();
@@ -206,16 +217,10 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish; lateQuietMs?
       const waiting = spans.filter(([, to]) => to >= heldFrom);
       if (waiting.length > 0) s.late.set(gatewayId, waiting);
       else s.late.delete(gatewayId);
+      // A burst of late batches is mostly contiguous: one range query per run of them, not per batch.
       const ranges: [number, number][] = [];
-      for (const [lateFrom, lateTo] of ready) ranges.push(await refitRange(benchId, lateFrom, lateTo, heldFrom));
-      ranges.sort((p, q) => p[0] - q[0]);
-      const merged: [number, number][] = [];
-      for (const r of ranges) {
-        const last = merged.at(-1);
-        if (last && r[0] <= last[1]) last[1] = Math.max(last[1], r[1]);
-        else merged.push([...r]);
-      }
-      for (const [fromMs, toMs] of merged) await replaceSweeps(benchId, s, gatewayId, fromMs, toMs);
+      for (const [lateFrom, lateTo] of joinSpans(ready)) ranges.push(await refitRange(benchId, lateFrom, lateTo, heldFrom));
+      for (const [fromMs, toMs] of joinSpans(ranges)) await replaceSweeps(benchId, s, gatewayId, fromMs, toMs);
     }
     if (s.late.size > 0) armLateRefit(benchId, s);
   }
