@@ -12,9 +12,17 @@ export interface GatewayAtRender extends GatewayPresence {
 
 export function useBenchSetup(bench: string, gateways: readonly GatewayAtRender[]): { presence: readonly GatewayPresence[]; setup: BenchSetup | null } {
   const presence = useGatewayPresence(bench, gateways);
-  // A gateway that came online while the page was open has been heard from, whatever it does next.
-  const seenOnline = useRef(false);
-  if (presence.some((g) => g.online)) seenOnline.current = true;
+  const seenOnline = useSeenOnline(presence);
   const known = presence.map((g) => ({ ...g, lastSeenMs: gateways.find((x) => x.id === g.id)?.lastSeenMs ?? null }));
-  return { presence, setup: benchSetup(known, seenOnline.current) };
+  return { presence, setup: benchSetup(known, seenOnline) };
+}
+
+/**
+ * Whether any of the gateways has been online since the page opened: one that came online while
+ * the page was open has been heard from, whatever the render said and whatever it does next.
+ */
+export function useSeenOnline(presence: readonly GatewayPresence[]): boolean {
+  const seen = useRef(false);
+  if (presence.some((g) => g.online)) seen.current = true;
+  return seen.current;
 }

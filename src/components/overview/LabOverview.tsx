@@ -4,7 +4,7 @@
 // socket per card would stream every count for a summary. Whether gateways are online follows one
 // status-only socket for all the benches (gateway-presence.ts), so a gateway that drops or is
 // revoked turns its card offline at once, as on the bench page.
-import { useMemo, useRef } from 'react';
+import { useMemo } from 'react';
 import type { AlarmEventView, Severity } from '../../lib/alarm-messages.ts';
 import { newestPassAt, type BenchFigures } from '../../lib/bench-figures.ts';
 import { figuresStaleness } from '../../lib/figures-age.ts';
@@ -15,6 +15,7 @@ import { useNow } from '../../lib/client/use-now.ts';
 import { usePolled } from '../../lib/client/use-polled.ts';
 import { gatewayBadge, type GatewayBadge, type OverviewBench } from '../../lib/overview.ts';
 import { gatewayStateText } from '../bench/gateway-state.ts';
+import { useSeenOnline } from '../bench/useBenchSetup.ts';
 import { useGatewayPresence } from '../bench/useGatewayPresence.ts';
 import { channelRates, wholeBuckets } from '../history/history-range.ts';
 import { Sparkline } from './Sparkline.tsx';
@@ -112,11 +113,9 @@ function BenchCard({ b, feed, live: l, slow: sl, now }: { b: OverviewBench; feed
   const a = f?.channels.find((c) => c.role === 'out_a');
   const o = f?.channels.find((c) => c.role === 'out_b');
   const stale = f && now !== null ? figuresStaleness(f.at, now, gatewaysOnline, gateways.length) : null;
-  // A gateway seen online since the page opened has been heard from, whatever the render said.
-  const seenOnline = useRef(false);
-  if (gatewaysOnline > 0) seenOnline.current = true;
-  const badge = gatewayBadge({ gatewaysOnline, gatewaysSilent: gateways.filter((g) => g.silentSince !== undefined).length, gatewaysTotal: gateways.length, gatewaysEverSeen: seenOnline.current ? Math.max(1, b.gatewaysEverSeen) : b.gatewaysEverSeen });
+  const seenOnline = useSeenOnline(gateways);
   const silent = gateways.filter((g) => g.silentSince !== undefined);
+  const badge = gatewayBadge({ gatewaysOnline, gatewaysSilent: silent.length, gatewaysTotal: gateways.length, gatewaysEverSeen: seenOnline ? Math.max(1, b.gatewaysEverSeen) : b.gatewaysEverSeen });
   const v = f?.visibility ?? null;
   // The newest pass, as the bench page leads with it, and how old it is: a pass from before the last touch or drift is seen to be.
   const shownV = v?.newest ?? v;
