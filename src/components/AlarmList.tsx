@@ -3,7 +3,7 @@
 import { useEffect, useState } from 'react';
 import { alarmEventViewSchema, alarmMessageSchema, applyAlarmMessage, type AlarmEventView } from '../lib/alarm-messages.ts';
 import { liveSocket, statusSocket } from '../lib/client/live-socket.ts';
-import { formatDateTime } from '../lib/client/format.ts';
+import { LocalTime } from './LocalTime.tsx';
 
 interface Props {
   benchId: string;
@@ -24,8 +24,8 @@ const SEVERITY_CLASS: Record<AlarmEventView['severity'], string> = {
   info: 'border-line text-muted',
 };
 
-function when(iso: string): string {
-  return formatDateTime(Date.parse(iso));
+function When({ iso }: { iso: string }) {
+  return <LocalTime ms={Date.parse(iso)} as="minute" />;
 }
 
 async function ack(benchId: string, id: number, comment: string): Promise<AlarmEventView> {
@@ -98,13 +98,13 @@ export default function AlarmList({ benchId, initial, canAck, openOnly = false, 
               {e.severity.toUpperCase()} · {e.ruleName}
             </span>
             <span className="text-xs text-muted">
-              {e.clearedAt ? `cleared ${when(e.clearedAt)}` : <strong className="text-ink">raised {when(e.raisedAt)}</strong>}
+              {e.clearedAt ? <>cleared <When iso={e.clearedAt} /></> : <strong className="text-ink">raised <When iso={e.raisedAt} /></strong>}
             </span>
           </div>
           <p className="figure text-sm text-ink">{e.message}</p>
           {e.ackedAt ? (
             <p className="text-xs text-muted">
-              Acknowledged by {e.ackedBy ?? 'someone'} at {when(e.ackedAt)}: {e.ackComment}
+              Acknowledged by {e.ackedBy ?? 'someone'} at <When iso={e.ackedAt} />: {e.ackComment}
             </p>
           ) : canAck ? (
             <AckForm benchId={benchId} event={e} onDone={(v) => setEvents((list) => list.map((x) => (x.id === v.id ? v : x)))} />

@@ -1,13 +1,20 @@
 // Export of a time range typed in the viewer's local time (YYYY-MM-DD HH:MM, 24 h, like every time
 // the app shows); the download link carries the range in ms since the epoch, so the server's own
 // time zone plays no part.
-import { useState } from 'react';
+import { useEffect, useState } from 'react';
 import { formatDateTime, parseLocalInput } from '../lib/client/format.ts';
 
 export default function ExportRange({ exportUrl }: { exportUrl: string }) {
-  const [from, setFrom] = useState(() => formatDateTime(Date.now() - 3_600_000, true));
-  // To the second: a default cut to the minute left the last seconds out of the file.
-  const [to, setTo] = useState(() => formatDateTime(Date.now(), true));
+  // The last hour by default, in the reader's zone: filled in once mounted, as the server renders
+  // in its own zone (use-hydrated.ts).
+  const [from, setFrom] = useState('');
+  const [to, setTo] = useState('');
+  useEffect(() => {
+    const now = Date.now();
+    setFrom((f) => f || formatDateTime(now - 3_600_000, true));
+    // To the second: a default cut to the minute left the last seconds out of the file.
+    setTo((t) => t || formatDateTime(now, true));
+  }, []);
   const [format, setFormat] = useState<'csv' | 'json'>('csv');
   const [error, setError] = useState<string | null>(null);
 

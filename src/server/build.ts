@@ -22,6 +22,8 @@ export function buildIfStale(root = process.cwd()): void {
   execFileSync(path.join(root, 'node_modules', '.bin', 'astro'), ['build', '--silent'], {
     cwd: root,
     stdio: 'inherit',
-    env: { ...process.env, ASTRO_TELEMETRY_DISABLED: '1' },
+    // Vite bundles for whatever NODE_ENV says: under the test runner ("test") that was React's
+    // development build, slower and louder than what the lab gets.
+    env: { ...process.env, NODE_ENV: 'production', ASTRO_TELEMETRY_DISABLED: '1' },
   });
 }

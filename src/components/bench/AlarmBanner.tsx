@@ -1,7 +1,7 @@
 // A banner for alarms that are raised and nobody has acknowledged yet, above everything else on
 // the live view: the operator may be watching the fringes, not the list further down.
 import type { AlarmEventView } from '../../lib/alarm-messages.ts';
-import { formatClock } from '../../lib/client/format.ts';
+import { LocalTime } from '../LocalTime.tsx';
 
 export function needsAttention(e: AlarmEventView): boolean {
   return e.clearedAt === null && e.ackedAt === null;
@@ -21,7 +21,7 @@ export function AlarmBanner({ events }: { events: AlarmEventView[] }) {
       <ul className="mt-1 space-y-0.5">
         {open.slice(0, 3).map((e) => (
           <li key={e.id} className="text-ink">
-            <span className="figure text-muted">{formatClock(Date.parse(e.raisedAt))}</span> {e.ruleName}: <span className="figure">{e.message}</span>
+            <LocalTime ms={Date.parse(e.raisedAt)} as="clock" className="figure text-muted" /> {e.ruleName}: <span className="figure">{e.message}</span>
           </li>
         ))}
         {open.length > 3 && <li className="text-muted">and {open.length - 3} more</li>}

@@ -5,7 +5,8 @@ import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { addNote, errorText, fetchNotes, startRun, stopRun } from '../../lib/client/api.ts';
 import { askToConfirm } from '../../lib/client/confirm-dialog.ts';
 import { confirmStopRun } from '../../lib/confirmations.ts';
-import { formatClock, formatDuration, snapshotLines } from '../../lib/client/format.ts';
+import { formatDuration, snapshotLines } from '../../lib/client/format.ts';
+import { LocalTime } from '../LocalTime.tsx';
 import { useNow } from '../../lib/client/use-now.ts';
 import type { NoteView, RunView } from '../../lib/runs.ts';
 
@@ -111,7 +112,7 @@ export function RunPanel({ benchId, initialRun, canOperate, figures, pushed }: P
           <div>
             <a href={`/runs/${run.id}`} className="font-medium hover:underline" data-testid="active-run-title">{run.title}</a>
             <p className="text-xs text-muted">
-              started <span className="figure">{formatClock(run.startMs)}</span> by {run.startedBy?.name ?? 'someone'} · running <span className="figure">{now === null ? '…' : formatDuration(now - run.startMs)}</span>
+              started <LocalTime ms={run.startMs} as="clock" className="figure" /> by {run.startedBy?.name ?? 'someone'} · running <span className="figure">{now === null ? '…' : formatDuration(now - run.startMs)}</span>
             </p>
           </div>
           {canOperate && (
@@ -144,7 +145,7 @@ export function RunPanel({ benchId, initialRun, canOperate, figures, pushed }: P
             <ol className="max-h-64 space-y-2 overflow-y-auto text-sm" aria-label="Notes">
               {notes.map((n) => (
                 <li key={n.id} className="border-l-2 border-accent pl-2">
-                  <p className="text-xs text-muted"><span className="figure">{formatClock(n.atMs)}</span> · {n.author?.name ?? 'someone'}</p>
+                  <p className="text-xs text-muted"><LocalTime ms={n.atMs} as="clock" className="figure" /> · {n.author?.name ?? 'someone'}</p>
                   <p className="whitespace-pre-wrap [overflow-wrap:anywhere]">{n.body}</p>
                   {n.snapshot && snapshotLines(n.snapshot).map((line, i) => <p key={i} className="figure text-xs text-muted">{line}</p>)}
                 </li>

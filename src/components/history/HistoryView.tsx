@@ -32,7 +32,6 @@ interface Range {
 
 /** `?from=&to=` of the page's address as a range, when both are whole ms and in order. */
 function rangeFromAddress(): Range | null {
-  if (typeof window === 'undefined') return null;
   const q = new URLSearchParams(window.location.search);
   const from = Number(q.get('from'));
   const to = Number(q.get('to'));
