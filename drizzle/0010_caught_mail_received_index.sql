@@ -1,0 +1,1 @@
+CREATE INDEX "caught_mail_received_idx" ON "caught_mail" USING btree ("received_at");
