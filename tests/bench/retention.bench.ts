@@ -9,7 +9,7 @@
 import { pathToFileURL } from 'node:url';
 import { getDbHandle } from '../../src/lib/server/db/index.ts';
 import { migrateDatabase } from '../../src/lib/server/db/migrate.ts';
-import { runRetention, setRetention } from '../../src/lib/server/retention.ts';
+import { DEFAULT_RETENTION, runRetention, setRetention } from '../../src/lib/server/retention.ts';
 import { setup as startTestDb, teardown as stopTestDb } from '../setup/global-db.ts';
 
 const DAY = 86_400_000;
@@ -54,7 +54,7 @@ export async function run(): Promise<Record<string, number>> {
       }
     }
     await pool.query('vacuum analyze count_batches, rollups');
-    await setRetention({ rawDays: 30, fineDays: 180, coarseDays: 3650 }, null);
+    await setRetention(DEFAULT_RETENTION, null);
 
     let started = performance.now();
     const pass = await runRetention({ now, stepRows: STEP_ROWS, pauseMs: 0 });

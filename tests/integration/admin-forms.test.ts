@@ -122,16 +122,25 @@ describe('drive limits', () => {
 describe('retention', () => {
   it('a refused post shows the days as typed and stores nothing', async () => {
     const before = await getRetention();
-    const res = await admin.postForm('/admin/retention', { intent: 'save', rawDays: '400', fineDays: '10', coarseDays: '3650' });
+    const res = await admin.postForm('/admin/retention', { intent: 'save', rawDays: '400', fineDays: '10', coarseDays: '3650', mailDays: '90' });
     expect(res.status).toBe(422);
     expect([inputValue(res.text, 'raw'), inputValue(res.text, 'fine'), inputValue(res.text, 'coarse')]).toEqual(['400', '10', '3650']);
     expect(res.text).toContain('1 s sums (days): keep coarser data at least as long as finer data');
     expect(fieldError(res.text, 'fine')).toMatch(/^keep coarser data/);
 
-    const comma = await admin.postForm('/admin/retention', { intent: 'save', rawDays: '30', fineDays: '180', coarseDays: '3,5' });
+    const comma = await admin.postForm('/admin/retention', { intent: 'save', rawDays: '30', fineDays: '180', coarseDays: '3,5', mailDays: '90' });
     expect(comma.status).toBe(422);
     expect(inputValue(comma.text, 'coarse')).toBe('3,5');
     expect(comma.text).toContain(`1 min sums (days): ${DECIMAL_COMMA}`);
+
+    const mail = await admin.postForm('/admin/retention', { intent: 'save', rawDays: '30', fineDays: '180', coarseDays: '3650', mailDays: '0' });
+    expect(mail.status).toBe(422);
+    expect(inputValue(mail.text, 'mail')).toBe('0');
+    expect(fieldError(mail.text, 'mail')).toBe('at least 1 day');
+    expect(mail.text).toContain('Sent e-mail (days): at least 1 day');
+    const empty = await admin.postForm('/admin/retention', { intent: 'save', rawDays: '30', fineDays: '180', coarseDays: '3650', mailDays: '' });
+    expect(empty.status).toBe(422);
+    expect(fieldError(empty.text, 'mail')).toBe('enter a number');
     expect(await getRetention()).toEqual(before);
   });
 });

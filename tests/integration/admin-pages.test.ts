@@ -8,6 +8,7 @@ import { auditLog, benches, caughtMail, channels, gateways, users } from '../../
 import { createOneTimeLink } from '../../src/lib/server/one-time-links.ts';
 import { verifyGatewayToken } from '../../src/lib/server/provisioning.ts';
 import { importCounts } from '../../src/lib/server/export/import.ts';
+import { getRetention } from '../../src/lib/server/retention.ts';
 import type { RunningApp } from '../../src/server/app.ts';
 import { HttpClient, inputValue } from '../helpers/http-client.ts';
 import { resetSignInLimits, startWebApp, uniqueEmail, userWithToken } from '../helpers/web-app.ts';
@@ -78,6 +79,7 @@ describe('invitations', () => {
     // The admin reads the same message on the outbox page.
     const outbox = await admin.get('/admin/outbox');
     expect(outbox.text).toContain(email);
+    expect(outbox.text).toMatch(new RegExp(`Mail is kept for <span[^>]*>${(await getRetention()).mailDays} days</span>, then deleted`));
     const shown = await admin.get(`/admin/outbox/${mail.id}`);
     expect(shown.status).toBe(200);
     expect(shown.text).toContain(path);

@@ -41,7 +41,7 @@ beforeAll(async () => {
   operatorId = (await userWithToken('operator', 'ik')).id;
   before = await getRetention();
   // Raw at the default 30 days; the sums short enough that a 60-day-old recording is past them all.
-  await setRetention({ rawDays: DEFAULT_RETENTION.rawDays, fineDays: 40, coarseDays: 50 }, null);
+  await setRetention({ ...DEFAULT_RETENTION, fineDays: 40, coarseDays: 50 }, null);
 });
 
 afterAll(async () => {

@@ -1,12 +1,14 @@
 // Retention deletes exactly what is older than each level's limit, in bounded steps, and nothing
-// that overlaps a kept run of the gateway's bench.
+// that overlaps a kept run of the gateway's bench; the local outbox's mail goes by its own limit,
+// and mail still waiting to be sent is never touched.
 import { eq, inArray, sql } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { closeDb, getDb } from '../../src/lib/server/db/index.ts';
-import { channels, countBatches, rollups, runs } from '../../src/lib/server/db/schema.ts';
+import { caughtMail, channels, countBatches, rollups, runs, settings } from '../../src/lib/server/db/schema.ts';
+import { MailPolicy, mailPolicyStateSchema } from '../../src/lib/server/alarms/mail-policy.ts';
 import { packCounts } from '../../src/lib/server/db/packed-counts.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
-import { getRetention, runRetention, setRetention, storageUsage } from '../../src/lib/server/retention.ts';
+import { DEFAULT_RETENTION, getRetention, runRetention, setRetention, storageUsage } from '../../src/lib/server/retention.ts';
 import { setRunKeep } from '../../src/lib/server/runs.ts';
 import { loadRunReport } from '../../src/lib/server/run-report.ts';
 import { userWithToken } from '../helpers/web-app.ts';
@@ -42,7 +44,7 @@ afterAll(async () => closeDb());
 
 describe('retention', () => {
   it('refuses settings that keep finer data longer than coarser data', async () => {
-    await expect(setRetention({ rawDays: 30, fineDays: 10, coarseDays: 40 }, null)).rejects.toThrow();
+    await expect(setRetention({ rawDays: 30, fineDays: 10, coarseDays: 40, mailDays: 90 }, null)).rejects.toThrow();
   });
 
   it('estimates a large raw table from the 1 min sums instead of counting its rows', async () => {
@@ -57,8 +59,8 @@ describe('retention', () => {
   });
 
   it('deletes exactly what is past each limit, and nothing of a kept run', async () => {
-    await setRetention({ rawDays: 10, fineDays: 20, coarseDays: 40 }, null);
-    expect(await getRetention()).toEqual({ rawDays: 10, fineDays: 20, coarseDays: 40 });
+    await setRetention({ rawDays: 10, fineDays: 20, coarseDays: 40, mailDays: 90 }, null);
+    expect(await getRetention()).toEqual({ rawDays: 10, fineDays: 20, coarseDays: 40, mailDays: 90 });
     const before = await storageUsage();
     expect(before.rows.find((r) => r.benchId === BENCH && r.level === 'raw')?.rows).toBe(ageDays.length);
 
@@ -92,7 +94,7 @@ describe('retention while a run is marked to keep', () => {
     // The run covers the last 20 minutes, which a pass walking the key in time order reaches last.
     const [run] = await getDb().insert(runs).values({ benchId: BENCH, title: 'Kept mid-pass', startMs: start + 20 * 60_000, endMs: start + minutes * 60_000 }).returning({ id: runs.id });
     const { id: userId } = await userWithToken('operator', 'rt-keep');
-    await setRetention({ rawDays: 10, fineDays: 20, coarseDays: 40 }, null);
+    await setRetention({ rawDays: 10, fineDays: 20, coarseDays: 40, mailDays: 90 }, null);
     const left = async () => (await getDb().select({ n: sql<number>`count(*)::int` }).from(countBatches).where(eq(countBatches.gatewayId, gw)))[0]!.n;
 
     // One row a step, 50 ms apart: the pass spends about a second on the first 20 minutes.
@@ -125,7 +127,7 @@ describe('retention around several kept runs', () => {
         { benchId: BENCH, title: 'Kept D, inside batches', startMs: min(90.5), endMs: min(100.5), keep: true },
         { benchId: BENCH, title: 'Not kept', startMs: min(120), endMs: min(150), keep: false },
       ]);
-    await setRetention({ rawDays: 10, fineDays: 20, coarseDays: 40 }, null);
+    await setRetention({ rawDays: 10, fineDays: 20, coarseDays: 40, mailDays: 90 }, null);
     // Two rows a step: the walk goes on after its last deleted row within each gap.
     const result = await runRetention({ now: NOW, stepRows: 2, pauseMs: 0 });
     const left = await getDb().select({ t0: countBatches.t0 }).from(countBatches).where(eq(countBatches.gatewayId, gw));
@@ -168,5 +170,52 @@ describe('a run past raw retention', () => {
       [`${gw}/a`, 'whole', 1000],
       [`${gw}/b`, 'whole', 1000],
     ]);
+  });
+});
+
+describe('retention of the local outbox', () => {
+  it('reads settings saved before the outbox had a limit with the default one', async () => {
+    await getDb()
+      .insert(settings)
+      .values({ name: 'retention', value: { rawDays: 10, fineDays: 20, coarseDays: 40 } })
+      .onConflictDoUpdate({ target: settings.name, set: { value: { rawDays: 10, fineDays: 20, coarseDays: 40 } } });
+    expect(await getRetention()).toEqual({ rawDays: 10, fineDays: 20, coarseDays: 40, mailDays: DEFAULT_RETENTION.mailDays });
+  });
+
+  it('refuses a limit under a day or not in whole days, and keeps the one saved', async () => {
+    await setRetention({ ...DEFAULT_RETENTION, mailDays: 30 }, null);
+    await expect(setRetention({ ...DEFAULT_RETENTION, mailDays: 0 }, null)).rejects.toThrow('at least 1 day');
+    await expect(setRetention({ ...DEFAULT_RETENTION, mailDays: 1.5 }, null)).rejects.toThrow('whole days');
+    expect((await getRetention()).mailDays).toBe(30);
+  });
+
+  it('deletes sent mail past its limit in steps, keeps newer mail and mail still waiting to be sent', async () => {
+    const to = (age: number, i: number) => [`mail-${age}d-${i}-${tag}@lab.example`];
+    const message = (age: number, i: number) => ({ from: 'fringewise@localhost', to: to(age, i), subject: `${age} days old`, text: '', raw: '', receivedAt: new Date(NOW - age * DAY) });
+    // Three messages of one instant at 100 days, as messages written in one transaction share its time.
+    const ages = [1, 29, 31, 100, 100, 100, 2000];
+    await getDb().insert(caughtMail).values(ages.map((age, i) => message(age, i)));
+
+    // An alarm mail the server did not take, its first try years ago: it waits in the engine's
+    // saved state (a row of its own, as engines side by side in tests keep theirs), not in the outbox.
+    const policy = new MailPolicy();
+    const firstTry = NOW - 2000 * DAY;
+    expect(policy.failed({ to: [`waiting-${tag}@lab.example`], subject: 'waiting', text: '' }, firstTry)).toBe(true);
+    const stateName = `alarm-mail-${tag}`;
+    await getDb().insert(settings).values({ name: stateName, value: policy.state() });
+
+    await setRetention({ ...DEFAULT_RETENTION, mailDays: 30 }, null);
+    // Two rows a step: the walk goes on from the last message deleted, through the three of one instant.
+    const result = await runRetention({ now: NOW, stepRows: 2, pauseMs: 0 });
+    expect(result.error).toBeUndefined();
+    expect(result.cutoffs.mail).toBe(NOW - 30 * DAY);
+    expect(result.deleted.mail).toBeGreaterThanOrEqual(5);
+
+    const left = await getDb().select({ subject: caughtMail.subject }).from(caughtMail).where(sql`${caughtMail.to}[1] like ${'%-' + tag + '@lab.example'}`);
+    expect(left.map((m) => m.subject).sort()).toEqual(['1 days old', '29 days old']);
+    const [saved] = await getDb().select().from(settings).where(eq(settings.name, stateName));
+    expect(mailPolicyStateSchema.parse(saved!.value).retries).toEqual([expect.objectContaining({ firstAt: firstTry, attempts: 1 })]);
+
+    await setRetention(DEFAULT_RETENTION, null);
   });
 });

@@ -1,4 +1,5 @@
-// Retention: how long raw bins and the two rollup levels are kept, and the job that enforces it.
+// Retention: how long raw bins, the two rollup levels and the local outbox's mail are kept, and
+// the job that enforces it.
 //
 // The job deletes in bounded steps — at most `stepRows` rows of one gateway per statement, each
 // statement its own short transaction, with a pause between — so ingest's inserts never wait
@@ -24,6 +25,8 @@ import { runtime } from './runtime.ts';
 
 const DAY_MS = 86_400_000;
 const days = formNumber((n) => n.int('whole days').min(1, 'at least 1 day').max(36_500, 'at most 100 years'));
+/** A quarter: long enough to look up an alarm mail of last season, short enough that a bench alarming for years does not fill the table. */
+const DEFAULT_MAIL_DAYS = 90;
 
 export const retentionSettingsSchema = z
   .object({
@@ -33,6 +36,8 @@ export const retentionSettingsSchema = z
     fineDays: days,
     /** 1 min rollups, days. */
     coarseDays: days,
+    /** Mail in the local outbox (caught_mail), days; settings saved before it existed get the default. */
+    mailDays: days.default(DEFAULT_MAIL_DAYS),
   })
   .refine((s) => s.rawDays <= s.fineDays && s.fineDays <= s.coarseDays, {
     message: 'keep coarser data at least as long as finer data (raw ≤ 1 s ≤ 1 min)',
@@ -41,7 +46,7 @@ export const retentionSettingsSchema = z
 export type RetentionSettings = z.infer<typeof retentionSettingsSchema>;
 
 /** A month of raw bins (the largest level by far), half a year of 1 s sums, ten years of 1 min sums. */
-export const DEFAULT_RETENTION: RetentionSettings = { rawDays: 30, fineDays: 180, coarseDays: 3650 };
+export const DEFAULT_RETENTION: RetentionSettings = { rawDays: 30, fineDays: 180, coarseDays: 3650, mailDays: DEFAULT_MAIL_DAYS };
 const SETTINGS_NAME = 'retention';
 
 export async function getRetention(): Promise<RetentionSettings> {
@@ -64,12 +69,14 @@ export async function setRetention(next: RetentionSettings, actorId: string | nu
 }
 
 export type RetentionLevel = 'raw' | 'fine' | 'coarse';
+/** What a pass trims: the levels of counts, and the local outbox's mail. */
+export type RetentionTarget = RetentionLevel | 'mail';
 
 export interface RetentionResult {
   startedAt: number;
   finishedAt: number;
-  cutoffs: Record<RetentionLevel, number>;
-  deleted: Record<RetentionLevel, number>;
+  cutoffs: Record<RetentionTarget, number>;
+  deleted: Record<RetentionTarget, number>;
   error?: string;
 }
 
@@ -186,6 +193,37 @@ function rollupSeries(key: string, level: 'fine' | 'coarse'): Series {
   return { table: 'rollups', where: 'x.gateway_id = $1 and x.key = $6 and x.step_ms = $7', start: 'block_t0', end: 'x.block_t0 + $8::int8', params: [key, stepMs, stepMs * 60] };
 }
 
+/**
+ * Deletes the local outbox's mail received before the cut-off, in steps along its received_at
+ * index, each step from the last message it deleted on (not from the index's start again, where
+ * the dead entries of the steps before lie until vacuum). The outbox holds only mail the catcher
+ * took: alarm mail waiting for its first try or a retry is in the alarm engine's saved state
+ * (settings `alarm-mail`) and mail given up is not kept at all, so no age brings this to it.
+ */
+async function expireMail(cutoff: number, limit: number, pauseMs: number): Promise<number> {
+  const pool = getDbHandle().pool;
+  let deleted = 0;
+  // As text, to the microsecond: a JS Date would cut it to the millisecond.
+  let from = '-infinity';
+  for (;;) {
+    const { rows } = await pool.query<{ n: number; last: string | null }>(
+      `with d as (
+         delete from caught_mail where id = any(array(
+           select id from caught_mail where received_at >= $1::timestamptz and received_at < $2 order by received_at limit $3))
+         returning received_at)
+       select count(*)::int as n, max(received_at)::text as last from d`,
+      [from, new Date(cutoff), limit],
+    );
+    const { n, last } = rows[0]!;
+    deleted += n;
+    if (n < limit || last === null) return deleted;
+    // Messages received in the same instant as the last one deleted are read again, the deleted
+    // ones no longer seen: a batch of invitations shares its transaction's timestamp.
+    from = last;
+    await sleep(pauseMs);
+  }
+}
+
 /** One pass of the retention job. Safe to run while ingest writes; never touches kept runs. */
 export async function runRetention(opts: RetentionRunOptions = {}): Promise<RetentionResult> {
   const startedAt = Date.now();
@@ -193,14 +231,20 @@ export async function runRetention(opts: RetentionRunOptions = {}): Promise<Rete
   const stepRows = opts.stepRows ?? 500;
   const pauseMs = opts.pauseMs ?? 20;
   const cfg = await getRetention();
-  const cutoffs: Record<RetentionLevel, number> = { raw: now - cfg.rawDays * DAY_MS, fine: now - cfg.fineDays * DAY_MS, coarse: now - cfg.coarseDays * DAY_MS };
-  const deleted: Record<RetentionLevel, number> = { raw: 0, fine: 0, coarse: 0 };
+  const cutoffs: Record<RetentionTarget, number> = {
+    raw: now - cfg.rawDays * DAY_MS,
+    fine: now - cfg.fineDays * DAY_MS,
+    coarse: now - cfg.coarseDays * DAY_MS,
+    mail: now - cfg.mailDays * DAY_MS,
+  };
+  const deleted: Record<RetentionTarget, number> = { raw: 0, fine: 0, coarse: 0, mail: 0 };
   for (const gw of await gatewaysIn('count_batches')) deleted.raw += await expire(gw, rawSeries, cutoffs.raw, stepRows, pauseMs);
   for (const gw of await gatewaysIn('rollups')) {
     for (const key of await rollupKeys(gw)) {
       for (const level of ['fine', 'coarse'] as const) deleted[level] += await expire(gw, rollupSeries(key, level), cutoffs[level], stepRows, pauseMs);
     }
   }
+  deleted.mail = await expireMail(cutoffs.mail, stepRows, pauseMs);
   return { startedAt, finishedAt: Date.now(), cutoffs, deleted };
 }
 
@@ -314,7 +358,7 @@ export class RetentionJob {
       .catch((err: unknown): RetentionResult => {
         const t = Date.now();
         console.error('[retention]', err);
-        return { startedAt: t, finishedAt: t, cutoffs: { raw: 0, fine: 0, coarse: 0 }, deleted: { raw: 0, fine: 0, coarse: 0 }, error: err instanceof Error ? err.message : String(err) };
+        return { startedAt: t, finishedAt: t, cutoffs: { raw: 0, fine: 0, coarse: 0, mail: 0 }, deleted: { raw: 0, fine: 0, coarse: 0, mail: 0 }, error: err instanceof Error ? err.message : String(err) };
       })
       .then((r) => {
         this.last = r;
