@@ -1,7 +1,7 @@
 // A bench's alarms, kept current from the live socket, with acknowledgement for operators.
 // Drop it on any bench screen: <AlarmList client:load benchId=… initial={…} canAck={…} />.
 import { useEffect, useState } from 'react';
-import { alarmEventViewSchema, alarmMessageSchema, applyAlarmMessage, type AlarmEventView } from '../lib/alarm-messages.ts';
+import { alarmEventViewSchema, alarmMessageSchema, applyAlarmMessage, ruleLabel, type AlarmEventView } from '../lib/alarm-messages.ts';
 import { liveSocket, statusSocket } from '../lib/client/live-socket.ts';
 import { LocalTime } from './LocalTime.tsx';
 
@@ -95,7 +95,7 @@ export default function AlarmList({ benchId, initial, canAck, openOnly = false, 
         <li key={e.id} className={`rounded-md border-l-4 bg-panel px-3 py-2 ${SEVERITY_CLASS[e.severity]}`}>
           <div className="flex flex-wrap items-baseline justify-between gap-2">
             <span className="font-semibold">
-              {e.severity.toUpperCase()} · {e.ruleName}
+              {e.severity.toUpperCase()} · {ruleLabel(e.ruleName, e.ruleId === null)}
             </span>
             <span className="text-xs text-muted">
               {e.clearedAt ? <>cleared <When iso={e.clearedAt} /></> : <strong className="text-ink">raised <When iso={e.raisedAt} /></strong>}

@@ -29,7 +29,8 @@ export const METRIC_INFO: Record<
 
 export const alarmEventViewSchema = z.object({
   id: z.number().int(),
-  ruleId: z.number().int(),
+  /** Null once the rule was deleted; the event keeps its name and metric as they were when it was raised. */
+  ruleId: z.number().int().nullable(),
   ruleName: z.string(),
   benchId: z.string(),
   metric: z.enum(ALARM_METRICS),
@@ -57,6 +58,11 @@ export type AlarmMessage = z.infer<typeof alarmMessageSchema>;
 
 export function alarmMessage(change: AlarmMessage['change'], event: AlarmEventView): AlarmMessage {
   return { type: 'alarm', bench: event.benchId, change, event };
+}
+
+/** The event's rule as lists call it: history outlives its rules, and an event of a deleted one says so. */
+export function ruleLabel(ruleName: string, deleted: boolean): string {
+  return deleted ? `${ruleName} (deleted rule)` : ruleName;
 }
 
 /** Open means raised and not yet cleared; it needs attention until acknowledged. */

@@ -30,7 +30,7 @@ export const confirmDeactivateUser = (email: string): Confirmation => ({
 
 export const confirmDeleteRule = (name: string): Confirmation => ({
   question: `Delete the rule “${name}”?`,
-  detail: 'Nothing watches this any more, and the alarms it raised, open or past, are deleted with it. This cannot be undone.',
+  detail: 'Nothing watches this any more. The alarms it raised are kept in the bench’s history under its name, marked as of a deleted rule; any still raised are cleared now. This cannot be undone.',
   confirm: 'Delete rule',
 });
 

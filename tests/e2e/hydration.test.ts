@@ -29,7 +29,7 @@ beforeAll(async () => {
   });
   await createBench({ id: BENCH, name: 'Hydration', wavelengthNm: 780 });
   const [rule] = await getDb().insert(alarmRules).values({ benchId: BENCH, name: 'Rate above 5 Mc/s', metric: 'rate_high', threshold: 5e6, clearThreshold: 4e6 }).returning();
-  await insertRaised({ ruleId: rule!.id, benchId: BENCH, subject: 'gw/a', severity: 'warning', message: 'rate 6.1 Mc/s', value: 6.1e6, at: Date.now() - 3_600_000 });
+  await insertRaised({ ruleId: rule!.id, ruleName: rule!.name, metric: rule!.metric, benchId: BENCH, subject: 'gw/a', severity: 'warning', message: 'rate 6.1 Mc/s', value: 6.1e6, at: Date.now() - 3_600_000 });
   await signIn(admin.page, app.url, 'admin@lab.example', 'demo-admin-pass');
 });
 

@@ -3,6 +3,7 @@
 import { eq } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { getDb } from '../../src/lib/server/db/index.ts';
+import { insertRaised } from '../../src/lib/server/alarms/event-store.ts';
 import { alarmRules } from '../../src/lib/server/db/schema.ts';
 import { createBench } from '../../src/lib/server/provisioning.ts';
 import type { RunningApp } from '../../src/server/app.ts';
@@ -67,19 +68,23 @@ describe('alarm and data pages', () => {
     expect(await bad.text()).toContain('clear threshold must be at or below');
   });
 
-  it('deleting a rule asks first, and deletes only once confirmed', async () => {
+  it('deleting a rule asks first, deletes only once confirmed, and keeps its alarms, marked', async () => {
     const [rule] = await getDb().select().from(alarmRules).where(eq(alarmRules.benchId, BENCH));
+    await insertRaised({ ruleId: rule!.id, ruleName: rule!.name, metric: rule!.metric, benchId: BENCH, subject: 'gw/a', severity: 'critical', message: 'gw/a: rate 2.5 Mc/s', value: 2.5e6, at: Date.now() - 60_000 });
     const fields = { intent: 'delete', benchId: BENCH, ruleId: String(rule!.id) };
     const asked = await page(admin, '/admin/alarms', fields);
     expect(asked.status).toBe(200);
     const html = await asked.text();
     expect(html).toContain('Delete the rule “Night overexposure”?');
-    expect(html).toContain('deleted with it');
+    expect(html).toContain('alarms it raised are kept');
     expect(await getDb().select().from(alarmRules).where(eq(alarmRules.id, rule!.id))).toHaveLength(1);
     // Anything but the confirm button's own value asks again.
     expect(await (await page(admin, '/admin/alarms', { ...fields, confirmed: 'true' })).text()).toContain('Delete the rule “Night overexposure”?');
     const done = await page(admin, '/admin/alarms', { ...fields, confirmed: 'yes' });
     expect(await done.text()).toContain('Rule deleted.');
     expect(await getDb().select().from(alarmRules).where(eq(alarmRules.id, rule!.id))).toEqual([]);
+    const bench = await (await page(op, `/benches/${BENCH}`)).text();
+    expect(bench).toContain('Night overexposure');
+    expect(bench).toContain('(deleted rule)');
   });
 });

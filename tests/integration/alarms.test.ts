@@ -8,7 +8,7 @@ import { AlarmEngine } from '../../src/lib/server/alarms/engine.ts';
 import { acknowledge, listEvents } from '../../src/lib/server/alarms/event-store.ts';
 import { createRule, deleteRule, ruleInputSchema, updateRule } from '../../src/lib/server/alarms/rules.ts';
 import { closeDb, getDb } from '../../src/lib/server/db/index.ts';
-import { alarmEvents, auditLog, caughtMail, channels, gateways } from '../../src/lib/server/db/schema.ts';
+import { alarmEvents, alarmRules, auditLog, caughtMail, channels, gateways } from '../../src/lib/server/db/schema.ts';
 import { serverEvents } from '../../src/lib/server/events.ts';
 import { startMailCatcher, type MailCatcher } from '../../src/lib/server/mail/catcher.ts';
 import { createBench, createGateway, revokeGateway } from '../../src/lib/server/provisioning.ts';
@@ -56,7 +56,7 @@ beforeAll(async () => {
   await createBench({ id: BENCH, name: `Alarm bench ${tag}`, wavelengthNm: 810 });
   await createGateway(GW, BENCH);
   // The channels the gateway's status would announce: rules name channels the bench has.
-  await getDb().insert(channels).values(['a', 'b', 'c', 'd', 'e', 'f', 'g', 'h', 'i'].map((key) => ({ gatewayId: GW, key, benchId: BENCH })));
+  await getDb().insert(channels).values(['a', 'b', 'c', 'd', 'e', 'f', 'g', 'h', 'i', 'j'].map((key) => ({ gatewayId: GW, key, benchId: BENCH })));
   operatorId = (await userWithToken('operator', 'alarm-op')).id;
   runtime().live = { publish: (_b, m) => void pushed.push(m as unknown as AlarmMessage), subscribe: () => () => undefined, clientCount: () => 0 };
   // Gather 150 ms, quiet 60 s: the test sees the first mail at once and no second one within its run.
@@ -227,6 +227,64 @@ describe('alarm evaluation on ingest', () => {
     expect((await eventsOf(rule.id))[0]!.clearedAt).not.toBeNull();
     const open = await getDb().select().from(alarmEvents).where(and(eq(alarmEvents.benchId, BENCH), inArray(alarmEvents.ruleId, [rule.id])));
     expect(open.every((e) => e.clearedAt !== null)).toBe(true);
+  });
+
+  it('keeps the alarms of a deleted rule, named as it was, and closes the open one at the deletion', async () => {
+    const rule = await createRule(BENCH, ruleInputSchema.parse({ name: 'Soon deleted', metric: 'rate_high', channel: `${GW}/j`, threshold: 100, clearThreshold: 50 }), null);
+    await engine.reload();
+    emit(batch({ j: 1000 }));
+    emit(batch({ j: 10 }));
+    emit(batch({ j: 1000 }));
+    const raised = await eventsOf(rule.id);
+    expect(raised.map((e) => e.clearedAt === null)).toEqual([false, true]);
+    await acknowledge(BENCH, raised[0]!.id, operatorId, 'Beam block was out');
+    const deletedFrom = Date.now();
+    // As the server registers it (startAlarmEngine): deleteRule hands it the alarms it closed.
+    runtime()['alarms'] = engine;
+    try {
+      await deleteRule(BENCH, rule.id, operatorId);
+      await engine.idle();
+    } finally {
+      delete runtime()['alarms'];
+    }
+
+    const kept = await getDb().select().from(alarmEvents).where(inArray(alarmEvents.id, raised.map((e) => e.id))).orderBy(alarmEvents.id);
+    expect(kept.map((e) => ({ ruleId: e.ruleId, ruleName: e.ruleName, metric: e.metric }))).toEqual([
+      { ruleId: null, ruleName: 'Soon deleted', metric: 'rate_high' },
+      { ruleId: null, ruleName: 'Soon deleted', metric: 'rate_high' },
+    ]);
+    expect(kept[0]!.clearedAt).toEqual(raised[0]!.clearedAt);
+    expect(kept[0]!.ackComment).toBe('Beam block was out');
+    expect(kept[1]!.clearedAt!.getTime()).toBeGreaterThanOrEqual(deletedFrom - 1);
+    expect(kept[1]!.clearedAt!.getTime()).toBeLessThanOrEqual(Date.now());
+    expect(pushed.some((m) => m.change === 'cleared' && m.event.id === raised[1]!.id && m.event.ruleId === null && m.event.ruleName === 'Soon deleted')).toBe(true);
+    const [audit] = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, 'alarm_rule'), eq(auditLog.entityId, String(rule.id)), eq(auditLog.action, 'delete')));
+    expect(audit).toMatchObject({ actorId: operatorId, before: { name: 'Soon deleted' } });
+
+    // Listed and acknowledged like any other, without their rule.
+    const listed = (await listEvents({ benchIds: [BENCH], limit: 1000 })).filter((e) => e.ruleName === 'Soon deleted');
+    expect(listed.map((e) => [e.id, e.ruleId, e.metric])).toEqual([
+      [raised[1]!.id, null, 'rate_high'],
+      [raised[0]!.id, null, 'rate_high'],
+    ]);
+    expect((await acknowledge(BENCH, raised[1]!.id, operatorId, 'Rule retired')).ackComment).toBe('Rule retired');
+    emit(batch({ j: 1000 }));
+    await engine.idle();
+    expect(await getDb().select().from(alarmEvents).where(eq(alarmEvents.ruleName, 'Soon deleted'))).toHaveLength(2);
+  });
+
+  it('closes an open alarm whose rule went without closing it', async () => {
+    // A rule deleted by hand in SQL leaves its open event without a rule: nothing could clear it.
+    const rule = await createRule(BENCH, ruleInputSchema.parse({ name: 'Deleted behind our back', metric: 'rate_high', channel: `${GW}/j`, threshold: 100, clearThreshold: 50 }), null);
+    await engine.reload();
+    emit(batch({ j: 1000 }));
+    const [open] = await eventsOf(rule.id);
+    expect(open!.clearedAt).toBeNull();
+    await getDb().delete(alarmRules).where(eq(alarmRules.id, rule.id));
+    await engine.reload();
+    const [closed] = await getDb().select().from(alarmEvents).where(eq(alarmEvents.id, open!.id));
+    expect(closed).toMatchObject({ ruleId: null, ruleName: 'Deleted behind our back' });
+    expect(closed!.clearedAt).not.toBeNull();
   });
 
   it('raises again after a clear that was decided while the rules were reloading', async () => {

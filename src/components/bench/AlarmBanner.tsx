@@ -1,6 +1,6 @@
 // A banner for alarms that are raised and nobody has acknowledged yet, above everything else on
 // the live view: the operator may be watching the fringes, not the list further down.
-import type { AlarmEventView } from '../../lib/alarm-messages.ts';
+import { ruleLabel, type AlarmEventView } from '../../lib/alarm-messages.ts';
 import { LocalTime } from '../LocalTime.tsx';
 
 export function needsAttention(e: AlarmEventView): boolean {
@@ -21,7 +21,7 @@ export function AlarmBanner({ events }: { events: AlarmEventView[] }) {
       <ul className="mt-1 space-y-0.5">
         {open.slice(0, 3).map((e) => (
           <li key={e.id} className="text-ink">
-            <LocalTime ms={Date.parse(e.raisedAt)} as="clock" className="figure text-muted" /> {e.ruleName}: <span className="figure">{e.message}</span>
+            <LocalTime ms={Date.parse(e.raisedAt)} as="clock" className="figure text-muted" /> {ruleLabel(e.ruleName, e.ruleId === null)}: <span className="figure">{e.message}</span>
           </li>
         ))}
         {open.length > 3 && <li className="text-muted">and {open.length - 3} more</li>}

@@ -16,8 +16,8 @@ import { sendMail } from '../mail/send.ts';
 import { runtime } from '../runtime.ts';
 import { shownVisibility } from '../../sweep-visibility.ts';
 import { AlarmStates, type Transition } from './evaluator.ts';
-import { insertRaised, markCleared, openEvents } from './event-store.ts';
-import { MailPolicy, mailPolicyStateSchema, type MailPolicyOptions, type OutgoingAlarmMail } from './mail-policy.ts';
+import { getEvent, insertRaised, markCleared, markClearedById, openEvents } from './event-store.ts';
+import { MailPolicy, mailPolicyStateSchema, type MailItem, type MailPolicyOptions, type OutgoingAlarmMail } from './mail-policy.ts';
 import { rejectSamples, RejectCounter, samplesFromBatch, silentSamples, watches, type SubjectSample } from './metrics.ts';
 
 export interface AlarmEngineOptions {
@@ -114,6 +114,25 @@ export class AlarmEngine {
     return this.enqueue(() => this.load());
   }
 
+  /**
+   * After `deleteRule` committed: the rule is watched no more, and the events its deletion closed
+   * go out as cleared, live and by mail to the rule's recipients, marked as of a deleted rule.
+   */
+  ruleDeleted(rule: AlarmRule, closedIds: number[], at: number): Promise<void> {
+    const rules = this.byBench.get(rule.benchId);
+    if (rules) this.byBench.set(rule.benchId, rules.filter((r) => r.id !== rule.id));
+    this.states.forgetRule(rule.id);
+    return this.enqueue(async () => {
+      for (const id of closedIds) {
+        const view = await getEvent(id);
+        if (!view) continue;
+        publishAlarm(alarmMessage('cleared', view));
+        this.policy.offer({ ...this.mailAbout(rule, view.subject), change: 'cleared', value: null, at, ruleDeleted: true }, this.now());
+      }
+      await this.saveMailState();
+    });
+  }
+
   /** Runs the timer work now (tests drive it with fake time). */
   tick(): void {
     const now = this.now();
@@ -165,32 +184,31 @@ export class AlarmEngine {
   private async apply(rule: AlarmRule, subject: string, t: Transition): Promise<void> {
     let view: AlarmEventView | null;
     if (t.kind === 'raise') {
-      view = await insertRaised({ ruleId: rule.id, benchId: rule.benchId, subject, severity: rule.severity, message: describe(rule, subject, t.value), value: t.value, at: t.at });
+      view = await insertRaised({ ruleId: rule.id, ruleName: rule.name, metric: rule.metric, benchId: rule.benchId, subject, severity: rule.severity, message: describe(rule, subject, t.value), value: t.value, at: t.at });
     } else {
       view = await markCleared(rule.id, subject, t.at);
     }
     if (!view) return;
     const change = t.kind === 'raise' ? 'raised' : 'cleared';
     publishAlarm(alarmMessage(change, view));
-    this.policy.offer(
-      {
-        ruleId: rule.id,
-        ruleName: rule.name,
-        benchId: rule.benchId,
-        benchName: this.contexts.get(rule.benchId)?.name ?? rule.benchId,
-        metric: rule.metric,
-        subject,
-        severity: rule.severity,
-        change,
-        value: t.value,
-        threshold: rule.threshold,
-        clearThreshold: rule.clearThreshold,
-        at: t.at,
-        recipients: rule.recipients,
-      },
-      this.now(),
-    );
+    this.policy.offer({ ...this.mailAbout(rule, subject), change, value: t.value, at: t.at }, this.now());
     await this.saveMailState();
+  }
+
+  private mailAbout(rule: AlarmRule, subject: string): Omit<MailItem, 'change' | 'value' | 'at'> {
+    return {
+      ruleId: rule.id,
+      ruleName: rule.name,
+      benchId: rule.benchId,
+      benchName: this.contexts.get(rule.benchId)?.name ?? rule.benchId,
+      metric: rule.metric,
+      subject,
+      severity: rule.severity,
+      threshold: rule.threshold,
+      clearThreshold: rule.clearThreshold,
+      recipients: rule.recipients,
+      ruleDeleted: false,
+    };
   }
 
   private async sendDue(): Promise<void> {
@@ -258,7 +276,7 @@ export class AlarmEngine {
       // silence rule at a restart longer than its limit, cleared once the gateway reconnected). A
       // gateway already alarmed as silent before the restart stays so.
       const silentRules = new Set(rules.filter((r) => r.metric === 'gateway_silent').map((r) => r.id));
-      const alarmedSilent = new Set(open.filter((e) => silentRules.has(e.ruleId)).map((e) => e.subject));
+      const alarmedSilent = new Set(open.filter((e) => e.ruleId !== null && silentRules.has(e.ruleId)).map((e) => e.subject));
       for (const g of gws) {
         if (this.lastSeen.has(g.id)) continue;
         const seen = (g.lastSeenAt ?? g.createdAt).getTime();
@@ -271,6 +289,13 @@ export class AlarmEngine {
     const enabled = new Map(rules.map((r) => [r.id, r]));
     const restoring = !this.restored;
     for (const event of open) {
+      if (event.ruleId === null) {
+        // Its rule was deleted without closing it (deleteRule closes them; a hand-written DELETE
+        // does not): nothing would ever clear it.
+        const view = await markClearedById(event.id, this.now());
+        if (view) publishAlarm(alarmMessage('cleared', view));
+        continue;
+      }
       const rule = enabled.get(event.ruleId);
       const ctx = rule && contexts.get(rule.benchId);
       if (rule && ctx && watches(rule, event.subject, ctx.gateways, ctx.aux)) {

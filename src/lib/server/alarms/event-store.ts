@@ -1,17 +1,18 @@
 // alarm_events rows: written by the engine (raise, clear) and by operators (acknowledge), read by
 // the API, the pages and the overview. Rows go out as AlarmEventView, the shape the client knows.
+// An event carries its rule's name and metric, so it reads the same after the rule is deleted.
 import { and, desc, eq, inArray, isNull, type SQL } from 'drizzle-orm';
 import type { AlarmEventView } from '../../alarm-messages.ts';
 import { getDb } from '../db/index.ts';
-import { alarmEvents, alarmRules, users } from '../db/schema.ts';
+import { alarmEvents, users } from '../db/schema.ts';
 import { HttpError } from '../http/responses.ts';
 
 const viewColumns = {
   id: alarmEvents.id,
   ruleId: alarmEvents.ruleId,
-  ruleName: alarmRules.name,
+  ruleName: alarmEvents.ruleName,
   benchId: alarmEvents.benchId,
-  metric: alarmRules.metric,
+  metric: alarmEvents.metric,
   subject: alarmEvents.subject,
   severity: alarmEvents.severity,
   message: alarmEvents.message,
@@ -27,7 +28,6 @@ async function select(where: SQL | undefined, limit: number): Promise<AlarmEvent
   const rows = await getDb()
     .select(viewColumns)
     .from(alarmEvents)
-    .innerJoin(alarmRules, eq(alarmRules.id, alarmEvents.ruleId))
     .leftJoin(users, eq(users.id, alarmEvents.ackedBy))
     .where(where)
     .orderBy(desc(alarmEvents.raisedAt), desc(alarmEvents.id))
@@ -59,10 +59,20 @@ export async function getEvent(id: number): Promise<AlarmEventView | null> {
   return row ?? null;
 }
 
-export async function insertRaised(e: { ruleId: number; benchId: string; subject: string; severity: AlarmEventView['severity']; message: string; value: number; at: number }): Promise<AlarmEventView> {
+export async function insertRaised(e: {
+  ruleId: number;
+  ruleName: string;
+  metric: AlarmEventView['metric'];
+  benchId: string;
+  subject: string;
+  severity: AlarmEventView['severity'];
+  message: string;
+  value: number;
+  at: number;
+}): Promise<AlarmEventView> {
   const [row] = await getDb()
     .insert(alarmEvents)
-    .values({ ruleId: e.ruleId, benchId: e.benchId, subject: e.subject, severity: e.severity, message: e.message, value: e.value, raisedAt: new Date(e.at) })
+    .values({ ruleId: e.ruleId, ruleName: e.ruleName, metric: e.metric, benchId: e.benchId, subject: e.subject, severity: e.severity, message: e.message, value: e.value, raisedAt: new Date(e.at) })
     .returning({ id: alarmEvents.id });
   return (await getEvent(row!.id))!;
 }
@@ -77,9 +87,20 @@ export async function markCleared(ruleId: number, subject: string, at: number): 
   return rows[0] ? await getEvent(rows[0].id) : null;
 }
 
-export async function openEvents(): Promise<{ ruleId: number; subject: string; raisedAt: Date }[]> {
+/** Closes one event by its id; null when it is already closed. For events whose rule is gone, which (rule, subject) no longer finds. */
+export async function markClearedById(id: number, at: number): Promise<AlarmEventView | null> {
+  const rows = await getDb()
+    .update(alarmEvents)
+    .set({ clearedAt: new Date(at) })
+    .where(and(eq(alarmEvents.id, id), isNull(alarmEvents.clearedAt)))
+    .returning({ id: alarmEvents.id });
+  return rows[0] ? await getEvent(rows[0].id) : null;
+}
+
+/** Events still raised; `ruleId` null where the rule was deleted without closing them (by hand in SQL). */
+export async function openEvents(): Promise<{ id: number; ruleId: number | null; subject: string; raisedAt: Date }[]> {
   return await getDb()
-    .select({ ruleId: alarmEvents.ruleId, subject: alarmEvents.subject, raisedAt: alarmEvents.raisedAt })
+    .select({ id: alarmEvents.id, ruleId: alarmEvents.ruleId, subject: alarmEvents.subject, raisedAt: alarmEvents.raisedAt })
     .from(alarmEvents)
     .where(isNull(alarmEvents.clearedAt));
 }

@@ -15,6 +15,7 @@ const base: MailItem = {
   clearThreshold: 1.5e6,
   at: 0,
   recipients: ['night@lab.example'],
+  ruleDeleted: false,
 };
 
 describe('alarm mail policy', () => {
@@ -129,5 +130,21 @@ describe('alarm mail policy', () => {
   it('reads a state saved before retries existed', () => {
     const old = { lastSent: [[1, 5]], ready: [], readyFrom: 0, folded: [] };
     expect(mailPolicyStateSchema.parse(old).retries).toEqual([]);
+  });
+  it('says when an alarm ended because its rule was deleted, and marks the rule so in a digest', () => {
+    const p = new MailPolicy({ quietMs: 600_000, gatherMs: 2_000 });
+    const deleted: MailItem = { ...base, change: 'cleared', value: null, at: 60_000, ruleDeleted: true };
+    p.offer(deleted, 60_000);
+    const [single] = p.due(62_000);
+    expect(single!.subject).toContain('Detector A overexposed (deleted rule)');
+    expect(single!.text).toContain('The rule was deleted');
+    // A raise waiting for its rule's digest when the rule is deleted is sent marked too.
+    p.offer({ ...base, at: 100_000 }, 100_000);
+    p.offer({ ...deleted, at: 200_000 }, 200_000);
+    const [digest] = p.due(662_000);
+    expect(digest!.text.split('\n').filter((l) => l.includes('Detector A overexposed (deleted rule)'))).toHaveLength(2);
+    // States saved before the flag existed read as rules still there.
+    const old = { lastSent: [], ready: [{ ...base }], readyFrom: 0, folded: [] };
+    expect(mailPolicyStateSchema.parse(old).ready[0]!.ruleDeleted).toBe(false);
   });
 });

@@ -9,7 +9,7 @@
 // Its state (what waits, when each rule last mailed) round-trips through `state()`/`restore()`, so
 // the engine can keep it in the database and a restart loses no digest.
 import { z } from 'zod';
-import { ALARM_METRICS, METRIC_INFO, SEVERITIES, type AlarmMetric, type Severity } from '../../alarm-messages.ts';
+import { ALARM_METRICS, METRIC_INFO, ruleLabel, SEVERITIES, type AlarmMetric, type Severity } from '../../alarm-messages.ts';
 import { formatRate } from '../../client/format.ts';
 
 const SEVERITY_ORDER: readonly Severity[] = SEVERITIES;
@@ -29,6 +29,8 @@ export interface MailItem {
   /** ms since the epoch. */
   at: number;
   recipients: readonly string[];
+  /** The rule was deleted: this change is its open alarm cleared with it, or came just before. */
+  ruleDeleted: boolean;
 }
 
 const mailItemSchema = z.object({
@@ -45,6 +47,8 @@ const mailItemSchema = z.object({
   clearThreshold: z.number(),
   at: z.number(),
   recipients: z.array(z.string()).readonly(),
+  // Absent from states saved before rules could be deleted with their alarms kept.
+  ruleDeleted: z.boolean().default(false),
 });
 
 const outgoingSchema = z.object({ to: z.array(z.string()), subject: z.string(), text: z.string() });
@@ -111,6 +115,13 @@ export class MailPolicy {
 
   offer(item: MailItem, now: number): void {
     if (item.recipients.length === 0) return;
+    // What still waits for this rule's mail goes out marked too, not as of a rule that is there.
+    if (item.ruleDeleted) {
+      const mark = (i: MailItem) => (i.ruleId === item.ruleId ? { ...i, ruleDeleted: true } : i);
+      this.ready = this.ready.map(mark);
+      const entry = this.folded.get(item.ruleId);
+      if (entry) entry.items = entry.items.map(mark);
+    }
     const last = this.lastSent.get(item.ruleId);
     const quiet = last !== undefined && now - last < this.quietMs;
     if (quiet || this.ready.some((r) => r.ruleId === item.ruleId)) {
@@ -216,8 +227,9 @@ function when(ms: number): string {
   return new Date(ms).toISOString().replace('T', ' ').slice(0, 19) + ' UTC';
 }
 
+/** The rule, marked if deleted, and what the change is about. */
 function about(item: MailItem): string {
-  return item.subject ? ` (${item.subject})` : '';
+  return `${ruleLabel(item.ruleName, item.ruleDeleted)}${item.subject ? ` (${item.subject})` : ''}`;
 }
 
 function describe(item: MailItem): string[] {
@@ -226,12 +238,13 @@ function describe(item: MailItem): string[] {
   const back = info.direction === 'high' ? 'below' : 'above';
   return [
     `Bench:     ${item.benchName} (${item.benchId})`,
-    `Rule:      ${item.ruleName}${about(item)}`,
+    `Rule:      ${about(item)}`,
     `Metric:    ${info.label}`,
     `Severity:  ${item.severity}`,
     `Change:    ${item.change} at ${when(item.at)}`,
     `Value:     ${fmtValue(item.metric, item.value)}`,
     `Raises ${word} ${fmtValue(item.metric, item.threshold)}, clears ${back} ${fmtValue(item.metric, item.clearThreshold)}.`,
+    ...(item.ruleDeleted ? ['The rule was deleted: nothing watches this any more, and an alarm it had raised was cleared with it. Its alarms stay on the bench page.'] : []),
   ];
 }
 
@@ -243,7 +256,7 @@ function benchLink(benchId: string, linkBase: string | null | undefined): string
 export function formatSingle(item: MailItem, linkBase?: string | null): { subject: string; text: string } {
   const link = benchLink(item.benchId, linkBase);
   return {
-    subject: `[Fringewise] ${item.severity.toUpperCase()} ${item.change}: ${item.benchName} - ${item.ruleName}${about(item)}`,
+    subject: `[Fringewise] ${item.severity.toUpperCase()} ${item.change}: ${item.benchName} - ${about(item)}`,
     text: [...describe(item), '', link ? `Acknowledge it on the bench page: ${link}` : 'Acknowledge it on the bench page in Fringewise.'].join('\n'),
   };
 }
@@ -254,10 +267,10 @@ export function formatDigest(items: MailItem[], quietMs = DEFAULT_QUIET_MS, more
   const raised = sorted.filter((i) => i.change === 'raised').length;
   const benches = [...new Set(sorted.map((i) => i.benchName))].join(', ');
   const worst = SEVERITY_ORDER.filter((s) => sorted.some((i) => i.severity === s)).pop() ?? 'info';
-  const rules = [...new Set(sorted.map((i) => i.ruleName))];
+  const rules = [...new Set(sorted.map((i) => ruleLabel(i.ruleName, i.ruleDeleted)))];
   const named = rules.slice(0, 3).join(', ') + (rules.length > 3 ? ` and ${rules.length - 3} more` : '');
   const lines = sorted.map(
-    (i) => `${when(i.at)}  ${i.change.padEnd(7)}  ${i.severity.padEnd(8)}  ${i.benchName} — ${i.ruleName}${about(i)}: ${fmtValue(i.metric, i.value)}`,
+    (i) => `${when(i.at)}  ${i.change.padEnd(7)}  ${i.severity.padEnd(8)}  ${i.benchName} — ${about(i)}: ${fmtValue(i.metric, i.value)}`,
   );
   return {
     subject: `[Fringewise] ${worst.toUpperCase()} digest: ${sorted.length + more} alarm changes (${raised}${more ? ' listed' : ''} raised) - ${named} on ${benches}`,

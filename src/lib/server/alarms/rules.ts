@@ -1,6 +1,6 @@
 // Alarm rules: validation (zod) and admin CRUD. Every change writes an audit row in the same
 // transaction (who, when, before, after) and tells the running engine to reload.
-import { and, asc, desc, eq, sql } from 'drizzle-orm';
+import { and, asc, desc, eq, isNull, sql } from 'drizzle-orm';
 import { z } from 'zod';
 import { ALARM_METRICS, METRIC_INFO, SEVERITIES, type AlarmMetric } from '../../alarm-messages.ts';
 import { channelKeySchema, gatewayIdSchema } from '../../contract/wire.ts';
@@ -9,7 +9,7 @@ import { isImportGateway } from '../../import-shapes.ts';
 import { recordAudit } from '../audit.ts';
 import { getBench } from '../benches.ts';
 import { getDb } from '../db/index.ts';
-import { alarmRules, auditLog, channels, gateways, users, type AlarmRule } from '../db/schema.ts';
+import { alarmEvents, alarmRules, auditLog, channels, gateways, users, type AlarmRule } from '../db/schema.ts';
 import { isUniqueViolation } from '../db/unique-violation.ts';
 import { HttpError } from '../http/responses.ts';
 import { runtime } from '../runtime.ts';
@@ -134,10 +134,15 @@ function auditShape(r: AlarmRule) {
   return rest;
 }
 
-/** The running engine, if this process has one; rules changed elsewhere are picked up on its next refresh. */
+/** The running engine (engine.ts), if this process has one; rules changed elsewhere are picked up on its next refresh. */
+function engine(): { reload(): Promise<void>; ruleDeleted(rule: AlarmRule, closedIds: number[], at: number): Promise<void> } | undefined {
+  return runtime()['alarms'] as ReturnType<typeof engine>;
+}
+
 function reloadEngine(): void {
-  const engine = runtime()['alarms'] as { reload(): Promise<void> } | undefined;
-  engine?.reload().catch((err: unknown) => console.warn('[alarms] reload failed:', err));
+  engine()
+    ?.reload()
+    .catch((err: unknown) => console.warn('[alarms] reload failed:', err));
 }
 
 export async function getRule(benchId: string, id: number): Promise<AlarmRule> {
@@ -235,15 +240,32 @@ export async function updateRule(benchId: string, id: number, input: RuleInput, 
   return row;
 }
 
+/**
+ * Deletes a rule and keeps its alarms (they carry its name; their rule id empties). Those still
+ * raised are cleared now: with no rule, nothing else would ever clear them.
+ */
 export async function deleteRule(benchId: string, id: number, actorId: string | null): Promise<void> {
-  await getDb().transaction(async (tx) => {
+  const at = new Date();
+  const { before, closed } = await getDb().transaction(async (tx) => {
+    // Locked before the close: a raise of this rule being written commits first and is closed
+    // below, or waits and then fails on the missing rule, so none is left open without a rule.
     const [before] = await tx
-      .delete(alarmRules)
+      .select()
+      .from(alarmRules)
       .where(and(eq(alarmRules.id, id), eq(alarmRules.benchId, benchId)))
-      .returning();
+      .for('update');
     if (!before) throw new HttpError(404, 'no such alarm rule on this bench');
+    const closed = await tx
+      .update(alarmEvents)
+      .set({ clearedAt: at })
+      .where(and(eq(alarmEvents.ruleId, id), isNull(alarmEvents.clearedAt)))
+      .returning({ id: alarmEvents.id });
+    await tx.delete(alarmRules).where(eq(alarmRules.id, id));
     await recordAudit({ actorId, entity: 'alarm_rule', entityId: String(id), action: 'delete', before: auditShape(before) }, tx);
+    return { before, closed: closed.map((e) => e.id) };
   });
+  // Its queue logs its own failures.
+  void engine()?.ruleDeleted(before, closed, at.getTime());
   reloadEngine();
 }
 

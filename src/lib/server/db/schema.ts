@@ -307,9 +307,11 @@ export const alarmEvents = pgTable(
   'alarm_events',
   {
     id: bigint('id', { mode: 'number' }).primaryKey().generatedAlwaysAsIdentity(),
-    ruleId: bigint('rule_id', { mode: 'number' })
-      .notNull()
-      .references(() => alarmRules.id, { onDelete: 'cascade' }),
+    // Null once the rule is deleted: the lab's alarm history outlives its rules, so each event keeps
+    // the rule's name and metric as they were when it was raised, and no listing needs the rule.
+    ruleId: bigint('rule_id', { mode: 'number' }).references(() => alarmRules.id, { onDelete: 'set null' }),
+    ruleName: text('rule_name').notNull(),
+    metric: alarmMetricEnum('metric').notNull(),
     benchId: text('bench_id')
       .notNull()
       .references(() => benches.id, { onDelete: 'cascade' }),
