@@ -153,7 +153,14 @@ export function FringeChart(props: Props) {
         <div className="min-w-0 flex-[1_1_16rem]">
           <h2 id="fringe-h" className="font-semibold">Fringes against the drive</h2>
           <p className="text-xs text-muted">
-            <span className="figure">{clicks.toLocaleString()}</span> clicks in the kept {dir ? `${dir}-going ` : ''}passes
+            {/* The clicks are those seen while this page is open; the fits may be of passes before it opened. */}
+            {clicks > 0 || !lastFit ? (
+              <>
+                <span className="figure">{clicks.toLocaleString()}</span> clicks in the kept {dir ? `${dir}-going ` : ''}passes
+              </>
+            ) : (
+              'fits of passes before this page opened; the clicks show from the next sweep'
+            )}
           </p>
           {lastFit && lastV && (
             <p className="text-xs text-muted">
