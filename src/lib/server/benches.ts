@@ -1,6 +1,6 @@
 // Benches and their channels: reads for pages and the API, and the channel-role defaults of the
 // contract (first two keys of the first gateway serve as out_a/out_b until an admin sets roles).
-import { asc, eq } from 'drizzle-orm';
+import { asc, eq, inArray } from 'drizzle-orm';
 import { benchIdSchema } from '../contract/wire.ts';
 import { importGatewayOf, isImportGateway } from '../import-shapes.ts';
 import { getDb, getDbHandle } from './db/index.ts';
@@ -48,12 +48,26 @@ export function effectiveRoles(rows: Pick<Channel, 'gatewayId' | 'key' | 'label'
 }
 
 export async function benchChannels(benchId: string): Promise<BenchChannel[]> {
+  return (await channelsOfBenches([benchId])).get(benchId) ?? [];
+}
+
+/** `benchChannels` of several benches in two queries, whatever their number (the lab overview's sparklines). */
+export async function channelsOfBenches(benchIds: readonly string[]): Promise<Map<string, BenchChannel[]>> {
   const db = getDb();
-  const gws = await db.select({ id: gateways.id }).from(gateways).where(eq(gateways.benchId, benchId)).orderBy(asc(gateways.createdAt), asc(gateways.id));
-  const rows = await db.select().from(channels).where(eq(channels.benchId, benchId));
-  // Imported runs' pseudo-gateways last: the bench's first live gateway keeps the default roles.
-  const order = [...gws.filter((g) => !isImportGateway(g.id)), ...gws.filter((g) => isImportGateway(g.id))];
-  return effectiveRoles(rows, order.map((g) => g.id));
+  const ids = [...benchIds];
+  if (!ids.length) return new Map();
+  const [gws, rows] = await Promise.all([
+    db.select({ id: gateways.id, benchId: gateways.benchId }).from(gateways).where(inArray(gateways.benchId, ids)).orderBy(asc(gateways.createdAt), asc(gateways.id)),
+    db.select().from(channels).where(inArray(channels.benchId, ids)),
+  ]);
+  return new Map(
+    ids.map((benchId) => {
+      const mine = gws.filter((g) => g.benchId === benchId);
+      // Imported runs' pseudo-gateways last: the bench's first live gateway keeps the default roles.
+      const order = [...mine.filter((g) => !isImportGateway(g.id)), ...mine.filter((g) => isImportGateway(g.id))];
+      return [benchId, effectiveRoles(rows.filter((r) => r.benchId === benchId), order.map((g) => g.id))];
+    }),
+  );
 }
 
 /** The bench's channels in role order with their corrections (dark rate, dead time, efficiency). */

@@ -10,7 +10,7 @@
 // bucket) from one where the light halved, and rates drawn as sum/step dipped towards zero there.
 import { getDbHandle } from './db/index.ts';
 import { unpackRow } from './db/packed-counts.ts';
-import { benchChannels, type BenchChannel } from './benches.ts';
+import { benchChannels, channelsOfBenches, type BenchChannel } from './benches.ts';
 import { HttpError } from './http/responses.ts';
 import { CC_KEY } from './ingest/rollup-math.ts';
 
@@ -126,7 +126,17 @@ function widthFromSlots(blocks: Map<number, number[]>, levelMs: number): number 
   return Math.max(levelMs, (last - first) / (filled - 1));
 }
 
-export async function queryCounts(benchId: string, from: number, to: number, step: number): Promise<CountsResult> {
+/** The buckets a query asks for, checked against the bounds every counts answer keeps. */
+interface Grid {
+  t0: number;
+  step: number;
+  points: number;
+  end: number;
+  resolution: Resolution;
+  levelMs: number | null;
+}
+
+function gridFor(from: number, to: number, step: number): Grid {
   if (!(to > from)) throw new HttpError(422, 'to must be after from');
   const t0 = Math.floor(from / step) * step;
   const points = Math.ceil((to - t0) / step);
@@ -135,53 +145,117 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
   if (resolution === 'raw' && to - t0 > MAX_RAW_SPAN_MS) {
     throw new HttpError(422, `spans over ${MAX_RAW_SPAN_MS / 3_600_000} h need a step that is a multiple of 1000 ms`);
   }
-  const channelInfo = await benchChannels(benchId);
-  const gatewayIds = [...new Set(channelInfo.map((c) => c.gateway))];
-  const b = new Buckets(t0, step, points);
+  return { t0, step, points, end: t0 + points * step, resolution, levelMs };
+}
+
+/** One bench's part of an answer, before it is put together. */
+interface BenchBuckets {
+  b: Buckets;
+  channelInfo: BenchChannel[];
+  covered: Map<string, number[]>;
+  binMs: Map<string, number>;
+}
+
+function bucketsOf(grid: Grid, channelInfo: BenchChannel[]): BenchBuckets {
+  const b = new Buckets(grid.t0, grid.step, grid.points);
   for (const c of channelInfo) b.column(`${c.gateway}/${c.key}`);
-  const covered = new Map(gatewayIds.map((g) => [g, new Array<number>(points).fill(0)]));
-  const binMs = new Map<string, number>();
-  const end = t0 + points * step;
+  const covered = new Map([...new Set(channelInfo.map((c) => c.gateway))].map((g) => [g, new Array<number>(grid.points).fill(0)]));
+  return { b, channelInfo, covered, binMs: new Map() };
+}
+
+/**
+ * Fills the benches' buckets from the rollups at `levelMs`, read in one query for all their
+ * gateways (a gateway listed by several benches, its channels left behind by a move, fills each).
+ */
+async function fillFromRollups(grid: Grid, levelMs: number, parts: BenchBuckets[]): Promise<void> {
+  const benchesOf = new Map<string, BenchBuckets[]>();
+  for (const p of parts) for (const g of p.covered.keys()) benchesOf.set(g, [...(benchesOf.get(g) ?? []), p]);
+  if (!benchesOf.size) return;
+  const blockMs = levelMs * 60;
+  const { rows } = await getDbHandle().pool.query<{ gateway_id: string; key: string; block_t0: number; sums: number[]; bins: number[] }>(
+    `select gateway_id, key, block_t0, sums, bins from rollups
+      where gateway_id = any($1::text[]) and step_ms = $2 and block_t0 >= $3 and block_t0 < $4`,
+    [[...benchesOf.keys()], levelMs, Math.floor(grid.t0 / blockMs) * blockMs, grid.end],
+  );
+  const index = new Buckets(grid.t0, grid.step, grid.points);
+  // Rollups count bins per key; a gateway's bins per slot are the most of any of its keys, since
+  // every key of a stored row has all its bins (a key missing from some rows, such as a channel
+  // added mid-recording, is diluted by the others' time in those slots).
+  const slotBins = new Map<string, Map<number, number[]>>();
+  for (const r of rows) {
+    const name = r.key === CC_KEY ? null : `${r.gateway_id}/${r.key}`;
+    const owners = benchesOf.get(r.gateway_id) ?? [];
+    for (let i = 0; i < r.sums.length; i++) {
+      if (!r.bins[i]) continue;
+      const at = index.index(r.block_t0 + i * levelMs);
+      if (at < 0) continue;
+      for (const p of owners) p.b.add(name ?? '#cc', at, r.sums[i]!);
+    }
+    let blocks = slotBins.get(r.gateway_id);
+    if (!blocks) slotBins.set(r.gateway_id, (blocks = new Map()));
+    const most = blocks.get(r.block_t0);
+    if (most) r.bins.forEach((n, i) => (most[i] = Math.max(most[i] ?? 0, n)));
+    else blocks.set(r.block_t0, [...r.bins]);
+  }
+  const widths = await binWidths([...slotBins.keys()], grid.end);
+  for (const [gateway, blocks] of slotBins) {
+    const width = widths.get(gateway) ?? widthFromSlots(blocks, levelMs);
+    const cov = new Array<number>(grid.points).fill(0);
+    for (const [blockT0, bins] of blocks) {
+      bins.forEach((n, i) => {
+        const at = index.index(blockT0 + i * levelMs);
+        if (n && at >= 0) cov[at]! += n * width;
+      });
+    }
+    for (const p of benchesOf.get(gateway) ?? []) {
+      p.binMs.set(gateway, width);
+      p.covered.set(gateway, [...cov]);
+    }
+  }
+}
+
+function resultOf(grid: Grid, p: BenchBuckets, x?: (number | null)[]): CountsResult {
+  const channels: Record<string, (number | null)[]> = {};
+  for (const [name, col] of p.b.values) if (name !== '#cc') channels[name] = col;
+  const result: CountsResult = {
+    t0: grid.t0,
+    step: grid.step,
+    resolution: grid.resolution,
+    channels,
+    coveredMs: Object.fromEntries(p.covered),
+    binMs: Object.fromEntries(p.binMs),
+    channelInfo: p.channelInfo,
+  };
+  if (x) result.x = x;
+  const cc = p.b.values.get('#cc');
+  if (cc) result.cc = cc;
+  return result;
+}
+
+/**
+ * The counts of several benches at once from the rollups, one query for all their gateways
+ * whatever their number: for the lab overview's sparklines. `step` must be a multiple of 1000 ms.
+ */
+export async function queryRollupCountsOf(benchIds: readonly string[], from: number, to: number, step: number): Promise<Map<string, CountsResult>> {
+  const grid = gridFor(from, to, step);
+  if (grid.levelMs === null) throw new HttpError(422, 'step must be a multiple of 1000 ms');
+  const channelInfo = await channelsOfBenches(benchIds);
+  const parts = new Map(benchIds.map((id) => [id, bucketsOf(grid, channelInfo.get(id) ?? [])]));
+  await fillFromRollups(grid, grid.levelMs, [...parts.values()]);
+  return new Map([...parts].map(([id, p]) => [id, resultOf(grid, p)]));
+}
+
+export async function queryCounts(benchId: string, from: number, to: number, step: number): Promise<CountsResult> {
+  const grid = gridFor(from, to, step);
+  const { t0, points, end } = grid;
+  const part = bucketsOf(grid, await benchChannels(benchId));
+  const { b, covered, binMs } = part;
+  const gatewayIds = [...covered.keys()];
   let xSum: number[] | null = null;
   let xN: number[] | null = null;
 
-  if (gatewayIds.length && levelMs !== null) {
-    const blockMs = levelMs * 60;
-    const { rows } = await getDbHandle().pool.query<{ gateway_id: string; key: string; block_t0: number; sums: number[]; bins: number[] }>(
-      `select gateway_id, key, block_t0, sums, bins from rollups
-        where gateway_id = any($1::text[]) and step_ms = $2 and block_t0 >= $3 and block_t0 < $4`,
-      [gatewayIds, levelMs, Math.floor(t0 / blockMs) * blockMs, end],
-    );
-    // Rollups count bins per key; a gateway's bins per slot are the most of any of its keys, since
-    // every key of a stored row has all its bins (a key missing from some rows, such as a channel
-    // added mid-recording, is diluted by the others' time in those slots).
-    const slotBins = new Map<string, Map<number, number[]>>();
-    for (const r of rows) {
-      const name = r.key === CC_KEY ? null : `${r.gateway_id}/${r.key}`;
-      for (let i = 0; i < r.sums.length; i++) {
-        if (!r.bins[i]) continue;
-        const at = b.index(r.block_t0 + i * levelMs);
-        if (at < 0) continue;
-        b.add(name ?? '#cc', at, r.sums[i]!);
-      }
-      let blocks = slotBins.get(r.gateway_id);
-      if (!blocks) slotBins.set(r.gateway_id, (blocks = new Map()));
-      const most = blocks.get(r.block_t0);
-      if (most) r.bins.forEach((n, i) => (most[i] = Math.max(most[i] ?? 0, n)));
-      else blocks.set(r.block_t0, [...r.bins]);
-    }
-    const widths = await binWidths([...slotBins.keys()], end);
-    for (const [gateway, blocks] of slotBins) {
-      const width = widths.get(gateway) ?? widthFromSlots(blocks, levelMs);
-      binMs.set(gateway, width);
-      const cov = covered.get(gateway)!;
-      for (const [blockT0, bins] of blocks) {
-        bins.forEach((n, i) => {
-          const at = b.index(blockT0 + i * levelMs);
-          if (n && at >= 0) cov[at]! += n * width;
-        });
-      }
-    }
+  if (grid.levelMs !== null) {
+    await fillFromRollups(grid, grid.levelMs, [part]);
   } else if (gatewayIds.length) {
     // Stored spans of a gateway never overlap: the last row starting before t0 plus those starting inside.
     const { rows } = await getDbHandle().pool.query<{ gateway_id: string; t0: number; dt: number; n: number; keys: string[]; counts: Buffer; x: number[] | null; cc: Buffer | null }>(
@@ -224,14 +298,9 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
     }
   }
 
-  const channels: Record<string, (number | null)[]> = {};
-  for (const [name, col] of b.values) if (name !== '#cc') channels[name] = col;
-  const result: CountsResult = { t0, step, resolution, channels, coveredMs: Object.fromEntries(covered), binMs: Object.fromEntries(binMs), channelInfo };
   if (xSum && xN) {
     const n = xN;
-    result.x = xSum.map((s, i) => (n[i] ? s / n[i]! : null));
+    return resultOf(grid, part, xSum.map((s, i) => (n[i] ? s / n[i]! : null)));
   }
-  const cc = b.values.get('#cc');
-  if (cc) result.cc = cc;
-  return result;
+  return resultOf(grid, part);
 }
