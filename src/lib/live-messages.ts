@@ -35,6 +35,22 @@ export interface StatusMessage {
   software?: string;
 }
 
+/**
+ * What a status socket for all benches (`watch=status&all=1`) sends first, one per bench: its
+ * gateways and whether each is online as it connects. The `status` messages after it are newer.
+ */
+export interface PresenceMessage {
+  type: 'presence';
+  bench: string;
+  gateways: { id: string; online: boolean; silentSince?: number }[];
+}
+
+export const presenceMessageSchema = z.object({
+  type: z.literal('presence'),
+  bench: benchIdSchema,
+  gateways: z.array(z.object({ id: gatewayIdSchema, online: z.boolean(), silentSince: z.number().int().min(0).max(MAX_EPOCH_MS).optional() })),
+});
+
 export interface AckMessage {
   type: 'ack';
   bench: string;
@@ -100,7 +116,7 @@ export const ackMessageSchema = z.object({
   error: z.string().max(1000).optional(),
 });
 
-export type LiveMessage = CountsMessage | StatusMessage | AckMessage | DroppedMessage | ResumedMessage | ErrorMessage;
+export type LiveMessage = CountsMessage | StatusMessage | PresenceMessage | AckMessage | DroppedMessage | ResumedMessage | ErrorMessage;
 
 /** Messages a client may send. */
 export const clientMessageSchema = z.discriminatedUnion('type', [

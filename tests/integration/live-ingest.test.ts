@@ -12,6 +12,7 @@ import { channels, countBatches, gatewayHealth, gateways, rollups } from '../../
 import { BatchWriter } from '../../src/lib/server/ingest/store.ts';
 import { NEXT_PAGE_SQL } from '../../src/lib/server/live/resume.ts';
 import { maxPacketRemaining } from '../../src/lib/server/mqtt/broker.ts';
+import { listBenches } from '../../src/lib/server/benches.ts';
 import { revokeGateway } from '../../src/lib/server/provisioning.ts';
 import { connectGateway, freshGateway, makeBatch, openLive, openLiveQuery, openStatusWatch, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
@@ -307,7 +308,7 @@ describe('status, commands and resume', () => {
     ws.ws.close();
   });
 
-  it('tells a status socket the status and alarms of each bench it names, and nothing else', async () => {
+  it('tells a status socket the status and alarms of each bench it names, and no counts', async () => {
     const a = await freshGateway();
     const b = await freshGateway();
     const other = await freshGateway();
@@ -340,6 +341,32 @@ describe('status, commands and resume', () => {
     benchSocket.ws.close();
   });
 
+  it('tells a status socket for all benches the presence, figures and status of each bench the user may read, and no counts or fits', async () => {
+    const a = await freshGateway();
+    const b = await freshGateway();
+    const readable = (await listBenches()).map((x) => x.id);
+    const watch = await openLiveQuery(t.baseUrl, 'watch=status&all=1', observerToken);
+    const benchSocket = await openLive(t.baseUrl, a.benchId, observerToken);
+    const ga = await connectGateway(t.mqttPort, a.gatewayId, a.token);
+    await publishBatch(ga, a.gatewayId, makeBatch(BASE, 10, 0));
+    await benchSocket.next((m) => m.type === 'counts');
+    t.live.hub.publish(a.benchId, { type: 'sweep', bench: a.benchId, sweep: {} });
+    t.live.hub.publish(a.benchId, { type: 'figures', bench: a.benchId, figures: { at: 1 } });
+    t.live.hub.publish(b.benchId, { type: 'figures', bench: b.benchId, figures: { at: 2 } });
+    await ga.publishAsync(topicFor(a.gatewayId, 'status'), JSON.stringify({ v: 1, state: 'online' }), { qos: 1, retain: true });
+    await watch.next((m) => m.type === 'status' && m.gateway === a.gatewayId);
+    // First where every bench's gateways stand, then what came since, in order (held while that was read).
+    const presence = watch.messages.filter((m) => m.type === 'presence');
+    expect(watch.messages.slice(0, presence.length)).toEqual(presence);
+    expect(presence.map((m) => m.bench).sort()).toEqual(readable.sort());
+    expect(presence.find((m) => m.bench === a.benchId)).toEqual({ type: 'presence', bench: a.benchId, gateways: [{ id: a.gatewayId, online: false }] });
+    const after = watch.messages.slice(presence.length);
+    expect(after.map((m) => `${m.type} ${(m as { bench: string }).bench}`)).toEqual([`figures ${a.benchId}`, `figures ${b.benchId}`, `status ${a.benchId}`]);
+    await ga.endAsync();
+    watch.ws.close();
+    benchSocket.ws.close();
+  });
+
   it('refuses a status socket for a missing bench, without benches, for too many, or watching something else', async () => {
     const gw = await freshGateway();
     await expect(openStatusWatch(t.baseUrl, [gw.benchId, 'no-such-bench'], observerToken)).rejects.toThrow(/403/);
@@ -347,6 +374,10 @@ describe('status, commands and resume', () => {
     await expect(openStatusWatch(t.baseUrl, Array.from({ length: 101 }, (_, i) => `b-${i}`), observerToken)).rejects.toThrow(/400/);
     await expect(openStatusWatch(t.baseUrl, [gw.benchId], 'fwp_nope')).rejects.toThrow(/401/);
     await expect(openLiveQuery(t.baseUrl, `watch=counts&bench=${gw.benchId}`, observerToken)).rejects.toThrow(/400/);
+    await expect(openLiveQuery(t.baseUrl, `watch=status&all=1&bench=${gw.benchId}`, observerToken)).rejects.toThrow(/400/);
+    await expect(openLiveQuery(t.baseUrl, `all=1&bench=${gw.benchId}`, observerToken)).rejects.toThrow(/400/);
+    await expect(openLiveQuery(t.baseUrl, 'watch=status&all=yes', observerToken)).rejects.toThrow(/400/);
+    await expect(openLiveQuery(t.baseUrl, 'watch=status&all=1', 'fwp_nope')).rejects.toThrow(/401/);
   });
 
   it('sends a command and pushes its ack to the bench', async () => {

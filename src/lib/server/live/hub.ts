@@ -1,9 +1,11 @@
 // The WebSocket hub behind `GET /api/v1/live?bench=`: authenticates the upgrade with the same check
 // as the middleware, keeps each bench's clients, pushes what the fan-out emits, answers `resume`,
 // and terminates sockets that stop answering pings. `?watch=status&bench=a&bench=b` is a lighter
-// socket for pages that show several benches (the lab overview): only the gateways' `status` and
-// the `alarm` messages of the benches named, none of the counts, figures or fits a bench's own
-// socket streams.
+// socket for pages that show several benches: only the gateways' `status`, the `alarm` and the
+// live `figures` messages of the benches named, none of the counts or fits a bench's own socket
+// streams. `?watch=status&all=1` names every bench the user may read as it connects (the lab
+// overview, whose benches can be more than a URL should name), and begins with a `presence`
+// message per bench, so its page need not ask each gateway whether it is online.
 //
 // Push in frames: what the fan-out emits for a bench waits at most FRAME_MS (frame-period.ts; a
 // late batch not at all), is coalesced (contiguous counts of a gateway merge), serialised and
@@ -20,7 +22,8 @@ import { authenticate } from '../auth/authenticate.ts';
 import type { SessionUser } from '../auth/lucia.ts';
 import { originHost } from '../http/origin.ts';
 import type { Fanout } from '../ingest/fanout.ts';
-import { canReadBench } from './access.ts';
+import { presenceOfBenches } from '../gateway-presence.ts';
+import { canReadBench, readableBenchIds } from './access.ts';
 import { binsOf, coalesceCounts, joinSpans } from './coalesce.ts';
 import { frameDelay } from './frame-period.ts';
 import { HIGH_WATER_BYTES, MAX_QUEUED_BYTES, Outbox, type PreparedFrame, type Queued, type Sink } from './outbox.ts';
@@ -60,6 +63,8 @@ interface LiveClient {
 interface StatusWatcher {
   ws: WebSocket;
   alive: boolean;
+  /** Messages held while its `presence` messages are read, sent after them since they are newer; null once sent. */
+  held: Buffer[] | null;
 }
 
 function refuse(socket: Duplex, status: number, reason: string, error: string): void {
@@ -91,7 +96,7 @@ export class LiveHub {
    * call this too); a `late` one brings that frame forward to now (frame-period.ts).
    */
   publish(benchId: string, message: LiveMessage | FeatureMessage, late = false): void {
-    if (message.type === 'status' || message.type === 'alarm') this.tellWatchers(benchId, message);
+    if (message.type === 'status' || message.type === 'alarm' || message.type === 'figures') this.tellWatchers(benchId, message);
     if (!this.benches.get(benchId)?.size) return;
     const list = this.pending.get(benchId);
     if (list) list.push(message);
@@ -135,14 +140,19 @@ export class LiveHub {
 
   /**
    * Status and alarms are rare (a gateway's connect, its last will, a silence; a rule's raise or
-   * clear), so a watcher gets them at once,
-   * outside the frames: no queue to bound, and a bench with only watchers builds no frames.
+   * clear), figures come about once a second per bench, so a watcher gets them at once, outside
+   * the frames: a bench with only watchers builds no frames. Each figures message supersedes the
+   * last, so one is left out for a watcher whose socket is behind rather than queued.
    */
   private tellWatchers(benchId: string, message: LiveMessage | FeatureMessage): void {
     const set = this.watchers.get(benchId);
     if (!set?.size) return;
     const data = Buffer.from(JSON.stringify(message));
-    for (const w of set) if (w.ws.readyState === w.ws.OPEN) w.ws.send(data, { binary: false });
+    const skippable = message.type === 'figures';
+    for (const w of set) {
+      if (w.held) w.held.push(data);
+      else if (w.ws.readyState === w.ws.OPEN && !(skippable && w.ws.bufferedAmount > HIGH_WATER_BYTES)) w.ws.send(data, { binary: false });
+    }
   }
 
   /** Sockets of a bench that receive its counts (status-only watchers are not counted). */
@@ -167,8 +177,11 @@ export class LiveHub {
     const url = new URL(req.url ?? '/', 'http://localhost');
     const watch = url.searchParams.get('watch');
     if (watch !== null && watch !== 'status') return refuse(socket, 400, 'Bad Request', 'watch must be "status"');
+    const all = url.searchParams.get('all');
+    if (all !== null && (all !== '1' || !watch)) return refuse(socket, 400, 'Bad Request', 'all=1 goes with watch=status');
     const named = watch ? [...new Set(url.searchParams.getAll('bench'))] : [url.searchParams.get('bench') ?? ''];
-    if (named.length === 0 || named.length > MAX_WATCHED_BENCHES) return refuse(socket, 400, 'Bad Request', `name 1 to ${MAX_WATCHED_BENCHES} benches`);
+    if (all !== null && named.length) return refuse(socket, 400, 'Bad Request', 'name benches or ask for all=1, not both');
+    if (all === null && (named.length === 0 || named.length > MAX_WATCHED_BENCHES)) return refuse(socket, 400, 'Bad Request', `name 1 to ${MAX_WATCHED_BENCHES} benches, or all=1`);
     const ids = named.map((b) => benchIdSchema.safeParse(b));
     if (!ids.every((b) => b.success)) return refuse(socket, 400, 'Bad Request', 'bench must be a bench id');
     const benches = ids.map((b) => b.data!);
@@ -181,15 +194,19 @@ export class LiveHub {
     }
     for (const b of benches) if (!(await canReadBench(auth.user, b))) return refuse(socket, 403, 'Forbidden', 'you may not watch this bench');
     const user = auth.user;
-    this.wss.handleUpgrade(req, socket, head, (ws) => (watch ? this.attachWatcher(ws, benches) : this.attach(ws, socket, benches[0]!, user)));
+    // Benches made later are not added: the page that asked lists those of its render.
+    const watched = all === null ? benches : await readableBenchIds(user);
+    this.wss.handleUpgrade(req, socket, head, (ws) => (watch ? this.attachWatcher(ws, watched, all !== null) : this.attach(ws, socket, benches[0]!, user)));
   }
 
-  private attachWatcher(ws: WebSocket, benches: string[]): void {
-    const watcher: StatusWatcher = { ws, alive: true };
+  private attachWatcher(ws: WebSocket, benches: string[], withPresence: boolean): void {
+    const watcher: StatusWatcher = { ws, alive: true, held: withPresence ? [] : null };
     for (const b of benches) {
       const set = this.watchers.get(b) ?? new Set();
       this.watchers.set(b, set.add(watcher));
     }
+    // Read after joining the sets: a status published meanwhile is held, and sent after, being newer.
+    if (withPresence) void this.sendPresence(watcher, benches);
     ws.on('pong', () => (watcher.alive = true));
     // Nothing to resume: the page re-reads its gateways' state whenever the socket opens.
     ws.on('message', () => ws.send(JSON.stringify({ type: 'error', error: 'a status socket takes no messages' })));
@@ -201,6 +218,21 @@ export class LiveHub {
       }
     });
     ws.on('error', () => ws.terminate());
+  }
+
+  private async sendPresence(watcher: StatusWatcher, benches: string[]): Promise<void> {
+    const { ws } = watcher;
+    try {
+      for (const [bench, gateways] of await presenceOfBenches(benches)) {
+        if (ws.readyState === ws.OPEN) ws.send(JSON.stringify({ type: 'presence', bench, gateways } satisfies LiveMessage));
+      }
+    } catch (err) {
+      console.warn('[live] presence read failed:', err instanceof Error ? err.message : err);
+      ws.close(1011, 'presence read failed');
+    }
+    const held = watcher.held ?? [];
+    watcher.held = null;
+    for (const data of held) if (ws.readyState === ws.OPEN) ws.send(data, { binary: false });
   }
 
   private attach(ws: WebSocket, socket: Duplex, bench: string, user: SessionUser): void {
