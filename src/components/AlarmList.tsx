@@ -12,10 +12,10 @@ interface Props {
   /** Only events still raised (the banner); otherwise the recent history too. */
   openOnly?: boolean;
   /**
-   * A page showing several benches (the lab overview) names them all: the alarms then come over
-   * the page's one status-only socket, which it shares, instead of a socket streaming this bench's counts.
+   * On a page showing several benches (the lab overview): the alarms come over the page's one
+   * status-only socket, which it shares, instead of a socket streaming this bench's counts.
    */
-  watchWith?: string[];
+  viaStatusSocket?: boolean;
 }
 
 const SEVERITY_CLASS: Record<AlarmEventView['severity'], string> = {
@@ -74,18 +74,16 @@ function AckForm({ benchId, event, onDone }: { benchId: string; event: AlarmEven
   );
 }
 
-export default function AlarmList({ benchId, initial, canAck, openOnly = false, watchWith }: Props) {
+export default function AlarmList({ benchId, initial, canAck, openOnly = false, viaStatusSocket = false }: Props) {
   const [events, setEvents] = useState<AlarmEventView[]>(initial);
-  const watchKey = watchWith?.join(' ');
   useEffect(
     () =>
-      (watchWith ? statusSocket(watchWith) : liveSocket(benchId)).subscribe((m) => {
+      (viaStatusSocket ? statusSocket() : liveSocket(benchId)).subscribe((m) => {
         if (m.type !== 'alarm' || m.bench !== benchId) return;
         const parsed = alarmMessageSchema.safeParse(m);
         if (parsed.success) setEvents((list) => applyAlarmMessage(list, parsed.data));
       }),
-    // The bench list by value: the page passes a new array on every render.
-    [benchId, watchKey],
+    [benchId, viaStatusSocket],
   );
   const shown = openOnly ? events.filter((e) => e.clearedAt === null) : events;
   if (shown.length === 0) return <p className="text-sm text-muted">{openOnly ? 'No alarm is raised.' : 'No alarms yet.'}</p>;

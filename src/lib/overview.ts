@@ -1,5 +1,6 @@
 // One bench as the lab overview lists it (plain data for the overview island), and how its
 // gateways are summed up on its card. Pure.
+import type { BenchFigures } from './bench-figures.ts';
 import type { GatewayPresence } from './client/gateway-presence.ts';
 import type { RunView } from './runs.ts';
 
@@ -15,6 +16,8 @@ export interface OverviewBench {
   openAlarms: number;
   criticalAlarms: number;
   activeRun: RunView | null;
+  /** Its live figures as the page was rendered (the status socket brings the next ones); null before its first counts. */
+  figures: BenchFigures | null;
 }
 
 export interface GatewayBadge {

@@ -1,16 +1,20 @@
 // Every bench at a glance: online or not, both outputs over the last minutes, visibility and where
-// it came from, open alarms by severity, the active run and who started it. The figures are polled
-// (every 2 s, the sparkline's counts and the open alarms every 5 s) rather than streamed: one bench
-// socket per card would stream every count for a summary. Whether gateways are online follows one
-// status-only socket for all the benches (gateway-presence.ts), so a gateway that drops or is
-// revoked turns its card offline at once, as on the bench page.
-import { useMemo } from 'react';
+// it came from, open alarms by severity, the active run and who started it. The page costs the same
+// few requests whatever the number of benches (each one polled per bench kept the browser's six
+// connections per host busy, and the page's own scripts waited behind them): the figures come with
+// the server's render, then over the page's one status-only socket for every bench the user may
+// read, which also says whether gateways are online (gateway-presence.ts), so a gateway that drops
+// or is revoked turns its card offline at once, as on the bench page; the sparklines' counts and the
+// open alarms of all benches come in one request every 5 s (`GET /api/v1/overview`).
+import { useEffect, useState } from 'react';
 import type { AlarmEventView, Severity } from '../../lib/alarm-messages.ts';
+import { benchFiguresSchema } from '../../lib/bench-figures-schema.ts';
 import { newestPassAt, type BenchFigures } from '../../lib/bench-figures.ts';
 import { figuresStaleness } from '../../lib/figures-age.ts';
-import type { PresenceFeed } from '../../lib/client/gateway-presence.ts';
-import { errorText, fetchCounts, fetchFigures, fetchOpenAlarms, type CountsAnswer } from '../../lib/client/api.ts';
+import { STATUS_FEED } from '../../lib/client/gateway-presence.ts';
+import { fetchOverview, type CountsAnswer } from '../../lib/client/api.ts';
 import { formatDuration, formatRate, formatValueErr, SILENT_TITLE } from '../../lib/client/format.ts';
+import { statusSocket } from '../../lib/client/live-socket.ts';
 import { useNow } from '../../lib/client/use-now.ts';
 import { usePolled } from '../../lib/client/use-polled.ts';
 import { gatewayBadge, type GatewayBadge, type OverviewBench } from '../../lib/overview.ts';
@@ -20,18 +24,16 @@ import { useGatewayPresence } from '../bench/useGatewayPresence.ts';
 import { channelRates, wholeBuckets } from '../history/history-range.ts';
 import { Sparkline } from './Sparkline.tsx';
 
-/** Poll period of the figures, ms (the server recomputes them about once a second). */
-const POLL_MS = 2000;
-/** Poll period of the sparkline's counts and the open alarms, ms: one sparkline bucket. */
+/** How often the figures' ages and the runs' durations are brought up to date, ms (new figures come about once a second). */
+const CLOCK_MS = 1000;
+/** Poll period of the sparklines' counts and the open alarms, ms: one sparkline bucket. */
 const SLOW_POLL_MS = 5000;
 /** The sparkline's span and bucket, ms: 120 points, served from the 1 s rollups. */
 const SPARK_SPAN_MS = 10 * 60_000;
 const SPARK_STEP_MS = 5000;
 
-type Live = { figures: BenchFigures | null; error: string | null; loaded: boolean };
-/** Counts and open alarms of a bench from the slower poll; null while not (yet) loaded. */
-/** `asOf`: when the counts came, for leaving out the bucket still filling then. */
-type Slow = { counts: CountsAnswer | null; alarms: AlarmEventView[] | null; asOf: number };
+/** Counts and open alarms of a bench from the slower poll. `asOf`: when the counts came, for leaving out the bucket still filling then. */
+type Slow = { counts: CountsAnswer; alarms: AlarmEventView[]; asOf: number };
 
 const SEVERITY_RANK: Record<Severity, number> = { info: 0, warning: 1, critical: 2 };
 const BADGE_TONE: Record<GatewayBadge['tone'], string> = { good: 'border-good text-good', warn: 'border-warn text-warn', bad: 'border-bad text-bad', quiet: 'border-line text-muted' };
@@ -56,60 +58,51 @@ function alarmSummary(b: OverviewBench, alarms: AlarmEventView[] | null): { text
 }
 
 export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
-  // Figures every 2 s; the time of their answer is "now" for their age and the runs' durations.
-  const fast = usePolled(
-    async () => {
-      const results = await Promise.all(
-        benches.map(async (b): Promise<[string, Live]> => {
-          try {
-            return [b.id, { figures: await fetchFigures(b.id), error: null, loaded: true }];
-          } catch (err) {
-            return [b.id, { figures: null, error: errorText(err), loaded: true }];
-          }
-        }),
-      );
-      // Maps by bench id: a plain object would answer a bench "constructor" with Object before its first poll.
-      return { live: new Map(results), at: Date.now() };
-    },
-    POLL_MS,
-    [benches],
-  );
   const slow =
     usePolled(
       async () => {
         const now = Date.now();
         const { from, to } = wholeBuckets(now - SPARK_SPAN_MS, now, SPARK_STEP_MS);
-        const results = await Promise.all(
-          benches.map(async (b): Promise<[string, Slow]> => {
-            // A failed sparkline or alarm read keeps the card's other figures; the figures poll reports the bench's errors.
-            const [counts, alarms] = await Promise.all([fetchCounts(b.id, from, to, SPARK_STEP_MS).catch(() => null), fetchOpenAlarms(b.id).catch(() => null)]);
-            return [b.id, { counts, alarms, asOf: Date.now() }];
-          }),
-        );
-        return new Map(results);
+        // A failed read leaves the sparklines empty and the alarms as rendered until the next one.
+        const answer = await fetchOverview(from, to, SPARK_STEP_MS).catch(() => null);
+        const asOf = Date.now();
+        // Maps by bench id: a plain object would answer a bench "constructor" with Object.
+        return new Map((answer?.benches ?? []).map((b): [string, Slow] => [b.id, { counts: b.counts, alarms: b.openAlarms, asOf }]));
       },
       SLOW_POLL_MS,
-      [benches],
+      [],
     ) ?? new Map<string, Slow>();
-  const live = fast?.live ?? new Map<string, Live>();
-  const mountedAt = useNow();
-  const now = fast?.at ?? mountedAt;
-  const feed = useMemo<PresenceFeed>(() => ({ kind: 'status', benches: benches.map((b) => b.id) }), [benches]);
+  const now = useNow(CLOCK_MS);
 
   return (
     <ul className="grid gap-4 sm:grid-cols-2 xl:grid-cols-3" aria-label="Benches">
       {benches.map((b) => (
-        <BenchCard key={b.id} b={b} feed={feed} live={live.get(b.id)} slow={slow.get(b.id)} now={now} />
+        <BenchCard key={b.id} b={b} slow={slow.get(b.id)} now={now} />
       ))}
     </ul>
   );
 }
 
-/** One bench's card. Its gateway badge follows the page's status socket (`feed`), as the bench page's header follows its own. */
-function BenchCard({ b, feed, live: l, slow: sl, now }: { b: OverviewBench; feed: PresenceFeed; live: Live | undefined; slow: Slow | undefined; now: number | null }) {
-  const gateways = useGatewayPresence(b.id, b.gateways, feed);
+/** The bench's live figures: those of the render, then each `figures` message for it on the status socket. */
+function useLiveFigures(benchId: string, initial: BenchFigures | null): BenchFigures | null {
+  const [figures, setFigures] = useState(initial);
+  useEffect(
+    () =>
+      statusSocket().subscribe((m) => {
+        if (m.type !== 'figures' || m.bench !== benchId) return;
+        const f = benchFiguresSchema.safeParse(m['figures']);
+        if (f.success) setFigures(f.data);
+      }),
+    [benchId],
+  );
+  return figures;
+}
+
+/** One bench's card. Its gateway badge and figures follow the page's status socket, as the bench page's header and figures follow its own. */
+function BenchCard({ b, slow: sl, now }: { b: OverviewBench; slow: Slow | undefined; now: number | null }) {
+  const gateways = useGatewayPresence(b.id, b.gateways, STATUS_FEED);
   const gatewaysOnline = gateways.filter((g) => g.online).length;
-  const f = l?.figures ?? null;
+  const f = useLiveFigures(b.id, b.figures);
   const a = f?.channels.find((c) => c.role === 'out_a');
   const o = f?.channels.find((c) => c.role === 'out_b');
   const stale = f && now !== null ? figuresStaleness(f.at, now, gatewaysOnline, gateways.length) : null;
@@ -155,7 +148,7 @@ function BenchCard({ b, feed, live: l, slow: sl, now }: { b: OverviewBench; feed
       <dl className="grid grid-cols-2 gap-x-2 gap-y-2">
         <div className="min-w-0">
           <dt className="label truncate" title={a?.label ?? 'Out A'}>{a?.label ?? 'Out A'}</dt>
-          <dd className="figure whitespace-nowrap text-lg text-ember">{formatRate(a?.rateRaw)}</dd>
+          <dd className="figure whitespace-nowrap text-lg text-ember" data-testid={`bench-rate-a-${b.id}`}>{formatRate(a?.rateRaw)}</dd>
         </div>
         <div className="min-w-0">
           <dt className="label truncate" title={o?.label ?? 'Out B'}>{o?.label ?? 'Out B'}</dt>
@@ -177,9 +170,7 @@ function BenchCard({ b, feed, live: l, slow: sl, now }: { b: OverviewBench; feed
           {g.id} {gatewayStateText(g, now)}
         </p>
       ))}
-      {!l?.loaded && <p className="text-xs text-muted">Loading figures…</p>}
-      {l?.error && <p className="text-xs text-bad">Figures unavailable: {l.error}</p>}
-      {l?.loaded && !l.error && !f && <p className="text-xs text-muted">No counts yet.</p>}
+      {!f && <p className="text-xs text-muted">No counts yet.</p>}
       {stale && (
         <p className="text-xs text-warn" data-testid={`bench-stale-${b.id}`}>
           {stale.offline ? 'No gateway online: figures' : 'Figures'} are {formatDuration(stale.ageMs)} old.

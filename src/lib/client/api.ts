@@ -2,7 +2,7 @@
 // turned into one readable message (the server's `{ error }` when it sent one).
 import { z } from 'zod';
 import { benchFiguresSchema, type BenchFigures } from '../bench-figures-schema.ts';
-import { alarmEventViewSchema, type AlarmEventView } from '../alarm-messages.ts';
+import { alarmEventViewSchema } from '../alarm-messages.ts';
 import { stabilitySchema, type Stability } from '../stability.ts';
 import { noteViewSchema, runViewSchema, type AddNoteBody, type NoteView, type RunView } from '../runs.ts';
 import type { CommandBody } from '../contract/wire.ts';
@@ -141,8 +141,15 @@ export function fetchStability(bench: string, from: number, to: number, step: nu
   return call(`/api/v1/benches/${encodeURIComponent(bench)}/stability?${q}`, stabilitySchema, undefined, signal);
 }
 
-export function fetchOpenAlarms(bench: string, signal?: AbortSignal): Promise<AlarmEventView[]> {
-  return call(`/api/v1/benches/${encodeURIComponent(bench)}/alarms?open=1`, z.array(alarmEventViewSchema), undefined, signal);
+const overviewAnswerSchema = z.object({
+  benches: z.array(z.object({ id: z.string(), counts: countsAnswerSchema, openAlarms: z.array(alarmEventViewSchema) })),
+});
+export type OverviewAnswer = z.infer<typeof overviewAnswerSchema>;
+
+/** Counts (step a multiple of 1 s) and open alarms of every bench the user may read, in one request. */
+export function fetchOverview(from: number, to: number, step: number, signal?: AbortSignal): Promise<OverviewAnswer> {
+  const q = new URLSearchParams({ from: String(Math.floor(from)), to: String(Math.ceil(to)), step: String(step) });
+  return call(`/api/v1/overview?${q}`, overviewAnswerSchema, undefined, signal);
 }
 
 export async function fetchFigures(bench: string, signal?: AbortSignal): Promise<BenchFigures | null> {

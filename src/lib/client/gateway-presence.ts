@@ -4,8 +4,10 @@
 // pushes a status only when one arrives, so one that came while the socket was down (or before it
 // first opened) would be missed: on every opening the gateways are read again. One store per bench, shared by the header and the live view. The lab
 // overview follows its benches the same way, each store fed by one status-only socket for all of
-// them (`feed`), since a bench's own socket would stream every count to a summary card.
-import { statusMessageSchema } from '../live-messages.ts';
+// them (`feed`), since a bench's own socket would stream every count to a summary card; that socket
+// begins with a `presence` message per bench, so its stores read nothing (a read per gateway on a
+// lab of many would queue the page's own requests behind them).
+import { presenceMessageSchema, statusMessageSchema } from '../live-messages.ts';
 import { fetchGatewayPresence } from './api.ts';
 import { liveSocket, statusSocket, type SharedSocket } from './live-socket.ts';
 
@@ -31,12 +33,13 @@ function presence(id: string, online: boolean, silentSince: number | null | unde
 }
 
 /** Where status comes from: the bench's own live socket, or the status socket of a page's benches. */
-export type PresenceFeed = { kind: 'bench' } | { kind: 'status'; benches: readonly string[] };
+export type PresenceFeed = { kind: 'bench' } | { kind: 'status' };
 
 export const BENCH_FEED: PresenceFeed = { kind: 'bench' };
+export const STATUS_FEED: PresenceFeed = { kind: 'status' };
 
 function socketOf(bench: string, feed: PresenceFeed): SharedSocket {
-  return feed.kind === 'bench' ? liveSocket(bench) : statusSocket(feed.benches);
+  return feed.kind === 'bench' ? liveSocket(bench) : statusSocket();
 }
 
 class PresenceStore {
@@ -82,6 +85,11 @@ class PresenceStore {
   private attach(): void {
     const socket = socketOf(this.bench, this.feed);
     const off = socket.subscribe((m) => {
+      if (m.type === 'presence') {
+        const p = presenceMessageSchema.safeParse(m);
+        if (p.success && p.data.bench === this.bench) for (const g of p.data.gateways) this.set(presence(g.id, g.online, g.silentSince));
+        return;
+      }
       if (m.type !== 'status') return;
       const s = statusMessageSchema.safeParse(m);
       // A status socket carries every bench of the page.
@@ -89,6 +97,10 @@ class PresenceStore {
       this.seen.set(s.data.gateway, (this.seen.get(s.data.gateway) ?? 0) + 1);
       this.set(presence(s.data.gateway, s.data.state === 'online', s.data.silentSince));
     });
+    if (this.feed.kind === 'status') {
+      this.detach = off;
+      return;
+    }
     let wasOpen = false;
     const offState = socket.onState((st) => {
       const open = st.status === 'open';

@@ -1,8 +1,8 @@
 // The browser's one live socket per bench. Islands subscribe; the module owns the connection,
 // reconnects with exponential back-off, and on each reconnect (or after the server says it dropped
-// messages) asks for what was missed with `resume`, from the end of the last bins it had. A page
-// showing several benches (the lab overview) uses one status-only socket for all of them instead
-// (`statusSocket`): it carries no counts, so it has nothing to resume.
+// messages) asks for what was missed with `resume`, from the end of the last bins it had. The lab
+// overview uses one status-only socket for every bench the user may read instead (`statusSocket`):
+// it carries no counts, so it has nothing to resume.
 import type { CountsMessage, FeatureMessage, LiveMessage } from '../live-messages.ts';
 import { LIVE_PATH } from '../live-messages.ts';
 
@@ -149,9 +149,11 @@ export function liveSocket(bench: string): SharedSocket {
   return shared(bench, () => new URLSearchParams({ bench }).toString());
 }
 
-/** One shared socket carrying only the `status` messages of these benches, whichever order they come in. */
-export function statusSocket(benches: readonly string[]): SharedSocket {
-  const sorted = [...new Set(benches)].sort();
+/**
+ * One shared socket carrying only the `status`, `alarm` and `figures` messages of every bench the
+ * user may read: one socket whatever their number, where naming them would make the URL grow with it.
+ */
+export function statusSocket(): SharedSocket {
   // A space never occurs in a bench id, so no bench's own socket has this key.
-  return shared(`status ${sorted.join(' ')}`, () => new URLSearchParams([['watch', 'status'], ...sorted.map((b) => ['bench', b])]).toString());
+  return shared('status all', () => 'watch=status&all=1');
 }

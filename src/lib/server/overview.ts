@@ -1,11 +1,12 @@
-// What the lab overview shows per bench beside the live figures: gateways online, open alarms,
-// and who is running what.
+// What the lab overview shows per bench: gateways online, open alarms, who is running what, and
+// the live figures the analysis holds in memory, so the page shows them without asking for each.
 import { asc, count, isNull } from 'drizzle-orm';
 import type { OverviewBench } from '../overview.ts';
 import { listBenches } from './benches.ts';
 import { getDb } from './db/index.ts';
 import { alarmEvents, gateways } from './db/schema.ts';
 import { presenceOf } from './gateway-presence.ts';
+import { runtime } from './runtime.ts';
 import { activeRuns } from './runs.ts';
 import { isImportGateway } from '../import-shapes.ts';
 
@@ -24,6 +25,7 @@ export async function loadOverview(): Promise<OverviewBench[]> {
       .groupBy(alarmEvents.benchId, alarmEvents.severity),
     activeRuns(),
   ]);
+  const analysis = runtime().analysis;
   return benchRows.map((b) => {
     // Imported runs' pseudo-gateways are recordings, not devices that can be online.
     const mine = gws.filter((g) => g.benchId === b.id && !isImportGateway(g.id));
@@ -38,6 +40,7 @@ export async function loadOverview(): Promise<OverviewBench[]> {
       openAlarms: open.reduce((s, a) => s + a.n, 0),
       criticalAlarms: open.filter((a) => a.severity === 'critical').reduce((s, a) => s + a.n, 0),
       activeRun: runs.get(b.id) ?? null,
+      figures: analysis?.figures(b.id) ?? null,
     };
   });
 }
