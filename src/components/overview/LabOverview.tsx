@@ -24,8 +24,8 @@ import { useGatewayPresence } from '../bench/useGatewayPresence.ts';
 import { channelRates, wholeBuckets } from '../history/history-range.ts';
 import { Sparkline } from './Sparkline.tsx';
 
-/** How often the figures' ages and the runs' durations are brought up to date, ms (new figures come about once a second). */
-const CLOCK_MS = 1000;
+/** How often the figures' ages and the runs' durations are brought up to date, ms: as often as the figures poll did. */
+const CLOCK_MS = 2000;
 /** Poll period of the sparklines' counts and the open alarms, ms: one sparkline bucket. */
 const SLOW_POLL_MS = 5000;
 /** The sparkline's span and bucket, ms: 120 points, served from the 1 s rollups. */
