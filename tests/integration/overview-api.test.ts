@@ -42,7 +42,7 @@ beforeAll(async () => {
     await client.endAsync();
   }
   const rule = await createRule(benchB.benchId, ruleInputSchema.parse({ name: 'Overview test', metric: 'rate_low', threshold: 1, clearThreshold: 2, enabled: false }), null);
-  await insertRaised({ ruleId: rule.id, benchId: benchB.benchId, subject: `${benchB.gatewayId}/a`, severity: 'critical', message: 'low', value: 0, at: Date.now() });
+  await insertRaised({ ruleId: rule.id, ruleName: rule.name, metric: rule.metric, benchId: benchB.benchId, subject: `${benchB.gatewayId}/a`, severity: 'critical', message: 'low', value: 0, at: Date.now() });
 });
 afterAll(async () => {
   await app?.close();
