@@ -14,22 +14,29 @@ export function phaseFisherPerPhoton(visibility: number, phase: number): number 
 
 /**
  * Least phase noise per bin, rad, from two outputs counting `signalA` and `signalB` photons per bin
- * (darks taken off) at operating phase φ of a fringe of visibility V, infinite at V = 0 or a fringe
- * extreme: the Cramér–Rao bound 1/√F. For independent Poisson counts of means λᵢ the Fisher
- * information is F = Σ(∂λᵢ/∂φ)²/λᵢ (common practice); with λ_a = A(1 + V cos φ), λ_b = B(1 − V cos φ)
- * that is F = V² sin²φ·[λ_a/(1 + V cos φ)² + λ_b/(1 − V cos φ)²]. For equal efficiencies (A = B,
- * N = λ_a + λ_b) it is N·V² sin²φ/(1 − V² cos²φ) (phaseFisherPerPhoton), which error propagation
- * through D = (N_a − N_b)/N also gives: Δφ = ΔD/|∂⟨D⟩/∂φ| with ⟨D⟩ = V cos φ and the binomial split
- * ΔD² = (1 − V² cos²φ)/N. So Δφ = 1/(V√N) at mid-fringe, more away from it unless V = 1; unequal
- * efficiencies tilt it to one side of the fringe (on the 810 nm demo bench, η_b/η_a = 1.11 and
- * V = 0.97: 1.015/√N and 1.066/√N at ±0.5 rad from mid-fringe, 1.031/√N at it).
+ * (darks taken off) over `darkA` and `darkB` dark counts per bin, at operating phase φ of a fringe
+ * of visibility V (that of the signal, net of darks), infinite at V = 0 or a fringe extreme: the
+ * Cramér–Rao bound 1/√F (Kay, Fundamentals of Statistical Signal Processing, vol. 1: Estimation
+ * Theory, ch. 3, from memory). For independent Poisson counts of means λᵢ the Fisher information is
+ * F = Σ(∂λᵢ/∂φ)²/λᵢ (common practice); with λ_a = A(1 + V cos φ) + d_a, λ_b = B(1 − V cos φ) + d_b
+ * and the signals s_a = A(1 + V cos φ), s_b = B(1 − V cos φ) that is
+ * F = V² sin²φ·[(s_a/(1 + V cos φ))²/(s_a + d_a) + (s_b/(1 − V cos φ))²/(s_b + d_b)].
+ * Dark counts are Poisson noise with no fringe: they add to each output's variance and nothing to
+ * its slope. With equal darks d_a = d_b and equal efficiencies (A = B) the counts are a fringe of
+ * N = S + d_a + d_b counts at the lower contrast V' = V·S/N, so F = N·V'² sin²φ/(1 − V'² cos²φ):
+ * 1/(V'√N) at mid-fringe. Without darks and with A = B it is N·V² sin²φ/(1 − V² cos²φ)
+ * (phaseFisherPerPhoton), which error propagation through D = (N_a − N_b)/N also gives:
+ * Δφ = ΔD/|∂⟨D⟩/∂φ| with ⟨D⟩ = V cos φ and the binomial split ΔD² = (1 − V² cos²φ)/N. So
+ * Δφ = 1/(V√N) at mid-fringe, more away from it unless V = 1; unequal efficiencies tilt it to one
+ * side of the fringe (on the 810 nm demo bench, η_b/η_a = 1.11 and V = 0.97: 1.015/√N and
+ * 1.066/√N at ±0.5 rad from mid-fringe, 1.031/√N at it, without darks).
  */
-export function phaseFloor(signalA: number, signalB: number, visibility: number, phase: number): number {
+export function phaseFloor(signalA: number, signalB: number, visibility: number, phase: number, darkA = 0, darkB = 0): number {
   const vc = visibility * Math.cos(phase);
   const vs2 = (visibility * Math.sin(phase)) ** 2;
-  const pa = 1 + vc;
-  const pb = 1 - vc;
-  const fisher = vs2 * ((pa > 0 ? signalA / (pa * pa) : 0) + (pb > 0 ? signalB / (pb * pb) : 0));
+  // (∂λ/∂φ)²/λ of one output: its fringe amplitude s/p squared over its whole mean s + d.
+  const term = (signal: number, dark: number, p: number) => (p > 0 && signal + dark > 0 ? (signal / p) ** 2 / (signal + dark) : 0);
+  const fisher = vs2 * (term(signalA, darkA, 1 + vc) + term(signalB, darkB, 1 - vc));
   return 1 / Math.sqrt(fisher);
 }
 
@@ -45,6 +52,9 @@ export interface NoiseSegment {
   /** Signal photons per bin of each output over the segment (darks taken off). */
   signalA: number;
   signalB: number;
+  /** Dark counts per bin of each output, which the floor counts as noise; 0 when not calibrated. */
+  darkA?: number;
+  darkB?: number;
   /** Operating phase of the segment, rad: π/2 at mid-fringe. */
   phase: number;
 }
@@ -56,7 +66,7 @@ export interface PhaseSensitivity {
   dof: number;
   /** Shot-noise limit 1/√N for N detected photons per bin, rad. */
   shotNoiseLimit: number;
-  /** Best phase noise reachable at this visibility and operating point (phaseFloor), rad: 1/(V√N) at mid-fringe. */
+  /** Best phase noise reachable at this visibility and operating point with the segments' dark counts (phaseFloor), rad: 1/(V√N) at mid-fringe without darks. */
   visibilityLimit: number;
   /** measured / (1/√N) and in dB (20·log₁₀; negative = below shot noise). */
   ratio: number;
@@ -108,7 +118,7 @@ export function phaseSensitivity(segments: readonly NoiseSegment[], visibility: 
     rss += squaresAboutLine(s.phases);
     dof += k;
     shot2 += k / photons;
-    floor2 += k * phaseFloor(s.signalA, s.signalB, visibility, s.phase) ** 2;
+    floor2 += k * phaseFloor(s.signalA, s.signalB, visibility, s.phase, s.darkA, s.darkB) ** 2;
   }
   if (dof === 0) return null;
   const measured = Math.sqrt(rss / dof);
