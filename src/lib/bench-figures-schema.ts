@@ -31,7 +31,7 @@ export const benchFiguresSchema: z.ZodType<BenchFigures> = z.object({
   g2: valueErr.extend({ accidentals: num }).nullable(),
   coincidenceWindowNs: num.positive().optional(),
   alpha: valueErr.nullable(),
-  shotNoise: z.object({ measuredRad: num, limitRad: num, ratio: num, ratioErr: num.optional(), dB: num, binMs: num.optional(), bins: z.number().int().positive().optional(), visibilityLimitRad: num.optional() }).nullable(),
+  shotNoise: z.object({ measuredRad: num, limitRad: num, ratio: num, ratioErr: num.optional(), dB: num, binMs: num.optional(), bins: z.number().int().positive().optional(), visibilityLimitRad: num.optional(), darkFreeLimitRad: num.optional() }).nullable(),
 });
 
 export type { BenchFigures };

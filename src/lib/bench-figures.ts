@@ -71,8 +71,14 @@ export interface BenchFigures {
     binMs?: number | undefined;
     /** Bins the noise was read over. */
     bins?: number | undefined;
-    /** 1/√(N·F(φ)): the floor at the bench's visibility and operating point, 1/(V√N) at mid-fringe (older snapshots: always 1/(V√N)). */
+    /** 1/√F(φ): the floor at the bench's visibility and operating point (phaseFloor), 1/(V√N) at mid-fringe without darks (older snapshots: always 1/(V√N)). */
     visibilityLimitRad?: number | undefined;
+    /**
+     * Where the outputs' dark rates are set, `visibilityLimitRad` counts their dark counts as noise
+     * beside the signal, and this is the floor without them: what the visibility alone costs. Absent
+     * without dark rates, and on older snapshots, whose floor left the darks out.
+     */
+    darkFreeLimitRad?: number | undefined;
   } | null;
 }
 

@@ -57,6 +57,17 @@ describe('phaseNoiseText', () => {
     expect(t2.lines[4]).toBe('noise above floor −0.5\u00a0±\u00a00.6\u00a0dB');
   });
 
+  it('says where the floor counts the dark counts, and splits their cost from what alignment can gain', () => {
+    // Darks raising the floor by √(N/S) = 1.08 at mid-fringe (the 1550 nm demo bench: 9000 signal
+    // and 1500 dark counts a second, see phaseFloor's tests): 20·log₁₀(1.080) = 0.67 dB.
+    const dark = Math.sqrt(10_500 / 9000);
+    const t3 = phaseNoiseText({ ...sn, visibilityLimitRad: (limit / v) * dark, darkFreeLimitRad: limit / v }, v);
+    expect(t3.lines[2]).toBe('floor 138 at V\u00a00.78 with darks');
+    expect(t3.lines[3]).toBe('alignment can gain 2.2\u00a0dB');
+    expect(t3.lines[4]).toBe('darks cost 0.7\u00a0dB');
+    expect(t3.lines[5]).toBe('noise above floor −0.6\u00a0±\u00a00.6\u00a0dB');
+  });
+
   it('writes a negative dB with the minus sign', () => {
     const below = phaseNoiseText({ ...sn, measuredRad: 0.124, ratio: 0.124 / limit, ratioErr: 0.124 / limit / Math.sqrt(196), dB: 20 * Math.log10(0.124 / limit) }, v);
     expect(below.lines[4]).toBe('noise above floor −0.3\u00a0±\u00a00.6\u00a0dB');

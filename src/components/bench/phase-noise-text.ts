@@ -1,10 +1,12 @@
 // The phase-noise tile's words and numbers. The measured noise per bin is compared with two limits
 // for the N signal photons of a bin: the shot-noise limit 1/√N (a perfect fringe, V = 1) and the
 // floor at the bench's visibility and operating point (the Cramér–Rao bound of the two outputs'
-// counts, 1/(V√N) at mid-fringe; phaseFloor in analysis/sensitivity.ts). At V = 1 the floor is the
-// shot-noise limit at every operating point, so, in dB, the excess over shot noise is the sum of what
-// the visibility costs here, which alignment can gain back, and the noise above the floor (dark
-// counts, afterpulses, vibration, laser phase noise, air currents), which it cannot. Pure.
+// counts, dark counts included where their rates are set: 1/(V√N) at mid-fringe without darks;
+// phaseFloor in analysis/sensitivity.ts). At V = 1 and no darks the floor is the shot-noise limit at
+// every operating point, so, in dB, the excess over shot noise is the sum of what the visibility
+// costs here, which alignment can gain back, what the dark counts cost, which better detectors or
+// cooling can, and the noise above the floor (afterpulses, vibration, laser phase noise, air
+// currents). Pure.
 import type { BenchFigures } from '../../lib/bench-figures.ts';
 import { formatNumber, PLUS_MINUS } from '../../lib/client/format.ts';
 
@@ -64,15 +66,19 @@ export function phaseNoiseText(sn: ShotNoise, visibility: number): PhaseNoiseTex
     lines.push(`shot-noise limit ${limit}${NBSP}mrad`);
     return { value, unit, lines };
   }
-  // Exactly additive: the headline's dB is the visibility's share plus the rest.
-  const alignmentDb = Math.max(0, 20 * Math.log10(sn.visibilityLimitRad / sn.limitRad));
-  const aboveFloorDb = sn.dB - alignmentDb;
+  // Exactly additive: the headline's dB is the visibility's share, the darks' and the rest.
+  const darkFree = sn.darkFreeLimitRad !== undefined && sn.darkFreeLimitRad > 0 ? sn.darkFreeLimitRad : sn.visibilityLimitRad;
+  const alignmentDb = Math.max(0, 20 * Math.log10(darkFree / sn.limitRad));
+  const darksDb = 20 * Math.log10(sn.visibilityLimitRad / darkFree);
+  const aboveFloorDb = sn.dB - alignmentDb - darksDb;
   const dbDecimals = rel !== null ? Math.min(2, decimalsForError(DB_PER_RELATIVE * rel)) : 1;
   // Short lines, each number bound to its unit: the tile is a sixth of the page wide (some 20
   // characters) and wraps them. The tile's tooltip says what each limit is.
   lines.push(`shot noise ${limit}${NBSP}mrad`);
-  lines.push(`floor ${(sn.visibilityLimitRad * 1000).toFixed(mradDecimals)} at V${NBSP}${visibility.toFixed(2)}`);
+  const withDarks = darkFree !== sn.visibilityLimitRad;
+  lines.push(`floor ${(sn.visibilityLimitRad * 1000).toFixed(mradDecimals)} at V${NBSP}${visibility.toFixed(2)}${withDarks ? ' with darks' : ''}`);
   lines.push(`alignment can gain ${alignmentDb.toFixed(1)}${NBSP}dB`);
+  if (withDarks) lines.push(`darks cost ${darksDb.toFixed(1)}${NBSP}dB`);
   lines.push(`noise above floor ${signed(aboveFloorDb, dbDecimals)}${rel !== null ? `${PLUS_MINUS}${(DB_PER_RELATIVE * rel).toFixed(dbDecimals)}` : ''}${NBSP}dB`);
   // How long the reading is: a few seconds read after a move scatter more than the window's ten.
   if (sn.bins !== undefined && sn.binMs) lines.push(`over ${formatNumber((sn.bins * sn.binMs) / 1000, 0)}${NBSP}s, drift taken out`);

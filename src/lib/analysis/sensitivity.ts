@@ -68,6 +68,8 @@ export interface PhaseSensitivity {
   shotNoiseLimit: number;
   /** Best phase noise reachable at this visibility and operating point with the segments' dark counts (phaseFloor), rad: 1/(V√N) at mid-fringe without darks. */
   visibilityLimit: number;
+  /** The same without the dark counts: what the visibility alone costs over shot noise, which alignment can gain back. */
+  darkFreeLimit: number;
   /** measured / (1/√N) and in dB (20·log₁₀; negative = below shot noise). */
   ratio: number;
   /** 1σ of `ratio` from `dof`: ratio/√(2·dof). */
@@ -109,6 +111,7 @@ export function phaseSensitivity(segments: readonly NoiseSegment[], visibility: 
   let dof = 0;
   let shot2 = 0;
   let floor2 = 0;
+  let darkFree2 = 0;
   for (const s of segments) {
     const n = s.phases.length;
     if (n < 3) continue;
@@ -119,6 +122,7 @@ export function phaseSensitivity(segments: readonly NoiseSegment[], visibility: 
     dof += k;
     shot2 += k / photons;
     floor2 += k * phaseFloor(s.signalA, s.signalB, visibility, s.phase, s.darkA, s.darkB) ** 2;
+    darkFree2 += k * phaseFloor(s.signalA, s.signalB, visibility, s.phase) ** 2;
   }
   if (dof === 0) return null;
   const measured = Math.sqrt(rss / dof);
@@ -131,6 +135,7 @@ export function phaseSensitivity(segments: readonly NoiseSegment[], visibility: 
     dof,
     shotNoiseLimit,
     visibilityLimit,
+    darkFreeLimit: Math.sqrt(darkFree2 / dof),
     ratio,
     ratioErr: ratio / Math.sqrt(2 * dof),
     dB: 20 * Math.log10(ratio),

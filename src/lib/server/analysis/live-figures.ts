@@ -214,16 +214,17 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
       if (!(Math.abs(d.value) < MID_FRINGE_BAND * v)) continue;
       const eps = new Float64Array(n);
       for (let i = 0; i < n; i++) eps[i] = quadratureError((a[i] as number) * fa, (b[i] as number) * fb, perBin).value;
-      // The limits count signal photons: dark counts are noise of their own, not light.
+      // The shot-noise limit counts signal photons; the floor also the darks, Poisson noise with
+      // no fringe in them that every reading of these detectors carries.
       const signalA = na / n - perBin.darkA;
       const signalB = nb / n - perBin.darkB;
       if (!eps.every(Number.isFinite) || !(signalA + signalB > 0)) continue;
-      segments.push({ phases: eps, signalA, signalB, phase: Math.acos(d.value / v) });
+      segments.push({ phases: eps, signalA, signalB, darkA: perBin.darkA, darkB: perBin.darkB, phase: Math.acos(d.value / v) });
       bins += n;
     }
     const s = phaseSensitivity(segments, v);
     if (s && [s.measured, s.shotNoiseLimit, s.ratio, s.ratioErr, s.dB, s.visibilityLimit].every(Number.isFinite)) {
-      shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, ratioErr: s.ratioErr, dB: s.dB, binMs: dt, visibilityLimitRad: s.visibilityLimit, bins };
+      shotNoise = { measuredRad: s.measured, limitRad: s.shotNoiseLimit, ratio: s.ratio, ratioErr: s.ratioErr, dB: s.dB, binMs: dt, visibilityLimitRad: s.visibilityLimit, bins, ...(perBin.darkA + perBin.darkB > 0 && Number.isFinite(s.darkFreeLimit) ? { darkFreeLimitRad: s.darkFreeLimit } : {}) };
     }
   }
 
