@@ -35,11 +35,13 @@ export interface Stability {
   tau0: number;
   rates: RateStability[];
   /**
-   * Allan deviation of the phase (rad) over the buckets where the drive held still, pooled over the
-   * `stretches` of consecutive such buckets at one position; null without a visibility to scale
-   * by or without enough held buckets. `net`: the visibility is net of darks (shownVisibility), and
-   * the darks were taken off the counts to match. `poissonLimit`: 1/(V√N) of each bucket's N signal
-   * counts carried to τ, the least noise a phase reading of the counts can have (at mid-fringe).
+   * Allan deviation of the phase (rad) over the buckets where the drive held still and the phase
+   * read away from the fringe extremes, pooled over the `stretches` of consecutive such buckets at
+   * one position; null without a visibility to scale by or without enough such buckets. `net`: the
+   * visibility is net of darks (shownVisibility), and the darks were taken off the counts to match.
+   * `poissonLimit`: the Cramér–Rao bound of each bucket's two output counts at its phase, dark
+   * counts included (phaseFloor; 1/(V√N) at mid-fringe without darks), carried to τ: the least
+   * noise counting alone leaves in a phase read from those counts.
    */
   phase: { visibility: number; net: boolean; points: FlooredPoint[]; heldBuckets: number; stretches: number } | null;
   /** Most buckets with no stored bins in any one channel; each series is split at them, never joined across. */

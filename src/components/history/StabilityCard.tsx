@@ -1,6 +1,6 @@
 // How steady a bench was over a range (the history's, or a run's in its report): the overlapping
 // Allan deviation of each output's rate beside its white counting-noise floor √(R/τ), and of the
-// phase beside its floor 1/(V√N) when the server can derive it, on log–log axes where white noise
+// phase beside its counting-noise floor (dark counts included) when the server can derive it, on log–log axes where white noise
 // is a straight τ^(−1/2) line and drift turns the curve up. Both over the buckets where the drive
 // held still.
 import { useEffect, useMemo, useRef } from 'react';
@@ -11,6 +11,7 @@ import { useFetched } from '../../lib/client/use-fetched.ts';
 import { withAlpha, type ChartPalette } from '../../lib/client/chart-theme.ts';
 import { formatRate, formatRateTick } from '../../lib/client/format.ts';
 import { MIN_EDF } from '../../lib/analysis/allan.ts';
+import { FRINGE_EXTREME_MARGIN } from '../../lib/analysis/phase.ts';
 import { seriesLabel } from '../../lib/import-shapes.ts';
 import type { FlooredPoint, Stability } from '../../lib/stability.ts';
 import { ChartState } from '../charts/ChartState.tsx';
@@ -141,7 +142,7 @@ export function StabilityView(props: { answer: Stability | null; loading: boolea
   const phase = answer?.phase ?? null;
   const phaseCurves = useMemo((): Curve[] => (phase ? [
     { label: 'phase', colour: (p) => p.accent, points: measured(phase.points) },
-    { label: 'floor 1/(V√N)', colour: (p) => p.accent, floor: true, points: floor(phase.points) },
+    { label: 'floor, darks included', colour: (p) => p.accent, floor: true, points: floor(phase.points) },
   ] : []), [phase]);
   const empty = !loading && !error && outputs.length === 0;
   const whole = outputs.some((r) => r.covers === 'whole');
@@ -196,7 +197,7 @@ export function StabilityView(props: { answer: Stability | null; loading: boolea
           ) : (
             <p className="text-sm text-muted">{loading || error ? '–' : 'No phase for this range: it needs both outputs, a fitted pass for the visibility and the drive held still long enough.'}</p>
           )}
-          {phase && <p className="mt-1 text-xs text-muted">Floor: 1/(V√N) for the N signal counts of each bucket, the least noise a phase read from the two outputs can have (at mid-fringe; further from it counting noise alone reads higher). The shot-noise limit 1/√N lies lower by V.</p>}
+          {phase && <p className="mt-1 text-xs text-muted" data-testid="stability-phase-floor">Floor: the least noise counting alone leaves in a phase read from each bucket's two outputs at its phase (the Cramér–Rao bound), dark counts included: 1/(V√N) for N signal counts at mid-fringe without darks, higher away from it and with darks. Buckets within {FRINGE_EXTREME_MARGIN} rad of the fringe's top or bottom, where the phase cannot be read and the floor grows without limit, are left out of both curves. The shot-noise limit 1/√N of the signal lies lower still.</p>}
         </div>
       </div>
     </section>

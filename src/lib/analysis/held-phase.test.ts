@@ -35,6 +35,15 @@ describe('phase while the drive held still', () => {
     expect(heldPhaseStretches({ a, b, held }, cal).map((s) => [s.run.start, s.phase.length])).toEqual([[0, 2], [3, 2], [5, 2], [9, 1]]);
   });
 
+  it('leaves out the buckets within the margin of a fringe extreme, where the phase floor diverges, and splits there', () => {
+    // A drift through θ = 0 read folded: 0.8, 0.5, 0.2 (inside the 0.35 rad margin), 0.1, 0.4, 0.7.
+    const thetas = [0.8, 0.5, 0.2, 0.1, 0.4, 0.7, Math.PI - 0.3, 2];
+    const c = thetas.map(countsAt);
+    const stretches = heldPhaseStretches({ a: c.map((v) => v.a), b: c.map((v) => v.b), held: thetas.map(() => 5) }, cal);
+    expect(stretches.map((s) => [s.run.start, s.run.end])).toEqual([[0, 2], [4, 6], [7, 8]]);
+    expect([...stretches[1]!.phase].map((p) => Number(p.toFixed(9)))).toEqual([0.4, 0.7]);
+  });
+
   it('gives a rate the same stretches: sweeps, moves between holds and gaps split it, and a still drive without positions (0) holds throughout', () => {
     const values = [10, 11, 12, 13, null, 14, 15, 16, 17, 18];
     const held = [5, 5, null, 5, 5, 5, 7, 7, 0, 0];

@@ -1,8 +1,9 @@
 // The stretches of a bucketed series where the drive held still, for the Allan deviation: a bucket
 // where the drive moved, one without a value, or a new hold position ends a stretch, so no
 // difference spans a sweep, a gap or a move between holds and τ stays a true time. The phase takes
-// these stretches of the buckets with both outputs; each output's rate the same stretches of its own.
-import { phaseAtHold, unfoldPhase, type HoldCalibration } from './phase.ts';
+// these stretches of the buckets with both outputs read away from the fringe extremes; each
+// output's rate the same stretches of its own.
+import { FRINGE_EXTREME_MARGIN, phaseAtHold, type HoldCalibration } from './phase.ts';
 
 /** A stretch of consecutive usable buckets at one hold position: indices [start, end). */
 export interface HeldRun {
@@ -48,9 +49,14 @@ export interface PhaseBuckets {
 }
 
 /**
- * Unfolded phase (rad) of each stretch of consecutive buckets with both outputs at one hold
+ * Phase θ ∈ [0, π] (rad) of each stretch of consecutive buckets with both outputs at one hold
  * position, with the run of buckets it covers. `cal` carries the per-bucket dark counts.
- * Unfolding runs within a stretch only: across a gap the phase may have moved by any amount.
+ * A bucket within FRINGE_EXTREME_MARGIN of a fringe extreme ends a stretch as a missing one does:
+ * its reading is clipped and compressed there, and its counting-noise floor grows without limit,
+ * so one such bucket would outweigh a stretch of mid-fringe ones in the floor's mean variance and
+ * make it meaningless. Leaving them out of the series and the floor alike keeps the two comparable;
+ * a stretch then never crosses an extreme, so its phase needs no unfolding, and a drift through
+ * one splits the series there (no difference spans the crossing).
  */
 export function heldPhaseStretches(buckets: PhaseBuckets, cal: HoldCalibration): { run: HeldRun; phase: Float64Array }[] {
   const theta = buckets.held.map((_, i) => {
@@ -58,5 +64,6 @@ export function heldPhaseStretches(buckets: PhaseBuckets, cal: HoldCalibration):
     const b = buckets.b[i] ?? null;
     return a !== null && b !== null ? phaseAtHold(a, b, cal).value : Number.NaN;
   });
-  return heldRuns((i) => Number.isFinite(theta[i]), buckets.held).map((run) => ({ run, phase: unfoldPhase(theta.slice(run.start, run.end)) }));
+  const readable = (i: number) => theta[i]! >= FRINGE_EXTREME_MARGIN && theta[i]! <= Math.PI - FRINGE_EXTREME_MARGIN;
+  return heldRuns(readable, buckets.held).map((run) => ({ run, phase: Float64Array.from(theta.slice(run.start, run.end)) }));
 }

@@ -67,6 +67,15 @@ export function unwrapPhase(wrapped: ArrayLike<number>): Float64Array {
   return out;
 }
 
+/**
+ * Within this distance of a fringe extreme (θ = 0 or π), rad, a reading is too near where the
+ * phase's slope vanishes to be read as a phase: noise on arccos near ±1 is large, the reading is
+ * clipped there, and below V = 1 the Cramér–Rao bound grows without limit (phaseFloor: at this
+ * margin's edge 1.3× its mid-fringe value at V = 0.95, 1.9× at V = 0.8). unfoldPhase takes a turn
+ * inside it as a crossing of the extreme.
+ */
+export const FRINGE_EXTREME_MARGIN = 0.35;
+
 export interface UnfoldOptions {
   /** A turn this close to 0 or π, rad, is taken as a crossing of the fringe extreme. */
   margin?: number;
@@ -81,7 +90,7 @@ export interface UnfoldOptions {
  * extreme is read as continuing.
  */
 export function unfoldPhase(folded: ArrayLike<number>, options: UnfoldOptions = {}): Float64Array {
-  const margin = options.margin ?? 0.35; // rad: noise on arccos near ±1 is large
+  const margin = options.margin ?? FRINGE_EXTREME_MARGIN;
   const hyst = options.hysteresis ?? 0.1; // rad
   const n = folded.length;
   const out = new Float64Array(n);

@@ -3,12 +3,13 @@
 // rate). Only buckets where the drive held still count, for the rates as for the phase: a sweep or
 // a move to a new hold changes the rates by the fringe's whole depth, and read as drift it put the
 // rate curves some 50× above their floor. Every series is split at missing buckets, moves and new
-// hold positions, and the Allan deviation pooled over the stretches, so no difference spans a gap
-// and τ is a true time.
+// hold positions (the phase also at buckets read near a fringe extreme), and the Allan deviation
+// pooled over the stretches, so no difference spans a gap and τ is a true time.
 import { allanDeviation, whiteNoiseFloor, type AllanPoint } from '../../analysis/allan.ts';
 import { countsBeforeDeadTime } from '../../analysis/dead-time.ts';
 import { heldPhaseStretches, heldStretches } from '../../analysis/held-phase.ts';
 import { poissonQThroughDeadTime } from '../../analysis/photon-stats.ts';
+import { phaseFloor } from '../../analysis/sensitivity.ts';
 import { channelDeadTime, type ChannelCalibration } from '../../channel-calibration.ts';
 import type { RateStability, Stability } from '../../stability.ts';
 import { shownVisibility } from '../../sweep-visibility.ts';
@@ -142,16 +143,16 @@ export async function benchStability(benchId: string, from: number, to: number, 
     const trueB = beforeDeadTime(b, outB);
     const held = await heldOf(outA.gateway, a.length);
     const stretches = held ? heldPhaseStretches({ a: trueA, b: trueB, held }, cal) : [];
-    // The floor: 1/(V√N) per bucket for its N signal counts, the least phase noise any reading
-    // of two outputs at visibility V reaches (Cramér–Rao, the Fisher information per photon
-    // V²sin²φ/(1 − V²cos²φ) at its largest, V², at mid-fringe; references.md), the live figures'
-    // floor there. Away from mid-fringe counting noise alone reads above it. A
-    // bucket whose counts do not clear the darks counts as one signal count.
-    const variances = stretches.map(({ run }) =>
-      Float64Array.from({ length: run.end - run.start }, (_, k) => {
+    // The floor: per bucket, the Cramér–Rao bound of its two outputs' counts at its own phase
+    // (phaseFloor, the live tile's floor), 1/(V√N) at mid-fringe and more away from it below V = 1.
+    // Its dark counts are Poisson noise with no fringe: where the visibility is net they are taken
+    // off the counts and counted back as noise; where it is raw, the counts and V hold them already.
+    // The stretches leave out the buckets near a fringe extreme (heldPhaseStretches), where the bound
+    // diverges. A bucket's signal is its counts less the darks of the calibration.
+    const variances = stretches.map(({ run, phase: theta }) =>
+      Float64Array.from(theta, (phi, k) => {
         const i = run.start + k;
-        const signal = Math.max(1, trueA[i]! + trueB[i]! - cal.darkA - cal.darkB);
-        return 1 / (visibility * visibility * signal);
+        return phaseFloor(trueA[i]! - cal.darkA, trueB[i]! - cal.darkB, visibility, phi, cal.darkA, cal.darkB) ** 2;
       }),
     );
     const points = withFloor(allanDeviation(stretches.map((s) => s.phase), tau0), variances, tau0);
