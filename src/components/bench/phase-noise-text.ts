@@ -78,7 +78,8 @@ export function phaseNoiseText(sn: ShotNoise, visibility: number): PhaseNoiseTex
   const withDarks = darkFree !== sn.visibilityLimitRad;
   lines.push(`floor ${(sn.visibilityLimitRad * 1000).toFixed(mradDecimals)} at V${NBSP}${visibility.toFixed(2)}${withDarks ? ' with darks' : ''}`);
   lines.push(`alignment can gain ${alignmentDb.toFixed(1)}${NBSP}dB`);
-  if (withDarks) lines.push(`darks cost ${darksDb.toFixed(1)}${NBSP}dB`);
+  // Below what one decimal shows (the 633 nm bench's darks) the line would only say "0.0": the floor's "with darks" tells they were counted.
+  if (withDarks && darksDb >= 0.05) lines.push(`darks cost ${darksDb.toFixed(1)}${NBSP}dB`);
   lines.push(`noise above floor ${signed(aboveFloorDb, dbDecimals)}${rel !== null ? `${PLUS_MINUS}${(DB_PER_RELATIVE * rel).toFixed(dbDecimals)}` : ''}${NBSP}dB`);
   // How long the reading is: a few seconds read after a move scatter more than the window's ten.
   if (sn.bins !== undefined && sn.binMs) lines.push(`over ${formatNumber((sn.bins * sn.binMs) / 1000, 0)}${NBSP}s, drift taken out`);
