@@ -40,8 +40,12 @@ afterAll(async () => {
 
 async function visit(pathname: string): Promise<void> {
   await admin.page.goto(app.url + pathname);
-  // Islands hydrate after the load event; sockets open and first messages arrive within this.
-  await admin.page.waitForTimeout(1500);
+  // Astro drops an island's ssr attribute once its hydrator has run: on a loaded machine that can
+  // be seconds after the load event, so wait for it rather than for a fixed time after load.
+  await admin.page.waitForFunction(() => document.querySelector('astro-island[ssr]') === null, undefined, { timeout: 30_000 });
+  // A mismatch is reported while React finishes hydrating, and the first live messages re-render
+  // the islands: a quiet second after hydration in which any error shows.
+  await admin.page.waitForTimeout(1000);
 }
 
 describe('hydration', () => {
@@ -75,11 +79,11 @@ describe('hydration', () => {
       await route.continue();
     });
     await visit('/benches/mz-633');
-    await admin.page.waitForTimeout(1000);
     await admin.page.unroute(held);
     expect(errors).toEqual([]);
-    // The island did hydrate, onto an open socket: no "connecting" line left over.
+    // The island did hydrate, onto an open socket: no "connecting" line left over once the
+    // socket's first message is in (how soon depends on the machine, so polled).
     expect(await admin.page.getByRole('region', { name: 'Drive status' }).getByRole('button', { name: 'Stop drive' }).isVisible()).toBe(true);
-    expect(await admin.page.getByText('Connecting to the live feed…').count()).toBe(0);
+    await expect.poll(() => admin.page.getByText('Connecting to the live feed…').count(), { timeout: 15_000 }).toBe(0);
   });
 });
