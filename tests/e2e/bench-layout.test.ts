@@ -8,7 +8,7 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Locator, Page } from 'playwright-core';
 import type { RunningApp } from '../../src/server/app.ts';
-import { launchBrowser, SCREENSHOT_DIR, signIn, type Browser } from '../helpers/browser.ts';
+import { islandsHydrated, launchBrowser, SCREENSHOT_DIR, signIn, type Browser } from '../helpers/browser.ts';
 import { startWebApp } from '../helpers/web-app.ts';
 
 const BENCH = 'mz-633';
@@ -49,6 +49,8 @@ describe('bench page layout', () => {
   it('keeps the Stop within reach of an operator wherever the page is scrolled while the drive sweeps', async () => {
     const page = operator.page;
     await page.goto(`${app.url}/benches/${BENCH}`);
+    // The sweep form is typed into below: React must own its inputs first.
+    await islandsHydrated(page);
     const strip = page.getByRole('region', { name: 'Drive status' });
     const stop = strip.getByRole('button', { name: 'Stop drive' });
     await stop.waitFor();

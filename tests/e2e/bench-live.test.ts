@@ -7,7 +7,7 @@ import { readFile } from 'node:fs/promises';
 import type { Page } from 'playwright-core';
 import type { RunningApp } from '../../src/server/app.ts';
 import { findDemoBench } from '../../simulators/demo-benches.ts';
-import { launchBrowser, screenshotBothThemes, signIn, type Browser } from '../helpers/browser.ts';
+import { islandsHydrated, launchBrowser, screenshotBothThemes, signIn, type Browser } from '../helpers/browser.ts';
 import { startWebApp } from '../helpers/web-app.ts';
 
 const BENCH = 'mz-810';
@@ -176,6 +176,7 @@ describe('bench live view', () => {
   it('exports a range typed in local time as the counts CSV, and says what is wrong with a bad range', async () => {
     const page = operator.page;
     await page.goto(`${app.url}/benches/${BENCH}/import`);
+    await islandsHydrated(page);
     const from = page.getByLabel('From (your local time)');
     await from.fill('yesterday');
     await page.getByRole('button', { name: 'Download' }).click();

@@ -10,7 +10,7 @@ import { insertRaised } from '../../src/lib/server/alarms/event-store.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
 import { alarmRules } from '../../src/lib/server/db/schema.ts';
 import { createBench } from '../../src/lib/server/provisioning.ts';
-import { launchBrowser, signIn, type Browser } from '../helpers/browser.ts';
+import { islandsHydrated, launchBrowser, signIn, type Browser } from '../helpers/browser.ts';
 import { startWebApp } from '../helpers/web-app.ts';
 
 // A bench of this file's own with a raised alarm, whose times the banner and the lists show.
@@ -40,9 +40,8 @@ afterAll(async () => {
 
 async function visit(pathname: string): Promise<void> {
   await admin.page.goto(app.url + pathname);
-  // Astro drops an island's ssr attribute once its hydrator has run: on a loaded machine that can
-  // be seconds after the load event, so wait for it rather than for a fixed time after load.
-  await admin.page.waitForFunction(() => document.querySelector('astro-island[ssr]') === null, undefined, { timeout: 30_000 });
+  // On a loaded machine hydration can come seconds after the load event: waited for, not timed.
+  await islandsHydrated(admin.page);
   // A mismatch is reported while React finishes hydrating, and the first live messages re-render
   // the islands: a quiet second after hydration in which any error shows.
   await admin.page.waitForTimeout(1000);

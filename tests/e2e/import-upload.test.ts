@@ -5,7 +5,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { DEMO_ACCOUNTS } from '../../src/lib/server/seed.ts';
 import { createBench } from '../../src/lib/server/provisioning.ts';
 import type { RunningApp } from '../../src/server/app.ts';
-import { launchBrowser, signIn, type Browser } from '../helpers/browser.ts';
+import { islandsHydrated, launchBrowser, signIn, type Browser } from '../helpers/browser.ts';
 import { startWebApp } from '../helpers/web-app.ts';
 
 const BENCH = `e2e-imp-${Date.now().toString(36).slice(-6)}`;
@@ -46,6 +46,7 @@ describe('importing a CSV', () => {
   it('reports a refused row once, for its fault', async () => {
     const page = browser.page;
     await page.goto(`${app.url}/benches/${BENCH}/import`);
+    await islandsHydrated(page);
     await choose('t_ms,a,b\n1000,3,x\n');
     const problems = page.getByRole('alert').filter({ hasText: 'Problems found' });
     await problems.waitFor();
@@ -55,6 +56,7 @@ describe('importing a CSV', () => {
   it('links the new run after a good import, and the history names its channels by the run', async () => {
     const page = browser.page;
     await page.goto(`${app.url}/benches/${BENCH}/import`);
+    await islandsHydrated(page);
     await choose(recording());
     await page.locator('#imp-title').fill('Offline fringe');
     await page.getByRole('button', { name: 'Import as a new run' }).click();

@@ -64,6 +64,16 @@ export async function signIn(page: Page, baseUrl: string, email: string, passwor
   await Promise.all([page.waitForURL((u) => !u.pathname.startsWith('/signin')), page.click('form button[type=submit]')]);
 }
 
+/**
+ * Waits until every island on the page has hydrated: Astro drops an island's ssr attribute once
+ * its hydrator has run. An island's script loads after the load event (where goto returns), so on
+ * a loaded machine a test that types or clicks at once reaches the server's markup, whose inputs
+ * React does not read and whose buttons do nothing yet (or submit the plain form).
+ */
+export async function islandsHydrated(page: Page): Promise<void> {
+  await page.waitForFunction(() => document.querySelector('astro-island[ssr]') === null, undefined, { timeout: 30_000 });
+}
+
 /** Full-page screenshots of the current page in both themes: test-results/<name>-<theme>.png. */
 export async function screenshotBothThemes(page: Page, name: string): Promise<string[]> {
   mkdirSync(SCREENSHOT_DIR, { recursive: true });
