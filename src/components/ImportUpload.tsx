@@ -1,5 +1,5 @@
 // Upload of a counts CSV recorded offline: preview first (nothing stored), then import into a new run.
-import { useState } from 'react';
+import { useEffect, useRef, useState } from 'react';
 import { formatDateTime } from '../lib/client/format.ts';
 import { MAX_IMPORT_BYTES, overlapMessage, type ImportOverlap, type ImportPreview as Preview, type ImportResult as Imported } from '../lib/import-shapes.ts';
 
@@ -70,6 +70,20 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
   const [busy, setBusy] = useState(false);
   const [progress, setProgress] = useState<Progress>(null);
   const base = `/api/v1/benches/${encodeURIComponent(benchId)}/import`;
+  const fileInput = useRef<HTMLInputElement>(null);
+
+  const choose = (f: File | null) => {
+    setFile(f);
+    setPreview(null);
+    setDone(null);
+    setError(f && f.size > MAX_IMPORT_BYTES ? 'This file is larger than 50 MiB; split it and import the parts.' : null);
+  };
+  // A file chosen before the island hydrated (a slow device) fired a change React never saw: it
+  // is taken up here, or Check file would stay disabled beside the file the reader sees chosen.
+  useEffect(() => {
+    const f = fileInput.current?.files?.[0];
+    if (f) choose(f);
+  }, []);
 
   const run = async <T,>(fn: () => Promise<T>): Promise<T | null> => {
     setBusy(true);
@@ -109,13 +123,8 @@ export default function ImportUpload({ benchId }: { benchId: string }) {
             type="file"
             accept=".csv,text/csv,text/plain"
             required
-            onChange={(e) => {
-              const f = e.target.files?.[0] ?? null;
-              setFile(f);
-              setPreview(null);
-              setDone(null);
-              setError(f && f.size > MAX_IMPORT_BYTES ? 'This file is larger than 50 MiB; split it and import the parts.' : null);
-            }}
+            ref={fileInput}
+            onChange={(e) => choose(e.target.files?.[0] ?? null)}
           />
         </div>
         <div>
