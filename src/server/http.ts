@@ -2,6 +2,7 @@
 // WebSocket upgrades handed to whoever registered for a path (Astro endpoints never see upgrades).
 import { existsSync } from 'node:fs';
 import http from 'node:http';
+import type { Socket } from 'node:net';
 import type { Duplex } from 'node:stream';
 import path from 'node:path';
 import { pathToFileURL } from 'node:url';
@@ -29,6 +30,32 @@ function answer(res: http.ServerResponse, status: number, error: string, api: bo
   res.end(api ? JSON.stringify({ error }) : error);
 }
 
+/**
+ * How long a connection answered and closed before its request body was read goes on taking that
+ * body, ms. A client that writes its whole body before reading (browsers, most scripts) is still
+ * sending when an early answer (413 for an announced oversize upload) leaves; closing the socket
+ * with its bytes unread makes the kernel answer them with a reset, which can reach the client
+ * before the answer does. So the server half-closes, reads and drops what comes, and closes when
+ * the client does or after this long ("lingering close", RFC 9112 §9.6).
+ */
+const LINGER_MS = 2_000;
+
+/**
+ * Called when a response has finished: Node then ends the socket of a `Connection: close` answer
+ * and destroys it once our side is flushed. Where the request's body is still coming, the destroy
+ * waits for the client's end or LINGER_MS instead.
+ */
+function lingerIfBodyUnread(req: http.IncomingMessage, socket: Socket): void {
+  if (req.complete || !socket.writableEnded || socket.destroyed) return;
+  // The destroy Node's `destroySoon` left for when our side is flushed (net.Socket, Node 20).
+  socket.removeListener('finish', socket.destroy);
+  const timer = setTimeout(() => socket.destroy(), LINGER_MS);
+  socket.once('end', () => socket.destroy());
+  socket.once('close', () => clearTimeout(timer));
+  // Node's answer already left the body to be dropped (the request was dumped); keep it flowing.
+  req.resume();
+}
+
 export async function startWebServer(opts: {
   port: number;
   host: string;
@@ -42,6 +69,7 @@ export async function startWebServer(opts: {
   const clientDir = path.join(dist, 'client');
 
   const server = http.createServer((req, res) => {
+    res.once('finish', () => lingerIfBodyUnread(req, req.socket));
     const url = req.url ?? '/';
     const pathname = url.split('?')[0] ?? '/';
     const api = pathname.startsWith('/api/');

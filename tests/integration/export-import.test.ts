@@ -1,5 +1,6 @@
 // Export then import gives identical bins; a corrupt or oversized upload stores nothing and says why.
 // Through the real HTTP routes of the built app.
+import net from 'node:net';
 import { and, eq, like } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { getDb } from '../../src/lib/server/db/index.ts';
@@ -287,6 +288,42 @@ describe('export and import', () => {
     const next = await preview('t_ms,a\n9000,1\n9010,2\n');
     expect(((await next.json()) as { issues: unknown[] }).issues).toEqual([]);
     expect(Date.now() - started).toBeLessThan(1000);
+  });
+
+  it('keeps reading a refused upload a while after its 413, so the client reads the answer rather than a reset', async () => {
+    // A client that writes its whole body before reading (as browsers and most scripts do) is still
+    // sending when the 413 leaves. Closing the socket with its bytes unread makes the kernel answer
+    // them with a reset, which can reach the client before the 413 does ("lingering close",
+    // RFC 9112 §9.6). Here the client goes on writing after the answer: every write must be taken,
+    // and the connection then end cleanly.
+    const { port } = new URL(app.url);
+    // Half-open allowed, as a client still writing its body is: the server's end of sending must not end the upload.
+    const socket = net.connect({ port: Number(port), host: '127.0.0.1', allowHalfOpen: true });
+    await new Promise<void>((resolve) => socket.once('connect', () => resolve()));
+    let reply = '';
+    let failed: Error | null = null;
+    socket.on('data', (d: Buffer) => (reply += d.toString('latin1')));
+    socket.on('error', (e) => (failed = e));
+    const ended = new Promise<void>((resolve) => socket.once('close', () => resolve()));
+    socket.write(
+      `POST /api/v1/benches/${DST}/import/preview HTTP/1.1\r\nHost: 127.0.0.1\r\nAuthorization: Bearer ${op}\r\n` +
+        `Content-Type: text/csv\r\nContent-Length: ${60 * 1024 * 1024}\r\n\r\n`,
+    );
+    await expect.poll(() => reply).toMatch(/^HTTP\/1\.1 413 /);
+    const chunk = Buffer.alloc(256 * 1024, 0x30);
+    for (let i = 0; i < 8 && !failed; i++) {
+      await new Promise<void>((resolve) =>
+        socket.write(chunk, (err) => {
+          if (err) failed = err;
+          resolve();
+        }),
+      );
+      await new Promise((r) => setTimeout(r, 20));
+    }
+    socket.end();
+    await ended;
+    expect(failed).toBeNull();
+    expect(reply).toContain('larger than');
   });
 
   it('lets only operators import', async () => {

@@ -8,7 +8,8 @@
 // answer, and an answer cut off mid-upload reaches the page as "Failed to fetch". So the rest of
 // a body the handler stopped reading early (20 problems, a JSON export) is read and dropped, up to
 // the upload cap; a body past the cap, or refused before it was read, is answered with
-// `Connection: close` (the upload island never sends one past the cap).
+// `Connection: close`, the server reading and dropping the rest a while before it closes so the
+// client reads the answer, not a reset (src/server/http.ts; the upload island never sends one past the cap).
 import { HttpError, problem } from '../http/responses.ts';
 import { MAX_IMPORT_BYTES } from '../../import-shapes.ts';
 import { mib } from './import.ts';
