@@ -1,34 +1,27 @@
 // Migration 0011 lets alarm events outlive their rule: each keeps the rule's name and metric, and
 // deleting the rule leaves its rule id empty instead of deleting the events. Events of an older
 // database get the name and metric their rule has when it runs.
-import { cp, mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
-import { tmpdir } from 'node:os';
-import path from 'node:path';
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { getDbHandle } from '../../src/lib/server/db/index.ts';
 import { migrateDatabase } from '../../src/lib/server/db/migrate.ts';
 import { useFreshDatabase, type FreshDatabase } from '../helpers/fresh-db.ts';
+import { migrationsBefore, type OlderMigrations } from '../helpers/older-migrations.ts';
 
 let db: FreshDatabase;
-let before: string;
+let before: OlderMigrations | undefined;
 
 beforeAll(async () => {
   db = await useFreshDatabase('alarmhist');
   // The committed migrations before events kept their rule's name, as an older install has them.
-  before = await mkdtemp(path.join(tmpdir(), 'fw-migrations-'));
-  await cp(path.resolve('drizzle'), before, { recursive: true });
-  const journalPath = path.join(before, 'meta', '_journal.json');
-  const journal = JSON.parse(await readFile(journalPath, 'utf8')) as { entries: { idx: number; tag: string }[] };
-  journal.entries = journal.entries.filter((e) => e.idx < 11);
-  await writeFile(journalPath, JSON.stringify(journal));
+  before = await migrationsBefore(11);
 });
 afterAll(async () => {
   await db?.restore();
-  if (before) await rm(before, { recursive: true, force: true });
+  await before?.remove();
 });
 
 it('names the events of older databases after their rule, and keeps them when the rule is deleted', async () => {
-  await migrateDatabase(before);
+  await migrateDatabase(before!.dir);
   const pool = getDbHandle().pool;
   await pool.query("insert into benches (id, name, wavelength_nm) values ('one', 'One', 633)");
   const rule = async (name: string, metric: string) =>

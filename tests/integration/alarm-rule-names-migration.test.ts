@@ -1,34 +1,27 @@
 // Migration 0009 makes a rule's name unique per bench (in any letter case). An older database may
 // hold rules named alike: the migration still runs, gives each twin but the oldest the first free
 // " (n)", and records each rename in the audit trail.
-import { cp, mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
-import { tmpdir } from 'node:os';
-import path from 'node:path';
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { getDbHandle } from '../../src/lib/server/db/index.ts';
 import { migrateDatabase } from '../../src/lib/server/db/migrate.ts';
 import { useFreshDatabase, type FreshDatabase } from '../helpers/fresh-db.ts';
+import { migrationsBefore, type OlderMigrations } from '../helpers/older-migrations.ts';
 
 let db: FreshDatabase;
-let before: string;
+let before: OlderMigrations | undefined;
 
 beforeAll(async () => {
   db = await useFreshDatabase('rulenames');
   // The committed migrations before the unique index, as an older install has them.
-  before = await mkdtemp(path.join(tmpdir(), 'fw-migrations-'));
-  await cp(path.resolve('drizzle'), before, { recursive: true });
-  const journalPath = path.join(before, 'meta', '_journal.json');
-  const journal = JSON.parse(await readFile(journalPath, 'utf8')) as { entries: { idx: number; tag: string }[] };
-  journal.entries = journal.entries.filter((e) => e.idx < 9);
-  await writeFile(journalPath, JSON.stringify(journal));
+  before = await migrationsBefore(9);
 });
 afterAll(async () => {
   await db?.restore();
-  if (before) await rm(before, { recursive: true, force: true });
+  await before?.remove();
 });
 
 it('renames the twins of older databases, audited, then refuses new ones', async () => {
-  await migrateDatabase(before);
+  await migrateDatabase(before!.dir);
   const pool = getDbHandle().pool;
   await pool.query("insert into benches (id, name, wavelength_nm) values ('one', 'One', 633), ('two', 'Two', 810)");
   const names: [string, string][] = [

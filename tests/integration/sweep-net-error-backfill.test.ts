@@ -1,33 +1,26 @@
 // Migration 0007 gives sweeps stored before the net visibility's error had a column that error,
 // from the 68% interval their stored fit kept for the net V; rows without one stay raw only.
-import { cp, mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
-import { tmpdir } from 'node:os';
-import path from 'node:path';
 import { afterAll, beforeAll, expect, it } from 'vitest';
 import { getDbHandle } from '../../src/lib/server/db/index.ts';
 import { migrateDatabase } from '../../src/lib/server/db/migrate.ts';
 import { useFreshDatabase, type FreshDatabase } from '../helpers/fresh-db.ts';
+import { migrationsBefore, type OlderMigrations } from '../helpers/older-migrations.ts';
 
 let db: FreshDatabase;
-let before: string;
+let before: OlderMigrations | undefined;
 
 beforeAll(async () => {
   db = await useFreshDatabase('netbackfill');
   // The committed migrations up to the one before the new column, as an older install has them.
-  before = await mkdtemp(path.join(tmpdir(), 'fw-migrations-'));
-  await cp(path.resolve('drizzle'), before, { recursive: true });
-  const journalPath = path.join(before, 'meta', '_journal.json');
-  const journal = JSON.parse(await readFile(journalPath, 'utf8')) as { entries: { idx: number }[] };
-  journal.entries = journal.entries.filter((e) => e.idx <= 5);
-  await writeFile(journalPath, JSON.stringify(journal));
+  before = await migrationsBefore(6);
 });
 afterAll(async () => {
   await db?.restore();
-  if (before) await rm(before, { recursive: true, force: true });
+  await before?.remove();
 });
 
 it('fills the net error from the stored fit and leaves rows without one raw only', async () => {
-  await migrateDatabase(before);
+  await migrateDatabase(before!.dir);
   const pool = getDbHandle().pool;
   await pool.query("insert into benches (id, name, wavelength_nm) values ('old', 'Old', 633)");
   const fits = [
