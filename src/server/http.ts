@@ -69,7 +69,9 @@ export async function startWebServer(opts: {
   const clientDir = path.join(dist, 'client');
 
   const server = http.createServer((req, res) => {
-    res.once('finish', () => lingerIfBodyUnread(req, req.socket));
+    // Taken now: by the time the answer has finished, Node may have detached the socket from it.
+    const socket = req.socket;
+    res.once('finish', () => lingerIfBodyUnread(req, socket));
     const url = req.url ?? '/';
     const pathname = url.split('?')[0] ?? '/';
     const api = pathname.startsWith('/api/');
