@@ -22,14 +22,17 @@ export async function useFreshDatabase(tag: string): Promise<FreshDatabase> {
   const name = `fw_${tag}_${process.pid}_${Date.now().toString(36)}`.replace(/[^a-z0-9_]/g, '_');
   const adminUrl = withDatabase(base, 'postgres');
   await ensureDatabase(adminUrl, name);
-  await closeDb();
   const url = withDatabase(base, name);
+  // The URL before the close: whatever opens the database while the old pool ends opens this one.
   process.env['DATABASE_URL'] = url;
+  await closeDb();
   return {
     url,
     restore: async () => {
-      await closeDb();
+      // As above: a timer of an app just closed that reaches for the database meanwhile must get
+      // the run's own, not this one, which is dropped next (a later file once failed on that).
       process.env['DATABASE_URL'] = base;
+      await closeDb();
       const client = new pg.Client({ connectionString: adminUrl });
       await client.connect();
       await client.query(`drop database if exists "${name}" with (force)`);
