@@ -41,7 +41,7 @@ beforeAll(async () => {
     await until(async () => (await getDb().select({ g: rollups.gatewayId }).from(rollups).where(eq(rollups.gatewayId, gw.gatewayId))).length > 0, 10_000, 'rollups');
     await client.endAsync();
   }
-  const rule = await createRule(benchB.benchId, ruleInputSchema.parse({ name: 'Overview test', metric: 'rate_low', threshold: 1, clearThreshold: 2, enabled: false }), null);
+  const rule = await createRule(benchB.benchId, ruleInputSchema.parse({ name: 'Overview test', metric: 'rate_low', threshold: 1, clearThreshold: 2, enabled: true }), null);
   await insertRaised({ ruleId: rule.id, ruleName: rule.name, metric: rule.metric, benchId: benchB.benchId, subject: `${benchB.gatewayId}/a`, severity: 'critical', message: 'low', value: 0, at: Date.now() });
 });
 afterAll(async () => {
