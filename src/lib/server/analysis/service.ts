@@ -18,6 +18,7 @@ import { RecentBins } from './recent-bins.ts';
 import { SweepTracker, type CompletedPass } from './sweep-tracker.ts';
 import { fittedSummary, MAX_SWEEPS, sweepsBetween, storeSweep, type StoredFit } from './sweeps-store.ts';
 import { gatewayBatches } from '../export/export.ts';
+import { joinSpans } from '../../spans.ts';
 
 /** `exposure`: each point's bins over the pass's mean bins per point (see FringeData). */
 export type FitFn = (pass: { x: Float64Array; a: Float64Array; b: Float64Array; exposure: Float64Array }, options: FringeFitOptions) => Promise<FringeFitResult>;
@@ -67,17 +68,6 @@ export interface AnalysisService {
    */
   fitStored(benchId: string, gatewayId: string, fromMs: number, toMs: number, within?: Tx): Promise<number>;
   close(): void;
-}
-
-/** Spans [from, to) in time order with those that overlap or touch joined. */
-function joinSpans(spans: readonly [number, number][]): [number, number][] {
-  const joined: [number, number][] = [];
-  for (const [from, to] of [...spans].sort((p, q) => p[0] - q[0])) {
-    const last = joined.at(-1);
-    if (last && from <= last[1]) last[1] = Math.max(last[1], to);
-    else joined.push([from, to]);
-  }
-  return joined;
 }
 
 export function startAnalysis(opts: { fit: FitFn; publish: Publish; lateQuietMs?: number }): AnalysisService {

@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import type { CountsMessage, LiveMessage } from '../../live-messages.ts';
-import { coalesceCounts, countsOutside, joinSpans } from './coalesce.ts';
+import { coalesceCounts, countsOutside } from './coalesce.ts';
+import { joinSpans } from '../../spans.ts';
 
 const counts = (gateway: string, t0: number, n: number): CountsMessage => ({
   type: 'counts',

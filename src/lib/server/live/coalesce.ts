@@ -102,14 +102,3 @@ export function countsOutside(m: CountsMessage, taken: readonly (readonly [numbe
   if (run > 0) out.push(binsBetween(m, run, n));
   return out;
 }
-
-/** Spans [t0, t1) sorted by start, with overlapping or touching ones joined (what countsOutside wants). */
-export function joinSpans(spans: readonly (readonly [number, number])[]): [number, number][] {
-  const out: [number, number][] = [];
-  for (const [a, b] of [...spans].sort((p, q) => p[0] - q[0])) {
-    const prev = out.at(-1);
-    if (prev && a <= prev[1]) prev[1] = Math.max(prev[1], b);
-    else out.push([a, b]);
-  }
-  return out;
-}
