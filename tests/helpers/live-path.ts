@@ -7,6 +7,7 @@ import mqtt, { type MqttClient } from 'mqtt';
 import WebSocket from 'ws';
 import { topicFor, type CountBatch } from '../../src/lib/contract/wire.ts';
 import type { LiveMessage } from '../../src/lib/live-messages.ts';
+import { getDbHandle } from '../../src/lib/server/db/index.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
 import { startWebServer } from '../../src/server/http.ts';
 import { startLivePath, type LivePath, type LivePathOptions } from '../../src/server/live-path.ts';
@@ -136,4 +137,9 @@ export async function until(cond: () => Promise<boolean> | boolean, timeoutMs = 
     await new Promise((r) => setTimeout(r, 25));
   }
   throw new Error(`timed out waiting for ${what}`);
+}
+
+/** Waits until the rollup journal lists no row of the gateway: its rollups hold everything stored. */
+export async function rolledUp(gatewayId: string, timeoutMs = 10_000): Promise<void> {
+  await until(async () => (await getDbHandle().pool.query('select 1 from rollup_pending where gateway_id = $1 limit 1', [gatewayId])).rowCount === 0, timeoutMs, `rollups of ${gatewayId}`);
 }

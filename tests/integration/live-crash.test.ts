@@ -8,7 +8,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import type { MqttClient } from 'mqtt';
 import { freePort, startCluster, type Cluster } from '../../src/lib/server/db/cluster.ts';
 import { closeDb, getDbHandle } from '../../src/lib/server/db/index.ts';
-import { connectGateway, freshGateway, makeBatch, publishBatch, startTestLive } from '../helpers/live-path.ts';
+import { connectGateway, freshGateway, makeBatch, publishBatch, rolledUp, startTestLive } from '../helpers/live-path.ts';
 
 const BASE = Math.floor(Date.now() / 60_000) * 60_000 - 3_600_000;
 const BINS = 100;
@@ -49,6 +49,7 @@ async function expectExactlyOnce(gatewayId: string, batches: number): Promise<vo
   let expected = 0;
   for (let i = 0; i < BINS; i++) expected += value('a', i) + value('b', i);
   expect(rows[0]).toEqual({ bins: batches * BINS, distinct_bins: batches * BINS, sum: batches * expected });
+  await rolledUp(gatewayId);
   const { rows: r } = await pool.query<{ sum: number; bins: number }>(
     `select coalesce(sum(v), 0)::int as sum, (select coalesce(sum(b), 0)::int from rollups r2, unnest(r2.bins) b where r2.gateway_id = $1 and r2.step_ms = 1000) as bins
        from rollups r, unnest(r.sums) v where r.gateway_id = $1 and r.step_ms = 1000`,

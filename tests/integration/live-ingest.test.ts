@@ -14,7 +14,7 @@ import { NEXT_PAGE_SQL } from '../../src/lib/server/live/resume.ts';
 import { maxPacketRemaining } from '../../src/lib/server/mqtt/broker.ts';
 import { listBenches } from '../../src/lib/server/benches.ts';
 import { revokeGateway } from '../../src/lib/server/provisioning.ts';
-import { connectGateway, freshGateway, makeBatch, openLive, openLiveQuery, openStatusWatch, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
+import { connectGateway, freshGateway, makeBatch, openLive, openLiveQuery, openStatusWatch, publishBatch, rolledUp, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
 
 let t: TestLive;
@@ -43,6 +43,7 @@ async function rawSum(gatewayId: string): Promise<{ rows: number; bins: number; 
 }
 
 async function rollupTotal(gatewayId: string, stepMs: number): Promise<{ sum: number; bins: number }> {
+  await rolledUp(gatewayId);
   const [r] = await getDb()
     .select({
       sum: sql<number>`coalesce((select sum(v) from rollups r2, unnest(r2.sums) v where r2.gateway_id = ${gatewayId} and r2.step_ms = ${stepMs} and r2.key <> '#cc'), 0)::int`,

@@ -12,7 +12,8 @@ import { getDbHandle } from './db/index.ts';
 import { unpackRow } from './db/packed-counts.ts';
 import { benchChannels, channelsOfBenches, type BenchChannel } from './benches.ts';
 import { HttpError } from './http/responses.ts';
-import { CC_KEY } from './ingest/rollup-math.ts';
+import { BLOCK_LEN, CC_KEY, rollupDeltas } from './ingest/rollup-math.ts';
+import { sliceOfRow } from './ingest/rollup-journal.ts';
 
 /** Most buckets one answer may hold. */
 export const MAX_POINTS = 100_000;
@@ -163,6 +164,53 @@ function bucketsOf(grid: Grid, channelInfo: BenchChannel[]): BenchBuckets {
   return { b, channelInfo, covered, binMs: new Map() };
 }
 
+/** A block of one level's sums as read: stored, or added up from raw rows still in the rollup journal. */
+interface Block {
+  gateway_id: string;
+  key: string;
+  block_t0: number;
+  sums: number[];
+  bins: number[];
+}
+
+/**
+ * The rollup blocks at `levelMs` of these gateways over [from, to), read in ONE statement, so in
+ * one snapshot: the stored blocks plus the raw rows still listed in the rollup journal, added up
+ * here as the journal would add them (rollup-journal.ts). Between a batch's write and its rollup
+ * statement the answer is the same as after.
+ */
+async function rollupBlocks(gatewayIds: string[], levelMs: number, from: number, to: number): Promise<Block[]> {
+  const blockMs = levelMs * BLOCK_LEN;
+  const blockFrom = Math.floor(from / blockMs) * blockMs;
+  const { rows } = await getDbHandle().pool.query<Block & { t0: number | null; dt: number | null; n: number | null; keys: string[] | null; counts: Buffer | null; cc: Buffer | null }>(
+    `select gateway_id, key, block_t0, sums, bins, null::int8 as t0, null::int4 as dt, null::int4 as n, null::text[] as keys, null::bytea as counts, null::bytea as cc
+       from rollups
+      where gateway_id = any($1::text[]) and step_ms = $2 and block_t0 >= $3 and block_t0 < $4
+     union all
+     select c.gateway_id, null, null, null, null, c.t0, c.dt, c.n, c.keys, c.counts, c.cc
+       from rollup_pending p join count_batches c on c.gateway_id = p.gateway_id and c.t0 = p.t0
+      where p.gateway_id = any($1::text[]) and p.t0 < $4 and c.t1 > $3`,
+    [gatewayIds, levelMs, blockFrom, to],
+  );
+  const blocks = new Map<string, Block>();
+  const listed: { gatewayId: string; slice: ReturnType<typeof sliceOfRow> }[] = [];
+  for (const r of rows) {
+    if (r.counts === null) blocks.set(`${r.gateway_id}\n${r.key}\n${r.block_t0}`, { gateway_id: r.gateway_id, key: r.key, block_t0: r.block_t0, sums: r.sums, bins: r.bins });
+    else listed.push({ gatewayId: r.gateway_id, slice: sliceOfRow(unpackRow({ t0: r.t0!, dt: r.dt!, n: r.n!, keys: r.keys!, counts: r.counts, cc: r.cc })) });
+  }
+  for (const d of rollupDeltas(listed)) {
+    if (d.stepMs !== levelMs || d.blockT0 < blockFrom || d.blockT0 >= to) continue;
+    const id = `${d.gatewayId}\n${d.key}\n${d.blockT0}`;
+    let block = blocks.get(id);
+    if (!block) blocks.set(id, (block = { gateway_id: d.gatewayId, key: d.key, block_t0: d.blockT0, sums: new Array<number>(BLOCK_LEN).fill(0), bins: new Array<number>(BLOCK_LEN).fill(0) }));
+    d.slots.forEach((slot, j) => {
+      block.sums[slot]! += d.sums[j]!;
+      block.bins[slot]! += d.bins[j]!;
+    });
+  }
+  return [...blocks.values()];
+}
+
 /**
  * Fills the benches' buckets from the rollups at `levelMs`, read in one query for all their
  * gateways (a gateway listed by several benches, its channels left behind by a move, fills each).
@@ -171,12 +219,7 @@ async function fillFromRollups(grid: Grid, levelMs: number, parts: BenchBuckets[
   const benchesOf = new Map<string, BenchBuckets[]>();
   for (const p of parts) for (const g of p.covered.keys()) benchesOf.set(g, [...(benchesOf.get(g) ?? []), p]);
   if (!benchesOf.size) return;
-  const blockMs = levelMs * 60;
-  const { rows } = await getDbHandle().pool.query<{ gateway_id: string; key: string; block_t0: number; sums: number[]; bins: number[] }>(
-    `select gateway_id, key, block_t0, sums, bins from rollups
-      where gateway_id = any($1::text[]) and step_ms = $2 and block_t0 >= $3 and block_t0 < $4`,
-    [[...benchesOf.keys()], levelMs, Math.floor(grid.t0 / blockMs) * blockMs, grid.end],
-  );
+  const rows = await rollupBlocks([...benchesOf.keys()], levelMs, grid.t0, grid.end);
   const index = new Buckets(grid.t0, grid.step, grid.points);
   // Rollups count bins per key; a gateway's bins per slot are the most of any of its keys, since
   // every key of a stored row has all its bins (a key missing from some rows, such as a channel

@@ -169,6 +169,18 @@ export const rollups = pgTable(
   (t) => [primaryKey({ columns: [t.gatewayId, t.key, t.stepMs, t.blockT0] })],
 );
 
+// The rollup journal: a raw row whose sums are not yet in `rollups`, by its primary key. Ingest
+// stores it with the row; a statement of its own adds the sums and deletes it (rollup-journal.ts).
+// Readers of rollups add the raw rows still listed here, in the same snapshot.
+export const rollupPending = pgTable(
+  'rollup_pending',
+  {
+    gatewayId: text('gateway_id').notNull(),
+    t0: bigint('t0', { mode: 'number' }).notNull(),
+  },
+  (t) => [primaryKey({ columns: [t.gatewayId, t.t0] })],
+);
+
 export const sweeps = pgTable(
   'sweeps',
   {

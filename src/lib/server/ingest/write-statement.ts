@@ -1,20 +1,22 @@
 // Everything one ingest write changes, as ONE SQL statement of data-modifying CTEs: raw rows,
-// rollup sums (merged in memory, added to stored ones with array arithmetic), new channels, health
-// counters and last-seen times. One statement is one atomic transaction, so the write costs one
-// round trip instead of eight (begin, rows, rollups, channels, health, last seen, commit): on this
-// shared 2-core machine a round trip to PostgreSQL takes 1–2 ms of scheduling, which made up most
-// of publish → browser latency. Every column travels as one array parameter through unnest, except
-// the count arrays: those of every row travel packed in ONE binary bytea parameter that PostgreSQL
-// only slices (no per-element parsing, which at saturation was most of what the server and the
-// database spent per bin). A gateway's contiguous slices of one write go as one row (row-merge.ts).
-// The per-row and per-block columns travel as array literals built here (pg-arrays.ts). A fixed
-// 33 parameters however many rows. Pure.
+// their rollups or their rollup journal entries, new channels, health counters and last-seen
+// times. One statement is one atomic transaction, so the write costs one round trip instead of
+// eight (begin, rows, rollups, channels, health, last seen, commit): on this shared 2-core machine
+// a round trip to PostgreSQL takes 1–2 ms of scheduling, which made up most of publish → browser
+// latency. Live ingest leaves the rollups to the journal (rollup-journal.ts), off that path; an
+// import or the demo past adds them here. Every column travels as one array parameter through
+// unnest, except the count arrays: those of every row travel packed in ONE binary bytea parameter
+// that PostgreSQL only slices (no per-element parsing, which at saturation was most of what the
+// server and the database spent per bin). A gateway's contiguous slices of one write go as one row
+// (row-merge.ts). The per-row and per-block columns travel as array literals built here
+// (pg-arrays.ts). A fixed 34 parameters however many rows. Pure.
 import type { Slice } from './coverage.ts';
 import type { HealthDelta } from './health-delta.ts';
 import { countWidth, packedLength, writePacked, writePackedAll, type CountWidth } from '../db/packed-counts.ts';
-import { blocksLiteral, keyArrayLiteral, numericArrayLiteral, textArrayLiteral } from './pg-arrays.ts';
+import { keyArrayLiteral, numericArrayLiteral, textArrayLiteral } from './pg-arrays.ts';
 import { mergeContiguous, type Row } from './row-merge.ts';
-import { BLOCK_LEN, type RollupDelta } from './rollup-math.ts';
+import type { RollupDelta } from './rollup-math.ts';
+import { rollupUpsertSql, rollupUpsertValues } from './rollup-upsert.ts';
 
 export interface StoredSlice {
   gatewayId: string;
@@ -32,13 +34,11 @@ with stored as (
       as u(gw, t0, t1, dt, n, keys, c_at, c_len, x, cc_at, cc_len, boot, seq)
   -- The coverage plan already excludes stored bins; ON CONFLICT stays as the last line of defence.
   on conflict do nothing
+  returning gateway_id, t0
+), pending as (
+  insert into rollup_pending (gateway_id, t0) select gateway_id, t0 from stored where $34::bool
 ), rolled as (
-  insert into rollups as r (gateway_id, key, step_ms, block_t0, sums, bins)
-  select u.gw, u.key, u.step, u.block_t0, u.sums::int8[], u.bins::int4[]
-    from unnest($15::text[], $16::text[], $17::int4[], $18::int8[], $19::text[], $20::text[]) as u(gw, key, step, block_t0, sums, bins)
-  on conflict (gateway_id, key, step_ms, block_t0) do update set
-    sums = (select array_agg(a + b order by i) from unnest(r.sums, excluded.sums) with ordinality as t(a, b, i)),
-    bins = (select array_agg(a + b order by i) from unnest(r.bins, excluded.bins) with ordinality as t(a, b, i))
+  ${rollupUpsertSql(15)}
 ), channels_added as (
   -- Contract: a bench's channels are created when its gateway first reports them.
   insert into channels (gateway_id, key, bench_id)
@@ -106,12 +106,16 @@ function packRows(rows: Row[]) {
   return { blob, at };
 }
 
-/** The statement and its 33 parameters. Rollup deltas must be unique per key (one row may change once per statement). */
-export function writeStatement(stored: StoredSlice[], deltas: RollupDelta[], newChannels: [string, string][], health: Map<string, HealthDelta>): { text: string; values: unknown[] } {
+/**
+ * The statement and its 34 parameters. `rollups` are the deltas to add (unique per key: one row may
+ * change once per statement), or 'journal' to list each stored row in rollup_pending instead.
+ */
+export function writeStatement(stored: StoredSlice[], rollups: RollupDelta[] | 'journal', newChannels: [string, string][], health: Map<string, HealthDelta>): { text: string; values: unknown[] } {
   const hs = [...health];
   const rows = mergeContiguous(stored);
   const { blob, at } = packRows(rows);
   const numbers = (pick: (r: Row) => number) => numericArrayLiteral(rows.map(pick));
+  const deltas = rollups === 'journal' ? [] : rollups;
   return {
     text: SQL,
     values: [
@@ -129,12 +133,7 @@ export function writeStatement(stored: StoredSlice[], deltas: RollupDelta[], new
       numericArrayLiteral(at.ccLen),
       textArrayLiteral(rows.map((r) => r.boot)),
       numbers((r) => r.seq),
-      textArrayLiteral(deltas.map((d) => d.gatewayId)),
-      textArrayLiteral(deltas.map((d) => d.key)),
-      numericArrayLiteral(deltas.map((d) => d.stepMs)),
-      numericArrayLiteral(deltas.map((d) => d.blockT0)),
-      blocksLiteral(deltas.map((d) => ({ slots: d.slots, values: d.sums })), BLOCK_LEN),
-      blocksLiteral(deltas.map((d) => ({ slots: d.slots, values: d.bins })), BLOCK_LEN),
+      ...rollupUpsertValues(deltas),
       newChannels.map((c) => c[0]),
       newChannels.map((c) => c[1]),
       hs.map(([g]) => g),
@@ -148,6 +147,7 @@ export function writeStatement(stored: StoredSlice[], deltas: RollupDelta[], new
       hs.map(([, h]) => h.lastSeq),
       hs.map(([, h]) => h.clockOffsetMs),
       hs.filter(([, h]) => h.accepted + h.duplicates > 0).map(([g]) => g),
+      rollups === 'journal',
     ],
   };
 }
