@@ -132,6 +132,10 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
   const perBinDark = (c: ChannelSettings | undefined, dtMs: number) => ((c?.darkRate ?? 0) * dtMs) / 1000;
   const efficiencyRatio = outA && outB && outA.efficiency > 0 ? outB.efficiency / outA.efficiency : 1;
 
+  // The darks to take off the counts a phase is read from: none beside a raw V (a pass fitted
+  // before the darks were calibrated), whose fringe holds them, so that D/V compares like with like.
+  const darksOf = (v: NonNullable<BenchFigures['visibility']>, c: ChannelSettings | undefined, dtMs: number) => (v.net ? perBinDark(c, dtMs) : 0);
+
   // Visibility: the latest sweep fits while fresh, else the envelope over the window.
   let visibility: BenchFigures['visibility'] = null;
   const fresh = input.sweepPoints.filter((p) => input.now - p.timeMs < SWEEP_FRESH_MS);
@@ -152,7 +156,7 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
   const holding = !scan || scan.counts.every((v) => v === scan.counts[0]);
   if (!visibility && sa && sb && sa.counts.length === sb.counts.length && holding) {
     const env = envelopeVisibility(sa.counts, sb.counts, { efficiencyRatio, darkA: perBinDark(outA, sa.dtMs), darkB: perBinDark(outB, sb.dtMs) });
-    if (env && env.warnings.length === 0 && Number.isFinite(env.err)) visibility = { value: env.value, err: env.err, source: 'envelope', net: outA?.darkRate !== null };
+    if (env && env.warnings.length === 0 && Number.isFinite(env.err)) visibility = { value: env.value, err: env.err, source: 'envelope', net: outA?.darkRate != null || outB?.darkRate != null };
   }
 
   // Contrast and phase over the last second.
@@ -166,14 +170,14 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
     const nb = sum(lb.counts);
     if (na + nb > 0) contrast = (na - nb) / (na + nb);
     const v = visibility?.value;
-    if (holding && v && v > 0.05) {
+    if (holding && visibility && v && v > 0.05) {
       const bins = la.counts.length;
       // Fitted V is the true counts' (the fit models the dead time): the phase is read from the
       // counts the detectors would have given without it, scaled by the second's true/measured.
       const seconds = (bins * la.dtMs) / 1000;
       const fa = deadTimeFactor(outA, na, seconds);
       const fb = deadTimeFactor(outB, nb, seconds);
-      const cal = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, la.dtMs) * bins, darkB: perBinDark(outB, lb.dtMs) * bins };
+      const cal = { visibility: v, efficiencyRatio, darkA: darksOf(visibility, outA, la.dtMs) * bins, darkB: darksOf(visibility, outB, lb.dtMs) * bins };
       const theta = phaseAtHold(na * fa, nb * fb, cal);
       if (Number.isFinite(theta.value)) {
         // Readings at a fringe extreme (D/V clipped to ±1) still mark the crossings the drift is
@@ -197,7 +201,7 @@ export function computeFigures(input: FiguresInput): { figures: BenchFigures; ph
   if (holding && outA && outB && visibility && visibility.value > 0.05 && sa && sb && sameBins(sa, sb) && (!sx || sameBins(sa, sx))) {
     const v = visibility.value;
     const dt = sa.dtMs;
-    const perBin = { visibility: v, efficiencyRatio, darkA: perBinDark(outA, dt), darkB: perBinDark(outB, dt) };
+    const perBin = { visibility: v, efficiencyRatio, darkA: darksOf(visibility, outA, dt), darkB: darksOf(visibility, outB, dt) };
     const segments: NoiseSegment[] = [];
     let bins = 0;
     for (const [start, end] of segmentsOf(sx ? heldFrom(sx.counts) : 0, sa.counts.length, sa.gapsBefore, Math.max(MIN_SEGMENT_BINS, Math.round(NOISE_SEGMENT_MS / dt)))) {
