@@ -15,16 +15,30 @@
 import { getDbHandle } from '../db/index.ts';
 import { unpackRow } from '../db/packed-counts.ts';
 import type { Slice } from './coverage.ts';
-import { rollupDeltas } from './rollup-math.ts';
+import { mergeRollupDeltas, rollupDeltas, type RollupDelta } from './rollup-math.ts';
 import { rollupUpsertSql, rollupUpsertValues } from './rollup-upsert.ts';
 
+/** A committed batch's part of the rollups: where its rows start, and its sums (not its counts, which may be large). */
 interface Entry {
   gatewayId: string;
-  slice: Slice;
+  spans: { t0: number; t1: number }[];
+  deltas: RollupDelta[];
 }
 
-/** Most slices rolled up by one statement. */
-const MAX_SLICES = 5_000;
+/**
+ * How long committed slices wait to be rolled up together. A gateway's batches of that time then
+ * change each rollup row once instead of once per batch, and the statements stay few while the
+ * writer's run beside them; readers are exact meanwhile.
+ */
+const FLUSH_DELAY_MS = 100;
+/** Most batches rolled up by one statement. */
+const MAX_PER_STATEMENT = 5_000;
+/**
+ * Most batches waiting: past this the writer waits before its next write, so a database that
+ * cannot keep up with the rollups slows the ingest (and the broker's acknowledgements) instead of
+ * growing this queue without bound.
+ */
+const MAX_QUEUED = 10_000;
 /** Most listed rows read back by one recovery step. */
 const RECOVER_ROWS = 2_000;
 
@@ -44,11 +58,12 @@ export function sliceOfRow(r: { t0: number; dt: number; n: number; keys: string[
   return { t0: r.t0, dt: r.dt, n: r.n, keys: r.keys, channels: r.keys.map((_, k) => r.counts.slice(k * r.n, (k + 1) * r.n)), x: null, cc: r.cc };
 }
 
-async function rollUp(spans: { gatewayId: string; t0: number; t1: number }[], entries: Entry[]): Promise<void> {
+/** Deletes the entries of rows starting in the spans and adds the deltas, in one statement. `deltas` must be unique per key. */
+async function rollUp(spans: { gatewayId: string; t0: number; t1: number }[], deltas: RollupDelta[]): Promise<void> {
   await getDbHandle().pool.query({
     name: 'rollup-journal',
     text: SQL,
-    values: [spans.map((s) => s.gatewayId), spans.map((s) => s.t0), spans.map((s) => s.t1), ...rollupUpsertValues(rollupDeltas(entries))],
+    values: [spans.map((s) => s.gatewayId), spans.map((s) => s.t0), spans.map((s) => s.t1), ...rollupUpsertValues(deltas)],
   });
 }
 
@@ -59,6 +74,7 @@ export class RollupJournal {
   /** Rollup statements and recoveries run one at a time, in order. */
   private lane: Promise<void> = Promise.resolve();
   private scheduled = false;
+  private waitingForRoom: (() => void)[] = [];
 
   isRecovered(gatewayId: string): boolean {
     return this.recovered.has(gatewayId);
@@ -67,14 +83,17 @@ export class RollupJournal {
   /** Queues committed slices for rolling up; those of a gateway not recovered stay listed for its recovery. */
   add(gatewayId: string, slices: Slice[]): void {
     if (!this.recovered.has(gatewayId)) return;
-    for (const slice of slices) this.queue.push({ gatewayId, slice });
+    this.queue.push({
+      gatewayId,
+      spans: slices.map((s) => ({ t0: s.t0, t1: s.t0 + s.n * s.dt })),
+      deltas: rollupDeltas(slices.map((slice) => ({ gatewayId, slice }))),
+    });
     if (this.scheduled) return;
     this.scheduled = true;
-    // Next macrotask: the frames and acknowledgements of the writes just committed go first.
-    setImmediate(() => {
+    setTimeout(() => {
       this.scheduled = false;
       void this.inLane(() => this.flush());
-    });
+    }, FLUSH_DELAY_MS);
   }
 
   /** After a write or rollup whose outcome is unknown: what is listed of these gateways is read back from the database. */
@@ -82,6 +101,11 @@ export class RollupJournal {
     for (const g of gatewayIds) this.recovered.delete(g);
     // Queued slices of theirs are listed in the database too: rolling them up from here as well would count them twice.
     this.queue = this.queue.filter((e) => this.recovered.has(e.gatewayId));
+    this.makeRoom();
+  }
+
+  private makeRoom(): void {
+    if (this.queue.length < MAX_QUEUED) for (const resolve of this.waitingForRoom.splice(0)) resolve();
   }
 
   /** Resolves once these gateways' listed rows are rolled up; rejects if the database cannot be read or written. */
@@ -89,12 +113,18 @@ export class RollupJournal {
     return this.inLane(() => this.recoverNow(gatewayIds));
   }
 
+  /** Resolves at once unless too many batches wait to be rolled up; then when few enough do. */
+  room(): Promise<void> {
+    if (this.queue.length < MAX_QUEUED) return Promise.resolve();
+    return new Promise((resolve) => this.waitingForRoom.push(resolve));
+  }
+
   /** Resolves when nothing is queued or running. */
   async settled(): Promise<void> {
     for (;;) {
       await this.lane;
       if (!this.scheduled && !this.queue.length) return;
-      await new Promise((resolve) => setImmediate(resolve));
+      await new Promise((resolve) => setTimeout(resolve, FLUSH_DELAY_MS));
     }
   }
 
@@ -106,11 +136,12 @@ export class RollupJournal {
 
   private async flush(): Promise<void> {
     while (this.queue.length) {
-      const entries = this.queue.splice(0, MAX_SLICES);
+      const entries = this.queue.splice(0, MAX_PER_STATEMENT);
+      this.makeRoom();
       try {
         await rollUp(
-          entries.map((e) => ({ gatewayId: e.gatewayId, t0: e.slice.t0, t1: e.slice.t0 + e.slice.n * e.slice.dt })),
-          entries,
+          entries.flatMap((e) => e.spans.map((span) => ({ gatewayId: e.gatewayId, ...span }))),
+          mergeRollupDeltas(entries.map((e) => e.deltas)),
         );
       } catch (err) {
         console.warn('[ingest] rollups deferred to recovery:', err instanceof Error ? err.message : String(err));
@@ -132,12 +163,13 @@ export class RollupJournal {
           limit $2`,
         [todo, RECOVER_ROWS],
       );
-      const entries: Entry[] = [];
+      const stored: { gatewayId: string; slice: Slice }[] = [];
       for (const r of rows) {
         if (r.counts === null || r.dt === null || r.n === null || r.keys === null) continue;
-        entries.push({ gatewayId: r.gateway_id, slice: sliceOfRow(unpackRow({ t0: r.t0, dt: r.dt, n: r.n, keys: r.keys, counts: r.counts, cc: r.cc })) });
+        stored.push({ gatewayId: r.gateway_id, slice: sliceOfRow(unpackRow({ t0: r.t0, dt: r.dt, n: r.n, keys: r.keys, counts: r.counts, cc: r.cc })) });
       }
-      if (rows.length) await rollUp(rows.map((r) => ({ gatewayId: r.gateway_id, t0: r.t0, t1: r.t0 + 1 })), entries);
+      // Every entry read by its exact key; the sums of those whose rows are still there.
+      if (rows.length) await rollUp(rows.map((r) => ({ gatewayId: r.gateway_id, t0: r.t0, t1: r.t0 + 1 })), rollupDeltas(stored));
       if (rows.length < RECOVER_ROWS) break;
     }
     for (const g of todo) this.recovered.add(g);

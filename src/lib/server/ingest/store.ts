@@ -88,6 +88,7 @@ export class BatchWriter {
 
   private async drain(): Promise<void> {
     while (this.queue.length) {
+      await this.journal.room();
       const items = this.queue.splice(0, MAX_ITEMS_PER_WRITE);
       await this.writeIsolating(items);
     }
