@@ -299,7 +299,23 @@ async function fringewise(load: Load, soakMs: number, profileDir: string | null,
   const { acked } = await profiled(profileDir, 'saturation', () =>
     load.ask('saturate', { cmd: 'saturate', ms: BURST_MS, start, seqBase: real.seqs.map((s) => s + 1_000) }),
   );
-  const saturation = { msgsPerS: round(acked / (BURST_MS / 1000), 0), binsPerS: round((acked * BINS * KEYS.length) / (BURST_MS / 1000), 0) };
+  const ids = gws.map((g) => g.gatewayId);
+  // Rollups follow the writes (the rollup journal): how long they took to catch up once the burst
+  // ended, and whether they then hold every stored bin once (bins per key, coincidences aside).
+  const burstEnded = performance.now();
+  while ((await pool.query('select 1 from rollup_pending where gateway_id = any($1) limit 1', [ids])).rowCount) await new Promise((r) => setTimeout(r, 10));
+  const rollupCatchUpMs = round(performance.now() - burstEnded, 0);
+  const { rows: held } = await pool.query<{ raw: number; rolled: number }>(
+    `select (select coalesce(sum(n * array_length(keys, 1)), 0) from count_batches where gateway_id = any($1))::float8 as raw,
+            (select coalesce(sum(b), 0) from rollups r, unnest(r.bins) b where r.gateway_id = any($1) and r.step_ms = 1000 and r.key <> '#cc')::float8 as rolled`,
+    [ids],
+  );
+  const saturation = {
+    msgsPerS: round(acked / (BURST_MS / 1000), 0),
+    binsPerS: round((acked * BINS * KEYS.length) / (BURST_MS / 1000), 0),
+    rollupCatchUpMs,
+    rollupsHoldEveryBin: held[0]!.raw === held[0]!.rolled,
+  };
 
   const totalBins = await stored();
   const { rows } = await pool.query<{ size: number; all: number }>(
