@@ -6,6 +6,7 @@ import pg from 'pg';
 import { afterEach, describe, expect, it } from 'vitest';
 import { queryCounts } from '../../src/lib/server/counts-query.ts';
 import { getDbHandle } from '../../src/lib/server/db/index.ts';
+import { RollupJournal } from '../../src/lib/server/ingest/rollup-journal.ts';
 import { BatchWriter } from '../../src/lib/server/ingest/store.ts';
 import { rollupDeltas } from '../../src/lib/server/ingest/rollup-math.ts';
 import { writeStatement, type StoredSlice } from '../../src/lib/server/ingest/write-statement.ts';
@@ -125,5 +126,21 @@ describe('rollup journal', () => {
     const { raw } = await bothWays(gw.benchId, gw.gatewayId, BASE, BASE + 3_000, 10);
     const rawTotal = Object.values(raw).reduce((a, x) => a + x, 0);
     for (const step of [1_000, 60_000]) expect(await rollupSum(gw.gatewayId, step)).toBe(rawTotal);
+  });
+
+  it('holds the writer back while too many counts wait to be rolled up, and lets it go once they are', async () => {
+    const gw = await freshGateway();
+    const journal = new RollupJournal();
+    await journal.recover([gw.gatewayId]);
+    await expect(journal.room()).resolves.toBeUndefined();
+    const n = 2_000_000;
+    journal.add(gw.gatewayId, [{ t0: BASE, dt: 1, n, keys: ['a'], channels: [new Array<number>(n).fill(1)], x: null, cc: null }]);
+    let roomy = false;
+    const room = journal.room().then(() => (roomy = true));
+    await new Promise((r) => setTimeout(r, 20));
+    expect(roomy).toBe(false);
+    await journal.settled();
+    await room;
+    expect(await rollupSum(gw.gatewayId, 1_000)).toBe(n);
   });
 });

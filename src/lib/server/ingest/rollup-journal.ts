@@ -15,30 +15,30 @@
 import { getDbHandle } from '../db/index.ts';
 import { unpackRow } from '../db/packed-counts.ts';
 import type { Slice } from './coverage.ts';
-import { mergeRollupDeltas, rollupDeltas, type RollupDelta } from './rollup-math.ts';
+import { rollupDeltas, type RollupDelta } from './rollup-math.ts';
 import { rollupUpsertSql, rollupUpsertValues } from './rollup-upsert.ts';
 
-/** A committed batch's part of the rollups: where its rows start, and its sums (not its counts, which may be large). */
 interface Entry {
   gatewayId: string;
-  spans: { t0: number; t1: number }[];
-  deltas: RollupDelta[];
+  slice: Slice;
 }
 
 /**
- * How long committed slices wait to be rolled up together. A gateway's batches of that time then
- * change each rollup row once instead of once per batch, and the statements stay few while the
- * writer's run beside them; readers are exact meanwhile.
+ * How long committed slices wait to be rolled up together: the rollup statements stay few (ten a
+ * second at most while the ingest keeps up) beside the writes, and a gateway's batches of that
+ * time change each rollup row once. Readers are exact meanwhile.
  */
 const FLUSH_DELAY_MS = 100;
-/** Most batches rolled up by one statement. */
+/** Most slices rolled up by one statement. */
 const MAX_PER_STATEMENT = 5_000;
 /**
- * Most batches waiting: past this the writer waits before its next write, so a database that
- * cannot keep up with the rollups slows the ingest (and the broker's acknowledgements) instead of
- * growing this queue without bound.
+ * Most counts waiting (about 8 bytes each): past this the writer waits before its next write, so a
+ * database that cannot keep up with the rollups slows the ingest (and the broker's
+ * acknowledgements) instead of growing this queue without bound.
  */
-const MAX_QUEUED = 10_000;
+const MAX_QUEUED_COUNTS = 2_000_000;
+
+const countsOf = (s: Slice) => s.n * (s.keys.length + (s.cc ? 1 : 0));
 /** Most listed rows read back by one recovery step. */
 const RECOVER_ROWS = 2_000;
 
@@ -74,6 +74,7 @@ export class RollupJournal {
   /** Rollup statements and recoveries run one at a time, in order. */
   private lane: Promise<void> = Promise.resolve();
   private scheduled = false;
+  private queuedCounts = 0;
   private waitingForRoom: (() => void)[] = [];
 
   isRecovered(gatewayId: string): boolean {
@@ -83,11 +84,10 @@ export class RollupJournal {
   /** Queues committed slices for rolling up; those of a gateway not recovered stay listed for its recovery. */
   add(gatewayId: string, slices: Slice[]): void {
     if (!this.recovered.has(gatewayId)) return;
-    this.queue.push({
-      gatewayId,
-      spans: slices.map((s) => ({ t0: s.t0, t1: s.t0 + s.n * s.dt })),
-      deltas: rollupDeltas(slices.map((slice) => ({ gatewayId, slice }))),
-    });
+    for (const slice of slices) {
+      this.queue.push({ gatewayId, slice });
+      this.queuedCounts += countsOf(slice);
+    }
     if (this.scheduled) return;
     this.scheduled = true;
     setTimeout(() => {
@@ -101,11 +101,12 @@ export class RollupJournal {
     for (const g of gatewayIds) this.recovered.delete(g);
     // Queued slices of theirs are listed in the database too: rolling them up from here as well would count them twice.
     this.queue = this.queue.filter((e) => this.recovered.has(e.gatewayId));
+    this.queuedCounts = this.queue.reduce((n, e) => n + countsOf(e.slice), 0);
     this.makeRoom();
   }
 
   private makeRoom(): void {
-    if (this.queue.length < MAX_QUEUED) for (const resolve of this.waitingForRoom.splice(0)) resolve();
+    if (this.queuedCounts < MAX_QUEUED_COUNTS) for (const resolve of this.waitingForRoom.splice(0)) resolve();
   }
 
   /** Resolves once these gateways' listed rows are rolled up; rejects if the database cannot be read or written. */
@@ -113,9 +114,9 @@ export class RollupJournal {
     return this.inLane(() => this.recoverNow(gatewayIds));
   }
 
-  /** Resolves at once unless too many batches wait to be rolled up; then when few enough do. */
+  /** Resolves at once unless too many counts wait to be rolled up; then when few enough do. */
   room(): Promise<void> {
-    if (this.queue.length < MAX_QUEUED) return Promise.resolve();
+    if (this.queuedCounts < MAX_QUEUED_COUNTS) return Promise.resolve();
     return new Promise((resolve) => this.waitingForRoom.push(resolve));
   }
 
@@ -137,11 +138,12 @@ export class RollupJournal {
   private async flush(): Promise<void> {
     while (this.queue.length) {
       const entries = this.queue.splice(0, MAX_PER_STATEMENT);
+      for (const e of entries) this.queuedCounts -= countsOf(e.slice);
       this.makeRoom();
       try {
         await rollUp(
-          entries.flatMap((e) => e.spans.map((span) => ({ gatewayId: e.gatewayId, ...span }))),
-          mergeRollupDeltas(entries.map((e) => e.deltas)),
+          entries.map((e) => ({ gatewayId: e.gatewayId, t0: e.slice.t0, t1: e.slice.t0 + e.slice.n * e.slice.dt })),
+          rollupDeltas(entries),
         );
       } catch (err) {
         console.warn('[ingest] rollups deferred to recovery:', err instanceof Error ? err.message : String(err));
@@ -163,7 +165,7 @@ export class RollupJournal {
           limit $2`,
         [todo, RECOVER_ROWS],
       );
-      const stored: { gatewayId: string; slice: Slice }[] = [];
+      const stored: Entry[] = [];
       for (const r of rows) {
         if (r.counts === null || r.dt === null || r.n === null || r.keys === null) continue;
         stored.push({ gatewayId: r.gateway_id, slice: sliceOfRow(unpackRow({ t0: r.t0, dt: r.dt, n: r.n, keys: r.keys, counts: r.counts, cc: r.cc })) });

@@ -3,7 +3,7 @@
 // reference is the plain per-bin loop the fast per-second sums replaced.
 import { describe, expect, it } from 'vitest';
 import type { Slice } from './coverage.ts';
-import { BLOCK_LEN, CC_KEY, mergeRollupDeltas, ROLLUP_LEVELS_MS, rollupDeltas } from './rollup-math.ts';
+import { BLOCK_LEN, CC_KEY, ROLLUP_LEVELS_MS, rollupDeltas } from './rollup-math.ts';
 
 function byDefinition(items: { gatewayId: string; slice: Slice }[]) {
   const sums = new Map<string, { sum: number; bins: number }>();
@@ -61,18 +61,5 @@ describe('rollupDeltas', () => {
       expect(d.slots.every((s, j) => s >= 0 && s < BLOCK_LEN && (j === 0 || s > d.slots[j - 1]!))).toBe(true);
     }
     expect(new Set(deltas.map((d) => `${d.gatewayId}|${d.key}|${d.stepMs}|${d.blockT0}`)).size).toBe(deltas.length);
-  });
-});
-
-describe('mergeRollupDeltas', () => {
-  it('adds the deltas of separate writes as the deltas of one write over all their slices', () => {
-    const items = [
-      slice(1_796_000_000_000, 10, 150, ['a', 'b'], true),
-      slice(1_796_000_001_500, 10, 150, ['a', 'b'], true),
-      slice(1_796_000_059_900, 1, 300, ['a']),
-      slice(1_795_999_990_000, 100, 40, ['b']),
-    ].map((s, i) => ({ gatewayId: i === 3 ? 'gw-2' : 'gw-1', slice: s }));
-    const merged = mergeRollupDeltas(items.map((item) => rollupDeltas([item])));
-    expect(merged).toEqual(rollupDeltas(items));
   });
 });

@@ -86,45 +86,8 @@ export function rollupDeltas(items: { gatewayId: string; slice: Slice }[]): Roll
     for (let k = 0; k < slice.keys.length; k++) addSeries(gatewayId, slice.keys[k]!, t0, dt, slice.channels[k]!, 0, n);
     if (slice.cc) addSeries(gatewayId, CC_KEY, t0, dt, slice.cc, 0, n);
   }
-  return inLockOrder([...series.values()].flatMap((byKey) => [...byKey.values()].flatMap(([seconds, minutes]) => [...seconds.values(), ...minutes.values()])));
-}
-
-/** A stable order keeps row locks in one order across transactions. */
-function inLockOrder(deltas: RollupDelta[]): RollupDelta[] {
-  return deltas.sort((a, b) =>
+  // A stable order keeps row locks in one order across transactions.
+  return [...series.values()].flatMap((byKey) => [...byKey.values()].flatMap(([seconds, minutes]) => [...seconds.values(), ...minutes.values()])).sort((a, b) =>
     a.gatewayId < b.gatewayId ? -1 : a.gatewayId > b.gatewayId ? 1 : a.key < b.key ? -1 : a.key > b.key ? 1 : a.stepMs - b.stepMs || a.blockT0 - b.blockT0,
   );
-}
-
-/** Deltas of several writes as one per (gateway, key, level, block), slot sums added: what one statement may change. */
-export function mergeRollupDeltas(groups: readonly (readonly RollupDelta[])[]): RollupDelta[] {
-  const merged = new Map<string, Map<number, number[]>>();
-  const out = new Map<string, RollupDelta>();
-  for (const deltas of groups) {
-    for (const d of deltas) {
-      const id = `${d.gatewayId}\n${d.key}\n${d.stepMs}\n${d.blockT0}`;
-      let slots = merged.get(id);
-      if (!slots) {
-        merged.set(id, (slots = new Map()));
-        out.set(id, { gatewayId: d.gatewayId, key: d.key, stepMs: d.stepMs, blockT0: d.blockT0, slots: [], sums: [], bins: [] });
-      }
-      d.slots.forEach((slot, j) => {
-        const at = slots.get(slot);
-        if (at) {
-          at[0]! += d.sums[j]!;
-          at[1]! += d.bins[j]!;
-        } else slots.set(slot, [d.sums[j]!, d.bins[j]!]);
-      });
-    }
-  }
-  for (const [id, slots] of merged) {
-    const d = out.get(id)!;
-    for (const slot of [...slots.keys()].sort((a, b) => a - b)) {
-      const [sum, bins] = slots.get(slot)!;
-      d.slots.push(slot);
-      d.sums.push(sum!);
-      d.bins.push(bins!);
-    }
-  }
-  return inLockOrder([...out.values()]);
 }
