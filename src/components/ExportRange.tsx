@@ -1,19 +1,22 @@
 // Export of a time range typed in the viewer's local time (YYYY-MM-DD HH:MM, 24 h, like every time
 // the app shows); the download link carries the range in ms since the epoch, so the server's own
 // time zone plays no part.
-import { useEffect, useState } from 'react';
+import { useEffect, useRef, useState } from 'react';
 import { formatDateTime, parseLocalInput } from '../lib/client/format.ts';
 
 export default function ExportRange({ exportUrl }: { exportUrl: string }) {
   // The last hour by default, in the reader's zone: filled in once mounted, as the server renders
-  // in its own zone (use-hydrated.ts).
+  // in its own zone (use-hydrated.ts). What was typed into the server's markup before the island
+  // hydrated (a slow device) fired no change React saw: it is in the inputs only, and is kept.
   const [from, setFrom] = useState('');
   const [to, setTo] = useState('');
+  const fromInput = useRef<HTMLInputElement>(null);
+  const toInput = useRef<HTMLInputElement>(null);
   useEffect(() => {
     const now = Date.now();
-    setFrom((f) => f || formatDateTime(now - 3_600_000, true));
+    setFrom(fromInput.current?.value || formatDateTime(now - 3_600_000, true));
     // To the second: a default cut to the minute left the last seconds out of the file.
-    setTo((t) => t || formatDateTime(now, true));
+    setTo(toInput.current?.value || formatDateTime(now, true));
   }, []);
   const [format, setFormat] = useState<'csv' | 'json'>('csv');
   const [error, setError] = useState<string | null>(null);
@@ -33,11 +36,11 @@ export default function ExportRange({ exportUrl }: { exportUrl: string }) {
       <div className="grid items-end gap-3 sm:grid-cols-2 xl:grid-cols-[1fr_1fr_auto_auto]">
         <div>
           <label className="label" htmlFor="exp-from">From (your local time)</label>
-          <input className="field figure" id="exp-from" value={from} placeholder="YYYY-MM-DD HH:MM" spellCheck={false} aria-invalid={!!error && parseLocalInput(from) === null} onChange={(e) => setFrom(e.target.value)} />
+          <input className="field figure" id="exp-from" ref={fromInput} value={from} placeholder="YYYY-MM-DD HH:MM" spellCheck={false} aria-invalid={!!error && parseLocalInput(from) === null} onChange={(e) => setFrom(e.target.value)} />
         </div>
         <div>
           <label className="label" htmlFor="exp-to">To</label>
-          <input className="field figure" id="exp-to" value={to} placeholder="YYYY-MM-DD HH:MM" spellCheck={false} aria-invalid={!!error && parseLocalInput(to) === null} onChange={(e) => setTo(e.target.value)} />
+          <input className="field figure" id="exp-to" ref={toInput} value={to} placeholder="YYYY-MM-DD HH:MM" spellCheck={false} aria-invalid={!!error && parseLocalInput(to) === null} onChange={(e) => setTo(e.target.value)} />
         </div>
         <div>
           <label className="label" htmlFor="exp-format">Format</label>
