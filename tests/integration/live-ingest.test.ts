@@ -368,6 +368,28 @@ describe('status, commands and resume', () => {
     benchSocket.ws.close();
   });
 
+  it('takes up on a status socket for all benches a bench made after it opened: its presence first, then its messages; never a bench that does not exist', async () => {
+    const watch = await openLiveQuery(t.baseUrl, 'watch=status&all=1', observerToken);
+    const opened = (await listBenches()).map((x) => x.id);
+    await until(() => watch.messages.filter((m) => m.type === 'presence').length === opened.length, 10_000, 'the opening presence');
+    const late = await freshGateway();
+    // A bench id that names no bench (a publish the hub must not pass on to anyone) beside it.
+    t.live.hub.publish('no-such-bench', { type: 'figures', bench: 'no-such-bench', figures: { at: 1 } });
+    const gl = await connectGateway(t.mqttPort, late.gatewayId, late.token);
+    await gl.publishAsync(topicFor(late.gatewayId, 'status'), JSON.stringify({ v: 1, state: 'online' }), { qos: 1, retain: true });
+    await watch.next((m) => m.type === 'status' && m.gateway === late.gatewayId);
+    t.live.hub.publish(late.benchId, { type: 'figures', bench: late.benchId, figures: { at: 3 } });
+    await watch.next((m) => (m as { type: string }).type === 'figures' && (m as { bench?: string }).bench === late.benchId);
+    const ofLate = watch.messages.filter((m) => (m as { bench?: string }).bench === late.benchId);
+    expect(ofLate.map((m) => m.type)).toEqual(['presence', 'status', 'figures']);
+    // Read when its first message came, the gateway is there; the status after it says online.
+    expect(ofLate[0]).toMatchObject({ type: 'presence', bench: late.benchId, gateways: [{ id: late.gatewayId }] });
+    expect(ofLate[1]).toMatchObject({ type: 'status', gateway: late.gatewayId, state: 'online' });
+    expect(watch.messages.some((m) => (m as { bench?: string }).bench === 'no-such-bench')).toBe(false);
+    await gl.endAsync();
+    watch.ws.close();
+  });
+
   it('refuses a status socket for a missing bench, without benches, for too many, or watching something else', async () => {
     const gw = await freshGateway();
     await expect(openStatusWatch(t.baseUrl, [gw.benchId, 'no-such-bench'], observerToken)).rejects.toThrow(/403/);

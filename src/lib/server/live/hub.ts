@@ -3,9 +3,10 @@
 // and terminates sockets that stop answering pings. `?watch=status&bench=a&bench=b` is a lighter
 // socket for pages that show several benches: only the gateways' `status`, the `alarm` and the
 // live `figures` messages of the benches named, none of the counts or fits a bench's own socket
-// streams. `?watch=status&all=1` names every bench the user may read as it connects (the lab
-// overview, whose benches can be more than a URL should name), and begins with a `presence`
-// message per bench, so its page need not ask each gateway whether it is online.
+// streams. `?watch=status&all=1` follows every bench the user may read (the lab overview, whose
+// benches can be more than a URL should name): it begins with a `presence` message per bench, so
+// its page need not ask each gateway whether it is online, and takes up a bench made after it
+// opened at that bench's first message, with the bench's own `presence` first.
 //
 // Push in frames: what the fan-out emits for a bench waits at most FRAME_MS (frame-period.ts; a
 // late batch not at all), is coalesced (contiguous counts of a gateway merge), serialised and
@@ -64,8 +65,14 @@ interface LiveClient {
 interface StatusWatcher {
   ws: WebSocket;
   alive: boolean;
-  /** Messages held while its `presence` messages are read, sent after them since they are newer; null once sent. */
-  held: Buffer[] | null;
+  /** The benches it is told of: it is in each one's set in `watchers`. */
+  benches: Set<string>;
+  /** An `all=1` socket's user, and the benches made since it opened that the user may not read; null for one that named its benches. */
+  all: { user: SessionUser; refused: Set<string> } | null;
+  /** Reads under way for it (presence, access); while any is, what is published for it waits in `held`. */
+  reading: number;
+  /** Messages held while presence is read, sent after it since they are newer. */
+  held: { bench: string; data: Buffer }[];
 }
 
 function refuse(socket: Duplex, status: number, reason: string, error: string): void {
@@ -78,6 +85,8 @@ export class LiveHub {
   private readonly benches = new Map<string, Set<LiveClient>>();
   /** Status-only sockets by bench watched; one socket is in the set of each bench it names. */
   private readonly watchers = new Map<string, Set<StatusWatcher>>();
+  /** The `all=1` sockets, also in `watchers` under each bench they follow. */
+  private readonly allWatchers = new Set<StatusWatcher>();
   private readonly heartbeat: NodeJS.Timeout;
   private readonly unsubscribe: () => void;
   /** Messages of the coming frame, per bench, in emission order. */
@@ -146,12 +155,15 @@ export class LiveHub {
    * last, so one is left out for a watcher whose socket is behind rather than queued.
    */
   private tellWatchers(benchId: string, message: LiveMessage | FeatureMessage): void {
+    let newcomers: StatusWatcher[] | null = null;
+    for (const w of this.allWatchers) if (!w.benches.has(benchId) && !w.all!.refused.has(benchId)) (newcomers ??= []).push(w);
+    if (newcomers) this.follow(newcomers, benchId);
     const set = this.watchers.get(benchId);
     if (!set?.size) return;
     const data = Buffer.from(JSON.stringify(message));
     const skippable = message.type === 'figures';
     for (const w of set) {
-      if (w.held) w.held.push(data);
+      if (w.reading) w.held.push({ bench: benchId, data });
       else if (w.ws.readyState === w.ws.OPEN && !(skippable && w.ws.bufferedAmount > HIGH_WATER_BYTES)) w.ws.send(data, { binary: false });
     }
   }
@@ -195,45 +207,98 @@ export class LiveHub {
     }
     for (const b of benches) if (!(await canReadBench(auth.user, b))) return refuse(socket, 403, 'Forbidden', 'you may not watch this bench');
     const user = auth.user;
-    // Benches made later are not added: the page that asked lists those of its render.
+    // Benches made later are taken up by `follow`, at their first message.
     const watched = all === null ? benches : await readableBenchIds(user);
-    this.wss.handleUpgrade(req, socket, head, (ws) => (watch ? this.attachWatcher(ws, watched, all !== null) : this.attach(ws, socket, benches[0]!, user)));
+    this.wss.handleUpgrade(req, socket, head, (ws) => (watch ? this.attachWatcher(ws, watched, all === null ? null : user) : this.attach(ws, socket, benches[0]!, user)));
   }
 
-  private attachWatcher(ws: WebSocket, benches: string[], withPresence: boolean): void {
-    const watcher: StatusWatcher = { ws, alive: true, held: withPresence ? [] : null };
-    for (const b of benches) {
-      const set = this.watchers.get(b) ?? new Set();
-      this.watchers.set(b, set.add(watcher));
+  /** `allOf`: the user of an `all=1` socket, which gets presence first and follows benches made later. */
+  private attachWatcher(ws: WebSocket, benches: string[], allOf: SessionUser | null): void {
+    const watcher: StatusWatcher = { ws, alive: true, benches: new Set(), all: allOf && { user: allOf, refused: new Set() }, reading: 0, held: [] };
+    for (const b of benches) this.join(watcher, b);
+    if (allOf) {
+      this.allWatchers.add(watcher);
+      // Read after joining the sets: a status published meanwhile is held, and sent after, being newer.
+      watcher.reading++;
+      void this.sendPresence([watcher], benches);
     }
-    // Read after joining the sets: a status published meanwhile is held, and sent after, being newer.
-    if (withPresence) void this.sendPresence(watcher, benches);
     ws.on('pong', () => (watcher.alive = true));
     // Nothing to resume: the page re-reads its gateways' state whenever the socket opens.
     ws.on('message', () => ws.send(JSON.stringify({ type: 'error', error: 'a status socket takes no messages' })));
     ws.on('close', () => {
-      for (const b of benches) {
-        const set = this.watchers.get(b);
-        set?.delete(watcher);
-        if (set && !set.size) this.watchers.delete(b);
-      }
+      this.allWatchers.delete(watcher);
+      for (const b of watcher.benches) this.leave(watcher, b);
     });
     ws.on('error', () => ws.terminate());
   }
 
-  private async sendPresence(watcher: StatusWatcher, benches: string[]): Promise<void> {
-    const { ws } = watcher;
-    try {
-      for (const [bench, gateways] of await presenceOfBenches(benches)) {
-        if (ws.readyState === ws.OPEN) ws.send(JSON.stringify({ type: 'presence', bench, gateways } satisfies LiveMessage));
+  private join(watcher: StatusWatcher, bench: string): void {
+    watcher.benches.add(bench);
+    const set = this.watchers.get(bench) ?? new Set();
+    this.watchers.set(bench, set.add(watcher));
+  }
+
+  private leave(watcher: StatusWatcher, bench: string): void {
+    watcher.benches.delete(bench);
+    const set = this.watchers.get(bench);
+    set?.delete(watcher);
+    if (set && !set.size) this.watchers.delete(bench);
+  }
+
+  /**
+   * A bench the `all=1` sockets did not know at their opening (made since): each joins it at once,
+   * so this message and the next are held, and, if its user may read it, gets its `presence`
+   * before them, as for the benches it opened with; otherwise they are dropped and the bench is
+   * never looked at again for it. The bench's gateways are read once for all these sockets.
+   */
+  private follow(sockets: StatusWatcher[], bench: string): void {
+    for (const w of sockets) {
+      this.join(w, bench);
+      w.reading++;
+    }
+    void (async () => {
+      let allowed: boolean[];
+      try {
+        allowed = await Promise.all(sockets.map((w) => canReadBench(w.all!.user, bench)));
+      } catch (err) {
+        console.warn('[live] access check failed:', err instanceof Error ? err.message : err);
+        // The page's socket reconnects and starts again with every bench it may read.
+        for (const w of sockets) {
+          w.ws.close(1011, 'access check failed');
+          this.release(w);
+        }
+        return;
       }
+      for (const [i, w] of sockets.entries()) {
+        if (allowed[i]) continue;
+        this.leave(w, bench);
+        w.all!.refused.add(bench);
+        w.held = w.held.filter((h) => h.bench !== bench);
+        this.release(w);
+      }
+      await this.sendPresence(sockets.filter((_, i) => allowed[i]), [bench]);
+    })();
+  }
+
+  /** Reads each bench's gateways once and sends them to every socket given, then what each held meanwhile. */
+  private async sendPresence(sockets: StatusWatcher[], benches: string[]): Promise<void> {
+    if (!sockets.length) return;
+    try {
+      const data = [...(await presenceOfBenches(benches))].map(([bench, gateways]) => JSON.stringify({ type: 'presence', bench, gateways } satisfies LiveMessage));
+      for (const { ws } of sockets) for (const d of data) if (ws.readyState === ws.OPEN) ws.send(d);
     } catch (err) {
       console.warn('[live] presence read failed:', err instanceof Error ? err.message : err);
-      ws.close(1011, 'presence read failed');
+      for (const { ws } of sockets) ws.close(1011, 'presence read failed');
     }
-    const held = watcher.held ?? [];
-    watcher.held = null;
-    for (const data of held) if (ws.readyState === ws.OPEN) ws.send(data, { binary: false });
+    for (const w of sockets) this.release(w);
+  }
+
+  /** One read for the socket is through; after the last, what it held goes out. */
+  private release(watcher: StatusWatcher): void {
+    if (--watcher.reading > 0) return;
+    const { ws, held } = watcher;
+    watcher.held = [];
+    for (const { data } of held) if (ws.readyState === ws.OPEN) ws.send(data, { binary: false });
   }
 
   private attach(ws: WebSocket, socket: Duplex, bench: string, user: SessionUser): void {
@@ -366,6 +431,8 @@ export class LiveHub {
     const sockets = new Set<LiveClient | StatusWatcher>();
     for (const set of this.benches.values()) for (const c of set) sockets.add(c);
     for (const set of this.watchers.values()) for (const w of set) sockets.add(w);
+    // An all=1 socket on a lab without benches is in no bench's set.
+    for (const w of this.allWatchers) sockets.add(w);
     for (const c of sockets) {
       if (!c.alive) {
         c.ws.terminate();
@@ -384,8 +451,10 @@ export class LiveHub {
     this.pending.clear();
     for (const set of this.benches.values()) for (const c of set) c.ws.terminate();
     for (const set of this.watchers.values()) for (const w of set) w.ws.terminate();
+    for (const w of this.allWatchers) w.ws.terminate();
     this.benches.clear();
     this.watchers.clear();
+    this.allWatchers.clear();
     await new Promise<void>((resolve) => this.wss.close(() => resolve()));
   }
 }
