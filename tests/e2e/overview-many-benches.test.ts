@@ -54,9 +54,14 @@ describe('overview with many benches', () => {
     const first = await rate.textContent();
     await expect.poll(() => rate.textContent(), { timeout: 10_000 }).not.toBe(first);
     await page.waitForTimeout(Math.max(0, 10_000 - (Date.now() - startedAt)));
-    expect(api.every((p) => p === '/api/v1/overview'), api.join(' ')).toBe(true);
-    expect(api.length).toBeGreaterThan(0);
-    expect(api.length).toBeLessThanOrEqual(MAX_API_REQUESTS);
+    // Benches other test files make meanwhile on the shared database get their cards read, at most
+    // once per overview read: never a request per bench shown.
+    const reads = api.filter((p) => p === '/api/v1/overview');
+    const cards = api.filter((p) => p === '/api/v1/overview/benches');
+    expect(reads.length + cards.length, api.join(' ')).toBe(api.length);
+    expect(reads.length).toBeGreaterThan(0);
+    expect(reads.length).toBeLessThanOrEqual(MAX_API_REQUESTS);
+    expect(cards.length).toBeLessThanOrEqual(reads.length);
     expect(sockets).toEqual(['?watch=status&all=1']);
   });
 });

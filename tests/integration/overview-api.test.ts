@@ -1,6 +1,7 @@
 // `GET /api/v1/overview`: what the lab overview re-reads, for every bench the caller may read in
 // one answer, each bench's counts the same as its own counts endpoint answers (read from the
 // rollups once for all benches), and its open alarms. Callers who may read nothing get nothing.
+// `GET /api/v1/overview/benches?bench=`: the cards of benches the page learnt of after its render.
 import { eq } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { insertRaised } from '../../src/lib/server/alarms/event-store.ts';
@@ -8,6 +9,7 @@ import { createRule, ruleInputSchema } from '../../src/lib/server/alarms/rules.t
 import { listBenches } from '../../src/lib/server/benches.ts';
 import { getDb } from '../../src/lib/server/db/index.ts';
 import { rollups, users } from '../../src/lib/server/db/schema.ts';
+import { loadOverview } from '../../src/lib/server/overview.ts';
 import type { RunningApp } from '../../src/server/app.ts';
 import { connectGateway, freshGateway, makeBatch, publishBatch, until } from '../helpers/live-path.ts';
 import { startWebApp, userWithToken } from '../helpers/web-app.ts';
@@ -77,5 +79,18 @@ describe('GET /api/v1/overview', () => {
     expect((await get(`/api/v1/overview?${query({ ...SPAN, step: 500 })}`)).status).toBe(422);
     expect((await get(`/api/v1/overview?${query({ ...SPAN, step: 1000, to: BASE + 86_400_000 })}`)).status).toBe(422);
     expect((await get(`/api/v1/overview?${query({ ...SPAN, to: SPAN.from })}`)).status).toBe(422);
+  });
+});
+
+describe('GET /api/v1/overview/benches', () => {
+  it('answers the benches named as the overview renders them, leaving out one that does not exist', async () => {
+    const res = await get(`/api/v1/overview/benches?bench=${benchB.benchId}&bench=no-such-bench`);
+    expect(res.status).toBe(200);
+    const body = (await res.json()) as { benches: Record<string, unknown>[] };
+    const rendered = (await loadOverview()).find((b) => b.id === benchB.benchId);
+    expect(body.benches).toEqual([JSON.parse(JSON.stringify(rendered))]);
+    expect(body.benches[0]).toMatchObject({ name: 'Test bench', gateways: [{ id: benchB.gatewayId, online: false }], gatewaysEverSeen: 1, openAlarms: 1, criticalAlarms: 1 });
+    expect((await get('/api/v1/overview/benches')).status).toBe(422);
+    expect((await get(`/api/v1/overview/benches?${Array.from({ length: 101 }, (_, i) => `bench=b-${i}`).join('&')}`)).status).toBe(422);
   });
 });

@@ -5,14 +5,16 @@
 // the server's render, then over the page's one status-only socket for every bench the user may
 // read, which also says whether gateways are online (gateway-presence.ts), so a gateway that drops
 // or is revoked turns its card offline at once, as on the bench page; the sparklines' counts and the
-// open alarms of all benches come in one request every 5 s (`GET /api/v1/overview`).
-import { useEffect, useState } from 'react';
+// open alarms of all benches come in one request every 5 s (`GET /api/v1/overview`). A bench that
+// read names and the page has no card for (made after it loaded) is asked for once and gets one;
+// the socket follows it already (the hub takes up benches made after it opened).
+import { useEffect, useRef, useState } from 'react';
 import type { AlarmEventView, Severity } from '../../lib/alarm-messages.ts';
 import { benchFiguresSchema } from '../../lib/bench-figures-schema.ts';
 import { newestPassAt, type BenchFigures } from '../../lib/bench-figures.ts';
 import { figuresStaleness } from '../../lib/figures-age.ts';
 import { STATUS_FEED } from '../../lib/client/gateway-presence.ts';
-import { fetchOverview, type CountsAnswer } from '../../lib/client/api.ts';
+import { fetchOverview, fetchOverviewBenches, type CountsAnswer } from '../../lib/client/api.ts';
 import { formatDuration, formatRate, formatValueErr, SILENT_TITLE } from '../../lib/client/format.ts';
 import { statusSocket } from '../../lib/client/live-socket.ts';
 import { useNow } from '../../lib/client/use-now.ts';
@@ -31,6 +33,8 @@ const SLOW_POLL_MS = 5000;
 /** The sparkline's span and bucket, ms: 120 points, served from the 1 s rollups. */
 const SPARK_SPAN_MS = 10 * 60_000;
 const SPARK_STEP_MS = 5000;
+/** New benches asked for in one read at most (the endpoint's bound); more come at the next poll. */
+const MAX_NEW_BENCHES = 100;
 
 /** Counts and open alarms of a bench from the slower poll. `asOf`: when the counts came, for leaving out the bucket still filling then. */
 type Slow = { counts: CountsAnswer; alarms: AlarmEventView[]; asOf: number };
@@ -58,6 +62,9 @@ function alarmSummary(b: OverviewBench, alarms: AlarmEventView[] | null): { text
 }
 
 export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
+  // Benches made since the render, and the ids of every bench with a card (or being asked for).
+  const [added, setAdded] = useState<OverviewBench[]>([]);
+  const carded = useRef<Set<string> | null>(null);
   const slow =
     usePolled(
       async () => {
@@ -66,6 +73,16 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
         // A failed read leaves the sparklines empty and the alarms as rendered until the next one.
         const answer = await fetchOverview(from, to, SPARK_STEP_MS).catch(() => null);
         const asOf = Date.now();
+        const known = (carded.current ??= new Set(benches.map((b) => b.id)));
+        const fresh = (answer?.benches ?? []).map((b) => b.id).filter((id) => !known.has(id)).slice(0, MAX_NEW_BENCHES);
+        if (fresh.length) {
+          for (const id of fresh) known.add(id);
+          // A failed read forgets them, so the next poll asks again.
+          void fetchOverviewBenches(fresh).then(
+            (got) => setAdded((a) => [...a, ...got.filter((g) => !a.some((x) => x.id === g.id))]),
+            () => fresh.forEach((id) => known.delete(id)),
+          );
+        }
         // Maps by bench id: a plain object would answer a bench "constructor" with Object.
         return new Map((answer?.benches ?? []).map((b): [string, Slow] => [b.id, { counts: b.counts, alarms: b.openAlarms, asOf }]));
       },
@@ -73,10 +90,13 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
       [],
     ) ?? new Map<string, Slow>();
   const now = useNow(CLOCK_MS);
+  // In the order of the latest read (the benches' names), which places new cards among the others.
+  const rank = new Map([...slow.keys()].map((id, i) => [id, i]));
+  const cards = [...benches, ...added].sort((x, y) => (rank.get(x.id) ?? rank.size) - (rank.get(y.id) ?? rank.size));
 
   return (
     <ul className="grid gap-4 sm:grid-cols-2 xl:grid-cols-3" aria-label="Benches">
-      {benches.map((b) => (
+      {cards.map((b) => (
         <BenchCard key={b.id} b={b} slow={slow.get(b.id)} now={now} />
       ))}
     </ul>

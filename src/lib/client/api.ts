@@ -6,6 +6,9 @@ import { alarmEventViewSchema } from '../alarm-messages.ts';
 import { stabilitySchema, type Stability } from '../stability.ts';
 import { noteViewSchema, runViewSchema, type AddNoteBody, type NoteView, type RunView } from '../runs.ts';
 import type { CommandBody } from '../contract/wire.ts';
+import { presenceMessageSchema } from '../live-messages.ts';
+import type { OverviewBench } from '../overview.ts';
+import type { GatewayPresence } from './gateway-presence.ts';
 
 export class ApiError extends Error {
   constructor(
@@ -150,6 +153,26 @@ export type OverviewAnswer = z.infer<typeof overviewAnswerSchema>;
 export function fetchOverview(from: number, to: number, step: number, signal?: AbortSignal): Promise<OverviewAnswer> {
   const q = new URLSearchParams({ from: String(Math.floor(from)), to: String(Math.ceil(to)), step: String(step) });
   return call(`/api/v1/overview?${q}`, overviewAnswerSchema, undefined, signal);
+}
+
+const overviewBenchSchema: z.ZodType<OverviewBench, z.ZodTypeDef, unknown> = z.object({
+  id: z.string(),
+  name: z.string(),
+  wavelengthNm: z.number(),
+  description: z.string(),
+  // silentSince left out, not undefined, where the gateway is not silent (exact optional properties).
+  gateways: presenceMessageSchema.shape.gateways.transform((gs) => gs.map(({ id, online, silentSince }): GatewayPresence => (silentSince === undefined ? { id, online } : { id, online, silentSince }))),
+  gatewaysEverSeen: z.number().int().min(0),
+  openAlarms: z.number().int().min(0),
+  criticalAlarms: z.number().int().min(0),
+  activeRun: runViewSchema.nullable(),
+  figures: benchFiguresSchema.nullable(),
+});
+
+/** These benches as the lab overview's render lists them (those the user may read). */
+export async function fetchOverviewBenches(ids: readonly string[], signal?: AbortSignal): Promise<OverviewBench[]> {
+  const q = new URLSearchParams(ids.map((id) => ['bench', id]));
+  return (await call(`/api/v1/overview/benches?${q}`, z.object({ benches: z.array(overviewBenchSchema) }), undefined, signal)).benches;
 }
 
 export async function fetchFigures(bench: string, signal?: AbortSignal): Promise<BenchFigures | null> {

@@ -10,10 +10,12 @@ import { runtime } from './runtime.ts';
 import { activeRuns } from './runs.ts';
 import { isImportGateway } from '../import-shapes.ts';
 
-export async function loadOverview(): Promise<OverviewBench[]> {
+/** Every bench, by name; `only`: just those of these ids (benches the page learnt of after its render). */
+export async function loadOverview(only?: readonly string[]): Promise<OverviewBench[]> {
   const db = getDb();
+  const wanted = only && new Set(only);
   const [benchRows, gws, alarms, runs] = await Promise.all([
-    listBenches(),
+    listBenches().then((rows) => (wanted ? rows.filter((b) => wanted.has(b.id)) : rows)),
     db
       .select({ id: gateways.id, benchId: gateways.benchId, status: gateways.status, revokedAt: gateways.revokedAt, lastSeenAt: gateways.lastSeenAt })
       .from(gateways)
