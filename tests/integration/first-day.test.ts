@@ -42,7 +42,7 @@ const asAdmin = async (path: string) => text((await admin.get(path)).text);
 
 describe("a lab's first day", () => {
   it("leads the admin from the empty overview to where benches are made; others are told who does it", async () => {
-    expect(await asAdmin('/')).toMatch(/No benches yet\. Create the lab(?:'|&#39;)s first one under <a[^>]*href="\/admin\/benches"/);
+    expect(await asAdmin('/')).toMatch(/No benches yet\. Create the lab(?:'|&#39;|&#x27;)s first one under <a[^>]*href="\/admin\/benches"/);
     expect(await asObserver('/')).toContain('No benches yet. An admin adds them under Benches &amp; gateways.');
   });
 

@@ -61,7 +61,8 @@ function alarmSummary(b: OverviewBench, alarms: AlarmEventView[] | null): { text
   return { text: `${n} open alarm${n > 1 ? 's' : ''} · ${worst}`, tone: SEVERITY_TONE[worst], title: alarms.map((e) => e.message).join('\n') };
 }
 
-export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
+/** `isAdmin`: an empty lab's note leads an admin to where benches are made. */
+export default function LabOverview({ benches, isAdmin }: { benches: OverviewBench[]; isAdmin: boolean }) {
   // Benches made since the render, and the ids of every bench with a card (or being asked for).
   const [added, setAdded] = useState<OverviewBench[]>([]);
   const carded = useRef<Set<string> | null>(null);
@@ -94,6 +95,20 @@ export default function LabOverview({ benches }: { benches: OverviewBench[] }) {
   const rank = new Map([...slow.keys()].map((id, i) => [id, i]));
   const cards = [...benches, ...added].sort((x, y) => (rank.get(x.id) ?? rank.size) - (rank.get(y.id) ?? rank.size));
 
+  // An empty lab's page stays open while its first bench is made: the note gives way to the card.
+  if (cards.length === 0) {
+    return (
+      <p className="text-muted" data-testid="no-benches">
+        {isAdmin ? (
+          <>
+            No benches yet. Create the lab's first one under <a className="underline" href="/admin/benches">Benches &amp; gateways</a>, then give it a gateway.
+          </>
+        ) : (
+          'No benches yet. An admin adds them under Benches & gateways.'
+        )}
+      </p>
+    );
+  }
   return (
     <ul className="grid gap-4 sm:grid-cols-2 xl:grid-cols-3" aria-label="Benches">
       {cards.map((b) => (
