@@ -3,6 +3,7 @@
 import { LIVE_PATH } from '../lib/live-messages.ts';
 import { BrokerCommandSender } from '../lib/server/commands/sender.ts';
 import { Ingest } from '../lib/server/ingest/pipeline.ts';
+import { SWEEP_EVERY_MS } from '../lib/server/ingest/rollup-journal.ts';
 import type { SilenceOptions } from '../lib/server/ingest/silence-watch.ts';
 import { LiveHub } from '../lib/server/live/hub.ts';
 import { startEmbeddedBroker } from '../lib/server/mqtt/broker.ts';
@@ -55,6 +56,10 @@ export async function startLivePath(opts: LivePathOptions): Promise<LivePath> {
     await hub.close();
     throw err;
   }
+  // Rows a dead process left listed in the rollup journal, of gateways that may never send again.
+  const sweeper = setInterval(() => {
+    ingest.writer.journal.sweep().catch((err: unknown) => console.warn('[ingest] rollup sweep failed:', err instanceof Error ? err.message : String(err)));
+  }, SWEEP_EVERY_MS);
   const commands = new BrokerCommandSender(transport, ingest.fanout, opts.prefix);
   ingest.knownCommand = (gatewayId, id) => commands.sentTo(gatewayId, id);
   const rt = runtime();
@@ -86,6 +91,7 @@ export async function startLivePath(opts: LivePathOptions): Promise<LivePath> {
       delete rt.gatewayBroker;
       delete rt.gatewaySilence;
       ingest.silence.stop();
+      clearInterval(sweeper);
       commands.close();
       await transport.close();
       await hub.close();

@@ -4,7 +4,7 @@
 import { eq, inArray, sql } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { closeDb, getDb } from '../../src/lib/server/db/index.ts';
-import { caughtMail, channels, countBatches, rollups, runs, settings } from '../../src/lib/server/db/schema.ts';
+import { caughtMail, channels, countBatches, rollupPending, rollups, runs, settings } from '../../src/lib/server/db/schema.ts';
 import { MailPolicy, mailPolicyStateSchema } from '../../src/lib/server/alarms/mail-policy.ts';
 import { packCounts } from '../../src/lib/server/db/packed-counts.ts';
 import { createBench, createGateway } from '../../src/lib/server/provisioning.ts';
@@ -216,6 +216,24 @@ describe('retention of the local outbox', () => {
     const [saved] = await getDb().select().from(settings).where(eq(settings.name, stateName));
     expect(mailPolicyStateSchema.parse(saved!.value).retries).toEqual([expect.objectContaining({ firstAt: firstTry, attempts: 1 })]);
 
+    await setRetention(DEFAULT_RETENTION, null);
+  });
+});
+
+describe('retention and the rollup journal', () => {
+  it('keeps a raw row still listed in the rollup journal until its sums are in the rollups', async () => {
+    const gw = `${GW}-j`;
+    await createGateway(gw, BENCH);
+    const [listed, done] = [NOW - 60 * DAY, NOW - 60 * DAY + 60_000];
+    await getDb()
+      .insert(countBatches)
+      .values([listed, done].map((t0, i) => ({ ...raw(t0), gatewayId: gw, seq: i })));
+    await getDb().insert(rollupPending).values({ gatewayId: gw, t0: listed });
+    await setRetention({ rawDays: 10, fineDays: 20, coarseDays: 40, mailDays: 90 }, null);
+    await runRetention({ now: NOW, stepRows: 10, pauseMs: 0 });
+    const left = await getDb().select({ t0: countBatches.t0 }).from(countBatches).where(eq(countBatches.gatewayId, gw));
+    expect(left.map((r) => r.t0)).toEqual([listed]);
+    await getDb().delete(rollupPending).where(eq(rollupPending.gatewayId, gw));
     await setRetention(DEFAULT_RETENTION, null);
   });
 });

@@ -10,6 +10,7 @@ import { RollupJournal } from '../../src/lib/server/ingest/rollup-journal.ts';
 import { BatchWriter } from '../../src/lib/server/ingest/store.ts';
 import { rollupDeltas } from '../../src/lib/server/ingest/rollup-math.ts';
 import { writeStatement, type StoredSlice } from '../../src/lib/server/ingest/write-statement.ts';
+import type { Slice } from '../../src/lib/server/ingest/coverage.ts';
 import { freshGateway, makeBatch, rolledUp } from '../helpers/live-path.ts';
 
 const BASE = Math.floor(Date.now() / 3_600_000) * 3_600_000 - 3 * 3_600_000;
@@ -41,6 +42,18 @@ function failNextRollup(when: 'before-commit' | 'after-commit'): { fired: boolea
     return (query as (...a: unknown[]) => unknown).apply(this, [...args.slice(0, -1), () => cb(lost)]);
   } as typeof query;
   return fault;
+}
+
+/** One-bin slices of channel `a`, each count 1, contiguous from BASE + `offset` ms: the writer merges them into one row. */
+function oneBinSlices(n: number, offset = 0): Slice[] {
+  return Array.from({ length: n }, (_, i) => ({ t0: BASE + offset + i * 10, dt: 10, n: 1, keys: ['a'], channels: [[1]], x: null, cc: null }));
+}
+
+/** Stores the slices as one write (one row when contiguous), listed in the journal. */
+async function storeRow(gatewayId: string, parts: Slice[]): Promise<void> {
+  const stored: StoredSlice[] = parts.map((slice, i) => ({ gatewayId, boot: 'b', seq: i, slice }));
+  const { text, values } = writeStatement(stored, 'journal', [[gatewayId, 'a']], new Map());
+  await getDbHandle().pool.query(text, values);
 }
 
 async function pendingRows(gatewayId: string): Promise<number> {
@@ -134,7 +147,8 @@ describe('rollup journal', () => {
     await journal.recover([gw.gatewayId]);
     await expect(journal.room()).resolves.toBeUndefined();
     const n = 2_000_000;
-    journal.add(gw.gatewayId, [{ t0: BASE, dt: 1, n, keys: ['a'], channels: [new Array<number>(n).fill(1)], x: null, cc: null }]);
+    await storeRow(gw.gatewayId, [{ t0: BASE, dt: 1, n, keys: ['a'], channels: [new Array<number>(n).fill(1)], x: null, cc: null }]);
+    journal.add([{ gatewayId: gw.gatewayId, t0: BASE, parts: [{ t0: BASE, dt: 1, n, keys: ['a'], channels: [new Array<number>(n).fill(1)], x: null, cc: null }] }]);
     let roomy = false;
     const room = journal.room().then(() => (roomy = true));
     await new Promise((r) => setTimeout(r, 20));
@@ -142,5 +156,55 @@ describe('rollup journal', () => {
     await journal.settled();
     await room;
     expect(await rollupSum(gw.gatewayId, 1_000)).toBe(n);
+  });
+
+  it('rolls a row up whole or not at all: a row of 5,001 slices whose statement fails is recovered whole', async () => {
+    const gw = await freshGateway();
+    const parts = oneBinSlices(5_001);
+    const journal = new RollupJournal();
+    await journal.recover([gw.gatewayId]);
+    await storeRow(gw.gatewayId, parts);
+    journal.add([{ gatewayId: gw.gatewayId, t0: BASE, parts }]);
+    const fault = failNextRollup('before-commit');
+    await journal.settled();
+    expect(fault.fired).toBe(true);
+    // Still listed, and still counted by the reader, until the gateway is recovered.
+    expect(await pendingRows(gw.gatewayId)).toBe(1);
+    expect(journal.isRecovered(gw.gatewayId)).toBe(false);
+    const waiting = await bothWays(gw.benchId, gw.gatewayId, BASE, BASE + 60_000, 1_000);
+    expect(waiting.rolled).toEqual(waiting.raw);
+    await journal.recover([gw.gatewayId]);
+    expect(await pendingRows(gw.gatewayId)).toBe(0);
+    expect(await rollupSum(gw.gatewayId, 1_000)).toBe(5_001);
+  });
+
+  it('adds nothing for rows another process rolled up meanwhile (two servers on one gateway), and counts each once', async () => {
+    const gw = await freshGateway();
+    const parts = oneBinSlices(10);
+    await storeRow(gw.gatewayId, parts);
+    const first = new RollupJournal();
+    await first.recover([gw.gatewayId]);
+    await storeRow(gw.gatewayId, oneBinSlices(10, 1_000));
+    first.add([{ gatewayId: gw.gatewayId, t0: BASE + 1_000, parts: oneBinSlices(10, 1_000) }]);
+    // A second server takes the gateway up (a deploy overlapping the old process) before the first rolls up.
+    await new RollupJournal().recover([gw.gatewayId]);
+    await first.settled();
+    expect(await pendingRows(gw.gatewayId)).toBe(0);
+    expect(await rollupSum(gw.gatewayId, 1_000)).toBe(20);
+    // The first forgot the gateway when its statement found the row gone: its next write recovers it, finding nothing.
+    expect(first.isRecovered(gw.gatewayId)).toBe(false);
+  });
+
+  it('sweeps up rows listed long ago by a process that is gone, for a gateway that never sends again', async () => {
+    const gw = await freshGateway();
+    await storeListed(gw.gatewayId, BASE, 100, 0);
+    const journal = new RollupJournal();
+    await journal.sweep();
+    expect(await pendingRows(gw.gatewayId)).toBe(1);
+    await getDbHandle().pool.query(`update count_batches set received_at = now() - interval '1 minute' where gateway_id = $1`, [gw.gatewayId]);
+    await journal.sweep();
+    expect(await pendingRows(gw.gatewayId)).toBe(0);
+    const { raw } = await bothWays(gw.benchId, gw.gatewayId, BASE, BASE + 1_000, 10);
+    expect(await rollupSum(gw.gatewayId, 1_000)).toBe(Object.values(raw).reduce((a, x) => a + x, 0));
   });
 });

@@ -188,8 +188,13 @@ async function rollupBlocks(gatewayIds: string[], levelMs: number, from: number,
       where gateway_id = any($1::text[]) and step_ms = $2 and block_t0 >= $3 and block_t0 < $4
      union all
      select c.gateway_id, null, null, null, null, c.t0, c.dt, c.n, c.keys, c.counts, c.cc
-       from rollup_pending p join count_batches c on c.gateway_id = p.gateway_id and c.t0 = p.t0
-      where p.gateway_id = any($1::text[]) and p.t0 < $4 and c.t1 > $3`,
+       from unnest($1::text[]) as g(id)
+       -- Stored spans of a gateway never overlap: a row reaching into the range starts no earlier
+       -- than the last one starting at or before it, so older listed rows are not read.
+       cross join lateral (select coalesce((select b.t0 from count_batches b where b.gateway_id = g.id and b.t0 <= $3 order by b.t0 desc limit 1), $3) as t0) first
+       join rollup_pending p on p.gateway_id = g.id and p.t0 >= first.t0 and p.t0 < $4
+       join count_batches c on c.gateway_id = p.gateway_id and c.t0 = p.t0
+      where c.t1 > $3`,
     [gatewayIds, levelMs, blockFrom, to],
   );
   const blocks = new Map<string, Block>();

@@ -186,7 +186,14 @@ async function expire(gatewayId: string, series: Series, cutoff: number, limit: 
   }
 }
 
-const rawSeries: Series = { table: 'count_batches', where: 'x.gateway_id = $1', start: 't0', end: 'x.t1', params: [] };
+// A row still listed in the rollup journal waits for its sums to reach the rollups, which outlive it.
+const rawSeries: Series = {
+  table: 'count_batches',
+  where: 'x.gateway_id = $1 and not exists (select 1 from rollup_pending p where p.gateway_id = x.gateway_id and p.t0 = x.t0)',
+  start: 't0',
+  end: 'x.t1',
+  params: [],
+};
 
 function rollupSeries(key: string, level: 'fine' | 'coarse'): Series {
   const stepMs = level === 'fine' ? 1_000 : 60_000;

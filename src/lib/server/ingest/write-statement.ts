@@ -64,7 +64,8 @@ with stored as (
 ), seen as (
   update gateways set last_seen_at = now() where id = any($33::text[])
 )
-select 1`;
+-- The rows actually inserted: only those are listed in the rollup journal.
+select gateway_id, t0 from stored`;
 
 /**
  * Every row's counts (and coincidences) packed one after the other in one buffer, with each
@@ -107,16 +108,18 @@ function packRows(rows: Row[]) {
 }
 
 /**
- * The statement and its 34 parameters. `rollups` are the deltas to add (unique per key: one row may
+ * The statement, its 34 parameters and the rows it inserts (it answers with the keys of those
+ * inserted, every one unless a row was stored meanwhile). `rollups` are the deltas to add (unique per key: one row may
  * change once per statement), or 'journal' to list each stored row in rollup_pending instead.
  */
-export function writeStatement(stored: StoredSlice[], rollups: RollupDelta[] | 'journal', newChannels: [string, string][], health: Map<string, HealthDelta>): { text: string; values: unknown[] } {
+export function writeStatement(stored: StoredSlice[], rollups: RollupDelta[] | 'journal', newChannels: [string, string][], health: Map<string, HealthDelta>): { text: string; values: unknown[]; rows: Row[] } {
   const hs = [...health];
   const rows = mergeContiguous(stored);
   const { blob, at } = packRows(rows);
   const numbers = (pick: (r: Row) => number) => numericArrayLiteral(rows.map(pick));
   const deltas = rollups === 'journal' ? [] : rollups;
   return {
+    rows,
     text: SQL,
     values: [
       textArrayLiteral(rows.map((r) => r.gatewayId)),
