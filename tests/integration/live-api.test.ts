@@ -6,7 +6,7 @@ import { getDb } from '../../src/lib/server/db/index.ts';
 import { auditLog, benches, countBatches, gatewayHealth } from '../../src/lib/server/db/schema.ts';
 import { buildIfStale } from '../../src/server/build.ts';
 import { and, eq } from 'drizzle-orm';
-import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
+import { connectGateway, freshGateway, makeBatch, openLive, publishBatch, rolledUp, startTestLive, until, type TestLive } from '../helpers/live-path.ts';
 import { userWithToken } from '../helpers/web-app.ts';
 
 let t: TestLive;
@@ -136,6 +136,8 @@ describe('GET /api/v1/benches/{id}/counts: time covered per bucket', () => {
   });
 
   it('reads the bin width from the rollups once the raw rows are past retention', async () => {
+    // Retention takes raw rows only once their sums are in the rollups.
+    await rolledUp(gw.gatewayId);
     await getDb().delete(countBatches).where(eq(countBatches.gatewayId, gw.gatewayId));
     const sec = await counts(0, 65_000, 5_000);
     expect(sec.coveredMs[gw.gatewayId]).toEqual([2_500, 2_000, 0, 0, 3_000, 5_000, 5_000, 5_000, 5_000, 5_000, 5_000, 5_000, 4_500]);
@@ -148,6 +150,7 @@ describe('GET /api/v1/benches/{id}/counts: time covered per bucket', () => {
     await publishBatch(c, long.gatewayId, makeBatch(BASE, 30, 0, { dt: 2_000, keys: ['a'], value: () => 200 }));
     await c.endAsync();
     await until(async () => (await getDb().select().from(countBatches).where(eq(countBatches.gatewayId, long.gatewayId))).length > 0, 10_000, 'the batch stored');
+    await rolledUp(long.gatewayId);
     await getDb().delete(countBatches).where(eq(countBatches.gatewayId, long.gatewayId));
     const res = await get(`/api/v1/benches/${long.benchId}/counts?from=${BASE}&to=${BASE + 60_000}&step=10000`, observer);
     const body = (await res.json()) as { resolution: string; coveredMs: Record<string, number[]> };
