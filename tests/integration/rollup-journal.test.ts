@@ -73,6 +73,13 @@ async function bothWays(benchId: string, gatewayId: string, from: number, to: nu
   return { rolled: total(rolled), raw: total(raw), covered: rolled.coveredMs[gatewayId]!.reduce((a, x) => a + x, 0) };
 }
 
+/** Both levels of rollups hold exactly the counts of the raw bins in [BASE, to). */
+async function expectRollupsHoldRaw(gw: { benchId: string; gatewayId: string }, to: number): Promise<void> {
+  const { raw } = await bothWays(gw.benchId, gw.gatewayId, BASE, to, 10);
+  const rawTotal = Object.values(raw).reduce((a, x) => a + x, 0);
+  for (const step of [1_000, 60_000]) expect(await rollupSum(gw.gatewayId, step)).toBe(rawTotal);
+}
+
 describe('rollup journal', () => {
   it('answers from rollups exactly while rows wait in the journal, alone or beside rolled-up bins of the same second', async () => {
     const gw = await freshGateway();
@@ -97,9 +104,7 @@ describe('rollup journal', () => {
     expect(await writer.submit(gw.gatewayId, makeBatch(BASE + 2_000, 100, 2))).toMatchObject({ kind: 'stored' });
     await writer.flushed();
     expect(await pendingRows(gw.gatewayId)).toBe(0);
-    const { raw } = await bothWays(gw.benchId, gw.gatewayId, BASE, BASE + 3_000, 10);
-    const rawTotal = Object.values(raw).reduce((a, x) => a + x, 0);
-    for (const step of [1_000, 60_000]) expect(await rollupSum(gw.gatewayId, step)).toBe(rawTotal);
+    await expectRollupsHoldRaw(gw, BASE + 3_000);
   });
 
   it('recovers a rollup statement whose reply is lost after COMMIT without counting it twice', async () => {
@@ -115,9 +120,7 @@ describe('rollup journal', () => {
     await writer.submit(gw.gatewayId, makeBatch(BASE + 2_000, 100, 2));
     await writer.flushed();
     await rolledUp(gw.gatewayId);
-    const { raw } = await bothWays(gw.benchId, gw.gatewayId, BASE, BASE + 3_000, 10);
-    const rawTotal = Object.values(raw).reduce((a, x) => a + x, 0);
-    for (const step of [1_000, 60_000]) expect(await rollupSum(gw.gatewayId, step)).toBe(rawTotal);
+    await expectRollupsHoldRaw(gw, BASE + 3_000);
   });
 
   it('recovers a rollup statement that failed before COMMIT, adding it once', async () => {
@@ -136,9 +139,7 @@ describe('rollup journal', () => {
     await writer.submit(gw.gatewayId, makeBatch(BASE + 2_000, 100, 2));
     await writer.flushed();
     await rolledUp(gw.gatewayId);
-    const { raw } = await bothWays(gw.benchId, gw.gatewayId, BASE, BASE + 3_000, 10);
-    const rawTotal = Object.values(raw).reduce((a, x) => a + x, 0);
-    for (const step of [1_000, 60_000]) expect(await rollupSum(gw.gatewayId, step)).toBe(rawTotal);
+    await expectRollupsHoldRaw(gw, BASE + 3_000);
   });
 
   it('holds the writer back while too many counts wait to be rolled up, and lets it go once they are', async () => {
@@ -204,7 +205,6 @@ describe('rollup journal', () => {
     await getDbHandle().pool.query(`update count_batches set received_at = now() - interval '1 minute' where gateway_id = $1`, [gw.gatewayId]);
     await journal.sweep();
     expect(await pendingRows(gw.gatewayId)).toBe(0);
-    const { raw } = await bothWays(gw.benchId, gw.gatewayId, BASE, BASE + 1_000, 10);
-    expect(await rollupSum(gw.gatewayId, 1_000)).toBe(Object.values(raw).reduce((a, x) => a + x, 0));
+    await expectRollupsHoldRaw(gw, BASE + 1_000);
   });
 });
