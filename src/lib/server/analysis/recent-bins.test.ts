@@ -34,3 +34,32 @@ describe('RecentBins', () => {
     expect(r.series('g0', 'a', 12_000)!.counts.length).toBe(8_300);
   });
 });
+
+describe('RecentBins.preload', () => {
+  const batch = (t0: number, a: number[]) => ({ v: 1 as const, boot: 'b', seq: 0, t0, dt: 5, ch: { a } });
+
+  it('holds each bin once when stored batches are read back while the same ones arrive live', () => {
+    const r = new RecentBins();
+    // Arrived live while the stored window was read: it is among the stored rows too.
+    r.add('g', batch(T0 + 20, [5, 6]), T0);
+    // A stored row may hold several batches merged into one span.
+    r.preload('g', [batch(T0, [1, 2, 3, 4]), batch(T0 + 20, [5, 6])], T0);
+    expect([...r.series('g', 'a', 1_000)!.counts]).toEqual([1, 2, 3, 4, 5, 6]);
+    // Stored before the read, announced after it: already held.
+    r.add('g', batch(T0 + 10, [3, 4]), T0);
+    // Past what was read back: held, and the gateway's later batches go in unchecked.
+    r.add('g', batch(T0 + 30, [7, 8]), T0);
+    r.add('g', batch(T0 + 40, [9, 10]), T0);
+    expect([...r.series('g', 'a', 1_000)!.counts]).toEqual([1, 2, 3, 4, 5, 6, 7, 8, 9, 10]);
+    expect(r.series('g', 'a', 1_000)!.gapsBefore).toEqual([]);
+  });
+
+  it('puts the read-back batches before the live ones, so the oldest still age out first', () => {
+    const r = new RecentBins(1_000);
+    r.add('g', batch(T0 + 500, [1]), T0);
+    r.preload('h', [batch(T0, [2])], T0);
+    r.add('g', batch(T0 + 1_003, [3]), T0);
+    expect(r.series('h', 'a', 10_000)).toBeNull();
+    expect([...r.series('g', 'a', 10_000)!.counts]).toEqual([1, 3]);
+  });
+});

@@ -42,12 +42,22 @@ const FUTURE_SLACK_MS = 60_000;
  */
 const MAX_HELD_VALUES = 4_000_000;
 
+function spanOf(batch: CountBatch): { t0: number; n: number; end: number } {
+  const n = Object.values(batch.ch)[0]?.length ?? 0;
+  return { t0: batch.t0, n, end: batch.t0 + n * batch.dt };
+}
+
 export class RecentBins {
   private batches: HeldBatch[] = [];
   private latest = 0;
   private held = 0;
   /** The last key layout per gateway: consecutive batches share one map instead of each building its own. */
   private layouts = new Map<string, ReadonlyMap<string, number>>();
+  /**
+   * Per gateway given stored bins by `preload`, the end of the newest of them, until a batch past it
+   * arrives: a batch announced while the stored ones were read may be among them.
+   */
+  private preloaded = new Map<string, number>();
 
   constructor(private readonly keepMs = 12_000) {}
 
@@ -57,10 +67,54 @@ export class RecentBins {
    * window to its time, and the bench's figures would go blank until the server restarted.
    */
   add(gatewayId: string, batch: CountBatch, now = Date.now()): void {
+    if (this.preloaded.size > 0 && this.isPreloaded(gatewayId, batch)) return;
+    const held = this.hold(gatewayId, batch, now);
+    if (!held) return;
+    this.batches.push(held);
+    this.trim();
+  }
+
+  /**
+   * Holds batches read back from storage (the last window before a restart), leaving out any that
+   * overlap a batch already held: a gateway's stored spans never overlap, so an overlap is the same
+   * bins, which arrived live while they were read.
+   */
+  preload(gatewayId: string, batches: readonly CountBatch[], now = Date.now()): void {
+    let until = this.preloaded.get(gatewayId) ?? -Infinity;
+    for (const batch of batches) {
+      const { t0, end } = spanOf(batch);
+      if (this.overlapsHeld(gatewayId, t0, end)) continue;
+      const held = this.hold(gatewayId, batch, now);
+      if (!held) continue;
+      this.batches.push(held);
+      until = Math.max(until, held.end);
+    }
+    if (until > -Infinity) this.preloaded.set(gatewayId, until);
+    // Older than the live batches held before them: `trim` drops from the front.
+    this.batches.sort((p, q) => p.end - q.end);
+    this.trim();
+  }
+
+  /** Whether a batch arriving live was preloaded already; forgets the gateway's preload once one passes it. */
+  private isPreloaded(gatewayId: string, batch: CountBatch): boolean {
+    const until = this.preloaded.get(gatewayId);
+    if (until === undefined) return false;
+    const { t0, end } = spanOf(batch);
+    if (t0 >= until) {
+      this.preloaded.delete(gatewayId);
+      return false;
+    }
+    return this.overlapsHeld(gatewayId, t0, end);
+  }
+
+  private overlapsHeld(gatewayId: string, t0: number, end: number): boolean {
+    return this.batches.some((b) => b.gatewayId === gatewayId && b.t0 < end && t0 < b.end);
+  }
+
+  private hold(gatewayId: string, batch: CountBatch, now: number): HeldBatch | null {
     const series = Object.values(batch.ch);
-    const n = series[0]?.length ?? 0;
-    const end = batch.t0 + n * batch.dt;
-    if (end > now + FUTURE_SLACK_MS) return;
+    const { n, end } = spanOf(batch);
+    if (end > now + FUTURE_SLACK_MS) return null;
     const keys = this.layout(gatewayId, Object.keys(batch.ch), n);
     const xAt = batch.x ? series.length * n : -1;
     const ccAt = batch.cc ? series.length * n + (batch.x ? n : 0) : -1;
@@ -68,9 +122,12 @@ export class RecentBins {
     series.forEach((s, i) => values.set(s, i * n));
     if (batch.x) values.set(batch.x, xAt);
     if (batch.cc) values.set(batch.cc, ccAt);
-    this.batches.push({ gatewayId, t0: batch.t0, dt: batch.dt, n, end, keys, xAt, ccAt, values });
     this.held += values.length;
     if (end > this.latest) this.latest = end;
+    return { gatewayId, t0: batch.t0, dt: batch.dt, n, end, keys, xAt, ccAt, values };
+  }
+
+  private trim(): void {
     // Batches arrive in order per gateway, so the oldest sit at the front; a late (replayed) one
     // further back ages out once it reaches the front.
     const horizon = this.latest - this.keepMs;

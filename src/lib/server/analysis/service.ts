@@ -15,6 +15,7 @@ import { benches, channels as channelsTable, sweeps as sweepsTable } from '../db
 import { serverEvents } from '../events.ts';
 import { computeFigures, SWEEP_FRESH_MS, type ChannelSettings, type SweepPoint } from './live-figures.ts';
 import { RecentBins } from './recent-bins.ts';
+import { storedWindow } from './stored-window.ts';
 import { SweepTracker, type CompletedPass } from './sweep-tracker.ts';
 import { fittedSummary, MAX_SWEEPS, sweepsBetween, storeSweep, type StoredFit } from './sweeps-store.ts';
 import { gatewayBatches } from '../export/export.ts';
@@ -73,6 +74,7 @@ export interface AnalysisService {
 export function startAnalysis(opts: { fit: FitFn; publish: Publish; lateQuietMs?: number }): AnalysisService {
   const lateQuietMs = opts.lateQuietMs ?? LATE_QUIET_MS;
   const states = new Map<string, BenchState>();
+  let closed = false;
   const state = (benchId: string): BenchState => {
     let s = states.get(benchId);
     if (!s) {
@@ -278,6 +280,26 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish; lateQuietMs?
   };
   serverEvents().on('batch-stored', onBatch);
 
+  /**
+   * Fills each bench's recent bins from the rows stored over the last window, so the figures after
+   * a restart read the window the server held before it instead of starting blank and filling over
+   * FIGURES_WINDOW_MS. Subscribed first: a batch announced during the read is held once whichever
+   * comes first (RecentBins.preload). The window counts as just arrived, so its figures are computed
+   * once the bench's settings are read. A failure only costs that head start.
+   */
+  async function warmUp() {
+    const now = Date.now();
+    const stored = await storedWindow(now - FIGURES_WINDOW_MS, now);
+    if (closed) return;
+    for (const [benchId, byGateway] of stored) {
+      const s = state(benchId);
+      for (const [gatewayId, batches] of byGateway) s.recent.preload(gatewayId, batches, now);
+      s.lastBatchAt = Math.max(s.lastBatchAt, now);
+      s.tracking = s.tracking.then(() => settingsFor(benchId, s)).then(() => undefined, (err: unknown) => console.warn('[analysis]', err instanceof Error ? err.message : err));
+    }
+  }
+  void warmUp().catch((err: unknown) => console.warn('[analysis] recent bins not read back:', err instanceof Error ? err.message : err));
+
   // Reloaded on the tracking chain, so the reload cannot race a batch's own (older) read.
   const onSettingsChanged = ({ benchId }: { benchId: string }) => {
     const s = states.get(benchId);
@@ -327,6 +349,7 @@ export function startAnalysis(opts: { fit: FitFn; publish: Publish; lateQuietMs?
     figures: (benchId) => states.get(benchId)?.figures ?? null,
     fitStored,
     close: () => {
+      closed = true;
       clearInterval(timer);
       for (const s of states.values()) if (s.lateTimer) clearTimeout(s.lateTimer);
       serverEvents().off('batch-stored', onBatch);
