@@ -35,8 +35,8 @@ export async function storedWindow(from: number, now: number): Promise<Map<strin
   );
   for (const r of rows.map(unpackRow)) {
     const benchId = benchOf.get(r.gateway_id)!;
-    const ch: Record<string, number[]> = {};
-    r.keys.forEach((key, k) => (ch[key] = r.counts.slice(k * r.n, (k + 1) * r.n)));
+    // Own properties: `ch[key] = …` would set the prototype for a channel "__proto__".
+    const ch: Record<string, number[]> = Object.fromEntries(r.keys.map((key, k) => [key, r.counts.slice(k * r.n, (k + 1) * r.n)]));
     const batch: CountBatch = { v: 1, boot: r.boot, seq: r.seq, t0: r.t0, dt: r.dt, ch, ...(r.x && { x: r.x }), ...(r.cc && { cc: r.cc }) };
     let byGateway = out.get(benchId);
     if (!byGateway) out.set(benchId, (byGateway = new Map()));
