@@ -10,6 +10,7 @@
 // bucket) from one where the light halved, and rates drawn as sum/step dipped towards zero there.
 import { getDbHandle } from './db/index.ts';
 import { unpackRow } from './db/packed-counts.ts';
+import { rawRowsIn } from './db/raw-rows.ts';
 import { benchChannels, channelsOfBenches, type BenchChannel } from './benches.ts';
 import { HttpError } from './http/responses.ts';
 import { BLOCK_LEN, CC_KEY, rollupDeltas } from './ingest/rollup-math.ts';
@@ -305,18 +306,7 @@ export async function queryCounts(benchId: string, from: number, to: number, ste
   if (grid.levelMs !== null) {
     await fillFromRollups(grid, grid.levelMs, [part]);
   } else if (gatewayIds.length) {
-    // Stored spans of a gateway never overlap: the last row starting before t0 plus those starting inside.
-    const { rows } = await getDbHandle().pool.query<{ gateway_id: string; t0: number; dt: number; n: number; keys: string[]; counts: Buffer; x: number[] | null; cc: Buffer | null }>(
-      `select c.gateway_id, c.t0, c.dt, c.n, c.keys, c.counts, c.x, c.cc
-         from unnest($1::text[]) as g(id)
-         cross join lateral (
-           (select * from count_batches c where c.gateway_id = g.id and c.t0 <= $2 order by c.t0 desc limit 1)
-           union all
-           (select * from count_batches c where c.gateway_id = g.id and c.t0 > $2 and c.t0 < $3)
-         ) c
-        where c.t1 > $2`,
-      [gatewayIds, t0, end],
-    );
+    const rows = await rawRowsIn(gatewayIds, t0, end);
     // Contract: `step` is a multiple of the stored bin width. Otherwise buckets hold unequal numbers
     // of bins (step 15 on 10 ms bins: 2, 1, 2, … bins a bucket) or none (step 7: every third empty).
     const misfit = rows.find((r) => step % r.dt !== 0);

@@ -2,8 +2,9 @@
 // held in memory before a restart, read back so they do not start blank.
 import type { CountBatch } from '../../contract/wire.ts';
 import { isImportGateway } from '../../import-shapes.ts';
-import { getDb, getDbHandle } from '../db/index.ts';
+import { getDb } from '../db/index.ts';
 import { unpackRow } from '../db/packed-counts.ts';
+import { rawRowsIn } from '../db/raw-rows.ts';
 import { gateways } from '../db/schema.ts';
 
 /** Slack for a gateway clock running ahead, ms: the recent bins hold batches ending this far past now. */
@@ -19,20 +20,7 @@ export async function storedWindow(from: number, now: number): Promise<Map<strin
   const out = new Map<string, Map<string, CountBatch[]>>();
   if (!gws.length) return out;
   const benchOf = new Map(gws.map((g) => [g.id, g.benchId]));
-  // Stored spans of a gateway never overlap: the last row starting at or before `from`, plus those
-  // starting after it; one statement for all gateways, each an index range on the primary key.
-  const { rows } = await getDbHandle().pool.query<{ gateway_id: string; t0: number; dt: number; n: number; keys: string[]; counts: Buffer; x: number[] | null; cc: Buffer | null; boot: string; seq: number }>(
-    `select c.gateway_id, c.t0, c.dt, c.n, c.keys, c.counts, c.x, c.cc, c.boot, c.seq
-       from unnest($1::text[]) as g(id)
-       cross join lateral (
-         (select * from count_batches c where c.gateway_id = g.id and c.t0 <= $2 order by c.t0 desc limit 1)
-         union all
-         (select * from count_batches c where c.gateway_id = g.id and c.t0 > $2 and c.t0 < $3)
-       ) c
-      where c.t1 > $2
-      order by c.gateway_id, c.t0`,
-    [[...benchOf.keys()], from, now + AHEAD_MS],
-  );
+  const rows = await rawRowsIn([...benchOf.keys()], from, now + AHEAD_MS);
   for (const r of rows.map(unpackRow)) {
     const benchId = benchOf.get(r.gateway_id)!;
     // Own properties: `ch[key] = …` would set the prototype for a channel "__proto__".
