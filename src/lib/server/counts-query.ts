@@ -14,6 +14,7 @@ import { rawRowsIn } from './db/raw-rows.ts';
 import { benchChannels, channelsOfBenches, type BenchChannel } from './benches.ts';
 import { HttpError } from './http/responses.ts';
 import { BLOCK_LEN, CC_KEY, rollupDeltas } from './ingest/rollup-math.ts';
+import type { Slice } from './ingest/coverage.ts';
 import { sliceOfRow } from './ingest/rollup-journal.ts';
 
 /** Most buckets one answer may hold. */
@@ -199,7 +200,7 @@ async function rollupBlocks(gatewayIds: string[], levelMs: number, from: number,
     [gatewayIds, levelMs, blockFrom, to],
   );
   const blocks = new Map<string, Block>();
-  const listed: { gatewayId: string; slice: ReturnType<typeof sliceOfRow> }[] = [];
+  const listed: { gatewayId: string; slice: Slice }[] = [];
   for (const r of rows) {
     if (r.counts === null) blocks.set(`${r.gateway_id}\n${r.key}\n${r.block_t0}`, { gateway_id: r.gateway_id, key: r.key, block_t0: r.block_t0, sums: r.sums, bins: r.bins });
     else listed.push({ gatewayId: r.gateway_id, slice: sliceOfRow(unpackRow({ t0: r.t0!, dt: r.dt!, n: r.n!, keys: r.keys!, counts: r.counts, cc: r.cc })) });

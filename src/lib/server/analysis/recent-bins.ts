@@ -42,9 +42,9 @@ const FUTURE_SLACK_MS = 60_000;
  */
 const MAX_HELD_VALUES = 4_000_000;
 
-function spanOf(batch: CountBatch): { t0: number; n: number; end: number } {
+function spanOf(batch: CountBatch): { t0: number; end: number } {
   const n = Object.values(batch.ch)[0]?.length ?? 0;
-  return { t0: batch.t0, n, end: batch.t0 + n * batch.dt };
+  return { t0: batch.t0, end: batch.t0 + n * batch.dt };
 }
 
 export class RecentBins {
@@ -113,7 +113,8 @@ export class RecentBins {
 
   private hold(gatewayId: string, batch: CountBatch, now: number): HeldBatch | null {
     const series = Object.values(batch.ch);
-    const { n, end } = spanOf(batch);
+    const n = series[0]?.length ?? 0;
+    const end = batch.t0 + n * batch.dt;
     if (end > now + FUTURE_SLACK_MS) return null;
     const keys = this.layout(gatewayId, Object.keys(batch.ch), n);
     const xAt = batch.x ? series.length * n : -1;

@@ -3,7 +3,7 @@
 import type { CountBatch } from '../../contract/wire.ts';
 import { isImportGateway } from '../../import-shapes.ts';
 import { getDb } from '../db/index.ts';
-import { unpackRow } from '../db/packed-counts.ts';
+import { channelArrays, unpackRow } from '../db/packed-counts.ts';
 import { rawRowsIn } from '../db/raw-rows.ts';
 import { gateways } from '../db/schema.ts';
 
@@ -24,7 +24,8 @@ export async function storedWindow(from: number, now: number): Promise<Map<strin
   for (const r of rows.map(unpackRow)) {
     const benchId = benchOf.get(r.gateway_id)!;
     // Own properties: `ch[key] = …` would set the prototype for a channel "__proto__".
-    const ch: Record<string, number[]> = Object.fromEntries(r.keys.map((key, k) => [key, r.counts.slice(k * r.n, (k + 1) * r.n)]));
+    const channels = channelArrays(r);
+    const ch: Record<string, number[]> = Object.fromEntries(r.keys.map((key, k) => [key, channels[k]!]));
     const batch: CountBatch = { v: 1, boot: r.boot, seq: r.seq, t0: r.t0, dt: r.dt, ch, ...(r.x && { x: r.x }), ...(r.cc && { cc: r.cc }) };
     let byGateway = out.get(benchId);
     if (!byGateway) out.set(benchId, (byGateway = new Map()));

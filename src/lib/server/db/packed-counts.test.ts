@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { countWidth, packCounts, packedLength, unpackCounts, writePackedAll } from './packed-counts.ts';
+import { channelArrays, countWidth, packCounts, packedLength, unpackCounts, writePackedAll } from './packed-counts.ts';
 
 describe('packed counts', () => {
   it.each([
@@ -32,5 +32,14 @@ describe('packed counts', () => {
   it('refuses a malformed array instead of inventing counts', () => {
     expect(() => unpackCounts(Buffer.from([3, 1, 2, 3]))).toThrow(/malformed/);
     expect(() => unpackCounts(Buffer.from([2, 1, 2, 3]))).toThrow(/malformed/);
+  });
+});
+
+describe('channelArrays', () => {
+  it('splits channel-major counts back into the channels written with writePackedAll', () => {
+    const channels = [[1, 2, 3], [40, 50, 60]];
+    const packed = Buffer.alloc(packedLength(6, 1));
+    writePackedAll(channels, 1, packed, 0);
+    expect(channelArrays({ n: 3, keys: ['a', 'b'], counts: unpackCounts(packed) })).toEqual(channels);
   });
 });

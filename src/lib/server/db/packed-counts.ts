@@ -77,3 +77,8 @@ export function unpackCounts(packed: Uint8Array): number[] {
 export function unpackRow<R extends { counts: Uint8Array; cc: Uint8Array | null }>(r: R): Omit<R, 'counts' | 'cc'> & { counts: number[]; cc: number[] | null } {
   return { ...r, counts: unpackCounts(r.counts), cc: r.cc ? unpackCounts(r.cc) : null };
 }
+
+/** A row's unpacked counts split per channel, in `keys` order (they are channel-major: channel k holds counts[k·n … (k+1)·n)). */
+export function channelArrays(r: { n: number; keys: readonly string[]; counts: readonly number[] }): number[][] {
+  return r.keys.map((_, k) => r.counts.slice(k * r.n, (k + 1) * r.n));
+}

@@ -16,7 +16,7 @@
 // The queued rows share their count arrays with the live messages and the analysis: none of them
 // may change a batch's arrays in place.
 import { getDbHandle } from '../db/index.ts';
-import { unpackRow } from '../db/packed-counts.ts';
+import { channelArrays, unpackRow } from '../db/packed-counts.ts';
 import type { Slice } from './coverage.ts';
 import { rollupDeltas, type RollupDelta } from './rollup-math.ts';
 import { rollupUpsertSql, rollupUpsertValues } from './rollup-upsert.ts';
@@ -62,7 +62,7 @@ select rollup_journal_check((select count(*) from done), $9)`;
 
 /** A stored row as a slice (its counts are channel-major). */
 export function sliceOfRow(r: { t0: number; dt: number; n: number; keys: string[]; counts: number[]; cc: number[] | null }): Slice {
-  return { t0: r.t0, dt: r.dt, n: r.n, keys: r.keys, channels: r.keys.map((_, k) => r.counts.slice(k * r.n, (k + 1) * r.n)), x: null, cc: r.cc };
+  return { t0: r.t0, dt: r.dt, n: r.n, keys: r.keys, channels: channelArrays(r), x: null, cc: r.cc };
 }
 
 /** Deletes the entries of these rows and adds the deltas, in one statement that changes nothing unless every entry was there. */
